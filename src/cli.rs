@@ -1,0 +1,36 @@
+//! Command-line definitions (clap) and dispatch.
+
+use crate::error::Result;
+use clap::{Parser, Subcommand};
+
+/// Separate RGB artwork into CMYK plates for a printing condition, and check
+/// gamut and ink before plating.
+///
+/// Every figure is a model's prediction: a contract proof and the printer's own
+/// specifications decide, and local standards and the print vendor's
+/// requirements take precedence.
+#[derive(Debug, Parser)]
+#[command(name = "platesmith", version, about, long_about)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {}
+
+/// Runs a parsed command line; the returned code is the process exit code.
+pub fn run(cli: Cli) -> Result<i32> {
+    match cli.command {}
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    #[test]
+    fn command_line_definition_is_consistent() {
+        Cli::command().debug_assert();
+    }
+}

@@ -1,0 +1,15 @@
+//! platesmith: separation of RGB artwork into CMYK plates through a
+//! colorimetric model of a printing condition, with black generation, a hard
+//! ink limit and checks of gamut and ink before plating.
+//!
+//! The numeric core (`colour`, `press`, `separation`) does no I/O; file formats
+//! and lcms2 live at the edges.
+
+pub mod cli;
+pub mod colour;
+pub mod error;
+pub mod ink;
+pub mod press;
+pub mod separation;
+
+pub use error::{Error, Result};
