@@ -3,5 +3,12 @@
 //! table that applies the whole chain to pixels.
 
 mod black;
+mod engine;
+pub mod gamut;
+pub mod solve;
+mod table;
 
 pub use black::BlackGeneration;
+pub use engine::{IN_GAMUT_TOLERANCE, Intent, Limit, LimitSet, Separation, SeparationSettings, Separator, SourceMapping};
+pub use table::SeparationTable;
+pub use gamut::{GamutBoundary, PerceptualMap, RgbGamut, SourceGamut};

@@ -1,0 +1,580 @@
+//! The separator: settings, black generation and gamut mapping around the
+//! constrained inversion, for one colour at a time.
+
+use super::BlackGeneration;
+use super::gamut::{GamutBoundary, PerceptualMap, SourceGamut, black_point_compensation};
+use super::solve::{InkBounds, Problem, Solution};
+use crate::colour::{Lab, Mat3, ciede2000};
+use crate::error::{Error, Result};
+use crate::ink::Cmyk;
+use crate::press::{MediaWhite, PressModel, PrintingCondition};
+use serde::{Deserialize, Serialize};
+use std::sync::Arc;
+
+/// Rendering intents as ICC.1:2022 §6.2.2 defines them.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, clap::ValueEnum)]
+#[serde(rename_all = "kebab-case")]
+pub enum Intent {
+    /// Compress the source gamut into the printable gamut, keeping relations.
+    Perceptual,
+    /// Media-relative colorimetric: paper white is the white; out-of-gamut
+    /// colours are clipped to the nearest printable colour of the same hue.
+    Relative,
+    /// Absolute colorimetric: the colour as measured, paper tint included.
+    Absolute,
+}
+
+impl Intent {
+    pub fn name(self) -> &'static str {
+        match self {
+            Intent::Perceptual => "perceptual",
+            Intent::Relative => "relative",
+            Intent::Absolute => "absolute",
+        }
+    }
+}
+
+/// What kept a colour from being printed as asked.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Limit {
+    /// The inks cannot make the colour at any coverage.
+    InkGamut,
+    /// The colour needs more total ink than the limit allows.
+    InkLimit,
+    /// The colour needs more black than the maximum black allows.
+    MaximumBlack,
+}
+
+impl Limit {
+    pub fn name(self) -> &'static str {
+        match self {
+            Limit::InkGamut => "ink-gamut",
+            Limit::InkLimit => "ink-limit",
+            Limit::MaximumBlack => "maximum-black",
+        }
+    }
+}
+
+/// Everything that decides a separation besides the printing condition.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SeparationSettings {
+    pub intent: Intent,
+    /// Black point compensation (ISO 18619) for the relative intent.
+    pub bpc: bool,
+    /// Total ink limit as a fraction (3.2 = 320 %).
+    pub tac: f64,
+    pub black: BlackGeneration,
+    /// Source pure black (RGB 0,0,0 or CMYK 0/0/0/100) prints as black ink only.
+    pub keep_pure_black: bool,
+    /// Nodes per axis of the separation table.
+    pub table_grid: usize,
+}
+
+impl SeparationSettings {
+    /// The condition's defaults with the perceptual intent.
+    pub fn for_condition(condition: &PrintingCondition) -> SeparationSettings {
+        SeparationSettings {
+            intent: Intent::Perceptual,
+            bpc: false,
+            tac: condition.tac,
+            black: condition.black,
+            keep_pure_black: false,
+            table_grid: 33,
+        }
+    }
+
+    /// Checks every value against its allowed range.
+    pub fn validate(&self) -> Result<()> {
+        let pct = |name: &str, v: f64, lo: f64, hi: f64| {
+            if !(v.is_finite() && v >= lo && v <= hi) {
+                Err(Error::usage(format!("{name} is {:.4}; allowed range is {lo}–{hi}", v * 100.0).replace(&format!("{lo}–{hi}"), &format!("{}–{} %", lo * 100.0, hi * 100.0))))
+            } else {
+                Ok(())
+            }
+        };
+        pct("TAC", self.tac, 1.0, 4.0)?;
+        pct("GCR", self.black.gcr, 0.0, 1.0)?;
+        pct("black start", self.black.black_start, 0.0, 0.99)?;
+        pct("maximum black", self.black.black_max, 0.0, 1.0)?;
+        pct("UCA", self.black.uca, 0.0, 1.0)?;
+        if !(self.black.shape.is_finite() && (0.2..=5.0).contains(&self.black.shape)) {
+            return Err(Error::usage(format!("black shape is {}; allowed range is 0.2–5", self.black.shape)));
+        }
+        if !(5..=129).contains(&self.table_grid) {
+            return Err(Error::usage(format!("table grid is {}; allowed range is 5–129 nodes per axis", self.table_grid)));
+        }
+        Ok(())
+    }
+}
+
+/// One separated colour with what happened to it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Separation {
+    pub cmyk: Cmyk,
+    /// The requested colour in the frame of the intent (media-relative for
+    /// perceptual and relative, absolute for absolute).
+    pub target: Lab,
+    /// The printed colour of `cmyk` in the same frame.
+    pub printed: Lab,
+    /// The printed colour as an instrument would read it off the sheet.
+    pub printed_absolute: Lab,
+    /// CIEDE2000 between `target` and `printed`.
+    pub delta_e: f64,
+    /// True when the requested colour is printable under the limits.
+    pub in_gamut: bool,
+    /// What kept an out-of-gamut colour out (empty when in gamut).
+    pub limited_by: LimitSet,
+}
+
+/// A small set of [`Limit`]s.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct LimitSet {
+    bits: u8,
+}
+
+impl LimitSet {
+    pub fn insert(&mut self, limit: Limit) {
+        self.bits |= 1 << limit as u8;
+    }
+    pub fn contains(&self, limit: Limit) -> bool {
+        self.bits & (1 << limit as u8) != 0
+    }
+    pub fn is_empty(&self) -> bool {
+        self.bits == 0
+    }
+    pub fn iter(&self) -> impl Iterator<Item = Limit> + '_ {
+        [Limit::InkGamut, Limit::InkLimit, Limit::MaximumBlack].into_iter().filter(|l| self.contains(*l))
+    }
+}
+
+/// The prepared mapping from one source gamut; see [`Separator::source_mapping`].
+pub struct SourceMapping<'a> {
+    perceptual: Option<PerceptualMap<'a>>,
+}
+
+/// A colour counts as printable when the inversion reaches it this closely.
+pub const IN_GAMUT_TOLERANCE: f64 = 0.1;
+
+/// Weight of the black aim in the inversion (colour-error units per unit black).
+const BLACK_AIM_WEIGHT: f64 = 0.05;
+
+/// Weight of hue error relative to lightness and chroma error when clipping
+/// (hue-preserving minimum-ΔE clipping, after HPMINDE of CIE 156:2004).
+const HUE_WEIGHT: f64 = 3.0;
+
+/// Step of the finite-difference Jacobian.
+const JACOBIAN_STEP: f64 = 1e-5;
+
+/// A separator for one printing condition and one set of settings, built
+/// once and shared by every thread.
+#[derive(Debug, Clone)]
+pub struct Separator {
+    condition: PrintingCondition,
+    settings: SeparationSettings,
+    model: Arc<dyn PressModel>,
+    media: MediaWhite,
+    bounds: InkBounds,
+    black_point: Lab,
+    black_point_ink: Cmyk,
+    gamut: Arc<GamutBoundary>,
+}
+
+impl Separator {
+    pub fn new(condition: PrintingCondition, settings: SeparationSettings) -> Result<Separator> {
+        settings.validate()?;
+        let model = condition.model.clone();
+        let media = MediaWhite::new(model.paper_xyz());
+        let bounds = InkBounds::new(settings.tac, settings.black.black_max);
+        let mut sep = Separator {
+            condition,
+            settings,
+            model,
+            media,
+            bounds,
+            black_point: Lab::new(0.0, 0.0, 0.0),
+            black_point_ink: Cmyk::ZERO,
+            gamut: Arc::new(GamutBoundary::from_samples(std::iter::empty(), 0.0, 100.0)),
+        };
+        let (bp_ink, bp) = sep.find_black_point();
+        sep.black_point = bp;
+        sep.black_point_ink = bp_ink;
+        sep.gamut = Arc::new(sep.build_gamut_boundary());
+        Ok(sep)
+    }
+
+    pub fn settings(&self) -> &SeparationSettings {
+        &self.settings
+    }
+
+    pub fn condition(&self) -> &PrintingCondition {
+        &self.condition
+    }
+
+    pub fn media_white(&self) -> &MediaWhite {
+        &self.media
+    }
+
+    /// The darkest printable neutral (media-relative) and its ink build.
+    pub fn black_point(&self) -> (Lab, Cmyk) {
+        (self.black_point, self.black_point_ink)
+    }
+
+    pub fn gamut(&self) -> &GamutBoundary {
+        &self.gamut
+    }
+
+    /// The printed colour, media-relative.
+    #[inline]
+    pub fn printed_relative(&self, ink: Cmyk) -> Lab {
+        self.media.relative_lab(self.model.xyz(ink))
+    }
+
+    /// The printed colour, absolute (as measured).
+    #[inline]
+    pub fn printed_absolute(&self, ink: Cmyk) -> Lab {
+        self.model.lab(ink)
+    }
+
+    /// The printed colour in the frame of the configured intent.
+    #[inline]
+    pub fn printed_in_frame(&self, ink: Cmyk) -> Lab {
+        match self.settings.intent {
+            Intent::Absolute => self.printed_absolute(ink),
+            _ => self.printed_relative(ink),
+        }
+    }
+
+    /// Converts a colour from the intent frame to the working (media-relative) frame.
+    fn to_working(&self, lab: Lab) -> Lab {
+        match self.settings.intent {
+            Intent::Absolute => self.media.relative_lab_from_absolute(lab),
+            _ => lab,
+        }
+    }
+
+    fn forward(&self, x: [f64; 4]) -> ([f64; 3], [[f64; 4]; 3]) {
+        let f = |x: [f64; 4]| self.printed_relative(Cmyk::from_array(x)).to_array();
+        let base = f(x);
+        let mut jac = [[0.0; 4]; 3];
+        for j in 0..4 {
+            let upper = if j == 3 { self.bounds.k_max } else { 1.0 };
+            let h = if x[j] + JACOBIAN_STEP <= upper.max(JACOBIAN_STEP) { JACOBIAN_STEP } else { -JACOBIAN_STEP };
+            let mut xs = x;
+            xs[j] += h;
+            let v = f(xs);
+            for r in 0..3 {
+                jac[r][j] = (v[r] - base[r]) / h;
+            }
+        }
+        (base, jac)
+    }
+
+    /// The colour-error weighting for a target: lightness and chroma error
+    /// count once, hue error `HUE_WEIGHT` times, phased in with chroma since a
+    /// neutral has no hue.
+    fn clip_metric(target: Lab) -> Mat3 {
+        let c = target.chroma();
+        if c < 1e-9 {
+            return Mat3::IDENTITY;
+        }
+        let (u1, u2) = (target.a / c, target.b / c);
+        let t = (c / 5.0).clamp(0.0, 1.0);
+        let w = 1.0 + (HUE_WEIGHT - 1.0) * t * t * (3.0 - 2.0 * t);
+        Mat3([[1.0, 0.0, 0.0], [0.0, u1, u2], [0.0, -w * u2, w * u1]])
+    }
+
+    fn solve_with(&self, target: Lab, k_aim: f64, bounds: InkBounds, start: [f64; 4]) -> Solution {
+        let forward = |x: [f64; 4]| self.forward(x);
+        Problem {
+            forward: &forward,
+            target: target.to_array(),
+            metric: Self::clip_metric(target),
+            k_aim,
+            lambda: BLACK_AIM_WEIGHT,
+            bounds,
+        }
+        .solve(start)
+    }
+
+    /// A first guess for a target: a neutral build of about its lightness.
+    fn cold_start(target: Lab) -> [f64; 4] {
+        let v = ((100.0 - target.l) / 80.0).clamp(0.0, 1.0);
+        [v * 0.8, v * 0.7, v * 0.7, (v - 0.6).max(0.0)]
+    }
+
+    /// Darkness of the neutral component: 0 at paper, 1 at the black point.
+    fn darkness(&self, target: Lab) -> f64 {
+        ((100.0 - target.l) / (100.0 - self.black_point.l).max(1.0)).clamp(0.0, 1.0)
+    }
+
+    /// The share of the replaceable neutral component that black carries.
+    pub fn black_share(&self, darkness: f64) -> f64 {
+        let b = &self.settings.black;
+        let u = ((darkness - b.black_start) / (1.0 - b.black_start)).clamp(0.0, 1.0);
+        let ramp = 1.0 - (1.0 - u).powf(b.shape);
+        let skeleton = ((darkness - 0.5) / 0.5).clamp(0.0, 1.0).powi(2);
+        let s = ((darkness - 0.85) / 0.15).clamp(0.0, 1.0);
+        let shadow = s * s * (3.0 - 2.0 * s);
+        ramp * (b.gcr + (1.0 - b.gcr) * skeleton) * (1.0 - b.uca * shadow)
+    }
+
+    fn solve_exact(&self, target: Lab, k_aim: f64, bounds: InkBounds, start: [f64; 4]) -> Option<Solution> {
+        let forward = |x: [f64; 4]| self.forward(x);
+        Problem {
+            forward: &forward,
+            target: target.to_array(),
+            metric: Mat3::IDENTITY,
+            k_aim,
+            lambda: BLACK_AIM_WEIGHT,
+            bounds,
+        }
+        .solve_exact(start)
+    }
+
+    /// The nearest printable colour (hue-weighted), for targets outside the
+    /// gamut; several starts when there is no neighbour to start from.
+    fn clip(&self, target: Lab, start: Option<[f64; 4]>) -> Solution {
+        let cold = Self::cold_start(target);
+        let mut best = self.solve_with(target, 0.0, self.bounds, start.unwrap_or(cold));
+        if start.is_none() {
+            for alt in [[0.0, 0.0, 0.0, 0.0], [0.9, 0.8, 0.8, self.bounds.k_max]] {
+                let s = self.solve_with(target, 0.0, self.bounds, alt);
+                if s.colour_error + 1e-9 < best.colour_error {
+                    best = s;
+                }
+            }
+        }
+        best
+    }
+
+    /// Inverts a working-frame target under the black generation rule.
+    /// `start` is a warm start (a neighbour's solution) when there is one.
+    ///
+    /// For a printable target the exact solutions form a curve through ink
+    /// space along which black runs from its least (Kmin) to its most (Kmax)
+    /// possible value; black generation picks
+    /// K = Kmin + share·(Kmax − Kmin), where the share grows with the
+    /// darkness of the target past black start (see [`Separator::black_share`]).
+    pub fn invert(&self, target: Lab, start: Option<[f64; 4]>) -> Solution {
+        let cold = Self::cold_start(target);
+        let first = start.unwrap_or(cold);
+        let low = self
+            .solve_exact(target, 0.0, self.bounds, first)
+            .or_else(|| self.solve_exact(target, 0.0, self.bounds, cold))
+            .or_else(|| self.solve_exact(target, 0.0, self.bounds, [0.9, 0.8, 0.8, self.bounds.k_max]));
+        let Some(low) = low else {
+            return self.clip(target, start);
+        };
+        let share = self.black_share(self.darkness(target));
+        if share <= 0.0 {
+            return low;
+        }
+        let high = self.solve_exact(target, self.bounds.k_max, self.bounds, low.x).unwrap_or(low);
+        let k = low.x[3] + share * (high.x[3] - low.x[3]);
+        let mid: [f64; 4] = std::array::from_fn(|i| low.x[i] + share * (high.x[i] - low.x[i]));
+        self.solve_exact(target, k, self.bounds.with_black(k), mid)
+            .or_else(|| self.solve_exact(target, k, self.bounds, mid))
+            .unwrap_or(low)
+    }
+
+    /// Prepares the mapping of colours from one source gamut (the perceptual
+    /// intent needs the source gamut; the colorimetric intents do not).
+    pub fn source_mapping<'a>(&'a self, source: &'a dyn SourceGamut) -> SourceMapping<'a> {
+        let perceptual = (self.settings.intent == Intent::Perceptual).then(|| PerceptualMap::new(&self.gamut, source, 0.0));
+        SourceMapping { perceptual }
+    }
+
+    /// The colour the intent asks for, in the working frame, for a source
+    /// colour given as media-relative CIELAB D50 (the ICC PCS).
+    pub fn intent_target(&self, source: Lab, mapping: &SourceMapping) -> Lab {
+        match self.settings.intent {
+            Intent::Relative if self.settings.bpc => {
+                black_point_compensation(source, 0.0, self.black_point.to_xyz().y)
+            }
+            Intent::Relative => source,
+            Intent::Perceptual => match &mapping.perceptual {
+                Some(map) => map.map(source),
+                None => source,
+            },
+            Intent::Absolute => self.media.relative_lab_from_absolute(source),
+        }
+    }
+
+    /// Separates one source colour (media-relative CIELAB D50) with a full
+    /// account: printed colour, ΔE, gamut membership and limits.
+    pub fn separate(&self, source: Lab, mapping: &SourceMapping) -> Separation {
+        let target = self.intent_target(source, mapping);
+        let solution = self.invert(target, None);
+        let cmyk = Cmyk::from_array(solution.x);
+        let requested = source; // in the intent frame (absolute intent: PCS taken as absolute)
+        let printed = self.printed_in_frame(cmyk);
+        let (in_gamut, limited_by) = self.gamut_check(self.to_working(requested));
+        Separation {
+            cmyk,
+            target: requested,
+            printed,
+            printed_absolute: self.printed_absolute(cmyk),
+            delta_e: ciede2000(requested, printed),
+            in_gamut,
+            limited_by,
+        }
+    }
+
+    /// Separates an ink build given directly (`cmyk:` recipes): the build is
+    /// kept as it is, but reported against the limits.
+    pub fn describe_build(&self, cmyk: Cmyk) -> Separation {
+        let printed = self.printed_in_frame(cmyk);
+        let mut limited_by = LimitSet::default();
+        if cmyk.total() > self.bounds.tac + 1e-9 {
+            limited_by.insert(Limit::InkLimit);
+        }
+        if cmyk.k > self.bounds.k_max + 1e-9 {
+            limited_by.insert(Limit::MaximumBlack);
+        }
+        Separation {
+            cmyk,
+            target: printed,
+            printed,
+            printed_absolute: self.printed_absolute(cmyk),
+            delta_e: 0.0,
+            in_gamut: limited_by.is_empty(),
+            limited_by,
+        }
+    }
+
+    /// Whether a working-frame colour is printable under the limits and, if
+    /// not, which limits keep it out: relaxing a limit that lets the colour
+    /// be reached names that limit; if none does, the inks themselves.
+    pub fn gamut_check(&self, target: Lab) -> (bool, LimitSet) {
+        let mut limits = LimitSet::default();
+        let reach = |bounds: InkBounds| {
+            let mut best = self.solve_with(target, 0.0, bounds, Self::cold_start(target));
+            for alt in [[0.0; 4], [0.9, 0.8, 0.8, bounds.k_max]] {
+                let s = self.solve_with(target, 0.0, bounds, alt);
+                if s.colour_error < best.colour_error {
+                    best = s;
+                }
+            }
+            ciede2000(target, Lab::from_array(best.lab))
+        };
+        if reach(self.bounds) <= IN_GAMUT_TOLERANCE {
+            return (true, limits);
+        }
+        let free_tac = InkBounds { tac: 4.0, ..self.bounds };
+        let free_black = InkBounds { k_max: 1.0, ..self.bounds };
+        let free_both = InkBounds::new(4.0, 1.0);
+        let tac_helps = self.bounds.tac < 4.0 && reach(free_tac) <= IN_GAMUT_TOLERANCE;
+        let black_helps = self.bounds.k_max < 1.0 && reach(free_black) <= IN_GAMUT_TOLERANCE;
+        if tac_helps {
+            limits.insert(Limit::InkLimit);
+        }
+        if black_helps {
+            limits.insert(Limit::MaximumBlack);
+        }
+        if !tac_helps && !black_helps {
+            if (self.bounds.tac < 4.0 || self.bounds.k_max < 1.0) && reach(free_both) <= IN_GAMUT_TOLERANCE {
+                limits.insert(Limit::InkLimit);
+                if self.bounds.k_max < 1.0 {
+                    limits.insert(Limit::MaximumBlack);
+                }
+            } else {
+                limits.insert(Limit::InkGamut);
+            }
+        }
+        (false, limits)
+    }
+
+    /// The rich black: black at its maximum, the other inks filling the ink
+    /// limit in a neutral to slightly cool balance (common practice), found as
+    /// the darkest build whose a*, b* sit at (0, −0.5).
+    fn find_black_point(&self) -> (Cmyk, Lab) {
+        let forward = |x: [f64; 4]| self.forward(x);
+        let k = self.bounds.k_max;
+        let problem = Problem {
+            forward: &forward,
+            target: [0.0, 0.0, -0.5],
+            metric: Mat3::diagonal([0.15, 1.0, 1.0]),
+            k_aim: k,
+            lambda: 50.0,
+            bounds: self.bounds,
+        };
+        let rest = ((self.bounds.tac - k) / 3.0).clamp(0.0, 1.0);
+        let s = problem.solve([rest, rest, rest, k]);
+        let ink = Cmyk::from_array(s.x);
+        (ink, self.printed_relative(ink))
+    }
+
+    /// Samples the boundary faces of the feasible ink set and describes the
+    /// printable gamut (media-relative).
+    fn build_gamut_boundary(&self) -> GamutBoundary {
+        use rayon::prelude::*;
+        const N: usize = 33;
+        let b = self.bounds;
+        let step = |i: usize| i as f64 / (N - 1) as f64;
+        // Faces of the box: one coordinate at a bound, the other three on a grid.
+        let mut faces: Vec<(usize, f64)> = Vec::new();
+        for axis in 0..4 {
+            let upper = if axis == 3 { b.k_max } else { 1.0 };
+            faces.push((axis, 0.0));
+            faces.push((axis, upper));
+        }
+        let mut samples: Vec<Lab> = faces
+            .par_iter()
+            .flat_map_iter(|&(axis, value)| {
+                let mut out = Vec::with_capacity(N * N * N);
+                for i in 0..N {
+                    for j in 0..N {
+                        for l in 0..N {
+                            let mut free = [step(i), step(j), step(l)].into_iter();
+                            let x: [f64; 4] = std::array::from_fn(|a| {
+                                if a == axis {
+                                    value
+                                } else {
+                                    let v = free.next().unwrap_or(0.0);
+                                    if a == 3 { v * b.k_max } else { v }
+                                }
+                            });
+                            if x.iter().sum::<f64>() <= b.tac {
+                                out.push(self.printed_relative(Cmyk::from_array(x)));
+                            }
+                        }
+                    }
+                }
+                out
+            })
+            .collect();
+        // The face of the ink limit: solve for each coordinate in turn.
+        if b.tac < 1.0 + 1.0 + 1.0 + b.k_max {
+            let tac_face: Vec<Lab> = (0..4usize)
+                .into_par_iter()
+                .flat_map_iter(|solved| {
+                    let mut out = Vec::new();
+                    for i in 0..N {
+                        for j in 0..N {
+                            for l in 0..N {
+                                let mut free = [step(i), step(j), step(l)].into_iter();
+                                let mut x = [0.0; 4];
+                                for (a, slot) in x.iter_mut().enumerate() {
+                                    if a != solved {
+                                        let v = free.next().unwrap_or(0.0);
+                                        *slot = if a == 3 { v * b.k_max } else { v };
+                                    }
+                                }
+                                let rest = b.tac - x.iter().sum::<f64>();
+                                let upper = if solved == 3 { b.k_max } else { 1.0 };
+                                if (0.0..=upper).contains(&rest) {
+                                    x[solved] = rest;
+                                    out.push(self.printed_relative(Cmyk::from_array(x)));
+                                }
+                            }
+                        }
+                    }
+                    out
+                })
+                .collect();
+            samples.extend(tac_face);
+        }
+        GamutBoundary::from_samples(samples, self.black_point.l, 100.0)
+    }
+}
