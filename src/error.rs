@@ -15,6 +15,8 @@ pub enum Error {
     Output { path: PathBuf, message: String },
     /// A bug (exit 3).
     Internal(String),
+    /// Standard output was closed by the reader (e.g. `| head`): stop quietly, exit 0.
+    BrokenPipe,
 }
 
 pub type Result<T> = std::result::Result<T, Error>;
@@ -37,6 +39,7 @@ impl Error {
         match self {
             Error::Usage(_) | Error::Input { .. } | Error::Output { .. } => 2,
             Error::Internal(_) => 3,
+            Error::BrokenPipe => 0,
         }
     }
 }
@@ -48,8 +51,20 @@ impl fmt::Display for Error {
             Error::Input { path, message } => write!(f, "{}: {message}", path.display()),
             Error::Output { path, message } => write!(f, "{}: cannot write: {message}", path.display()),
             Error::Internal(m) => write!(f, "internal error: {m} (please report this with the input that caused it)"),
+            Error::BrokenPipe => write!(f, "output closed"),
         }
     }
 }
 
 impl std::error::Error for Error {}
+
+/// Writes text to standard output; a closed pipe becomes [`Error::BrokenPipe`].
+pub fn write_stdout(text: &str) -> Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|_| out.flush()) {
+        Ok(()) => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Err(Error::BrokenPipe),
+        Err(e) => Err(Error::Output { path: "standard output".into(), message: e.to_string() }),
+    }
+}

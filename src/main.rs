@@ -2,17 +2,21 @@ use clap::Parser;
 use std::process::ExitCode;
 
 fn main() -> ExitCode {
+    // A panic is a bug: say so in one line and exit 3 (the default hook's
+    // backtrace text is not for operators).
+    std::panic::set_hook(Box::new(|info| {
+        let place = info.location().map(|l| format!(" at {}:{}", l.file(), l.line())).unwrap_or_default();
+        eprintln!("platesmith: internal error{place}: please report this with the input that caused it");
+    }));
     let cli = platesmith::cli::Cli::parse();
     let code = match std::panic::catch_unwind(|| platesmith::cli::run(cli)) {
         Ok(Ok(code)) => code,
+        Ok(Err(platesmith::Error::BrokenPipe)) => 0,
         Ok(Err(err)) => {
             eprintln!("platesmith: {err}");
             err.exit_code()
         }
-        Err(_) => {
-            eprintln!("platesmith: internal error (a panic); please report this with the input that caused it");
-            3
-        }
+        Err(_) => 3,
     };
     ExitCode::from(code as u8)
 }

@@ -73,6 +73,17 @@ impl MediaWhite {
     }
 }
 
+/// The printing condition used when none is named.
+pub const DEFAULT_CONDITION: &str = "coated-offset";
+
+/// Resolves a condition named on the command line.
+pub fn load_condition(spec: &str) -> crate::Result<PrintingCondition> {
+    match spec {
+        "coated-offset" => Ok(builtin::coated_offset()),
+        other => Err(crate::Error::usage(format!("unknown printing condition '{other}'"))),
+    }
+}
+
 /// A printing condition: its model plus the defaults a job starts from.
 #[derive(Debug, Clone)]
 pub struct PrintingCondition {

@@ -1,5 +1,8 @@
 //! Command-line definitions (clap) and dispatch.
 
+pub mod options;
+pub mod recipe;
+
 use crate::error::Result;
 use clap::{Parser, Subcommand};
 
@@ -17,11 +20,16 @@ pub struct Cli {
 }
 
 #[derive(Debug, Subcommand)]
-pub enum Command {}
+pub enum Command {
+    /// One colour → its CMYK build, the printed colour, ΔE and what limits it.
+    Recipe(recipe::RecipeArgs),
+}
 
 /// Runs a parsed command line; the returned code is the process exit code.
 pub fn run(cli: Cli) -> Result<i32> {
-    match cli.command {}
+    match cli.command {
+        Command::Recipe(args) => recipe::run(args),
+    }
 }
 
 #[cfg(test)]

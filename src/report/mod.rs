@@ -1,0 +1,52 @@
+//! Reports for people and scripts.
+
+use crate::colour::RgbSpace;
+use crate::press::PrintingCondition;
+use crate::separation::SeparationSettings;
+use serde::Serialize;
+
+/// Said in every report: the figures are a model's prediction.
+pub const PREDICTION_NOTE: &str = "These figures are a model's prediction: a contract proof and the printer's own \
+specifications decide, and local standards and the print vendor's requirements take precedence.";
+
+/// Rounds to `digits` decimals for reports.
+pub fn round_to(v: f64, digits: i32) -> f64 {
+    let f = 10f64.powi(digits);
+    (v * f).round() / f
+}
+
+/// The settings a result was made with, in percent, echoed in every report.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct SettingsReport {
+    pub condition: String,
+    pub intent: &'static str,
+    pub bpc: bool,
+    pub tac: f64,
+    pub gcr: f64,
+    pub black_start: f64,
+    pub black_max: f64,
+    pub black_shape: f64,
+    pub uca: f64,
+    pub keep_pure_black: bool,
+    pub table_grid: usize,
+    pub source_space: &'static str,
+}
+
+impl SettingsReport {
+    pub fn new(condition: &PrintingCondition, s: &SeparationSettings, source: RgbSpace) -> SettingsReport {
+        SettingsReport {
+            condition: condition.name.clone(),
+            intent: s.intent.name(),
+            bpc: s.bpc,
+            tac: round_to(s.tac * 100.0, 2),
+            gcr: round_to(s.black.gcr * 100.0, 2),
+            black_start: round_to(s.black.black_start * 100.0, 2),
+            black_max: round_to(s.black.black_max * 100.0, 2),
+            black_shape: s.black.shape,
+            uca: round_to(s.black.uca * 100.0, 2),
+            keep_pure_black: s.keep_pure_black,
+            table_grid: s.table_grid,
+            source_space: source.name(),
+        }
+    }
+}
