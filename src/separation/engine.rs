@@ -303,6 +303,22 @@ impl Separator {
         [v * 0.8, v * 0.7, v * 0.7, (v - 0.6).max(0.0)]
     }
 
+    /// Targets darker than the black point or lighter than paper have no
+    /// printable neighbour of their own lightness: clip lightness first to
+    /// the printable range (keeping a*, b*, offset by the black point's own
+    /// tint below it), so that the deepest shadows all land on the rich black
+    /// and not on scattered builds along the flat floor of the gamut.
+    fn clamp_lightness(&self, target: Lab) -> Lab {
+        let bp = self.black_point;
+        if target.l < bp.l {
+            Lab::new(bp.l, target.a + bp.a, target.b + bp.b)
+        } else if target.l > 100.0 {
+            Lab::new(100.0, target.a, target.b)
+        } else {
+            target
+        }
+    }
+
     /// Darkness of the neutral component: 0 at paper, 1 at the black point.
     fn darkness(&self, target: Lab) -> f64 {
         ((100.0 - target.l) / (100.0 - self.black_point.l).max(1.0)).clamp(0.0, 1.0)
@@ -357,6 +373,7 @@ impl Separator {
     /// K = Kmin + share·(Kmax − Kmin), where the share grows with the
     /// darkness of the target past black start (see [`Separator::black_share`]).
     pub fn invert(&self, target: Lab, start: Option<[f64; 4]>) -> Solution {
+        let target = self.clamp_lightness(target);
         let cold = Self::cold_start(target);
         let first = start.unwrap_or(cold);
         let low = self
@@ -378,10 +395,32 @@ impl Separator {
             .unwrap_or(low)
     }
 
+    /// True for the intents that map the source black onto the press black
+    /// point and so reproduce the whole shadow range (perceptual, relative
+    /// with black point compensation).
+    pub fn maps_source_black_to_black_point(&self) -> bool {
+        matches!(self.settings.intent, Intent::Perceptual) || (self.settings.intent == Intent::Relative && self.settings.bpc)
+    }
+
+    /// The printed red (M+Y), yellow, green (C+Y), cyan, blue (C+M) and
+    /// magenta solids, media-relative.
+    pub fn process_primaries(&self) -> [Lab; 6] {
+        [[0.0, 1.0, 1.0], [0.0, 0.0, 1.0], [1.0, 0.0, 1.0], [1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [0.0, 1.0, 0.0]]
+            .map(|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)))
+    }
+
+    /// Dense samples along the edges of the ink cube (no black) joining the
+    /// process colours: the ridge of the printable gamut that holds its cusps.
+    pub fn process_ridge(&self) -> Vec<Lab> {
+        let corners = [[0.0, 1.0, 1.0], [0.0, 0.0, 1.0], [1.0, 0.0, 1.0], [1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [0.0, 1.0, 0.0]];
+        super::gamut::ridge_samples(&corners, &|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)))
+    }
+
     /// Prepares the mapping of colours from one source gamut (the perceptual
     /// intent needs the source gamut; the colorimetric intents do not).
     pub fn source_mapping<'a>(&'a self, source: &'a dyn SourceGamut) -> SourceMapping<'a> {
-        let perceptual = (self.settings.intent == Intent::Perceptual).then(|| PerceptualMap::new(&self.gamut, source, 0.0));
+        let perceptual = (self.settings.intent == Intent::Perceptual)
+            .then(|| PerceptualMap::new(&self.gamut, Some(self.process_primaries()), Some(self.process_ridge()), source, 0.0));
         SourceMapping { perceptual }
     }
 
@@ -574,6 +613,24 @@ impl Separator {
                 })
                 .collect();
             samples.extend(tac_face);
+        }
+        // The edges of the ink box carry the ridges and cusps of the gamut
+        // (solids, overprints): sample them densely.
+        const EDGE_STEPS: usize = 512;
+        for corner in 0..16usize {
+            for axis in 0..4 {
+                if corner & (1 << axis) != 0 {
+                    continue;
+                }
+                for i in 0..=EDGE_STEPS {
+                    let t = i as f64 / EDGE_STEPS as f64;
+                    let mut x: [f64; 4] = std::array::from_fn(|a| ((corner >> a) & 1) as f64);
+                    x[axis] = t;
+                    x[3] *= b.k_max;
+                    let x = b.project(x);
+                    samples.push(self.printed_relative(Cmyk::from_array(x)));
+                }
+            }
         }
         GamutBoundary::from_samples(samples, self.black_point.l, 100.0)
     }

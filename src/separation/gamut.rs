@@ -11,15 +11,24 @@
 //!
 //! Perceptual mapping follows the structure of SGCK, the reference algorithm
 //! of CIE 156:2004 ("Guidelines for the evaluation of gamut mapping
-//! algorithms"): chroma-dependent lightness compression, then knee scaling of
-//! the distance to a point on the lightness axis at the lightness of the
-//! destination cusp. Where SGCK uses a sigmoidal lightness curve we use the
-//! linear range mapping, the form CIE 156 names as its simpler variant.
+//! algorithms"): chroma-dependent lightness compression and knee scaling,
+//! with a cusp alignment step after GCUSP (Morovič 1998). The differences
+//! from SGCK are named in [`PerceptualMap`].
 
 use crate::colour::{Lab, Lch};
 
-const L_STEPS: usize = 101; // L* 0..100 in steps of 1
+const L_STEPS: usize = 201; // L* 0..100 in steps of 0.5
+const L_STEP: f64 = 0.5;
 const H_STEPS: usize = 180; // hue in steps of 2°
+
+/// Chroma up to this share of the destination boundary is kept as it is.
+const KNEE: f64 = 0.9;
+
+/// Share of the described boundary distance that perceptual mapping fills at
+/// the black point (rising to all of it 20 L* units above): the descriptor
+/// interpolates between sampled segments and overstates the narrow gamut of
+/// the deep shadows.
+const BOUNDARY_MARGIN: f64 = 0.96;
 
 /// Largest chroma per lightness and hue segment.
 #[derive(Debug, Clone)]
@@ -36,8 +45,8 @@ impl GamutBoundary {
         let mut c_max = vec![-1.0f64; L_STEPS * H_STEPS];
         for lab in samples {
             let lch = lab.to_lch();
-            let li = lch.l.round();
-            if !(0.0..=100.0).contains(&li) {
+            let li = (lch.l / L_STEP).round();
+            if !(0.0..=(L_STEPS - 1) as f64).contains(&li) {
                 continue;
             }
             let hi = ((lch.h / 2.0).round() as usize) % H_STEPS;
@@ -47,9 +56,9 @@ impl GamutBoundary {
         // Segments outside the lightness range hold nothing; inside, fill empty
         // segments from their hue neighbours, then from lightness neighbours.
         for li in 0..L_STEPS {
-            let l = li as f64;
+            let l = li as f64 * L_STEP;
             let row = &mut c_max[li * H_STEPS..(li + 1) * H_STEPS];
-            if l < l_min - 0.5 || l > l_max + 0.5 {
+            if l < l_min - L_STEP / 2.0 || l > l_max + L_STEP / 2.0 {
                 row.iter_mut().for_each(|c| *c = 0.0);
                 continue;
             }
@@ -71,7 +80,7 @@ impl GamutBoundary {
         if l < self.l_min || l > self.l_max {
             return 0.0;
         }
-        let lf = l.clamp(0.0, 100.0);
+        let lf = l.clamp(0.0, 100.0) / L_STEP;
         let l0 = (lf.floor() as usize).min(L_STEPS - 2);
         let tl = lf - l0 as f64;
         let hf = h.rem_euclid(360.0) / 2.0;
@@ -90,18 +99,9 @@ impl GamutBoundary {
         lch.l >= self.l_min && lch.l <= self.l_max && lch.c <= self.max_chroma(lch.l, lch.h)
     }
 
-    /// Lightness of the cusp (largest chroma) at hue `h`.
+    /// Lightness and chroma of the cusp (largest chroma) at hue `h`.
     pub fn cusp(&self, h: f64) -> (f64, f64) {
-        let mut best = (50.0, 0.0);
-        let mut l = self.l_min.ceil();
-        while l <= self.l_max {
-            let c = self.max_chroma(l, h);
-            if c > best.1 {
-                best = (l, c);
-            }
-            l += 0.5;
-        }
-        best
+        refine_cusp(self.l_min, self.l_max, &|l| self.max_chroma(l, h))
     }
 
     /// Volume in cubic CIELAB units, by integration over the segments.
@@ -165,6 +165,18 @@ fn fill_linear(col: &mut [f64]) {
 pub trait SourceGamut: Send + Sync {
     /// True when `lab` (CIELAB D50, media-relative) lies inside the source gamut.
     fn contains(&self, lab: Lab) -> bool;
+
+    /// The source's primaries and secondaries in the order red, yellow,
+    /// green, cyan, blue, magenta, when it has them (for hue alignment).
+    fn primaries(&self) -> Option<[Lab; 6]> {
+        None
+    }
+
+    /// Dense samples of the ridge that carries the cusps (for an RGB cube,
+    /// its six edges between the primaries and secondaries), when known.
+    fn ridge(&self) -> Option<Vec<Lab>> {
+        None
+    }
 }
 
 /// The gamut of an RGB colour space: the colours whose RGB lies in 0..1.
@@ -174,6 +186,109 @@ impl SourceGamut for RgbGamut {
     fn contains(&self, lab: Lab) -> bool {
         let rgb = self.0.xyz_to_linear(lab.to_xyz());
         rgb.0.iter().all(|&v| (-1e-9..=1.0 + 1e-9).contains(&v))
+    }
+
+    fn primaries(&self) -> Option<[Lab; 6]> {
+        let corners = [[1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [0.0, 1.0, 0.0], [0.0, 1.0, 1.0], [0.0, 0.0, 1.0], [1.0, 0.0, 1.0]];
+        Some(corners.map(|c| self.0.to_lab(crate::colour::EncodedRgb(c))))
+    }
+
+    fn ridge(&self) -> Option<Vec<Lab>> {
+        let corners = [[1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [0.0, 1.0, 0.0], [0.0, 1.0, 1.0], [0.0, 0.0, 1.0], [1.0, 0.0, 1.0]];
+        Some(ridge_samples(&corners, &|rgb| self.0.to_lab(crate::colour::EncodedRgb(rgb))))
+    }
+}
+
+/// Samples along the six edges joining consecutive corners (and back to the first).
+pub fn ridge_samples(corners: &[[f64; 3]; 6], colour: &dyn Fn([f64; 3]) -> Lab) -> Vec<Lab> {
+    const STEPS: usize = 2048;
+    let mut out = Vec::with_capacity(6 * STEPS);
+    for i in 0..6 {
+        let (a, b) = (corners[i], corners[(i + 1) % 6]);
+        for s in 0..STEPS {
+            let t = s as f64 / STEPS as f64;
+            out.push(colour(std::array::from_fn(|k| a[k] + t * (b[k] - a[k]))));
+        }
+    }
+    out
+}
+
+/// The cusp (lightness, chroma) of a gamut as a function of hue, from
+/// samples sorted by hue and interpolated linearly between neighbours.
+#[derive(Debug, Clone)]
+pub struct CuspCurve {
+    hues: Vec<f64>,
+    points: Vec<(f64, f64)>,
+}
+
+impl CuspCurve {
+    fn from_points(mut samples: Vec<(f64, f64, f64)>) -> CuspCurve {
+        samples.retain(|s| s.0.is_finite() && s.1.is_finite() && s.2.is_finite());
+        samples.sort_by(|a, b| a.0.total_cmp(&b.0));
+        CuspCurve { hues: samples.iter().map(|s| s.0).collect(), points: samples.iter().map(|s| (s.1, s.2)).collect() }
+    }
+
+    fn from_ridge(ridge: &[Lab]) -> CuspCurve {
+        CuspCurve::from_points(ridge.iter().map(|l| { let c = l.to_lch(); (c.h, c.l, c.c) }).collect())
+    }
+
+    fn from_table(table: &[(f64, f64)]) -> CuspCurve {
+        let n = table.len() as f64;
+        CuspCurve::from_points(table.iter().enumerate().map(|(i, &(l, c))| (i as f64 * 360.0 / n, l, c)).collect())
+    }
+
+    pub fn at(&self, h: f64) -> (f64, f64) {
+        let n = self.hues.len();
+        if n == 0 {
+            return (50.0, 0.0);
+        }
+        let h = h.rem_euclid(360.0);
+        let i = self.hues.partition_point(|&x| x <= h);
+        let (i0, i1) = (if i == 0 { n - 1 } else { i - 1 }, if i == n { 0 } else { i });
+        let span = (self.hues[i1] - self.hues[i0]).rem_euclid(360.0);
+        let t = if span > 0.0 { (h - self.hues[i0]).rem_euclid(360.0) / span } else { 0.0 };
+        let (a, b) = (self.points[i0], self.points[i1]);
+        (a.0 + t * (b.0 - a.0), a.1 + t * (b.1 - a.1))
+    }
+}
+
+/// Piecewise-linear hue mapping that carries six source anchor hues onto six
+/// destination anchor hues (red, yellow, green, cyan, blue, magenta), so that
+/// a source primary prints as the corresponding process colour rather than
+/// as its exact hue made with a third ink (the hue-alignment step of
+/// printing-oriented gamut mapping, cf. the hue mapping discussed in
+/// Morovič, "Color Gamut Mapping", Wiley 2008, ch. 10).
+#[derive(Debug, Clone)]
+pub struct HueAlignment {
+    source: [f64; 6],
+    dest: [f64; 6],
+}
+
+impl HueAlignment {
+    /// `None` when the anchors are not in the same circular order on both
+    /// sides (then no alignment is applied).
+    pub fn new(source: [Lab; 6], dest: [Lab; 6]) -> Option<HueAlignment> {
+        let s = source.map(|l| l.to_lch().h);
+        let d = dest.map(|l| l.to_lch().h);
+        let ordered = |h: &[f64; 6]| {
+            let total: f64 = (0..6).map(|i| (h[(i + 1) % 6] - h[i]).rem_euclid(360.0)).sum();
+            (total - 360.0).abs() < 1e-6
+        };
+        (ordered(&s) && ordered(&d)).then_some(HueAlignment { source: s, dest: d })
+    }
+
+    pub fn map(&self, h: f64) -> f64 {
+        for i in 0..6 {
+            let (s0, s1) = (self.source[i], self.source[(i + 1) % 6]);
+            let span = (s1 - s0).rem_euclid(360.0);
+            let offset = (h - s0).rem_euclid(360.0);
+            if offset <= span && span > 0.0 {
+                let (d0, d1) = (self.dest[i], self.dest[(i + 1) % 6]);
+                let dspan = (d1 - d0).rem_euclid(360.0);
+                return (d0 + offset / span * dspan).rem_euclid(360.0);
+            }
+        }
+        h
     }
 }
 
@@ -201,32 +316,49 @@ fn boundary_distance(origin: (f64, f64), dir: (f64, f64), hue: f64, max: f64, in
     lo
 }
 
-/// Lightness and chroma of the cusp per 2° hue segment of a gamut.
-fn cusps_of(contains: &dyn Fn(Lab) -> bool) -> Vec<(f64, f64)> {
-    (0..H_STEPS)
+/// Hue steps of the cusp tables (0.5°: cusps are sharp corners at the
+/// primaries, and lightness there is steep).
+const CUSP_STEPS: usize = 720;
+
+/// Lightness and chroma of the cusp per 0.5° of hue of a gamut.
+fn cusps_of(contains: &(dyn Fn(Lab) -> bool + Sync)) -> Vec<(f64, f64)> {
+    use rayon::prelude::*;
+    (0..CUSP_STEPS)
+        .into_par_iter()
         .map(|hi| {
-            let h = hi as f64 * 2.0;
-            let mut best = (50.0, 0.0);
-            let mut l = 1.0;
-            while l < 100.0 {
-                let c = boundary_distance((l, 0.0), (0.0, 1.0), h, 250.0, contains);
-                if c > best.1 {
-                    best = (l, c);
-                }
-                l += 1.0;
-            }
-            best
+            let h = hi as f64 * 360.0 / CUSP_STEPS as f64;
+            refine_cusp(0.0, 100.0, &|l| boundary_distance((l, 0.0), (0.0, 1.0), h, 250.0, contains))
         })
         .collect()
 }
 
-fn cusp_at(cusps: &[(f64, f64)], h: f64) -> (f64, f64) {
-    let hf = h.rem_euclid(360.0) / 2.0;
-    let i0 = hf.floor() as usize % H_STEPS;
-    let i1 = (i0 + 1) % H_STEPS;
-    let t = hf - hf.floor();
-    (cusps[i0].0 * (1.0 - t) + cusps[i1].0 * t, cusps[i0].1 * (1.0 - t) + cusps[i1].1 * t)
+/// The lightness of largest chroma on [lo, hi]: a scan in steps of one
+/// unit, then golden-section search around the best step.
+fn refine_cusp(lo: f64, hi: f64, chroma: &dyn Fn(f64) -> f64) -> (f64, f64) {
+    let mut best = (0.5 * (lo + hi), f64::MIN);
+    let mut l = lo;
+    while l <= hi {
+        let c = chroma(l);
+        if c > best.1 {
+            best = (l, c);
+        }
+        l += 1.0;
+    }
+    let (mut a, mut b) = ((best.0 - 1.0).max(lo), (best.0 + 1.0).min(hi));
+    let g = (5f64.sqrt() - 1.0) / 2.0;
+    for _ in 0..30 {
+        let (x1, x2) = (b - g * (b - a), a + g * (b - a));
+        if chroma(x1) >= chroma(x2) {
+            b = x2;
+        } else {
+            a = x1;
+        }
+    }
+    let l = 0.5 * (a + b);
+    let c = chroma(l);
+    if c >= best.1 { (l, c) } else { best }
 }
+
 
 /// Perceptual gamut mapping from one source gamut into the printable gamut.
 ///
@@ -237,27 +369,44 @@ fn cusp_at(cusps: &[(f64, f64)], h: f64) -> (f64, f64) {
 ///    in proportion to their chroma relative to the source cusp, so that the
 ///    source cusp lands at the destination cusp lightness (as in GCUSP,
 ///    Morovič 1998, also described in CIE 156:2004).
-/// 3. Knee scaling (SGCK): along the line toward the lightness axis at the
-///    destination cusp lightness, distances up to 90 % of the destination
-///    boundary stay; the rest of the source range is compressed linearly
-///    into the remaining 10 %.
+/// 3. Knee scaling of chroma at constant lightness (the knee function of
+///    SGCK, applied toward the lightness axis rather than toward the cusp
+///    lightness point, which keeps the deep shadows continuous with the
+///    neutral axis): chroma up to 90 % of the destination boundary stays; the
+///    rest of the source range is compressed linearly into the remaining 10 %.
 pub struct PerceptualMap<'a> {
     dest: &'a GamutBoundary,
-    dest_cusps: Vec<(f64, f64)>,
+    hues: Option<HueAlignment>,
+    dest_cusps: CuspCurve,
     source: &'a dyn SourceGamut,
-    source_cusps: Vec<(f64, f64)>,
+    source_cusps: CuspCurve,
     source_black: f64,
 }
 
 impl<'a> PerceptualMap<'a> {
-    pub fn new(dest: &'a GamutBoundary, source: &'a dyn SourceGamut, source_black: f64) -> PerceptualMap<'a> {
-        let dest_cusps = (0..H_STEPS).map(|hi| dest.cusp(hi as f64 * 2.0)).collect();
-        let source_cusps = cusps_of(&|p| source.contains(p));
-        PerceptualMap { dest, dest_cusps, source, source_cusps, source_black }
+    /// `dest_primaries`: the printed red, yellow, green, cyan, blue and
+    /// magenta of the press (media-relative), for hue alignment.
+    pub fn new(
+        dest: &'a GamutBoundary,
+        dest_primaries: Option<[Lab; 6]>,
+        dest_ridge: Option<Vec<Lab>>,
+        source: &'a dyn SourceGamut,
+        source_black: f64,
+    ) -> PerceptualMap<'a> {
+        let dest_cusps = match dest_ridge {
+            Some(r) => CuspCurve::from_ridge(&r),
+            None => CuspCurve::from_table(&(0..CUSP_STEPS).map(|hi| dest.cusp(hi as f64 * 360.0 / CUSP_STEPS as f64)).collect::<Vec<_>>()),
+        };
+        let hues = source.primaries().zip(dest_primaries).and_then(|(s, d)| HueAlignment::new(s, d));
+        let source_cusps = match source.ridge() {
+            Some(r) => CuspCurve::from_ridge(&r),
+            None => CuspCurve::from_table(&cusps_of(&|p| source.contains(p))),
+        };
+        PerceptualMap { dest, hues, dest_cusps, source, source_cusps, source_black }
     }
 
     /// Step 1 and 2 are affine in L for a fixed chroma and hue: L' = α·L + β.
-    fn lightness_affine(&self, c: f64, h: f64) -> (f64, f64) {
+    fn lightness_affine(&self, c: f64, h: f64, source_hue: f64) -> (f64, f64) {
         let d = self.dest;
         let a = (d.l_max - d.l_min) / (100.0 - self.source_black);
         let pc = 1.0 - (c.powi(3) / (c.powi(3) + 5e5)).sqrt();
@@ -265,8 +414,8 @@ impl<'a> PerceptualMap<'a> {
         let alpha = pc * a + 1.0 - pc;
         let mut beta = pc * (d.l_min - self.source_black * a);
         // step 2: shift toward the destination cusp
-        let (ls, cs) = cusp_at(&self.source_cusps, h);
-        let (ld, _) = cusp_at(&self.dest_cusps, h);
+        let (ls, cs) = self.source_cusps.at(source_hue);
+        let (ld, _) = self.dest_cusps.at(h);
         if cs > 1e-6 {
             let pcs = 1.0 - (cs.powi(3) / (cs.powi(3) + 5e5)).sqrt();
             let ls1 = pcs * (d.l_min + (ls - self.source_black) * a) + (1.0 - pcs) * ls;
@@ -279,31 +428,39 @@ impl<'a> PerceptualMap<'a> {
     /// outside the printable gamut; the inversion clips the rest.
     pub fn map(&self, lab: Lab) -> Lab {
         let lch = lab.to_lch();
-        let (alpha, beta) = self.lightness_affine(lch.c, lch.h);
+        // 0. Hue alignment of the primaries; the source gamut is then looked up
+        //    at the hue the colour came from.
+        let source_hue = lch.h;
+        let lch = match &self.hues {
+            Some(a) => Lch::new(lch.l, lch.c, a.map(lch.h)),
+            None => lch,
+        };
+        let (alpha, beta) = self.lightness_affine(lch.c, lch.h, source_hue);
         let l_mapped = (alpha * lch.l + beta).clamp(self.dest.l_min, self.dest.l_max);
         if lch.c < 1e-6 {
             return Lch::new(l_mapped, 0.0, lch.h).to_lab();
         }
-        let (l_cusp, _) = cusp_at(&self.dest_cusps, lch.h);
-        let dl = l_mapped - l_cusp;
-        let d = (dl * dl + lch.c * lch.c).sqrt();
-        let dir = (dl / d, lch.c / d);
-        let origin = (l_cusp, 0.0);
-        let d_dest = boundary_distance(origin, dir, lch.h, 250.0, &|p| self.dest.contains(p));
-        // The source boundary along the same line, after steps 1 and 2.
+        // Knee scaling of chroma at the mapped lightness.
+        let origin = (l_mapped, 0.0);
+        let dir = (0.0, 1.0);
+        let d = lch.c;
+        let shadow = ((l_mapped - self.dest.l_min) / 20.0).clamp(0.0, 1.0);
+        let margin = BOUNDARY_MARGIN + (1.0 - BOUNDARY_MARGIN) * shadow;
+        let d_dest = margin * boundary_distance(origin, dir, lch.h, 250.0, &|p| self.dest.contains(p));
+        // The source boundary at the same place, after steps 1 and 2.
         let source_inside = |p: Lab| {
             let q = p.to_lch();
-            let (a, b) = self.lightness_affine(q.c, q.h);
-            self.source.contains(Lch::new((q.l - b) / a, q.c, q.h).to_lab())
+            let (a, b) = self.lightness_affine(q.c, lch.h, source_hue);
+            self.source.contains(Lch::new((q.l - b) / a, q.c, source_hue).to_lab())
         };
         let d_source = boundary_distance(origin, dir, lch.h, 250.0, &source_inside).max(d);
-        let knee = 0.9 * d_dest;
-        let d_new = if d_source <= d_dest || d <= knee {
-            d
+        let knee = KNEE * d_dest;
+        let c_new = if d_source <= d_dest || d <= knee {
+            d.min(d_dest.max(knee))
         } else {
             knee + (d - knee) * (d_dest - knee) / (d_source - knee)
         };
-        Lch::new(l_cusp + dir.0 * d_new, (dir.1 * d_new).max(0.0), lch.h).to_lab()
+        Lch::new(l_mapped, c_new, lch.h).to_lab()
     }
 }
 

@@ -99,6 +99,9 @@ pub struct Solution {
 
 const MAX_ITERATIONS: usize = 60;
 
+/// How often one exact inversion may release a bound it had taken on.
+const MAX_RELEASES: usize = 8;
+
 /// Largest change of black per step of the exact inversion.
 const BLACK_STRIDE: f64 = 0.12;
 
@@ -208,7 +211,8 @@ impl Problem<'_> {
         let mut x = b.project(start);
         let mut fixed: [bool; 4] = std::array::from_fn(|i| b.lower(i) == b.upper(i));
         let mut tac_active = false;
-        for _ in 0..60 {
+        let mut releases = 0;
+        for _ in 0..80 {
             let (lab, jac) = (self.forward)(x);
             let r = [lab[0] - self.target[0], lab[1] - self.target[1], lab[2] - self.target[2]];
             let err = (r[0] * r[0] + r[1] * r[1] + r[2] * r[2]).sqrt();
@@ -218,6 +222,38 @@ impl Problem<'_> {
             let step = exact_step(&jac, r, &x, black_move, &fixed, tac_active, b)?;
             let size: f64 = step.iter().map(|v| v.abs()).sum();
             if err < 1e-7 && size < 1e-9 {
+                // Converged for this active set: release a bound the black aim
+                // would now pull away from (its multiplier has the wrong sign).
+                if releases < MAX_RELEASES {
+                    let mut released = false;
+                    for i in 0..4 {
+                        if !fixed[i] || b.lower(i) == b.upper(i) {
+                            continue;
+                        }
+                        let mut trial = fixed;
+                        trial[i] = false;
+                        if let Some(st) = exact_step(&jac, r, &x, black_move, &trial, tac_active, b) {
+                            let inward = if x[i] <= b.lower(i) + 1e-12 { st[i] > 1e-9 } else { st[i] < -1e-9 };
+                            if inward {
+                                fixed = trial;
+                                released = true;
+                                break;
+                            }
+                        }
+                    }
+                    if !released && tac_active {
+                        if let Some(st) = exact_step(&jac, r, &x, black_move, &fixed, false, b) {
+                            if st.iter().sum::<f64>() < -1e-9 {
+                                tac_active = false;
+                                released = true;
+                            }
+                        }
+                    }
+                    if released {
+                        releases += 1;
+                        continue;
+                    }
+                }
                 return Some(self.finish(x, lab));
             }
             // Ratio test: the longest fraction of the step that stays feasible.

@@ -45,6 +45,76 @@ fn position(value: u32, max: u32, grid: usize) -> Position {
     Position { index, fraction: fraction as u32 }
 }
 
+/// Lightness range above the black point over which the table is smoothed.
+const SHADOW_RANGE: f64 = 10.0;
+
+/// Smoothing passes in the shadows.
+const SHADOW_PASSES: usize = 3;
+
+/// Used with the intents that carry the source black onto the press black
+/// point (perceptual, relative with black point compensation), where the
+/// whole shadow range is reproduced; plain relative colorimetric clips it.
+///
+/// Near the black point the press responds little to any ink but black: the
+/// exact inversion there swings the other plates widely for small colour
+/// differences, which would band in dark gradients. Since those swings cost
+/// little colour, the table is smoothed in ink space over the deepest
+/// shadows: a few passes of a [1 2 1]/4 kernel along each axis, blended in
+/// with a weight that is 1 at the black point and 0 at `SHADOW_RANGE` above
+/// it. Every node stays a convex combination of in-limit builds, so the ink
+/// limit and maximum black still hold.
+fn smooth_shadows(inks: &mut [[f64; 4]], lightness: &[f64], n: usize, black_l: f64) {
+    let weight: Vec<f64> = lightness
+        .iter()
+        .map(|&l| {
+            let t = ((l - black_l) / SHADOW_RANGE).clamp(0.0, 1.0);
+            let s = 1.0 - t * t * (3.0 - 2.0 * t);
+            s
+        })
+        .collect();
+    if weight.iter().all(|&w| w == 0.0) {
+        return;
+    }
+    let stride = [n * n, n, 1];
+    for _ in 0..SHADOW_PASSES {
+        for &d in &stride {
+            let src = inks.to_vec();
+            for i in 0..inks.len() {
+                let w = weight[i];
+                if w == 0.0 {
+                    continue;
+                }
+                let pos = (i / d) % n;
+                let lo = if pos > 0 { i - d } else { i };
+                let hi = if pos + 1 < n { i + d } else { i };
+                for ch in 0..4 {
+                    let blurred = 0.25 * src[lo][ch] + 0.5 * src[i][ch] + 0.25 * src[hi][ch];
+                    inks[i][ch] = (1.0 - w) * src[i][ch] + w * blurred;
+                }
+            }
+        }
+    }
+}
+
+/// Rounds a node to 16 bits without letting rounding break the limits:
+/// channels rounded up are taken back, largest rounding first, until the
+/// total and black fit.
+fn quantize(x: [f64; 4], tac: f64, k_max: f64) -> [u16; 4] {
+    let scale = 65535.0;
+    let mut q = x.map(|v| (v * scale).round().clamp(0.0, scale) as i64);
+    let k_cap = (k_max * scale + 1e-6).floor() as i64;
+    q[3] = q[3].min(k_cap);
+    let cap = (tac * scale + 1e-6).floor() as i64;
+    while q.iter().sum::<i64>() > cap {
+        let i = (0..4)
+            .filter(|&i| q[i] > 0)
+            .max_by(|&a, &b| (q[a] as f64 - x[a] * scale).total_cmp(&(q[b] as f64 - x[b] * scale)))
+            .unwrap_or(0);
+        q[i] -= 1;
+    }
+    q.map(|v| v as u16)
+}
+
 impl SeparationTable {
     /// Builds the table. `node_lab` gives the source colour (media-relative
     /// CIELAB D50, the ICC PCS) of each grid node from its encoded RGB
@@ -56,7 +126,7 @@ impl SeparationTable {
         // One line of nodes along blue per (red, green); each line is solved
         // in order with warm starts, so neighbouring nodes take the same
         // branch of the inversion and the result does not depend on threads.
-        let lines: Vec<Vec<[u16; 4]>> = (0..n * n)
+        let lines: Vec<Vec<([f64; 4], f64)>> = (0..n * n)
             .into_par_iter()
             .map(|line| {
                 let (r, g) = (line / n, line % n);
@@ -67,14 +137,19 @@ impl SeparationTable {
                         let target = separator.intent_target(lab, mapping);
                         let s = separator.invert(target, start);
                         start = Some(s.x);
-                        s.x.map(|v| (v * 65535.0).round().clamp(0.0, 65535.0) as u16)
+                        (s.x, target.l)
                     })
                     .collect()
             })
             .collect();
+        let (mut inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = lines.into_iter().flatten().unzip();
+        if separator.maps_source_black_to_black_point() {
+            smooth_shadows(&mut inks, &lightness, n, separator.black_point().0.l);
+        }
+        let (tac, k_max) = (separator.settings().tac, separator.settings().black.black_max);
         SeparationTable {
             grid: n,
-            nodes: lines.into_iter().flatten().collect(),
+            nodes: inks.into_iter().map(|x| quantize(x, tac, k_max)).collect(),
             keep_pure_black: separator.settings().keep_pure_black,
         }
     }

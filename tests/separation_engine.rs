@@ -1,0 +1,302 @@
+//! The separation engine against its requirements.
+//!
+//! Ground truth here is the forward press model itself (the inversion must
+//! reproduce what the model prints), the ICC.1 definitions of the intents,
+//! and rules of subtractive mixing marked "common practice".
+
+use platesmith::colour::{EncodedRgb, Lab, RgbSpace, ciede2000};
+use platesmith::ink::Cmyk;
+use platesmith::press::builtin::coated_offset;
+use platesmith::separation::{BlackGeneration, Intent, RgbGamut, SeparationSettings, SeparationTable, Separator};
+use std::sync::OnceLock;
+
+/// splitmix64: deterministic test randomness.
+struct Rng(u64);
+impl Rng {
+    fn next(&mut self) -> f64 {
+        self.0 = self.0.wrapping_add(0x9E3779B97F4A7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58476D1CE4E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D049BB133111EB);
+        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
+    }
+}
+
+fn separator(intent: Intent) -> Separator {
+    let c = coated_offset();
+    let mut s = SeparationSettings::for_condition(&c);
+    s.intent = intent;
+    Separator::new(c, s).unwrap()
+}
+
+fn relative() -> &'static Separator {
+    static S: OnceLock<Separator> = OnceLock::new();
+    S.get_or_init(|| separator(Intent::Relative))
+}
+
+fn relative_table() -> &'static SeparationTable {
+    static T: OnceLock<SeparationTable> = OnceLock::new();
+    T.get_or_init(|| {
+        let sep = relative();
+        let conv = RgbSpace::Srgb.converter();
+        let gamut = RgbGamut(conv);
+        let mapping = sep.source_mapping(&gamut);
+        SeparationTable::build(sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)))
+    })
+}
+
+fn percentile(mut v: Vec<f64>, p: f64) -> f64 {
+    v.sort_by(f64::total_cmp);
+    v[((v.len() - 1) as f64 * p).round() as usize]
+}
+
+/// Targets printed by random in-limit builds are in gamut by construction;
+/// the inversion must find builds that print them again.
+#[test]
+fn in_gamut_targets_are_reproduced() {
+    let sep = relative();
+    let (tac, kmax) = (sep.settings().tac, sep.settings().black.black_max);
+    let mut rng = Rng(1);
+    let mut errors = Vec::new();
+    while errors.len() < 2000 {
+        let mut x = Cmyk::new(rng.next(), rng.next(), rng.next(), rng.next() * kmax);
+        if x.total() > tac {
+            let s = tac / x.total();
+            x = Cmyk::new(x.c * s, x.m * s, x.y * s, x.k * s);
+        }
+        let target = sep.printed_relative(x);
+        let s = sep.invert(target, None);
+        errors.push(ciede2000(target, sep.printed_relative(Cmyk::from_array(s.x))));
+    }
+    let mean = errors.iter().sum::<f64>() / errors.len() as f64;
+    let p99 = percentile(errors.clone(), 0.99);
+    eprintln!("in-gamut inversion: mean ΔE2000 {mean:.4}, p99 {p99:.4}, max {:.4}", percentile(errors, 1.0));
+    assert!(mean <= 0.3, "mean {mean}");
+    assert!(p99 <= 1.0, "p99 {p99}");
+}
+
+/// The table against the direct solve, 10 000 random sRGB colours, for the
+/// relative and the perceptual intent (whose table is smoothed in the
+/// deepest shadows, see `SeparationTable`).
+#[test]
+fn table_agrees_with_direct_separation() {
+    table_agrees(relative(), relative_table(), "relative");
+    let perceptual = separator(Intent::Perceptual);
+    table_agrees(&perceptual, &table_for(Intent::Perceptual, false), "perceptual");
+}
+
+fn table_agrees(sep: &Separator, table: &SeparationTable, label: &str) {
+    let conv = RgbSpace::Srgb.converter();
+    let gamut = RgbGamut(conv);
+    let mapping = sep.source_mapping(&gamut);
+    let mut rng = Rng(2);
+    let mut errors = Vec::new();
+    for _ in 0..10_000 {
+        let rgb = [rng.next(), rng.next(), rng.next()];
+        let direct = sep.invert(sep.intent_target(conv.to_lab(EncodedRgb(rgb)), &mapping), None);
+        let via_table = table.lookup(rgb);
+        errors.push(ciede2000(sep.printed_relative(Cmyk::from_array(direct.x)), sep.printed_relative(via_table)));
+    }
+    let mean = errors.iter().sum::<f64>() / errors.len() as f64;
+    let max = percentile(errors, 1.0);
+    eprintln!("{label}: table vs direct: mean ΔE2000 {mean:.4}, max {max:.4}");
+    assert!(mean <= 0.5 && max <= 2.0, "mean {mean} max {max}");
+}
+
+fn check_limits(cmyk: Cmyk, tac: f64, kmax: f64, what: &str) {
+    assert!(cmyk.is_finite(), "{what}: NaN in {cmyk:?}");
+    for v in cmyk.to_array() {
+        assert!((0.0..=1.0).contains(&v), "{what}: channel out of range {cmyk:?}");
+    }
+    assert!(cmyk.total() <= tac + 1e-9, "{what}: total {} over {tac}", cmyk.total());
+    assert!(cmyk.k <= kmax + 1e-9, "{what}: black {} over {kmax}", cmyk.k);
+}
+
+/// Every node of a 65³ table and 100 000 random colours through smaller
+/// tables under random valid settings respect the ink limit and maximum black.
+#[test]
+fn limits_hold_for_every_node_and_pixel() {
+    let conv = RgbSpace::Srgb.converter();
+    let gamut = RgbGamut(conv);
+    let mut rng = Rng(3);
+    for round in 0..4 {
+        let c = coated_offset();
+        let mut s = SeparationSettings::for_condition(&c);
+        s.intent = [Intent::Perceptual, Intent::Relative, Intent::Absolute, Intent::Relative][round];
+        s.bpc = round == 3;
+        s.tac = 2.2 + rng.next() * 1.6;
+        s.black = BlackGeneration {
+            gcr: rng.next(),
+            black_start: rng.next() * 0.6,
+            black_max: 0.6 + rng.next() * 0.4,
+            shape: 0.5 + rng.next() * 2.5,
+            uca: rng.next() * 0.5,
+        };
+        s.table_grid = if round == 0 { 65 } else { 17 };
+        let sep = Separator::new(c, s.clone()).unwrap();
+        let mapping = sep.source_mapping(&gamut);
+        let table = SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)));
+        let n = s.table_grid;
+        for i in 0..n * n * n {
+            let rgb = [(i / (n * n)) as f64, ((i / n) % n) as f64, (i % n) as f64].map(|v| v / (n - 1) as f64);
+            check_limits(table.lookup(rgb), s.tac, s.black.black_max, &format!("node {rgb:?} with {s:?}"));
+        }
+        let pixels: Vec<u8> = (0..25_000 * 3).map(|_| (rng.next() * 256.0) as u8).collect();
+        let mut out = vec![0u8; 25_000 * 4];
+        table.apply_rgb8(&pixels, &mut out, 1000);
+        for px in out.chunks_exact(4) {
+            let total: u32 = px.iter().map(|&v| v as u32).sum();
+            // ≤ TAC + 1 % after 8-bit quantisation.
+            assert!(total as f64 / 255.0 <= s.tac + 0.01, "8-bit total {total} over {}", s.tac);
+            assert!(px[3] as f64 / 255.0 <= s.black.black_max + 0.5 / 255.0 + 1e-9);
+        }
+    }
+}
+
+fn table_for(intent: Intent, bpc: bool) -> SeparationTable {
+    let c = coated_offset();
+    let mut s = SeparationSettings::for_condition(&c);
+    s.intent = intent;
+    s.bpc = bpc;
+    let sep = Separator::new(c, s).unwrap();
+    let conv = RgbSpace::Srgb.converter();
+    let gamut = RgbGamut(conv);
+    let mapping = sep.source_mapping(&gamut);
+    SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)))
+}
+
+/// Every plate along 8-bit ramps moves by at most 3 % per input step, for
+/// the intents that map the whole source range (perceptual, and relative
+/// with black point compensation; plain relative colorimetric clips the
+/// shadows below the press black point by definition).
+#[test]
+fn ramps_separate_smoothly() {
+    for (intent, bpc) in [(Intent::Perceptual, false), (Intent::Relative, true)] {
+        ramps_are_smooth(&table_for(intent, bpc), &format!("{intent:?} bpc {bpc}"));
+    }
+}
+
+fn ramps_are_smooth(table: &SeparationTable, label: &str) {
+    let ramps: Vec<(&str, [f64; 3])> = vec![
+        ("gray", [1.0, 1.0, 1.0]),
+        ("red", [1.0, 0.0, 0.0]),
+        ("green", [0.0, 1.0, 0.0]),
+        ("blue", [0.0, 0.0, 1.0]),
+        ("cyan", [0.0, 1.0, 1.0]),
+        ("magenta", [1.0, 0.0, 1.0]),
+        ("yellow", [1.0, 1.0, 0.0]),
+    ];
+    let mut worst = 0.0f64;
+    for (name, dir) in ramps {
+        let mut prev: Option<Cmyk> = None;
+        for v in 0..=255u32 {
+            let rgb: Vec<u8> = dir.iter().map(|&d| (d * v as f64) as u8).collect();
+            let mut out = [0u8; 4];
+            table.apply_rgb8(&rgb, &mut out, 1);
+            let c = Cmyk::from_array(out.map(|x| x as f64 / 255.0));
+            if let Some(p) = prev {
+                for (a, b) in p.to_array().iter().zip(c.to_array()) {
+                    worst = worst.max((a - b).abs());
+                    assert!((a - b).abs() <= 0.03, "{label}: {name} ramp at {v}: {p:?} -> {c:?}");
+                }
+            }
+            prev = Some(c);
+        }
+    }
+    eprintln!("{label}: largest plate step along ramps: {:.2} %", worst * 100.0);
+}
+
+/// Relative colorimetric neutrals print neutral: |a*|, |b*| ≤ 1.5 relative
+/// to paper for L* 20–95 (ICC.1 media-relative colorimetry).
+#[test]
+fn neutrals_print_neutral() {
+    let sep = relative();
+    let mut worst = 0.0f64;
+    for l in (20..=95).step_by(5) {
+        let s = sep.invert(Lab::new(l as f64, 0.0, 0.0), None);
+        let p = sep.printed_relative(Cmyk::from_array(s.x));
+        worst = worst.max(p.a.abs()).max(p.b.abs());
+        assert!(p.a.abs() <= 1.5 && p.b.abs() <= 1.5, "L* {l}: printed {p:?}");
+    }
+    eprintln!("largest |a*|,|b*| on the neutral axis: {worst:.4}");
+}
+
+fn build_of(sep: &Separator, rgb: [u8; 3]) -> Cmyk {
+    let conv = RgbSpace::Srgb.converter();
+    let gamut = RgbGamut(conv);
+    let mapping = sep.source_mapping(&gamut);
+    sep.separate(conv.to_lab(EncodedRgb(rgb.map(|v| v as f64 / 255.0))), &mapping).cmyk
+}
+
+/// Facts of subtractive mixing (common practice).
+#[test]
+fn primaries_separate_as_subtractive_mixing_predicts() {
+    for intent in [Intent::Perceptual, Intent::Relative] {
+        let sep = separator(intent);
+        let white = build_of(&sep, [255, 255, 255]);
+        assert!(white.total() < 1e-6, "{intent:?} white {white:?}");
+        let red = build_of(&sep, [255, 0, 0]);
+        assert!(red.m > 0.7 && red.y > 0.7 && red.c < 0.1, "{intent:?} red {red:?}");
+        let green = build_of(&sep, [0, 255, 0]);
+        assert!(green.c > 0.5 && green.y > 0.7 && green.m < 0.1, "{intent:?} green {green:?}");
+        let blue = build_of(&sep, [0, 0, 255]);
+        assert!(blue.c > 0.7 && blue.m > 0.7 && blue.y < 0.1, "{intent:?} blue {blue:?}");
+        let black = build_of(&sep, [0, 0, 0]);
+        let s = sep.settings();
+        assert!(black.k >= s.black.black_max - 0.02, "{intent:?} black {black:?}");
+        assert!(black.total() <= s.tac + 1e-9 && black.total() >= s.tac - 0.1, "{intent:?} black {black:?} is not rich");
+        // Neutral-to-cool rich black (common practice: around 60/40/40/100 coated).
+        assert!(black.c >= black.m && black.m >= black.y, "{intent:?} black balance {black:?}");
+    }
+}
+
+/// More GCR: more black, less C+M+Y, the same printed colour within 1 ΔE2000.
+#[test]
+fn more_gcr_means_more_black_for_the_same_colour() {
+    let build = |gcr: f64| {
+        let c = coated_offset();
+        let mut s = SeparationSettings::for_condition(&c);
+        s.intent = Intent::Relative;
+        s.black.gcr = gcr;
+        Separator::new(c, s).unwrap()
+    };
+    let (low, high) = (build(0.1), build(0.9));
+    for lab in [Lab::new(40.0, 0.0, 0.0), Lab::new(55.0, 10.0, 20.0), Lab::new(35.0, -15.0, -20.0), Lab::new(60.0, 5.0, 5.0)] {
+        let a = Cmyk::from_array(low.invert(lab, None).x);
+        let b = Cmyk::from_array(high.invert(lab, None).x);
+        assert!(b.k > a.k + 0.02, "{lab:?}: {a:?} vs {b:?}");
+        assert!(b.c + b.m + b.y < a.c + a.m + a.y, "{lab:?}: {a:?} vs {b:?}");
+        let de = ciede2000(low.printed_relative(a), high.printed_relative(b));
+        assert!(de <= 1.0, "{lab:?}: ΔE {de}");
+    }
+}
+
+/// Black start: no black in light neutrals below it.
+#[test]
+fn no_black_below_black_start() {
+    let sep = relative();
+    let s = sep.invert(Lab::new(90.0, 0.0, 0.0), None);
+    assert!(s.x[3] < 1e-6, "{:?}", s.x);
+}
+
+/// Results are identical whatever the thread count.
+#[test]
+fn table_is_independent_of_thread_count() {
+    let sep = relative();
+    let conv = RgbSpace::Srgb.converter();
+    let gamut = RgbGamut(conv);
+    let mapping = sep.source_mapping(&gamut);
+    let build = |threads: usize| {
+        let pool = rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap();
+        pool.install(|| {
+            let mut c = sep.clone();
+            let _ = &mut c;
+            let t = SeparationTable::build(sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)));
+            let rgb: Vec<u8> = (0..30_000u32).map(|i| (i.wrapping_mul(2654435761) >> 24) as u8).collect();
+            let mut out = vec![0u8; 40_000];
+            t.apply_rgb8(&rgb, &mut out, 100);
+            out
+        })
+    };
+    assert_eq!(build(1), build(2));
+}
