@@ -57,36 +57,36 @@ pub fn ciede2000_with(lab1: Lab, lab2: Lab, w: De2000Weights) -> f64 {
 }
 
 /// The intermediate terms of CIEDE2000 for one pair, named as in Sharma, Wu &
-/// Dalal (2005), Table 1 and eq. 1–22 (hues in degrees). Useful to explain a
+/// Dalal (2005), Table 1 (hues in degrees). Useful to explain a
 /// difference and to check an implementation term by term.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct De2000Terms {
-    /// G, the a* scaling that compensates the blue region (eq. 4).
+    /// G, the factor that stretches a* near the neutral axis.
     pub g: f64,
-    /// a'₁, a'₂ (eq. 5).
+    /// a'₁, a'₂.
     pub a1p: f64,
     pub a2p: f64,
-    /// C'₁, C'₂ (eq. 6).
+    /// C'₁, C'₂.
     pub c1p: f64,
     pub c2p: f64,
-    /// h'₁, h'₂ in 0..360 (eq. 7).
+    /// h'₁, h'₂ in 0..360.
     pub h1p: f64,
     pub h2p: f64,
-    /// ΔL', ΔC', ΔH' (eq. 8–11), sample 2 minus sample 1.
+    /// ΔL', ΔC', ΔH', sample 2 minus sample 1.
     pub dl: f64,
     pub dc: f64,
     pub dh: f64,
-    /// Mean hue h̄' (eq. 14).
+    /// Mean hue h̄'.
     pub h_mean: f64,
-    /// T (eq. 15).
+    /// T.
     pub t: f64,
-    /// Weighting functions S_L, S_C, S_H (eq. 18–20).
+    /// Weighting functions S_L, S_C, S_H.
     pub sl: f64,
     pub sc: f64,
     pub sh: f64,
-    /// Rotation term R_T (eq. 21).
+    /// Rotation term R_T.
     pub rt: f64,
-    /// ΔE00 (eq. 22).
+    /// ΔE00.
     pub delta_e: f64,
 }
 
