@@ -136,6 +136,7 @@ fn cie76_and_cie94_match_colour_science_on_the_sharma_pairs() {
 /// colour/difference/tests/test_delta_e.py): very high chroma, far outside
 /// any real surface colour, which stresses the weighting functions.
 #[test]
+#[allow(clippy::excessive_precision)] // the values are copied digit for digit
 fn colour_science_unit_test_values() {
     let p1 = Lab::new(48.99183622, -0.10561667, 400.65619925);
     let p2 = Lab::new(50.65907324, -0.11671910, 402.82235718);
