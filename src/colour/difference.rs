@@ -51,7 +51,53 @@ pub fn ciede2000(a: Lab, b: Lab) -> f64 {
 
 /// CIEDE2000 following the equations of Sharma, Wu & Dalal (2005), eq. 1–22,
 /// including their conventions for the mean hue when a chroma is zero.
+#[inline]
 pub fn ciede2000_with(lab1: Lab, lab2: Lab, w: De2000Weights) -> f64 {
+    ciede2000_terms(lab1, lab2, w).delta_e
+}
+
+/// The intermediate terms of CIEDE2000 for one pair, named as in Sharma, Wu &
+/// Dalal (2005), Table 1 (hues in degrees). Useful to explain a
+/// difference and to check an implementation term by term.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct De2000Terms {
+    /// G, the factor that stretches a* near the neutral axis.
+    pub g: f64,
+    /// a'₁, a'₂.
+    pub a1p: f64,
+    pub a2p: f64,
+    /// C'₁, C'₂.
+    pub c1p: f64,
+    pub c2p: f64,
+    /// h'₁, h'₂ in 0..360.
+    pub h1p: f64,
+    pub h2p: f64,
+    /// ΔL', ΔC', ΔH', sample 2 minus sample 1.
+    pub dl: f64,
+    pub dc: f64,
+    pub dh: f64,
+    /// Mean hue h̄'.
+    pub h_mean: f64,
+    /// T.
+    pub t: f64,
+    /// Weighting functions S_L, S_C, S_H.
+    pub sl: f64,
+    pub sc: f64,
+    pub sh: f64,
+    /// Rotation term R_T.
+    pub rt: f64,
+    /// ΔE00.
+    pub delta_e: f64,
+}
+
+/// All the terms of CIEDE2000 for one pair (see [`De2000Terms`]).
+///
+/// Where h'₁ and h'₂ are exactly opposite (|h'₁ − h'₂| = 180°, pair 14 of
+/// Sharma et al.), the formula is discontinuous and the branch taken would
+/// depend on the last bit of `atan2`. The opposite case is detected exactly
+/// from the a', b' vectors (their cross product is zero and their dot product
+/// negative), so the result follows the published value on every platform.
+pub fn ciede2000_terms(lab1: Lab, lab2: Lab, w: De2000Weights) -> De2000Terms {
     const POW25_7: f64 = 6_103_515_625.0; // 25^7
     let c1 = lab1.chroma();
     let c2 = lab2.chroma();
@@ -76,17 +122,17 @@ pub fn ciede2000_with(lab1: Lab, lab2: Lab, w: De2000Weights) -> f64 {
     let dlp = lab2.l - lab1.l;
     let dcp = c2p - c1p;
     let product = c1p * c2p;
+    // Exactly opposite hues: |h'₁ − h'₂| is 180° in exact arithmetic.
+    let opposite = product != 0.0 && a1p * lab2.b - lab1.b * a2p == 0.0 && a1p * a2p + lab1.b * lab2.b < 0.0;
+    let diff = if opposite { 180.0_f64.copysign(h2p - h1p) } else { h2p - h1p };
     let dhp = if product == 0.0 {
         0.0
+    } else if diff > 180.0 {
+        diff - 360.0
+    } else if diff < -180.0 {
+        diff + 360.0
     } else {
-        let d = h2p - h1p;
-        if d > 180.0 {
-            d - 360.0
-        } else if d < -180.0 {
-            d + 360.0
-        } else {
-            d
-        }
+        diff
     };
     let dhp_big = 2.0 * product.sqrt() * (dhp.to_radians() / 2.0).sin();
 
@@ -94,7 +140,7 @@ pub fn ciede2000_with(lab1: Lab, lab2: Lab, w: De2000Weights) -> f64 {
     let cp_bar = (c1p + c2p) / 2.0;
     let hp_bar = if product == 0.0 {
         h1p + h2p
-    } else if (h1p - h2p).abs() <= 180.0 {
+    } else if diff.abs() <= 180.0 {
         (h1p + h2p) / 2.0
     } else if h1p + h2p < 360.0 {
         (h1p + h2p + 360.0) / 2.0
@@ -118,7 +164,26 @@ pub fn ciede2000_with(lab1: Lab, lab2: Lab, w: De2000Weights) -> f64 {
     let tl = dlp / (w.kl * sl);
     let tc = dcp / (w.kc * sc);
     let th = dhp_big / (w.kh * sh);
-    (tl * tl + tc * tc + th * th + rt * tc * th).sqrt()
+    let delta_e = (tl * tl + tc * tc + th * th + rt * tc * th).sqrt();
+    De2000Terms {
+        g,
+        a1p,
+        a2p,
+        c1p,
+        c2p,
+        h1p,
+        h2p,
+        dl: dlp,
+        dc: dcp,
+        dh: dhp_big,
+        h_mean: hp_bar,
+        t,
+        sl,
+        sc,
+        sh,
+        rt,
+        delta_e,
+    }
 }
 
 #[cfg(test)]

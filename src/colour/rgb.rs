@@ -7,8 +7,8 @@
 //! - Display P3: the DCI-P3 primaries (SMPTE EG 432-1) with the D65 white and
 //!   the sRGB transfer curve.
 //! - opRGB: IEC 61966-2-5:2007 (primaries, D65 white, pure power 563/256).
-//! - ROMM RGB: ISO 22028-2:2013 (primaries, D50 white, 1/1.8 power with a
-//!   linear segment of slope 16 below 1/512).
+//! - ROMM RGB: ISO 22028-2:2013 (primaries, the ICC PCS D50 white, 1/1.8 power
+//!   with a linear segment of slope 16 below 1/512).
 //!
 //! XYZ in a space's own white is adapted to the PCS white D50 with Bradford.
 //! Linear and encoded values are different types so that they cannot be mixed.
@@ -81,6 +81,9 @@ impl Transfer {
     }
 }
 
+/// Chromaticity of the ICC PCS white X 0.9642, Y 1, Z 0.8249 (sum 2.7891): the white of ROMM RGB.
+const ROMM_WHITE: (f64, f64) = (0.9642 / 2.7891, 1.0 / 2.7891);
+
 /// The published definition of an RGB space.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct RgbDefinition {
@@ -127,7 +130,11 @@ impl RgbSpace {
             },
             RgbSpace::Romm => RgbDefinition {
                 primaries: [(0.7347, 0.2653), (0.1596, 0.8404), (0.0366, 0.0001)],
-                white: (0.3457, 0.3585),
+                // ROMM RGB is referred to the ICC PCS white itself (X 0.9642, Y 1, Z 0.8249), not
+                // to the rounded chromaticity 0.3457, 0.3585: its published 4-decimal matrix
+                // (ISO 22028-2; checked in tests/colour_standards.rs) has rows summing to exactly
+                // that white, and only this white reproduces it. So ROMM needs no adaptation.
+                white: ROMM_WHITE,
                 transfer: Transfer::Romm,
             },
         }
