@@ -544,76 +544,85 @@ impl Separator {
         (ink, self.printed_relative(ink))
     }
 
-    /// Samples the boundary faces of the feasible ink set and describes the
+    /// Samples the boundary of the feasible ink set and describes the
     /// printable gamut (media-relative).
+    ///
+    /// The outer surface of the gamut is the image of the two-dimensional
+    /// faces of the ink box (two inks at a bound), of the faces where the ink
+    /// limit meets one bound, and of folds inside the three-dimensional faces:
+    /// the first two are sampled densely, the three-dimensional faces coarsely.
     fn build_gamut_boundary(&self) -> GamutBoundary {
         use rayon::prelude::*;
-        const N: usize = 33;
+        const DENSE: usize = 129;
+        const COARSE: usize = 17;
         let b = self.bounds;
-        let step = |i: usize| i as f64 / (N - 1) as f64;
-        // Faces of the box: one coordinate at a bound, the other three on a grid.
-        let mut faces: Vec<(usize, f64)> = Vec::new();
-        for axis in 0..4 {
-            let upper = if axis == 3 { b.k_max } else { 1.0 };
-            faces.push((axis, 0.0));
-            faces.push((axis, upper));
+        let upper = |a: usize| if a == 3 { b.k_max } else { 1.0 };
+        // Each job: a set of fixed coordinates, the free ones on a grid, and
+        // optionally one coordinate solved from the ink limit.
+        struct Job {
+            fixed: Vec<(usize, f64)>,
+            free: Vec<usize>,
+            solved: Option<usize>,
+            steps: usize,
         }
-        let mut samples: Vec<Lab> = faces
-            .par_iter()
-            .flat_map_iter(|&(axis, value)| {
-                let mut out = Vec::with_capacity(N * N * N);
-                for i in 0..N {
-                    for j in 0..N {
-                        for l in 0..N {
-                            let mut free = [step(i), step(j), step(l)].into_iter();
-                            let x: [f64; 4] = std::array::from_fn(|a| {
-                                if a == axis {
-                                    value
-                                } else {
-                                    let v = free.next().unwrap_or(0.0);
-                                    if a == 3 { v * b.k_max } else { v }
-                                }
-                            });
-                            if x.iter().sum::<f64>() <= b.tac {
-                                out.push(self.printed_relative(Cmyk::from_array(x)));
-                            }
-                        }
+        let mut jobs = Vec::new();
+        for a1 in 0..4 {
+            for a2 in a1 + 1..4 {
+                for (v1, v2) in [(0.0, 0.0), (0.0, 1.0), (1.0, 0.0), (1.0, 1.0)] {
+                    let free: Vec<usize> = (0..4).filter(|&a| a != a1 && a != a2).collect();
+                    jobs.push(Job { fixed: vec![(a1, v1 * upper(a1)), (a2, v2 * upper(a2))], free, solved: None, steps: DENSE });
+                }
+            }
+            for v in [0.0, 1.0] {
+                let free: Vec<usize> = (0..4).filter(|&a| a != a1).collect();
+                jobs.push(Job { fixed: vec![(a1, v * upper(a1))], free, solved: None, steps: COARSE });
+            }
+        }
+        if b.tac < 3.0 + b.k_max {
+            for bound in 0..4 {
+                for v in [0.0, 1.0] {
+                    let rest: Vec<usize> = (0..4).filter(|&a| a != bound).collect();
+                    for &solved in &rest {
+                        let free: Vec<usize> = rest.iter().copied().filter(|&a| a != solved).collect();
+                        jobs.push(Job { fixed: vec![(bound, v * upper(bound))], free, solved: Some(solved), steps: DENSE });
                     }
+                }
+            }
+            for solved in 0..4 {
+                let free: Vec<usize> = (0..4).filter(|&a| a != solved).collect();
+                jobs.push(Job { fixed: vec![], free, solved: Some(solved), steps: COARSE });
+            }
+        }
+        let mut samples: Vec<Lab> = jobs
+            .par_iter()
+            .flat_map_iter(|job| {
+                let n = job.steps;
+                let count = n.pow(job.free.len() as u32);
+                let mut out = Vec::with_capacity(count);
+                for idx in 0..count {
+                    let mut x = [0.0; 4];
+                    for &(a, v) in &job.fixed {
+                        x[a] = v;
+                    }
+                    let mut rem = idx;
+                    for &a in &job.free {
+                        x[a] = (rem % n) as f64 / (n - 1) as f64 * upper(a);
+                        rem /= n;
+                    }
+                    if let Some(sv) = job.solved {
+                        let rest = b.tac - (x.iter().sum::<f64>() - x[sv]);
+                        if !(0.0..=upper(sv)).contains(&rest) {
+                            continue;
+                        }
+                        x[sv] = rest;
+                    } else if x.iter().sum::<f64>() > b.tac + 1e-12 {
+                        continue;
+                    }
+                    out.push(self.printed_relative(Cmyk::from_array(x)));
                 }
                 out
             })
             .collect();
-        // The face of the ink limit: solve for each coordinate in turn.
-        if b.tac < 1.0 + 1.0 + 1.0 + b.k_max {
-            let tac_face: Vec<Lab> = (0..4usize)
-                .into_par_iter()
-                .flat_map_iter(|solved| {
-                    let mut out = Vec::new();
-                    for i in 0..N {
-                        for j in 0..N {
-                            for l in 0..N {
-                                let mut free = [step(i), step(j), step(l)].into_iter();
-                                let mut x = [0.0; 4];
-                                for (a, slot) in x.iter_mut().enumerate() {
-                                    if a != solved {
-                                        let v = free.next().unwrap_or(0.0);
-                                        *slot = if a == 3 { v * b.k_max } else { v };
-                                    }
-                                }
-                                let rest = b.tac - x.iter().sum::<f64>();
-                                let upper = if solved == 3 { b.k_max } else { 1.0 };
-                                if (0.0..=upper).contains(&rest) {
-                                    x[solved] = rest;
-                                    out.push(self.printed_relative(Cmyk::from_array(x)));
-                                }
-                            }
-                        }
-                    }
-                    out
-                })
-                .collect();
-            samples.extend(tac_face);
-        }
         // The edges of the ink box carry the ridges and cusps of the gamut
         // (solids, overprints): sample them densely.
         const EDGE_STEPS: usize = 512;
