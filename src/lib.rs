@@ -9,8 +9,11 @@ pub mod cli;
 pub mod colour;
 pub mod error;
 pub mod ink;
+pub mod job;
 pub mod press;
 pub mod report;
 pub mod separation;
+pub mod source;
+pub mod ticket;
 
 pub use error::{Error, Result};

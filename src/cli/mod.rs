@@ -2,6 +2,7 @@
 
 pub mod options;
 pub mod recipe;
+pub mod separate;
 
 use crate::error::Result;
 use clap::{Parser, Subcommand};
@@ -23,12 +24,15 @@ pub struct Cli {
 pub enum Command {
     /// One colour → its CMYK build, the printed colour, ΔE and what limits it.
     Recipe(recipe::RecipeArgs),
+    /// Separate images into a composite CMYK TIFF and one plate per ink.
+    Separate(separate::SeparateArgs),
 }
 
 /// Runs a parsed command line; the returned code is the process exit code.
 pub fn run(cli: Cli) -> Result<i32> {
     match cli.command {
         Command::Recipe(args) => recipe::run(args),
+        Command::Separate(args) => separate::run(args),
     }
 }
 

@@ -4,7 +4,8 @@ use crate::colour::RgbSpace;
 use crate::error::{Error, Result};
 use crate::press::PrintingCondition;
 use crate::separation::{Intent, SeparationSettings};
-use clap::Args;
+use crate::ticket::Ticket;
+use clap::{Args, ValueEnum};
 
 /// Named source RGB spaces, as typed on the command line.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
@@ -29,6 +30,9 @@ impl From<SourceSpaceArg> for RgbSpace {
 /// The printing condition, rendering intent, ink limit and black generation.
 #[derive(Debug, Clone, Default, Args)]
 pub struct ModelArgs {
+    /// Job ticket (TOML) with the job's settings; flags override it.
+    #[arg(long, value_name = "FILE")]
+    pub ticket: Option<std::path::PathBuf>,
     /// Printing condition: a built-in name (see `platesmith conditions list`)
     /// or a condition file (.toml). Default: coated-offset.
     #[arg(long, value_name = "NAME|FILE")]
@@ -73,8 +77,37 @@ pub struct ModelArgs {
 #[derive(Debug, Clone)]
 pub struct ModelSetup {
     pub condition: PrintingCondition,
+    /// The name or file the condition came from, as given.
+    pub condition_spec: String,
     pub settings: SeparationSettings,
     pub source_space: RgbSpace,
+    /// The ticket the job was read from (empty when none).
+    pub ticket: Ticket,
+}
+
+impl ModelSetup {
+    /// The effective model settings as a ticket section (percent), so a job
+    /// can be repeated exactly.
+    pub fn model_section(&self) -> crate::ticket::ModelSection {
+        let s = &self.settings;
+        let r = |v: f64| crate::report::round_to(v * 100.0, 4);
+        crate::ticket::ModelSection {
+            condition: Some(self.condition_spec.clone()),
+            source_condition: self.ticket.model.source_condition.clone(),
+            intent: Some(s.intent.name().to_string()),
+            bpc: Some(s.bpc),
+            tac: Some(r(s.tac)),
+            gcr: Some(r(s.black.gcr)),
+            black_start: Some(r(s.black.black_start)),
+            black_max: Some(r(s.black.black_max)),
+            black_shape: Some(s.black.shape),
+            uca: Some(r(s.black.uca)),
+            keep_pure_black: Some(s.keep_pure_black),
+            table_grid: Some(s.table_grid),
+            source_space: Some(self.source_space.name().to_string()),
+            gray: self.ticket.model.gray.clone(),
+        }
+    }
 }
 
 fn percent(name: &str, value: f64, lo: f64, hi: f64) -> Result<f64> {
@@ -86,10 +119,39 @@ fn percent(name: &str, value: f64, lo: f64, hi: f64) -> Result<f64> {
 }
 
 impl ModelArgs {
-    /// Resolves the condition and applies the flags over its defaults.
+    /// Resolves the condition and applies the ticket, then the flags, over its defaults.
     pub fn resolve(&self) -> Result<ModelSetup> {
-        let condition = crate::press::load_condition(self.condition.as_deref().unwrap_or(crate::press::DEFAULT_CONDITION))?;
+        let ticket = match &self.ticket {
+            Some(path) => Ticket::load(path)?,
+            None => Ticket::default(),
+        };
+        let t = &ticket.model;
+        let condition_spec = self
+            .condition
+            .clone()
+            .or_else(|| t.condition.clone())
+            .unwrap_or_else(|| crate::press::DEFAULT_CONDITION.to_string());
+        let condition = crate::press::load_condition(&condition_spec).map_err(|e| match (&self.condition, &self.ticket) {
+            (None, Some(_)) if t.condition.is_some() => ticket.error_at("model", "condition", format!("= \"{condition_spec}\": {e}")),
+            _ => e,
+        })?;
         let mut settings = SeparationSettings::for_condition(&condition);
+        // The ticket first (its values were range-checked when it was read)…
+        if let Some(i) = &t.intent {
+            settings.intent = Intent::from_str(i, true).map_err(|_| ticket.error_at("model", "intent", format!("= \"{i}\" is not an intent")))?;
+        }
+        let pct = |v: f64| v / 100.0;
+        settings.bpc = t.bpc.unwrap_or(settings.bpc);
+        settings.tac = t.tac.map(pct).unwrap_or(settings.tac);
+        settings.black.gcr = t.gcr.map(pct).unwrap_or(settings.black.gcr);
+        settings.black.black_start = t.black_start.map(pct).unwrap_or(settings.black.black_start);
+        settings.black.black_max = t.black_max.map(pct).unwrap_or(settings.black.black_max);
+        settings.black.shape = t.black_shape.unwrap_or(settings.black.shape);
+        settings.black.uca = t.uca.map(pct).unwrap_or(settings.black.uca);
+        settings.keep_pure_black = t.keep_pure_black.unwrap_or(settings.keep_pure_black);
+        settings.table_grid = t.table_grid.unwrap_or(settings.table_grid);
+        let mut source_space = t.source_space.as_deref().and_then(RgbSpace::from_name).unwrap_or(RgbSpace::Srgb);
+        // …then the flags.
         if let Some(i) = self.intent {
             settings.intent = i;
         }
@@ -107,6 +169,9 @@ impl ModelArgs {
             settings.black.black_max = percent("black-max", v, 0.0, 100.0)?;
         }
         if let Some(v) = self.black_shape {
+            if !(v.is_finite() && (0.2..=5.0).contains(&v)) {
+                return Err(Error::usage(format!("--black-shape {v}: allowed range is 0.2–5")));
+            }
             settings.black.shape = v;
         }
         if let Some(v) = self.uca {
@@ -114,10 +179,15 @@ impl ModelArgs {
         }
         settings.keep_pure_black |= self.keep_pure_black;
         if let Some(n) = self.table_grid {
+            if !(5..=129).contains(&n) {
+                return Err(Error::usage(format!("--table-grid {n}: allowed range is 5–129")));
+            }
             settings.table_grid = n;
         }
+        if let Some(s) = self.source_space {
+            source_space = s.into();
+        }
         settings.validate()?;
-        let source_space = self.source_space.map(RgbSpace::from).unwrap_or(RgbSpace::Srgb);
-        Ok(ModelSetup { condition, settings, source_space })
+        Ok(ModelSetup { condition, condition_spec, settings, source_space, ticket })
     }
 }

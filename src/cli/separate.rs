@@ -1,0 +1,184 @@
+//! `platesmith separate INPUT...`: rasters in, composite CMYK TIFF, plates
+//! and a summary out.
+
+use super::options::ModelArgs;
+use crate::error::{Error, Result};
+use crate::job::{GrayMode, JobOptions, PlateFormat, Workshop};
+use crate::raster::{Compression, Limits};
+use crate::report::SettingsReport;
+use crate::separation::Separator;
+use crate::ticket::{LimitsSection, OutputSection, Ticket};
+use clap::Args;
+use std::path::PathBuf;
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum CompressionArg {
+    None,
+    Lzw,
+    Deflate,
+}
+
+#[derive(Debug, Args)]
+pub struct SeparateArgs {
+    /// Images to separate (PNG, TIFF, JPEG; RGB, RGBA, gray).
+    #[arg(required_unless_present = "print_ticket")]
+    pub inputs: Vec<PathBuf>,
+    /// Folder for the outputs. Default: ./separated
+    #[arg(long, value_name = "DIR")]
+    pub out_dir: Option<PathBuf>,
+    #[command(flatten)]
+    pub model: ModelArgs,
+    /// Bits per sample of the outputs. Default: 8.
+    #[arg(long, value_parser = clap::builder::PossibleValuesParser::new(["8", "16"]))]
+    pub bits: Option<String>,
+    /// Plate files to write. Default: tiff.
+    #[arg(long, value_enum)]
+    pub plates: Option<PlateFormat>,
+    /// TIFF compression. Default: lzw.
+    #[arg(long, value_enum)]
+    pub compression: Option<CompressionArg>,
+    /// Grayscale input: separate as neutrals, or on the black plate only. Default: neutral.
+    #[arg(long, value_enum)]
+    pub gray: Option<GrayMode>,
+    /// Replace outputs that already exist.
+    #[arg(long)]
+    pub force: bool,
+    /// When an embedded profile is unusable, assume --source-space instead of failing.
+    #[arg(long)]
+    pub ignore_bad_profile: bool,
+    /// Largest width or height accepted, pixels. Default: 40000.
+    #[arg(long, value_name = "PIXELS")]
+    pub max_side: Option<u32>,
+    /// Largest decoded image accepted, MiB. Default: 4096.
+    #[arg(long, value_name = "MIB")]
+    pub max_memory: Option<u64>,
+    /// Print the effective ticket (all settings of this job) and exit.
+    #[arg(long)]
+    pub print_ticket: bool,
+}
+
+fn compression_name(c: Compression) -> &'static str {
+    match c {
+        Compression::None => "none",
+        Compression::Lzw => "lzw",
+        Compression::Deflate => "deflate",
+    }
+}
+
+pub fn run(args: SeparateArgs) -> Result<i32> {
+    let setup = args.model.resolve()?;
+    let t = &setup.ticket;
+    let out_dir = args.out_dir.clone().or_else(|| t.output.out_dir.clone()).unwrap_or_else(|| PathBuf::from("separated"));
+    let bits: u8 = match &args.bits {
+        Some(b) => b.parse().map_err(|_| Error::usage("--bits takes 8 or 16"))?,
+        None => t.output.bits.unwrap_or(8),
+    };
+    let plates = args.plates.unwrap_or(match t.output.plates.as_deref() {
+        Some("png") => PlateFormat::Png,
+        Some("none") => PlateFormat::None,
+        _ => PlateFormat::Tiff,
+    });
+    let compression = match args.compression {
+        Some(CompressionArg::None) => Compression::None,
+        Some(CompressionArg::Lzw) => Compression::Lzw,
+        Some(CompressionArg::Deflate) => Compression::Deflate,
+        None => match t.output.compression.as_deref() {
+            Some("none") => Compression::None,
+            Some("deflate") => Compression::Deflate,
+            _ => Compression::Lzw,
+        },
+    };
+    let gray = args.gray.unwrap_or(match t.model.gray.as_deref() {
+        Some("black-only") => GrayMode::BlackOnly,
+        _ => GrayMode::Neutral,
+    });
+    let mut limits = Limits::default();
+    if let Some(side) = args.max_side.or(t.limits.max_side) {
+        limits.max_width = side;
+        limits.max_height = side;
+    }
+    if let Some(mib) = args.max_memory.or(t.limits.max_memory_mib) {
+        limits.max_bytes = mib << 20;
+    }
+    if args.print_ticket {
+        let mut model = setup.model_section();
+        model.gray = Some(match gray {
+            GrayMode::Neutral => "neutral".into(),
+            GrayMode::BlackOnly => "black-only".into(),
+        });
+        let ticket = Ticket {
+            model,
+            output: OutputSection {
+                out_dir: Some(out_dir),
+                bits: Some(bits),
+                plates: Some(format!("{plates:?}").to_lowercase()),
+                compression: Some(compression_name(compression).into()),
+            },
+            limits: LimitsSection { max_side: Some(limits.max_width), max_memory_mib: Some(limits.max_bytes >> 20) },
+            checks: t.checks.clone(),
+            source: None,
+        };
+        crate::error::write_stdout(&ticket.to_toml()?)?;
+        return Ok(0);
+    }
+    std::fs::create_dir_all(&out_dir).map_err(|e| Error::output(&out_dir, format!("cannot create the folder: {e}")))?;
+    let report = SettingsReport::new(&setup.condition, &setup.settings, setup.source_space);
+    let separator = Separator::new(setup.condition.clone(), setup.settings.clone())?;
+    let options = JobOptions {
+        out_dir,
+        bits,
+        plates,
+        compression,
+        overwrite: args.force,
+        limits,
+        gray,
+        ignore_bad_profile: args.ignore_bad_profile,
+        source_space: setup.source_space,
+    };
+    let workshop = Workshop::new(separator, report, options);
+    let progress = progress_bar(args.inputs.len() as u64);
+    let (mut done, mut failed) = (0usize, 0usize);
+    for input in &args.inputs {
+        progress.set_message(input.display().to_string());
+        match workshop.run(input) {
+            Ok(s) => {
+                done += 1;
+                let [c, m, y, k] = [0, 1, 2, 3].map(|i| s.plates[i].mean_percent);
+                progress.println(format!(
+                    "{}: {} × {} px → {}  (C {c:.1} M {m:.1} Y {y:.1} K {k:.1} % mean; TAC max {:.1} % of {:.0} %; {:.0} ms)",
+                    input.display(),
+                    s.width,
+                    s.height,
+                    s.outputs.first().map(String::as_str).unwrap_or(""),
+                    s.tac.max,
+                    s.tac.limit,
+                    s.timings.total_ms
+                ));
+            }
+            Err(e) => {
+                failed += 1;
+                progress.println(format!("platesmith: {e}"));
+            }
+        }
+        progress.inc(1);
+    }
+    progress.finish_and_clear();
+    if args.inputs.len() > 1 {
+        eprintln!("{done} separated, {failed} failed");
+    }
+    eprintln!("{}", crate::report::PREDICTION_NOTE);
+    Ok(if failed > 0 { 2 } else { 0 })
+}
+
+/// A progress bar on an interactive terminal, nothing otherwise; never coloured.
+fn progress_bar(len: u64) -> indicatif::ProgressBar {
+    use std::io::IsTerminal;
+    if !std::io::stderr().is_terminal() {
+        return indicatif::ProgressBar::hidden();
+    }
+    let bar = indicatif::ProgressBar::new(len);
+    if let Ok(style) = indicatif::ProgressStyle::with_template("{pos}/{len} [{bar:30}] {wide_msg}") {
+        bar.set_style(style.progress_chars("=> "));
+    }
+    bar
+}

@@ -1,0 +1,451 @@
+//! One separation job: an image in, a composite CMYK TIFF, one plate per ink
+//! and a JSON summary out, written as a set (all files or none).
+
+use crate::colour::RgbSpace;
+use std::borrow::Cow;
+use crate::error::{Error, Result};
+use crate::ink::{Cmyk, Ink};
+use crate::raster::{CmykImage, Compression, Layout, Limits, OutputSet, Raster, Resolution, Samples, TiffOptions};
+use crate::report::{SettingsReport, round_to};
+use crate::separation::{SeparationTable, Separator};
+use crate::source::RgbSource;
+use rayon::prelude::*;
+use serde::Serialize;
+use std::collections::HashMap;
+use std::path::{Path, PathBuf};
+use std::sync::{Arc, Mutex};
+use std::time::Instant;
+
+/// What to do with the plates.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum PlateFormat {
+    /// One single-ink TIFF per plate (WhiteIsZero: the sample is the ink value).
+    Tiff,
+    /// One 8-bit PNG preview per plate, ink dark on white.
+    Png,
+    /// No plate files, the composite only.
+    None,
+}
+
+/// How grayscale input is separated.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum GrayMode {
+    /// As neutral RGB through the full separation.
+    Neutral,
+    /// On the black plate only, matching lightness.
+    BlackOnly,
+}
+
+/// Output and input settings of a job.
+#[derive(Debug, Clone)]
+pub struct JobOptions {
+    pub out_dir: PathBuf,
+    pub bits: u8,
+    pub plates: PlateFormat,
+    pub compression: Compression,
+    pub overwrite: bool,
+    pub limits: Limits,
+    pub gray: GrayMode,
+    pub ignore_bad_profile: bool,
+    pub source_space: RgbSpace,
+}
+
+/// Ink statistics of a separated image.
+#[derive(Debug, Clone, Default)]
+pub struct InkStats {
+    pixels: u64,
+    /// Total ink histogram in steps of 0.5 % (0..=400 %).
+    tac_hist: Vec<u64>,
+    tac_sum: f64,
+    tac_max: f64,
+    over: u64,
+    plate_sum: [f64; 4],
+    plate_inked: [u64; 4],
+}
+
+impl std::ops::AddAssign for InkStats {
+    fn add_assign(&mut self, o: InkStats) {
+        if self.tac_hist.is_empty() {
+            self.tac_hist = vec![0; 801];
+        }
+        for (a, b) in self.tac_hist.iter_mut().zip(o.tac_hist) {
+            *a += b;
+        }
+        self.pixels += o.pixels;
+        self.tac_sum += o.tac_sum;
+        self.tac_max = self.tac_max.max(o.tac_max);
+        self.over += o.over;
+        for i in 0..4 {
+            self.plate_sum[i] += o.plate_sum[i];
+            self.plate_inked[i] += o.plate_inked[i];
+        }
+    }
+}
+
+impl InkStats {
+    /// Statistics of interleaved CMYK samples with `max` = 100 % and the
+    /// ink limit `tac` (fraction).
+    pub fn of_samples(samples: &Samples, tac: f64) -> InkStats {
+        fn collect<T: Copy + Into<u32> + Sync>(v: &[T], max: f64, tac: f64) -> InkStats {
+            v.par_chunks(4 * 4096)
+                .map(|chunk| {
+                    let mut s = InkStats { tac_hist: vec![0; 801], ..Default::default() };
+                    for px in chunk.chunks_exact(4) {
+                        let f: [f64; 4] = std::array::from_fn(|i| px[i].into() as f64 / max);
+                        let total = f.iter().sum::<f64>();
+                        s.pixels += 1;
+                        s.tac_hist[((total * 200.0).round() as usize).min(800)] += 1;
+                        s.tac_sum += total;
+                        s.tac_max = s.tac_max.max(total);
+                        if total > tac + 0.5 / 100.0 {
+                            s.over += 1;
+                        }
+                        for i in 0..4 {
+                            s.plate_sum[i] += f[i];
+                            if f[i] >= 0.01 {
+                                s.plate_inked[i] += 1;
+                            }
+                        }
+                    }
+                    s
+                })
+                .reduce(InkStats::default, |mut a, b| {
+                    a += b;
+                    a
+                })
+        }
+        match samples {
+            Samples::U8(v) => collect(v, 255.0, tac),
+            Samples::U16(v) => collect(v, 65535.0, tac),
+        }
+    }
+
+    /// Total ink at quantile `q`, percent.
+    pub fn tac_quantile(&self, q: f64) -> f64 {
+        let target = (self.pixels as f64 * q).ceil() as u64;
+        let mut seen = 0;
+        for (i, n) in self.tac_hist.iter().enumerate() {
+            seen += n;
+            if seen >= target.max(1) {
+                return i as f64 * 0.5;
+            }
+        }
+        400.0
+    }
+}
+
+#[derive(Debug, Serialize)]
+pub struct PlateSummary {
+    pub ink: &'static str,
+    /// Mean tone value over the image, percent.
+    pub mean_percent: f64,
+    /// Share of the image with at least 1 % of this ink, percent.
+    pub inked_area_percent: f64,
+}
+
+#[derive(Debug, Serialize)]
+pub struct TacSummary {
+    pub limit: f64,
+    pub max: f64,
+    pub p99: f64,
+    pub mean: f64,
+    /// Share of pixels over the limit (beyond 0.5 % rounding), as a fraction.
+    pub over_fraction: f64,
+}
+
+#[derive(Debug, Serialize)]
+pub struct Timings {
+    pub read_ms: f64,
+    pub table_ms: f64,
+    pub separate_ms: f64,
+    pub write_ms: f64,
+    pub total_ms: f64,
+}
+
+/// The summary written beside the plates.
+#[derive(Debug, Serialize)]
+pub struct JobSummary {
+    pub file: String,
+    pub outputs: Vec<String>,
+    pub width: u32,
+    pub height: u32,
+    pub resolution_ppi: [f64; 2],
+    pub input: String,
+    pub source: String,
+    pub notes: Vec<String>,
+    pub settings: SettingsReport,
+    pub bits: u8,
+    pub plates: Vec<PlateSummary>,
+    pub tac: TacSummary,
+    pub timings: Timings,
+    pub note: &'static str,
+}
+
+/// The shared state of a run: one separator, tables cached per source.
+pub struct Workshop {
+    pub separator: Separator,
+    pub settings_report: SettingsReport,
+    pub options: JobOptions,
+    tables: Mutex<HashMap<Vec<u8>, Arc<SeparationTable>>>,
+}
+
+fn ms(t: Instant) -> f64 {
+    round_to(t.elapsed().as_secs_f64() * 1000.0, 1)
+}
+
+impl Workshop {
+    pub fn new(separator: Separator, settings_report: SettingsReport, options: JobOptions) -> Workshop {
+        Workshop { separator, settings_report, options, tables: Mutex::new(HashMap::new()) }
+    }
+
+    /// The table for a source, built once per run.
+    fn table(&self, key: &[u8], source: &RgbSource) -> Arc<SeparationTable> {
+        if let Some(t) = self.tables.lock().ok().and_then(|m| m.get(key).cloned()) {
+            return t;
+        }
+        let n = self.separator.settings().table_grid;
+        let labs = source.node_labs(n);
+        let gamut = source.gamut();
+        let mapping = self.separator.source_mapping(gamut.as_ref());
+        let lookup = |rgb: [f64; 3]| {
+            let idx = |v: f64| (v * (n - 1) as f64).round() as usize;
+            labs[(idx(rgb[0]) * n + idx(rgb[1])) * n + idx(rgb[2])]
+        };
+        let table = Arc::new(SeparationTable::build(&self.separator, &mapping, &lookup));
+        if let Ok(mut m) = self.tables.lock() {
+            m.insert(key.to_vec(), table.clone());
+        }
+        table
+    }
+
+    /// The RGB source of a file: its embedded profile, or the assumed space.
+    fn source_of(&self, raster: &Raster, path: &Path, notes: &mut Vec<String>) -> Result<(Vec<u8>, RgbSource)> {
+        let assumed = RgbSource::Named(self.options.source_space);
+        match &raster.icc_profile {
+            Some(bytes) if raster.layout != Layout::Gray && raster.layout != Layout::GrayAlpha => match RgbSource::from_icc(bytes, path) {
+                Ok(s) => Ok((bytes.clone(), s)),
+                Err(e) if self.options.ignore_bad_profile => {
+                    notes.push(format!("{e}; ignored, {} assumed", self.options.source_space.name()));
+                    Ok((Vec::new(), assumed))
+                }
+                Err(e) => Err(Error::input(path, format!("{}; give --ignore-bad-profile to assume {} instead", strip_path(&e, path), self.options.source_space.name()))),
+            },
+            Some(_) => {
+                notes.push(format!("gray profile not used; {} gray assumed", self.options.source_space.name()));
+                Ok((Vec::new(), assumed))
+            }
+            None => {
+                notes.push(format!("no embedded profile; {} assumed", self.options.source_space.name()));
+                Ok((Vec::new(), assumed))
+            }
+        }
+    }
+
+    /// Separates one file and writes its outputs.
+    pub fn run(&self, path: &Path) -> Result<JobSummary> {
+        let total = Instant::now();
+        let t = Instant::now();
+        let raster = crate::raster::read_raster(path, &self.options.limits)?;
+        let read_ms = ms(t);
+        let mut notes = Vec::new();
+        let t = Instant::now();
+        let gray = matches!(raster.layout, Layout::Gray | Layout::GrayAlpha);
+        let (image, table_ms, separate_ms) = match to_rgb(&raster, &mut notes) {
+            Some(_) if gray && self.options.gray == GrayMode::BlackOnly => {
+                let cmyk = self.gray_to_black(&raster);
+                notes.push("gray input on the black plate only".into());
+                (cmyk, 0.0, ms(t))
+            }
+            Some(rgb) => {
+                if gray {
+                    notes.push("gray separated as neutrals".into());
+                }
+                let (key, source) = self.source_of(&raster, path, &mut notes)?;
+                let table = self.table(&key, &source);
+                let table_ms = ms(t);
+                let t2 = Instant::now();
+                let cmyk = self.apply(&table, &rgb, raster.width as usize);
+                (cmyk, table_ms, ms(t2))
+            }
+            None => {
+                return Err(Error::input(path, "CMYK input is re-separated with `--source-condition`; this build does not re-separate CMYK yet"));
+            }
+        };
+        let image = CmykImage::new(raster.width, raster.height, image)?;
+        let stats = InkStats::of_samples(&image.samples, self.separator.settings().tac);
+        let t = Instant::now();
+        let stem = path.file_stem().and_then(|s| s.to_str()).unwrap_or("image").to_string();
+        let mut out = OutputSet::new(&self.options.out_dir, self.options.overwrite)?;
+        out.protect([path]);
+        let tiff = TiffOptions { compression: self.options.compression, resolution: raster.resolution, icc_profile: None };
+        out.stage(&format!("{stem}.cmyk.tif"), |w| crate::raster::write_cmyk_tiff(w, &image, &tiff))?;
+        for ink in crate::raster::Ink::ALL {
+            match self.options.plates {
+                PlateFormat::Tiff => {
+                    out.stage(&format!("{stem}.{}.tif", ink.letter()), |w| crate::raster::write_plate_tiff(w, &image, ink, &tiff))?;
+                }
+                PlateFormat::Png => {
+                    out.stage(&format!("{stem}.{}.png", ink.letter()), |w| crate::raster::write_plate_png(w, &image, ink, raster.resolution))?;
+                }
+                PlateFormat::None => {}
+            }
+        }
+        let res = raster.resolution.unwrap_or(Resolution::DEFAULT);
+        let mut outputs: Vec<String> = out.staged().iter().map(|p| p.display().to_string()).collect();
+        let summary_name = format!("{stem}.summary.json");
+        outputs.push(self.options.out_dir.join(&summary_name).display().to_string());
+        let px = stats.pixels.max(1) as f64;
+        let mut summary = JobSummary {
+            file: path.display().to_string(),
+            outputs,
+            width: raster.width,
+            height: raster.height,
+            resolution_ppi: [res.x_ppi, res.y_ppi],
+            input: format!("{} {:?} {}-bit", raster.format.name(), raster.layout, raster.bits),
+            source: String::new(),
+            notes,
+            settings: self.settings_report.clone(),
+            bits: self.options.bits,
+            plates: Ink::ALL
+                .iter()
+                .map(|&ink| PlateSummary {
+                    ink: ink.name(),
+                    mean_percent: round_to(stats.plate_sum[ink.index()] / px * 100.0, 2),
+                    inked_area_percent: round_to(stats.plate_inked[ink.index()] as f64 / px * 100.0, 2),
+                })
+                .collect(),
+            tac: TacSummary {
+                limit: round_to(self.separator.settings().tac * 100.0, 1),
+                max: round_to(stats.tac_max * 100.0, 1),
+                p99: stats.tac_quantile(0.99),
+                mean: round_to(stats.tac_sum / px * 100.0, 1),
+                over_fraction: stats.over as f64 / px,
+            },
+            timings: Timings { read_ms, table_ms, separate_ms, write_ms: 0.0, total_ms: 0.0 },
+            note: crate::report::PREDICTION_NOTE,
+        };
+        summary.source = summary.notes.iter().find(|n| n.contains("assumed")).map(|_| format!("{} (assumed)", self.options.source_space.name())).unwrap_or_else(|| "embedded ICC profile".into());
+        summary.timings.write_ms = ms(t);
+        summary.timings.total_ms = ms(total);
+        let json = serde_json::to_string_pretty(&summary).map_err(|e| Error::Internal(e.to_string()))?;
+        out.stage(&summary_name, |w| std::io::Write::write_all(w, json.as_bytes()))?;
+        out.commit()?;
+        Ok(summary)
+    }
+
+    fn apply(&self, table: &SeparationTable, rgb: &Samples, width: usize) -> Samples {
+        let pixels = rgb.len() / 3;
+        match (rgb, self.options.bits) {
+            (Samples::U8(v), 8) => {
+                let mut out = vec![0u8; pixels * 4];
+                table.apply_rgb8(v, &mut out, width);
+                Samples::U8(out)
+            }
+            (Samples::U8(v), _) => {
+                let wide: Vec<u16> = v.iter().map(|&x| x as u16 * 257).collect();
+                let mut out = vec![0u16; pixels * 4];
+                table.apply_rgb16(&wide, &mut out, width);
+                Samples::U16(out)
+            }
+            (Samples::U16(v), 16) => {
+                let mut out = vec![0u16; pixels * 4];
+                table.apply_rgb16(v, &mut out, width);
+                Samples::U16(out)
+            }
+            (Samples::U16(v), _) => {
+                let mut out16 = vec![0u16; pixels * 4];
+                table.apply_rgb16(v, &mut out16, width);
+                Samples::U8(out16.par_iter().map(|&x| ((x as u32 + 128) / 257) as u8).collect())
+            }
+        }
+    }
+
+    /// Gray on black only: black whose printed lightness matches the gray's.
+    fn gray_to_black(&self, raster: &Raster) -> Samples {
+        let sep = &self.separator;
+        let conv = self.options.source_space.converter();
+        let k_max = sep.settings().black.black_max;
+        // Lightness of black-only builds, to invert by bisection.
+        let lightness_of = |k: f64| sep.printed_relative(Cmyk::new(0.0, 0.0, 0.0, k)).l;
+        let curve: Vec<f64> = (0..=4095)
+            .map(|i| {
+                let g = i as f64 / 4095.0;
+                let target = conv.to_lab(crate::colour::EncodedRgb([g, g, g])).l;
+                let (mut lo, mut hi) = (0.0, k_max);
+                for _ in 0..40 {
+                    let mid = 0.5 * (lo + hi);
+                    if lightness_of(mid) > target { lo = mid } else { hi = mid }
+                }
+                0.5 * (lo + hi)
+            })
+            .collect();
+        let max_in = raster.max_value() as f64;
+        let channels = raster.channels();
+        let k_at = |v: f64| curve[((v / max_in) * 4095.0).round() as usize];
+        let bits = self.options.bits;
+        let pure = sep.settings().keep_pure_black;
+        let k_code = |k: f64| if bits == 8 { k * 255.0 } else { k * 65535.0 };
+        let gray: Vec<f64> = match &raster.samples {
+            Samples::U8(v) => v.chunks_exact(channels).map(|p| flatten_gray(p[0] as f64, p.get(1).map(|&a| a as f64), max_in)).collect(),
+            Samples::U16(v) => v.chunks_exact(channels).map(|p| flatten_gray(p[0] as f64, p.get(1).map(|&a| a as f64), max_in)).collect(),
+        };
+        let k: Vec<f64> = gray.par_iter().map(|&g| if pure && g == 0.0 { 1.0 } else { k_at(g) }).collect();
+        if bits == 8 {
+            Samples::U8(k.iter().flat_map(|&k| [0, 0, 0, k_code(k).round() as u8]).collect())
+        } else {
+            Samples::U16(k.iter().flat_map(|&k| [0, 0, 0, k_code(k).round() as u16]).collect())
+        }
+    }
+}
+
+fn flatten_gray(g: f64, alpha: Option<f64>, max: f64) -> f64 {
+    match alpha {
+        Some(a) => g * a / max + max * (1.0 - a / max),
+        None => g,
+    }
+}
+
+/// The error text without the leading path (for wrapping with advice).
+fn strip_path(e: &Error, path: &Path) -> String {
+    let s = e.to_string();
+    s.strip_prefix(&format!("{}: ", path.display())).map(str::to_string).unwrap_or(s)
+}
+
+/// Interleaved RGB at the raster's depth: alpha flattened onto paper white
+/// (source white), gray expanded to neutral RGB. `None` for CMYK.
+fn to_rgb<'a>(raster: &'a Raster, notes: &mut Vec<String>) -> Option<Cow<'a, Samples>> {
+    fn convert<T: Copy + Into<u32> + TryFrom<u32> + Send + Sync>(v: &[T], layout: Layout, max: u32) -> Vec<T> {
+        let ch = layout.channels();
+        let cast = |x: u32| T::try_from(x.min(max)).ok().unwrap_or_else(|| unreachable_value());
+        v.par_chunks(ch)
+            .flat_map_iter(|p| {
+                let get = |i: usize| p[i].into();
+                let (r, g, b, a) = match layout {
+                    Layout::Gray => (get(0), get(0), get(0), max),
+                    Layout::GrayAlpha => (get(0), get(0), get(0), get(1)),
+                    Layout::Rgb => (get(0), get(1), get(2), max),
+                    Layout::Rgba => (get(0), get(1), get(2), get(3)),
+                    Layout::Cmyk => (0, 0, 0, max),
+                };
+                let flat = |c: u32| ((c as u64 * a as u64 + max as u64 * (max - a.min(max)) as u64 + max as u64 / 2) / max as u64) as u32;
+                [cast(flat(r)), cast(flat(g)), cast(flat(b))]
+            })
+            .collect()
+    }
+    fn unreachable_value<T>() -> T {
+        panic!("a clamped sample does not fit its own type")
+    }
+    if raster.layout == Layout::Cmyk {
+        return None;
+    }
+    if raster.layout.has_alpha() {
+        notes.push("alpha flattened onto paper white".into());
+    }
+    Some(match &raster.samples {
+        _ if raster.layout == Layout::Rgb => Cow::Borrowed(&raster.samples),
+        Samples::U8(v) => Cow::Owned(Samples::U8(convert(v, raster.layout, 255))),
+        Samples::U16(v) => Cow::Owned(Samples::U16(convert(v, raster.layout, 65535))),
+    })
+}

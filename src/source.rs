@@ -1,0 +1,118 @@
+//! Where source RGB colour comes from: a named RGB space, or the ICC profile
+//! embedded in the file, read through lcms2.
+//!
+//! Both give CIELAB D50 in the ICC profile connection space (media-relative
+//! colorimetry, ICC.1:2022 §6.3) for the nodes of the separation table, and a
+//! gamut for the perceptual intent.
+
+use crate::colour::{EncodedRgb, Lab, RgbSpace};
+use crate::error::{Error, Result};
+use crate::separation::{RgbGamut, SourceGamut};
+use lcms2::{CIExyY, ColorSpaceSignature, DisallowCache, Flags, GlobalContext, Intent, PixelFormat, Profile, Transform};
+use std::path::Path;
+
+/// An ICC-described RGB source, shareable across threads.
+pub struct IccRgb {
+    description: String,
+    to_lab: Transform<[f64; 3], [f64; 3], GlobalContext, DisallowCache>,
+    from_lab: Transform<[f64; 3], [f64; 3], GlobalContext, DisallowCache>,
+}
+
+/// The colour space of source RGB values.
+pub enum RgbSource {
+    Named(RgbSpace),
+    Icc(Box<IccRgb>),
+}
+
+impl RgbSource {
+    /// Opens an embedded RGB profile; `file` names the image for errors.
+    pub fn from_icc(bytes: &[u8], file: &Path) -> Result<RgbSource> {
+        let bad = |what: &str| Error::input(file, format!("embedded ICC profile {what}"));
+        let profile = Profile::new_icc(bytes).map_err(|e| bad(&format!("cannot be read ({e})")))?;
+        if profile.color_space() != ColorSpaceSignature::RgbData {
+            return Err(bad(&format!("describes {:?} data, not RGB", profile.color_space())));
+        }
+        let lab = Profile::new_lab4_context(GlobalContext::new(), CIExyY::d50()).map_err(|e| Error::Internal(e.to_string()))?;
+        let intent = Intent::RelativeColorimetric;
+        let to_lab = Transform::new_flags_context(GlobalContext::new(), &profile, PixelFormat::RGB_DBL, &lab, PixelFormat::Lab_DBL, intent, Flags::NO_CACHE)
+            .map_err(|e| bad(&format!("cannot convert to CIELAB ({e})")))?;
+        let from_lab = Transform::new_flags_context(GlobalContext::new(), &lab, PixelFormat::Lab_DBL, &profile, PixelFormat::RGB_DBL, intent, Flags::NO_CACHE)
+            .map_err(|e| bad(&format!("cannot convert from CIELAB ({e})")))?;
+        let description = profile
+            .info(lcms2::InfoType::Description, lcms2::Locale::none())
+            .filter(|d| !d.trim().is_empty())
+            .unwrap_or_else(|| "unnamed".to_string());
+        Ok(RgbSource::Icc(Box::new(IccRgb { description, to_lab, from_lab })))
+    }
+
+    /// How the summary names the source.
+    pub fn describe(&self) -> String {
+        match self {
+            RgbSource::Named(s) => s.name().to_string(),
+            RgbSource::Icc(p) => format!("embedded ICC profile \"{}\"", p.description),
+        }
+    }
+
+    /// CIELAB D50 of the nodes of an n³ table, in table order ((r·n + g)·n + b).
+    pub fn node_labs(&self, n: usize) -> Vec<Lab> {
+        let coord = |i: usize| i as f64 / (n - 1) as f64;
+        let rgb: Vec<[f64; 3]> = (0..n * n * n).map(|i| [coord(i / (n * n)), coord((i / n) % n), coord(i % n)]).collect();
+        match self {
+            RgbSource::Named(space) => {
+                let conv = space.converter();
+                rgb.iter().map(|&v| conv.to_lab(EncodedRgb(v))).collect()
+            }
+            RgbSource::Icc(p) => {
+                // lcms2's floating-point RGB is 0..1, its Lab_DBL is plain L*a*b*.
+                let mut out = vec![[0.0; 3]; rgb.len()];
+                p.to_lab.transform_pixels(&rgb, &mut out);
+                out.into_iter().map(Lab::from_array).collect()
+            }
+        }
+    }
+
+    /// The source gamut, for the perceptual intent.
+    pub fn gamut(&self) -> Box<dyn SourceGamut + '_> {
+        match self {
+            RgbSource::Named(space) => Box::new(RgbGamut(space.converter())),
+            RgbSource::Icc(p) => Box::new(IccGamut(p)),
+        }
+    }
+}
+
+struct IccGamut<'a>(&'a IccRgb);
+
+impl SourceGamut for IccGamut<'_> {
+    fn contains(&self, lab: Lab) -> bool {
+        let mut out = [[0.0; 3]];
+        self.0.from_lab.transform_pixels(&[lab.to_array()], &mut out);
+        let back = {
+            let mut l = [[0.0; 3]];
+            self.0.to_lab.transform_pixels(&out, &mut l);
+            Lab::from_array(l[0])
+        };
+        // lcms2 clamps where a profile is table-based: a colour is inside when
+        // it survives the round trip.
+        out[0].iter().all(|&v| (-1e-6..=1.0 + 1e-6).contains(&v)) && crate::colour::delta_e76(back, lab) < 0.5
+    }
+
+    fn primaries(&self) -> Option<[Lab; 6]> {
+        let corners = [[1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [0.0, 1.0, 0.0], [0.0, 1.0, 1.0], [0.0, 0.0, 1.0], [1.0, 0.0, 1.0]];
+        let mut out = [[0.0; 3]; 6];
+        self.0.to_lab.transform_pixels(&corners, &mut out);
+        Some(out.map(Lab::from_array))
+    }
+
+    fn ridge(&self) -> Option<Vec<Lab>> {
+        let corners = [[1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [0.0, 1.0, 0.0], [0.0, 1.0, 1.0], [0.0, 0.0, 1.0], [1.0, 0.0, 1.0]];
+        let pts = std::cell::RefCell::new(Vec::new());
+        crate::separation::gamut::ridge_samples(&corners, &|rgb| {
+            pts.borrow_mut().push(rgb);
+            Lab::default()
+        });
+        let pts = pts.into_inner();
+        let mut out = vec![[0.0; 3]; pts.len()];
+        self.0.to_lab.transform_pixels(&pts, &mut out);
+        Some(out.into_iter().map(Lab::from_array).collect())
+    }
+}

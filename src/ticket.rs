@@ -1,0 +1,253 @@
+//! Job tickets: a TOML file that holds every model, black generation, limit
+//! and output setting of a job, so that it can be repeated exactly. Flags on
+//! the command line override the ticket; the ticket overrides the printing
+//! condition's defaults. Values a person reads are percent.
+//!
+//! ```toml
+//! [model]
+//! condition = "coated-offset"
+//! intent = "perceptual"
+//! tac = 300
+//! gcr = 60
+//!
+//! [output]
+//! bits = 8
+//! plates = "tiff"
+//! ```
+
+use crate::error::{Error, Result};
+use serde::{Deserialize, Serialize};
+use std::path::{Path, PathBuf};
+
+/// The separation model of a job.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ModelSection {
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub condition: Option<String>,
+    /// Condition a CMYK input was separated for.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub source_condition: Option<String>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub intent: Option<String>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub bpc: Option<bool>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub tac: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub gcr: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub black_start: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub black_max: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub black_shape: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub uca: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub keep_pure_black: Option<bool>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub table_grid: Option<usize>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub source_space: Option<String>,
+    /// Grayscale input: "neutral" (separated as neutrals) or "black-only".
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub gray: Option<String>,
+}
+
+/// What a job writes.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct OutputSection {
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub out_dir: Option<PathBuf>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub bits: Option<u8>,
+    /// "tiff", "png" or "none".
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub plates: Option<String>,
+    /// "none", "lzw" or "deflate".
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub compression: Option<String>,
+}
+
+/// Resource limits for reading images.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LimitsSection {
+    /// Largest width or height accepted, pixels.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub max_side: Option<u32>,
+    /// Largest decoded image accepted, MiB.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub max_memory_mib: Option<u64>,
+}
+
+/// Pass/fail rules for checks (`inspect`, the hot folder).
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ChecksSection {
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub fail_if: Vec<String>,
+}
+
+/// A whole ticket.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Ticket {
+    #[serde(default)]
+    pub model: ModelSection,
+    #[serde(default)]
+    pub output: OutputSection,
+    #[serde(default)]
+    pub limits: LimitsSection,
+    #[serde(default)]
+    pub checks: ChecksSection,
+    /// Where the ticket was read from (for messages), not part of the file.
+    #[serde(skip)]
+    pub source: Option<(PathBuf, String)>,
+}
+
+/// The 1-based line where `section.key` is set in a ticket's text.
+pub fn line_of(text: &str, section: &str, key: &str) -> Option<usize> {
+    let mut current = String::new();
+    for (i, line) in text.lines().enumerate() {
+        let t = line.trim();
+        if let Some(rest) = t.strip_prefix('[') {
+            current = rest.trim_end_matches(']').trim().to_string();
+            continue;
+        }
+        if current == section {
+            if let Some((k, _)) = t.split_once('=') {
+                if k.trim().trim_matches('"') == key {
+                    return Some(i + 1);
+                }
+            }
+        }
+    }
+    None
+}
+
+impl Ticket {
+    /// Reads and validates a ticket file.
+    pub fn load(path: &Path) -> Result<Ticket> {
+        let text = std::fs::read_to_string(path).map_err(|e| Error::input(path, format!("cannot read the ticket: {e}")))?;
+        Ticket::parse(&text, path)
+    }
+
+    pub fn parse(text: &str, path: &Path) -> Result<Ticket> {
+        let mut ticket: Ticket = toml::from_str(text).map_err(|e| {
+            let line = e.span().map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1);
+            let msg = e.message().trim().to_string();
+            match line {
+                Some(l) => Error::input(path, format!("line {l}: {msg}")),
+                None => Error::input(path, msg),
+            }
+        })?;
+        ticket.source = Some((path.to_path_buf(), text.to_string()));
+        ticket.validate()?;
+        Ok(ticket)
+    }
+
+    /// An error about `section.key`, naming the ticket file and the line.
+    pub fn error_at(&self, section: &str, key: &str, message: impl std::fmt::Display) -> Error {
+        match &self.source {
+            Some((path, text)) => match line_of(text, section, key) {
+                Some(line) => Error::input(path, format!("line {line}: {section}.{key} {message}")),
+                None => Error::input(path, format!("{section}.{key} {message}")),
+            },
+            None => Error::usage(format!("{section}.{key} {message}")),
+        }
+    }
+
+    fn validate(&self) -> Result<()> {
+        let m = &self.model;
+        let ranges = [
+            ("tac", m.tac, 100.0, 400.0),
+            ("gcr", m.gcr, 0.0, 100.0),
+            ("black_start", m.black_start, 0.0, 99.0),
+            ("black_max", m.black_max, 0.0, 100.0),
+            ("black_shape", m.black_shape, 0.2, 5.0),
+            ("uca", m.uca, 0.0, 100.0),
+        ];
+        for (key, value, lo, hi) in ranges {
+            if let Some(v) = value {
+                if !(v.is_finite() && (lo..=hi).contains(&v)) {
+                    return Err(self.error_at("model", key, format!("= {v}: allowed range is {lo}–{hi}")));
+                }
+            }
+        }
+        if let Some(n) = m.table_grid {
+            if !(5..=129).contains(&n) {
+                return Err(self.error_at("model", "table_grid", format!("= {n}: allowed range is 5–129")));
+            }
+        }
+        let choice = |section: &str, key: &str, value: &Option<String>, allowed: &[&str]| -> Result<()> {
+            match value {
+                Some(v) if !allowed.contains(&v.as_str()) => {
+                    Err(self.error_at(section, key, format!("= \"{v}\": expected one of {}", allowed.join(", "))))
+                }
+                _ => Ok(()),
+            }
+        };
+        choice("model", "intent", &m.intent, &["perceptual", "relative", "absolute"])?;
+        choice("model", "source_space", &m.source_space, &["srgb", "display-p3", "oprgb", "romm"])?;
+        choice("model", "gray", &m.gray, &["neutral", "black-only"])?;
+        choice("output", "plates", &self.output.plates, &["tiff", "png", "none"])?;
+        choice("output", "compression", &self.output.compression, &["none", "lzw", "deflate"])?;
+        if let Some(b) = self.output.bits {
+            if b != 8 && b != 16 {
+                return Err(self.error_at("output", "bits", format!("= {b}: expected 8 or 16")));
+            }
+        }
+        if let Some(s) = self.limits.max_side {
+            if s == 0 {
+                return Err(self.error_at("limits", "max_side", "= 0: must be at least 1"));
+            }
+        }
+        if let Some(s) = self.limits.max_memory_mib {
+            if s == 0 {
+                return Err(self.error_at("limits", "max_memory_mib", "= 0: must be at least 1"));
+            }
+        }
+        Ok(())
+    }
+
+    /// The ticket as TOML text.
+    pub fn to_toml(&self) -> Result<String> {
+        toml::to_string_pretty(self).map_err(|e| Error::Internal(format!("cannot write the ticket: {e}")))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn unknown_keys_name_the_line() {
+        let err = Ticket::parse("[model]\ntac = 300\ncolour = 1\n", Path::new("job.toml")).unwrap_err().to_string();
+        assert!(err.contains("job.toml") && err.contains("line 3") && err.contains("colour"), "{err}");
+    }
+
+    #[test]
+    fn out_of_range_values_name_key_line_and_range() {
+        let err = Ticket::parse("[model]\n\ntac = 450\n", Path::new("job.toml")).unwrap_err().to_string();
+        assert!(err.contains("line 3") && err.contains("model.tac") && err.contains("100–400"), "{err}");
+        let err = Ticket::parse("[model]\ngcr = -5\n", Path::new("job.toml")).unwrap_err().to_string();
+        assert!(err.contains("line 2") && err.contains("model.gcr"), "{err}");
+    }
+
+    #[test]
+    fn broken_toml_names_the_line() {
+        let err = Ticket::parse("[model]\ntac = = 3\n", Path::new("job.toml")).unwrap_err().to_string();
+        assert!(err.contains("line 2"), "{err}");
+    }
+
+    #[test]
+    fn round_trip() {
+        let t = Ticket::parse("[model]\ntac = 300\nintent = \"relative\"\n[output]\nbits = 16\n", Path::new("a.toml")).unwrap();
+        let back = Ticket::parse(&t.to_toml().unwrap(), Path::new("b.toml")).unwrap();
+        assert_eq!(back.model, t.model);
+        assert_eq!(back.output, t.output);
+    }
+}
