@@ -10,6 +10,7 @@ pub mod colour;
 pub mod error;
 pub mod ink;
 pub mod press;
+pub mod raster;
 pub mod separation;
 
 pub use error::{Error, Result};
