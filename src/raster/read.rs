@@ -232,7 +232,11 @@ fn read_tiff(path: &Path, reader: BufReader<File>, limits: &Limits) -> Result<Ra
             "planar TIFF (PlanarConfiguration 2) is not supported; save it interleaved",
         ));
     }
-    if tag_u16(&mut dec, Tag::SampleFormat)?.is_some_and(|f| f != 1) {
+    let formats = dec
+        .find_tag_unsigned_vec::<u16>(Tag::SampleFormat)
+        .map_err(err)?
+        .unwrap_or_default();
+    if formats.iter().any(|&f| f != 1) {
         return Err(Error::input(
             path,
             "TIFF samples are not unsigned integers; use 8 or 16-bit integer samples",
