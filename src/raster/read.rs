@@ -54,11 +54,19 @@ pub fn read_raster(path: &Path, limits: &Limits) -> Result<Raster> {
         Some(ext) if ext != format => format!(" (the content is {}, despite the extension)", format.name()),
         _ => String::new(),
     };
-    let result = match format {
+    // A decoder that panics on a hostile file is a bug to report, not a crash.
+    let decoded = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| match format {
         Format::Png => read_png(path, reader, limits),
         Format::Tiff => read_tiff(path, reader, limits),
         Format::Jpeg => read_jpeg(path, reader, meta.len(), limits),
-    };
+    }));
+    let result = decoded.unwrap_or_else(|_| {
+        Err(Error::Internal(format!(
+            "the {} decoder failed on {}",
+            format.name(),
+            path.display()
+        )))
+    });
     result.map_err(|e| match e {
         Error::Input { path, message } if !hint.is_empty() => Error::Input {
             path,
@@ -95,6 +103,7 @@ fn is_truncation(message: &str) -> bool {
 }
 
 fn decode_error(path: &Path, format: Format, message: String) -> Error {
+    let message = message.split_whitespace().collect::<Vec<_>>().join(" ");
     if is_truncation(&message) {
         Error::input(
             path,
@@ -110,7 +119,18 @@ fn decode_error(path: &Path, format: Format, message: String) -> Error {
 
 // ---------------------------------------------------------------- PNG
 
-fn read_png(path: &Path, reader: BufReader<File>, limits: &Limits) -> Result<Raster> {
+fn read_png(path: &Path, mut reader: BufReader<File>, limits: &Limits) -> Result<Raster> {
+    // The header's claim is checked before the decoder reads on (it would fail on a file
+    // that is only a header, or go on to buffer chunks).
+    let mut head = [0u8; 26];
+    let n = read_up_to(&mut reader, &mut head)
+        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
+    if let Some((w, h, channels, bits)) = sniff::png_header(&head[..n]) {
+        limits.check(path, w, h, channels, bits)?;
+    }
+    reader
+        .seek(SeekFrom::Start(0))
+        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
     let mut decoder = png::Decoder::new(reader);
     // The png crate's own byte limit guards its chunk buffers (iCCP, text); the image buffer
     // is checked against our limits below, from the header, before it is allocated.
@@ -186,7 +206,7 @@ fn try_alloc_u8(path: &Path, size: usize) -> Result<Vec<u8>> {
 
 // ---------------------------------------------------------------- TIFF
 
-fn read_tiff(path: &Path, reader: BufReader<File>, limits: &Limits) -> Result<Raster> {
+fn read_tiff(path: &Path, mut reader: BufReader<File>, limits: &Limits) -> Result<Raster> {
     use tiff::ColorType as T;
     use tiff::tags::Tag;
     let err = |e: tiff::TiffError| decode_error(path, Format::Tiff, e.to_string());
@@ -194,6 +214,13 @@ fn read_tiff(path: &Path, reader: BufReader<File>, limits: &Limits) -> Result<Ra
     tl.decoding_buffer_size = usize::try_from(limits.max_bytes).unwrap_or(usize::MAX);
     tl.intermediate_buffer_size = tl.decoding_buffer_size;
     tl.ifd_value_size = 64 << 20; // room for large ICC profiles
+    // The first IFD's claim is checked before the decoder runs.
+    if let Some((w, h, channels, bits)) = sniff::tiff_header(&mut reader) {
+        limits.check(path, w, h, channels, bits)?;
+    }
+    reader
+        .seek(SeekFrom::Start(0))
+        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
     let mut dec = tiff::decoder::Decoder::new(reader).map_err(err)?.with_limits(tl);
     let (width, height) = dec.dimensions().map_err(err)?;
     let colortype = dec.colortype().map_err(|e| match e {
@@ -339,6 +366,12 @@ fn read_jpeg(path: &Path, mut reader: BufReader<File>, file_len: u64, limits: &L
         .read_to_end(&mut data)
         .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
     let header: JpegHeader = sniff::scan_jpeg(&data);
+    if !header.complete {
+        return Err(Error::input(
+            path,
+            "truncated JPEG file: the image data ends before the end-of-image marker",
+        ));
+    }
     // Strict mode turns a stream that ends early into an error instead of gray padding.
     let options = zune_core::options::DecoderOptions::default()
         .set_strict_mode(true)

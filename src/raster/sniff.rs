@@ -44,6 +44,9 @@ pub(crate) struct JpegHeader {
     pub adobe: bool,
     /// The Adobe transform flag (0 none/CMYK, 1 YCbCr, 2 YCCK).
     pub adobe_transform: Option<u8>,
+    /// An end-of-image marker follows the first scan: the entropy-coded data is complete.
+    /// (Entropy-coded bytes stuff every 0xFF with 0x00, so FF D9 after the first SOS is the EOI.)
+    pub complete: bool,
 }
 
 /// Walks the markers before the first scan (ISO/IEC 10918-1 annex B).
@@ -61,7 +64,11 @@ pub(crate) fn scan_jpeg(data: &[u8]) -> JpegHeader {
             i += 1; // fill byte
             continue;
         }
-        if marker == 0xD9 || marker == 0xDA {
+        if marker == 0xDA {
+            out.complete = data[i..].windows(2).any(|w| w == [0xFF, 0xD9]);
+            break;
+        }
+        if marker == 0xD9 {
             break;
         }
         if (0xD0..=0xD7).contains(&marker) || marker == 0x01 {
@@ -101,6 +108,104 @@ pub(crate) fn scan_jpeg(data: &[u8]) -> JpegHeader {
     }
     out.resolution = jfif.or(exif);
     out
+}
+
+/// Width, height, samples per pixel and bits per sample claimed by a PNG's IHDR chunk
+/// (ISO/IEC 15948 §11.2.2), read before the decoder runs. Palette images count 4 channels
+/// (the most they expand to).
+pub(crate) fn png_header(head: &[u8]) -> Option<(u32, u32, u8, u8)> {
+    if head.len() < 26 || &head[12..16] != b"IHDR" {
+        return None;
+    }
+    let width = u32::from_be_bytes(head[16..20].try_into().ok()?);
+    let height = u32::from_be_bytes(head[20..24].try_into().ok()?);
+    let depth = head[24];
+    let channels = match head[25] {
+        0 => 1,
+        2 => 3,
+        3 => 4,
+        4 => 2,
+        6 => 4,
+        _ => return None,
+    };
+    Some((width, height, channels, depth.max(8)))
+}
+
+/// Width, height, samples per pixel and bits per sample claimed by the first IFD of a TIFF
+/// or BigTIFF (TIFF 6.0 §2; BigTIFF: 8-byte offsets, 20-byte entries), read before the
+/// decoder runs so that a hostile header is refused before anything is allocated.
+pub(crate) fn tiff_header<R: std::io::Read + std::io::Seek>(r: &mut R) -> Option<(u32, u32, u8, u8)> {
+    use std::io::SeekFrom;
+    let mut head = [0u8; 16];
+    r.seek(SeekFrom::Start(0)).ok()?;
+    r.read_exact(&mut head[..8]).ok()?;
+    let le = match &head[0..2] {
+        b"II" => true,
+        b"MM" => false,
+        _ => return None,
+    };
+    let u16v = |b: &[u8]| {
+        if le {
+            u16::from_le_bytes([b[0], b[1]])
+        } else {
+            u16::from_be_bytes([b[0], b[1]])
+        }
+    };
+    let u32v = |b: &[u8]| {
+        let a = [b[0], b[1], b[2], b[3]];
+        if le {
+            u32::from_le_bytes(a)
+        } else {
+            u32::from_be_bytes(a)
+        }
+    };
+    let u64v = |b: &[u8]| {
+        let a: [u8; 8] = b[..8].try_into().unwrap_or([0; 8]);
+        if le {
+            u64::from_le_bytes(a)
+        } else {
+            u64::from_be_bytes(a)
+        }
+    };
+    let big = u16v(&head[2..4]) == 43;
+    let ifd = if big {
+        r.read_exact(&mut head[8..16]).ok()?;
+        u64v(&head[8..16])
+    } else {
+        u64::from(u32v(&head[4..8]))
+    };
+    r.seek(SeekFrom::Start(ifd)).ok()?;
+    let (count, entry_len) = if big {
+        let mut b = [0u8; 8];
+        r.read_exact(&mut b).ok()?;
+        (u64v(&b), 20usize)
+    } else {
+        let mut b = [0u8; 2];
+        r.read_exact(&mut b).ok()?;
+        (u64::from(u16v(&b)), 12usize)
+    };
+    let (mut width, mut height, mut spp, mut bits) = (None, None, 1u8, 1u8);
+    let mut entry = [0u8; 20];
+    for _ in 0..count.min(4096) {
+        r.read_exact(&mut entry[..entry_len]).ok()?;
+        let tag = u16v(&entry[0..2]);
+        let ty = u16v(&entry[2..4]);
+        let value_at = if big { 12 } else { 8 };
+        // The first value, inline: SHORT (3) or LONG (4); a list of shorts keeps its first inline too.
+        let first = match ty {
+            3 => u32::from(u16v(&entry[value_at..])),
+            4 => u32v(&entry[value_at..]),
+            _ => continue,
+        };
+        match tag {
+            256 => width = Some(first),
+            257 => height = Some(first),
+            258 => bits = u8::try_from(first).unwrap_or(u8::MAX),
+            277 => spp = u8::try_from(first).unwrap_or(u8::MAX),
+            _ => {}
+        }
+    }
+    Some((width?, height?, spp, bits))
 }
 
 /// XResolution (282), YResolution (283) and ResolutionUnit (296) from IFD0 of an EXIF
