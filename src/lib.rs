@@ -12,6 +12,7 @@ pub mod ink;
 pub mod job;
 pub mod press;
 pub mod report;
+pub mod raster;
 pub mod separation;
 pub mod source;
 pub mod ticket;

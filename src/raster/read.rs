@@ -1,0 +1,445 @@
+//! Decoding PNG (png crate), TIFF (tiff crate) and JPEG (zune-jpeg) into a [`Raster`].
+//! The format is told by the file's signature; the extension only improves messages.
+
+use std::fs::File;
+use std::io::{BufReader, Read, Seek, SeekFrom};
+use std::path::Path;
+
+use super::sniff::{self, JpegHeader};
+use super::{Format, Layout, Limits, Raster, Resolution, Samples};
+use crate::{Error, Result};
+
+/// Reads an image, refusing from its header anything over `limits`.
+///
+/// PNG: gray, gray+alpha, RGB, RGBA at 8 or 16 bit; palette and low-bit gray are expanded
+/// to 8 bit (a tRNS chunk becomes an alpha channel); pHYs and iCCP are read.
+/// TIFF: gray (BlackIsZero or WhiteIsZero, returned as gray level), gray+alpha, RGB, RGBA and
+/// CMYK (Separated, InkSet CMYK) at 8 or 16 bit, any compression the tiff crate decodes;
+/// XResolution/YResolution/ResolutionUnit and the ICC profile tag (34675) are read.
+/// JPEG: gray, YCbCr/RGB and CMYK/YCCK (Adobe APP14 inverted samples are turned round so
+/// 0 = no ink); the JFIF density or EXIF resolution and APP2 ICC_PROFILE chunks are read.
+pub fn read_raster(path: &Path, limits: &Limits) -> Result<Raster> {
+    let file = File::open(path).map_err(|e| Error::input(path, format!("cannot open: {}", io_reason(&e))))?;
+    let meta = file
+        .metadata()
+        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
+    if meta.is_dir() {
+        return Err(Error::input(path, "is a folder, not an image file"));
+    }
+    if meta.len() == 0 {
+        return Err(Error::input(path, "empty file (0 bytes), not an image"));
+    }
+    let mut reader = BufReader::with_capacity(1 << 16, file);
+    let mut head = [0u8; 8];
+    let n = read_up_to(&mut reader, &mut head)
+        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
+    reader
+        .seek(SeekFrom::Start(0))
+        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
+    let Some(format) = sniff::detect(&head[..n]) else {
+        let looks_text = head[..n]
+            .iter()
+            .all(|b| b.is_ascii_graphic() || b.is_ascii_whitespace());
+        let what = if looks_text {
+            "a text file"
+        } else {
+            "an unrecognised file"
+        };
+        return Err(Error::input(
+            path,
+            format!("not a PNG, TIFF or JPEG image (the content looks like {what})"),
+        ));
+    };
+    let hint = match sniff::format_from_extension(path) {
+        Some(ext) if ext != format => format!(" (the content is {}, despite the extension)", format.name()),
+        _ => String::new(),
+    };
+    // A decoder that panics on a hostile file is a bug to report, not a crash.
+    let decoded = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| match format {
+        Format::Png => read_png(path, reader, limits),
+        Format::Tiff => read_tiff(path, reader, limits),
+        Format::Jpeg => read_jpeg(path, reader, meta.len(), limits),
+    }));
+    let result = decoded.unwrap_or_else(|_| {
+        Err(Error::Internal(format!(
+            "the {} decoder failed on {}",
+            format.name(),
+            path.display()
+        )))
+    });
+    result.map_err(|e| match e {
+        Error::Input { path, message } if !hint.is_empty() => Error::Input {
+            path,
+            message: format!("{message}{hint}"),
+        },
+        other => other,
+    })
+}
+
+fn read_up_to(r: &mut impl Read, buf: &mut [u8]) -> std::io::Result<usize> {
+    let mut n = 0;
+    while n < buf.len() {
+        match r.read(&mut buf[n..]) {
+            Ok(0) => break,
+            Ok(k) => n += k,
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+            Err(e) => return Err(e),
+        }
+    }
+    Ok(n)
+}
+
+fn io_reason(e: &std::io::Error) -> String {
+    match e.kind() {
+        std::io::ErrorKind::NotFound => "no such file".into(),
+        std::io::ErrorKind::PermissionDenied => "permission denied".into(),
+        _ => e.to_string(),
+    }
+}
+
+fn is_truncation(message: &str) -> bool {
+    let m = message.to_ascii_lowercase();
+    m.contains("eof") || m.contains("end of file") || m.contains("truncat") || m.contains("no more bytes")
+}
+
+fn decode_error(path: &Path, format: Format, message: String) -> Error {
+    let message = message.split_whitespace().collect::<Vec<_>>().join(" ");
+    if is_truncation(&message) {
+        Error::input(
+            path,
+            format!("truncated {} file: the data ends early ({message})", format.name()),
+        )
+    } else {
+        Error::input(
+            path,
+            format!("corrupt or unsupported {} file: {message}", format.name()),
+        )
+    }
+}
+
+// ---------------------------------------------------------------- PNG
+
+fn read_png(path: &Path, mut reader: BufReader<File>, limits: &Limits) -> Result<Raster> {
+    // The header's claim is checked before the decoder reads on (it would fail on a file
+    // that is only a header, or go on to buffer chunks).
+    let mut head = [0u8; 26];
+    let n = read_up_to(&mut reader, &mut head)
+        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
+    if let Some((w, h, channels, bits)) = sniff::png_header(&head[..n]) {
+        limits.check(path, w, h, channels, bits)?;
+    }
+    reader
+        .seek(SeekFrom::Start(0))
+        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
+    let mut decoder = png::Decoder::new(reader);
+    // The png crate's own byte limit guards its chunk buffers (iCCP, text); the image buffer
+    // is checked against our limits below, from the header, before it is allocated.
+    decoder.set_limits(png::Limits {
+        bytes: usize::try_from(limits.max_bytes).unwrap_or(usize::MAX),
+    });
+    decoder.set_transformations(png::Transformations::EXPAND);
+    let mut reader = decoder
+        .read_info()
+        .map_err(|e| decode_error(path, Format::Png, e.to_string()))?;
+    let (color, depth) = reader.output_color_type();
+    let layout = match color {
+        png::ColorType::Grayscale => Layout::Gray,
+        png::ColorType::GrayscaleAlpha => Layout::GrayAlpha,
+        png::ColorType::Rgb => Layout::Rgb,
+        png::ColorType::Rgba => Layout::Rgba,
+        png::ColorType::Indexed => return Err(Error::input(path, "PNG palette could not be expanded")),
+    };
+    let bits: u8 = match depth {
+        png::BitDepth::Sixteen => 16,
+        png::BitDepth::Eight => 8,
+        other => {
+            return Err(Error::input(
+                path,
+                format!("unsupported PNG bit depth {other:?} after expansion"),
+            ));
+        }
+    };
+    let (width, height) = (reader.info().width, reader.info().height);
+    limits.check(path, width, height, layout.channels() as u8, bits)?;
+    let resolution = reader.info().pixel_dims.and_then(|d| match d.unit {
+        // pHYs in pixels per metre (ISO/IEC 15948 §11.3.5.3).
+        png::Unit::Meter => Resolution {
+            x_ppi: f64::from(d.xppu) * Resolution::INCH_IN_METRES,
+            y_ppi: f64::from(d.yppu) * Resolution::INCH_IN_METRES,
+        }
+        .valid(),
+        png::Unit::Unspecified => None,
+    });
+    let icc_profile = reader.info().icc_profile.as_ref().map(|p| p.to_vec());
+    let size = reader
+        .output_buffer_size()
+        .ok_or_else(|| Error::input(path, "PNG dimensions overflow memory size"))?;
+    let mut buf = try_alloc_u8(path, size)?;
+    reader
+        .next_frame(&mut buf)
+        .map_err(|e| decode_error(path, Format::Png, e.to_string()))?;
+    let samples = if bits == 16 {
+        // PNG stores 16-bit samples big-endian (ISO/IEC 15948 §7.1).
+        Samples::U16(buf.chunks_exact(2).map(|b| u16::from_be_bytes([b[0], b[1]])).collect())
+    } else {
+        Samples::U8(buf)
+    };
+    Ok(Raster {
+        width,
+        height,
+        layout,
+        bits,
+        samples,
+        icc_profile,
+        resolution,
+        format: Format::Png,
+    })
+}
+
+fn try_alloc_u8(path: &Path, size: usize) -> Result<Vec<u8>> {
+    let mut v = Vec::new();
+    v.try_reserve_exact(size)
+        .map_err(|_| Error::input(path, format!("not enough memory to decode the image ({size} bytes)")))?;
+    v.resize(size, 0);
+    Ok(v)
+}
+
+// ---------------------------------------------------------------- TIFF
+
+fn read_tiff(path: &Path, mut reader: BufReader<File>, limits: &Limits) -> Result<Raster> {
+    use tiff::ColorType as T;
+    use tiff::tags::Tag;
+    let err = |e: tiff::TiffError| decode_error(path, Format::Tiff, e.to_string());
+    let mut tl = tiff::decoder::Limits::default();
+    tl.decoding_buffer_size = usize::try_from(limits.max_bytes).unwrap_or(usize::MAX);
+    tl.intermediate_buffer_size = tl.decoding_buffer_size;
+    tl.ifd_value_size = 64 << 20; // room for large ICC profiles
+    // The first IFD's claim is checked before the decoder runs.
+    if let Some((w, h, channels, bits)) = sniff::tiff_header(&mut reader) {
+        limits.check(path, w, h, channels, bits)?;
+    }
+    reader
+        .seek(SeekFrom::Start(0))
+        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
+    let mut dec = tiff::decoder::Decoder::new(reader).map_err(err)?.with_limits(tl);
+    let (width, height) = dec.dimensions().map_err(err)?;
+    let colortype = dec.colortype().map_err(|e| match e {
+        tiff::TiffError::UnsupportedError(u) => Error::input(path, format!("unsupported TIFF layout: {u}")),
+        other => err(other),
+    })?;
+    let (layout, bits) = match colortype {
+        T::Gray(b) => (Layout::Gray, b),
+        T::GrayA(b) => (Layout::GrayAlpha, b),
+        T::RGB(b) => (Layout::Rgb, b),
+        T::RGBA(b) => (Layout::Rgba, b),
+        T::CMYK(b) => (Layout::Cmyk, b),
+        T::Multiband {
+            bit_depth,
+            num_samples: 2,
+        } => (Layout::GrayAlpha, bit_depth),
+        other => {
+            return Err(Error::input(
+                path,
+                format!("unsupported TIFF layout {other:?}; use gray, RGB or CMYK"),
+            ));
+        }
+    };
+    if bits != 8 && bits != 16 {
+        return Err(Error::input(
+            path,
+            format!("unsupported TIFF bit depth {bits}; use 8 or 16 bit"),
+        ));
+    }
+    let tag_u16 = |dec: &mut tiff::decoder::Decoder<BufReader<File>>, tag: Tag| -> Result<Option<u16>> {
+        dec.find_tag_unsigned::<u16>(tag).map_err(err)
+    };
+    if tag_u16(&mut dec, Tag::PlanarConfiguration)? == Some(2) {
+        return Err(Error::input(
+            path,
+            "planar TIFF (PlanarConfiguration 2) is not supported; save it interleaved",
+        ));
+    }
+    let formats = dec
+        .find_tag_unsigned_vec::<u16>(Tag::SampleFormat)
+        .map_err(err)?
+        .unwrap_or_default();
+    if formats.iter().any(|&f| f != 1) {
+        return Err(Error::input(
+            path,
+            "TIFF samples are not unsigned integers; use 8 or 16-bit integer samples",
+        ));
+    }
+    if layout == Layout::Cmyk {
+        // InkSet (332): 1 = CMYK, 2 = other inks (TIFF 6.0 §16).
+        if tag_u16(&mut dec, Tag::Unknown(332))?.is_some_and(|s| s != 1) {
+            return Err(Error::input(
+                path,
+                "separated TIFF with inks other than CMYK (InkSet 2) is not supported",
+            ));
+        }
+    }
+    limits.check(path, width, height, layout.channels() as u8, bits)?;
+    let resolution = tiff_resolution(&mut dec).map_err(err)?;
+    let icc_profile = match dec.find_tag(Tag::IccProfile).map_err(err)? {
+        Some(v) => Some(v.into_u8_vec().map_err(err)?),
+        None => None,
+    };
+    let samples = match dec.read_image().map_err(err)? {
+        tiff::decoder::DecodingResult::U8(v) => Samples::U8(v),
+        tiff::decoder::DecodingResult::U16(v) => Samples::U16(v),
+        _ => {
+            return Err(Error::input(
+                path,
+                "unsupported TIFF sample type; use 8 or 16-bit integer samples",
+            ));
+        }
+    };
+    let expected = width as usize * height as usize * layout.channels();
+    if samples.len() != expected {
+        return Err(Error::input(
+            path,
+            format!("TIFF decoded to {} samples, expected {expected}", samples.len()),
+        ));
+    }
+    Ok(Raster {
+        width,
+        height,
+        layout,
+        bits,
+        samples,
+        icc_profile,
+        resolution,
+        format: Format::Tiff,
+    })
+}
+
+fn tiff_resolution<R: Read + Seek>(dec: &mut tiff::decoder::Decoder<R>) -> tiff::TiffResult<Option<Resolution>> {
+    use tiff::decoder::ifd::Value;
+    use tiff::tags::Tag;
+    let as_f64 = |v: Option<Value>| -> Option<f64> {
+        match v? {
+            Value::Rational(n, d) if d != 0 => Some(f64::from(n) / f64::from(d)),
+            Value::Unsigned(n) => Some(f64::from(n)),
+            Value::Short(n) => Some(f64::from(n)),
+            Value::Float(f) => Some(f64::from(f)),
+            Value::Double(f) => Some(f),
+            _ => None,
+        }
+    };
+    let x = as_f64(dec.find_tag(Tag::XResolution)?);
+    let y = as_f64(dec.find_tag(Tag::YResolution)?);
+    // ResolutionUnit (296): 1 none, 2 inch (the default), 3 centimetre (TIFF 6.0 §8).
+    let unit = dec.find_tag_unsigned::<u16>(Tag::ResolutionUnit)?.unwrap_or(2);
+    let scale = match unit {
+        2 => 1.0,
+        3 => 2.54,
+        _ => return Ok(None),
+    };
+    Ok(match (x, y) {
+        (Some(x), Some(y)) => Resolution {
+            x_ppi: x * scale,
+            y_ppi: y * scale,
+        }
+        .valid(),
+        (Some(x), None) => Resolution {
+            x_ppi: x * scale,
+            y_ppi: x * scale,
+        }
+        .valid(),
+        _ => None,
+    })
+}
+
+// ---------------------------------------------------------------- JPEG
+
+fn read_jpeg(path: &Path, mut reader: BufReader<File>, file_len: u64, limits: &Limits) -> Result<Raster> {
+    use zune_core::colorspace::ColorSpace as Z;
+    // JPEG data is read whole: it is small next to the decoded image, and zune-jpeg decodes from memory.
+    if file_len > limits.max_bytes {
+        return Err(Error::input(
+            path,
+            "JPEG file is larger than the limits setting allows; raise the limits to read it",
+        ));
+    }
+    let mut data = Vec::with_capacity(file_len as usize);
+    reader
+        .read_to_end(&mut data)
+        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
+    let header: JpegHeader = sniff::scan_jpeg(&data);
+    if !header.complete {
+        return Err(Error::input(
+            path,
+            "truncated JPEG file: the image data ends before the end-of-image marker",
+        ));
+    }
+    // Strict mode turns a stream that ends early into an error instead of gray padding.
+    let options = zune_core::options::DecoderOptions::default()
+        .set_strict_mode(true)
+        .set_max_width(usize::from(u16::MAX))
+        .set_max_height(usize::from(u16::MAX));
+    let mut dec = zune_jpeg::JpegDecoder::new_with_options(zune_core::bytestream::ZCursor::new(&data[..]), options);
+    dec.decode_headers()
+        .map_err(|e| decode_error(path, Format::Jpeg, e.to_string()))?;
+    let info = dec
+        .info()
+        .ok_or_else(|| Error::input(path, "JPEG header could not be read"))?;
+    let (width, height) = (u32::from(info.width), u32::from(info.height));
+    let input = dec
+        .input_colorspace()
+        .ok_or_else(|| Error::input(path, "JPEG header could not be read"))?;
+    let (layout, out_space) = match input {
+        Z::Luma => (Layout::Gray, Z::Luma),
+        Z::YCbCr | Z::RGB => (Layout::Rgb, Z::RGB),
+        Z::CMYK => (Layout::Cmyk, Z::CMYK),
+        // YCCK is decoded raw and converted below: zune-jpeg only converts it to RGB.
+        Z::YCCK => (Layout::Cmyk, Z::YCCK),
+        other => return Err(Error::input(path, format!("unsupported JPEG colour space {other:?}"))),
+    };
+    limits.check(path, width, height, layout.channels() as u8, 8)?;
+    let icc_profile = dec.icc_profile();
+    dec.set_options(options.jpeg_set_out_colorspace(out_space));
+    let size = dec
+        .output_buffer_size()
+        .ok_or_else(|| Error::input(path, "JPEG dimensions overflow memory size"))?;
+    let mut buf = try_alloc_u8(path, size)?;
+    dec.decode_into(&mut buf)
+        .map_err(|e| decode_error(path, Format::Jpeg, e.to_string()))?;
+    drop(data);
+    if out_space == Z::YCCK {
+        ycck_to_cmyk(&mut buf);
+    }
+    if layout == Layout::Cmyk && header.adobe {
+        // Adobe writes CMYK JPEGs with inverted samples (255 = no ink); libjpeg-based readers
+        // invert them on reading (common practice, documented in libjpeg's jdcolor.c notes).
+        for s in &mut buf {
+            *s = 255 - *s;
+        }
+    }
+    Ok(Raster {
+        width,
+        height,
+        layout,
+        bits: 8,
+        samples: Samples::U8(buf),
+        icc_profile,
+        resolution: header.resolution,
+        format: Format::Jpeg,
+    })
+}
+
+/// YCCK → (inverted) CMYK as libjpeg's `ycck_cmyk_convert`: the YCbCr triple is turned into
+/// RGB with the JFIF equations (ITU-R BT.601 full range) and C, M, Y = 255 − R, G, B; K is kept.
+fn ycck_to_cmyk(buf: &mut [u8]) {
+    for px in buf.chunks_exact_mut(4) {
+        let y = f32::from(px[0]);
+        let cb = f32::from(px[1]) - 128.0;
+        let cr = f32::from(px[2]) - 128.0;
+        let r = y + 1.402 * cr;
+        let g = y - 0.344_136 * cb - 0.714_136 * cr;
+        let b = y + 1.772 * cb;
+        let to_u8 = |v: f32| v.round().clamp(0.0, 255.0) as u8;
+        px[0] = 255 - to_u8(r);
+        px[1] = 255 - to_u8(g);
+        px[2] = 255 - to_u8(b);
+    }
+}
