@@ -228,7 +228,7 @@ fn tiff_every_layout_at_8_and_16_bit() {
     let dir = tempfile::tempdir().unwrap();
     let (w, h) = (23u32, 11u32);
     let px = (w * h) as usize;
-    let mut check8 = |name: &str, bytes: Vec<u8>, layout: Layout, want: Vec<u8>| {
+    let check8 = |name: &str, bytes: Vec<u8>, layout: Layout, want: Vec<u8>| {
         let r = read(&save(dir.path(), name, &bytes));
         assert_eq!(
             (r.width, r.height, r.layout, r.bits, r.format),
@@ -280,7 +280,7 @@ fn tiff_every_layout_at_8_and_16_bit() {
         inverted,
     );
 
-    let mut check16 = |name: &str, bytes: Vec<u8>, layout: Layout, want: Vec<u16>| {
+    let check16 = |name: &str, bytes: Vec<u8>, layout: Layout, want: Vec<u16>| {
         let r = read(&save(dir.path(), name, &bytes));
         assert_eq!((r.layout, r.bits), (layout, 16), "{name}");
         assert_eq!(r.samples, Samples::U16(want), "{name}");
