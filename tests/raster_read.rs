@@ -228,7 +228,7 @@ fn tiff_every_layout_at_8_and_16_bit() {
     let dir = tempfile::tempdir().unwrap();
     let (w, h) = (23u32, 11u32);
     let px = (w * h) as usize;
-    let mut check8 = |name: &str, bytes: Vec<u8>, layout: Layout, want: Vec<u8>| {
+    let check8 = |name: &str, bytes: Vec<u8>, layout: Layout, want: Vec<u8>| {
         let r = read(&save(dir.path(), name, &bytes));
         assert_eq!(
             (r.width, r.height, r.layout, r.bits, r.format),
@@ -280,7 +280,7 @@ fn tiff_every_layout_at_8_and_16_bit() {
         inverted,
     );
 
-    let mut check16 = |name: &str, bytes: Vec<u8>, layout: Layout, want: Vec<u16>| {
+    let check16 = |name: &str, bytes: Vec<u8>, layout: Layout, want: Vec<u16>| {
         let r = read(&save(dir.path(), name, &bytes));
         assert_eq!((r.layout, r.bits), (layout, 16), "{name}");
         assert_eq!(r.samples, Samples::U16(want), "{name}");
@@ -480,4 +480,18 @@ fn one_by_one_images() {
     );
     let j = jpeg(1, 1, &[200], jpeg_encoder::ColorType::Luma, |_| {});
     assert_close(&read(&save(dir.path(), "1.jpg", &j)).samples, &[200], 2, "1×1 JPEG");
+}
+
+#[test]
+fn demo_poster_is_an_8_bit_rgb_png_at_300_ppi() {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/harbour-lights.png");
+    let r = read(&path);
+    assert_eq!(
+        (r.width, r.height, r.layout, r.bits, r.format),
+        (1800, 1200, Layout::Rgb, 8, Format::Png)
+    );
+    let res = r.resolution.expect("pHYs");
+    // 11 811 px/m × 0.0254 m/in = 299.9994 ppi.
+    assert!((res.x_ppi - 300.0).abs() < 0.01 && (res.y_ppi - 300.0).abs() < 0.01);
+    assert_eq!(r.icc_profile, None, "untagged: sRGB is assumed");
 }

@@ -248,8 +248,7 @@ impl OutputSet {
     pub fn commit(mut self) -> Result<Vec<PathBuf>> {
         let staged = std::mem::take(&mut self.staged);
         let mut done: Vec<PathBuf> = Vec::with_capacity(staged.len());
-        let mut rest = staged.into_iter();
-        while let Some(Staged { temp, target }) = rest.next() {
+        for Staged { temp, target } in staged {
             let renamed = if self.overwrite {
                 temp.persist(&target).map_err(|e| e.error)
             } else {
@@ -266,7 +265,7 @@ impl OutputSet {
                 } else {
                     describe(&e)
                 };
-                // The remaining temporary files are removed as `rest` is dropped.
+                // The remaining temporary files are removed as the loop's iterator is dropped.
                 return Err(Error::output(&target, reason));
             }
             done.push(target);

@@ -185,17 +185,40 @@ pub(crate) fn tiff_header<R: std::io::Read + std::io::Seek>(r: &mut R) -> Option
         (u64::from(u16v(&b)), 12usize)
     };
     let (mut width, mut height, mut spp, mut bits) = (None, None, 1u8, 1u8);
+    let mut bits_at: Option<u64> = None;
     let mut entry = [0u8; 20];
+    let value_at = if big { 12 } else { 8 };
+    let inline_len: u64 = if big { 8 } else { 4 };
     for _ in 0..count.min(4096) {
         r.read_exact(&mut entry[..entry_len]).ok()?;
         let tag = u16v(&entry[0..2]);
         let ty = u16v(&entry[2..4]);
-        let value_at = if big { 12 } else { 8 };
-        // The first value, inline: SHORT (3) or LONG (4); a list of shorts keeps its first inline too.
-        let first = match ty {
-            3 => u32::from(u16v(&entry[value_at..])),
-            4 => u32v(&entry[value_at..]),
+        let n = if big {
+            u64v(&entry[4..12])
+        } else {
+            u64::from(u32v(&entry[4..8]))
+        };
+        let width_of = match ty {
+            3 => 2,
+            4 => 4,
             _ => continue,
+        };
+        if n * width_of > inline_len {
+            // The values do not fit in the entry: it holds their offset. Only BitsPerSample
+            // (one value per sample) is a list among the tags read here.
+            if tag == 258 && ty == 3 {
+                bits_at = Some(if big {
+                    u64v(&entry[value_at..])
+                } else {
+                    u64::from(u32v(&entry[value_at..]))
+                });
+            }
+            continue;
+        }
+        let first = if ty == 3 {
+            u32::from(u16v(&entry[value_at..]))
+        } else {
+            u32v(&entry[value_at..])
         };
         match tag {
             256 => width = Some(first),
@@ -204,6 +227,12 @@ pub(crate) fn tiff_header<R: std::io::Read + std::io::Seek>(r: &mut R) -> Option
             277 => spp = u8::try_from(first).unwrap_or(u8::MAX),
             _ => {}
         }
+    }
+    if let Some(at) = bits_at {
+        let mut b = [0u8; 2];
+        r.seek(SeekFrom::Start(at)).ok()?;
+        r.read_exact(&mut b).ok()?;
+        bits = u8::try_from(u16v(&b)).unwrap_or(u8::MAX);
     }
     Some((width?, height?, spp, bits))
 }
@@ -273,6 +302,26 @@ mod tests {
         assert_eq!(detect(&[0xFF, 0xD8, 0xFF, 0xE0]), Some(Format::Jpeg));
         assert_eq!(detect(b"hello"), None);
         assert_eq!(detect(b""), None);
+    }
+
+    #[test]
+    fn tiff_header_reads_a_bits_per_sample_list_through_its_offset() {
+        use tiff::encoder::colortype::{CMYK16, Gray8, RGB8};
+        fn claim<C: tiff::encoder::colortype::ColorType>(data: &[C::Inner]) -> Option<(u32, u32, u8, u8)>
+        where
+            [C::Inner]: tiff::encoder::TiffValue,
+        {
+            let mut c = std::io::Cursor::new(Vec::new());
+            tiff::encoder::TiffEncoder::new(&mut c)
+                .unwrap()
+                .write_image::<C>(3, 2, data)
+                .unwrap();
+            tiff_header(&mut c)
+        }
+        // RGB: three SHORTs (6 bytes) do not fit the 4-byte value field (TIFF 6.0 §2).
+        assert_eq!(claim::<RGB8>(&[0; 18]), Some((3, 2, 3, 8)));
+        assert_eq!(claim::<CMYK16>(&[0; 24]), Some((3, 2, 4, 16)));
+        assert_eq!(claim::<Gray8>(&[0; 6]), Some((3, 2, 1, 8)));
     }
 
     #[test]

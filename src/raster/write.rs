@@ -325,7 +325,7 @@ fn encode_strip(
     let mut out = Vec::with_capacity(raw.len() / 2 + 64);
     match compression {
         Compression::None => return Ok(raw),
-        Compression::Lzw => Lzw::default().write_to(&mut out, &raw)?,
+        Compression::Lzw => Lzw.write_to(&mut out, &raw)?,
         Compression::Deflate => Deflate::with_level(DeflateLevel::Fast).write_to(&mut out, &raw)?,
     };
     Ok(out)
