@@ -302,7 +302,7 @@ impl Workshop {
             outputs,
             width: raster.width,
             height: raster.height,
-            resolution_ppi: [res.x_ppi, res.y_ppi],
+            resolution_ppi: [round_to(res.x_ppi, 2), round_to(res.y_ppi, 2)],
             input: format!("{} {:?} {}-bit", raster.format.name(), raster.layout, raster.bits),
             source: String::new(),
             notes,

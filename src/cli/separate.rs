@@ -144,7 +144,7 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
             Ok(s) => {
                 done += 1;
                 let [c, m, y, k] = [0, 1, 2, 3].map(|i| s.plates[i].mean_percent);
-                progress.println(format!(
+                say(&progress, format!(
                     "{}: {} × {} px → {}  (C {c:.1} M {m:.1} Y {y:.1} K {k:.1} % mean; TAC max {:.1} % of {:.0} %; {:.0} ms)",
                     input.display(),
                     s.width,
@@ -157,7 +157,7 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
             }
             Err(e) => {
                 failed += 1;
-                progress.println(format!("platesmith: {e}"));
+                say(&progress, format!("platesmith: {e}"));
             }
         }
         progress.inc(1);
@@ -171,6 +171,15 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
 }
 
 /// A progress bar on an interactive terminal, nothing otherwise; never coloured.
+/// Prints a line above the progress bar, or plainly when there is none.
+fn say(bar: &indicatif::ProgressBar, line: String) {
+    if bar.is_hidden() {
+        eprintln!("{line}");
+    } else {
+        bar.println(line);
+    }
+}
+
 fn progress_bar(len: u64) -> indicatif::ProgressBar {
     use std::io::IsTerminal;
     if !std::io::stderr().is_terminal() {
