@@ -1,5 +1,8 @@
 //! Command-line definitions (clap) and dispatch.
 
+mod conditions;
+mod fit;
+
 use crate::error::Result;
 use clap::{Parser, Subcommand};
 
@@ -17,11 +20,26 @@ pub struct Cli {
 }
 
 #[derive(Debug, Subcommand)]
-pub enum Command {}
+pub enum Command {
+    /// List the built-in printing conditions or show one in detail.
+    Conditions(conditions::ConditionsArgs),
+    /// Fit a press model to measured patches (CGATS text) and write it as a condition file.
+    Fit(fit::FitArgs),
+}
 
 /// Runs a parsed command line; the returned code is the process exit code.
 pub fn run(cli: Cli) -> Result<i32> {
-    match cli.command {}
+    match cli.command {
+        Command::Conditions(args) => conditions::run(args),
+        Command::Fit(args) => fit::run(args),
+    }
+}
+
+/// Writes command output to standard output; a closed pipe (`| head`) is not an error.
+pub(crate) fn emit(text: &str) {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    let _ = out.write_all(text.as_bytes()).and_then(|_| out.flush());
 }
 
 #[cfg(test)]
