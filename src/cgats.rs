@@ -145,14 +145,19 @@ pub fn parse(text: &str, path: &Path) -> Result<CgatsFile> {
                 }
                 let int_value = |name: &str| -> Result<usize> {
                     let v = tokens.get(1).ok_or_else(|| err(line_no, format!("{name} needs a value")))?;
-                    v.text.parse::<usize>().map_err(|_| err(line_no, format!("{name}: `{}` is not a whole number", v.text)))
+                    v.text
+                        .parse::<usize>()
+                        .map_err(|_| err(line_no, format!("{name}: `{}` is not a whole number", v.text)))
                 };
                 if is(key, "BEGIN_DATA_FORMAT") {
                     table.fields.extend(tokens[1..].iter().map(|t| t.text.clone()));
                     state = State::Format { start: line_no };
                 } else if is(key, "BEGIN_DATA") {
                     if table.fields.is_empty() {
-                        return Err(err(line_no, "BEGIN_DATA before any BEGIN_DATA_FORMAT block naming the fields".into()));
+                        return Err(err(
+                            line_no,
+                            "BEGIN_DATA before any BEGIN_DATA_FORMAT block naming the fields".into(),
+                        ));
                     }
                     let pending: Vec<(usize, String)> = tokens[1..].iter().map(|t| (line_no, t.text.clone())).collect();
                     let line_mode = if pending.is_empty() { None } else { Some(false) };
@@ -183,14 +188,20 @@ pub fn parse(text: &str, path: &Path) -> Result<CgatsFile> {
                         {
                             return Err(err(
                                 at,
-                                format!("NUMBER_OF_FIELDS is {n} but the data format block names {}", table.fields.len()),
+                                format!(
+                                    "NUMBER_OF_FIELDS is {n} but the data format block names {}",
+                                    table.fields.len()
+                                ),
                             ));
                         }
                         state = State::Header;
                         break;
                     }
                     if is(t, "BEGIN_DATA") || is(t, "END_DATA") {
-                        return Err(err(line_no, format!("{} inside the data format block (missing END_DATA_FORMAT?)", t.text)));
+                        return Err(err(
+                            line_no,
+                            format!("{} inside the data format block (missing END_DATA_FORMAT?)", t.text),
+                        ));
                     }
                     table.fields.push(t.text.clone());
                 }
@@ -223,7 +234,9 @@ pub fn parse(text: &str, path: &Path) -> Result<CgatsFile> {
                     if *line_mode == Some(true) && on_line != width {
                         return Err(err(
                             line_no,
-                            format!("{on_line} values in this data set, but the data format block names {width} fields"),
+                            format!(
+                                "{on_line} values in this data set, but the data format block names {width} fields"
+                            ),
                         ));
                     }
                 }
@@ -234,7 +247,10 @@ pub fn parse(text: &str, path: &Path) -> Result<CgatsFile> {
                         let last = values.last().map(|(l, _)| *l).unwrap_or(start);
                         return Err(err(
                             last,
-                            format!("{} values in the data block is not a whole number of sets of {width} fields", values.len()),
+                            format!(
+                                "{} values in the data block is not a whole number of sets of {width} fields",
+                                values.len()
+                            ),
                         ));
                     }
                     for chunk in values.chunks(width) {
@@ -244,7 +260,10 @@ pub fn parse(text: &str, path: &Path) -> Result<CgatsFile> {
                     if let Some((n, at)) = declared_sets
                         && n != table.rows.len()
                     {
-                        return Err(err(at, format!("NUMBER_OF_SETS is {n} but the data block holds {} sets", table.rows.len())));
+                        return Err(err(
+                            at,
+                            format!("NUMBER_OF_SETS is {n} but the data block holds {} sets", table.rows.len()),
+                        ));
                     }
                     file.tables.push(std::mem::take(&mut table));
                     declared_fields = None;

@@ -5,7 +5,7 @@ use platesmith::colour::{Lab, ciede2000};
 use platesmith::ink::{Cmyk, Ink};
 use platesmith::press::figures::{gray_balance, murray_davies_tone_value, predicted_tvi, predicted_tvi_in};
 use platesmith::press::gamut::{GamutOptions, gamut_volume};
-use platesmith::press::{AIM_INKS, AIM_NAMES, PressModel, TONE_CHANNEL, builtin, finite_difference_lab_jacobian};
+use platesmith::press::{AIM_INKS, AIM_NAMES, TONE_CHANNEL, builtin, finite_difference_lab_jacobian};
 
 #[test]
 fn registry_lists_three_conditions_with_the_default_first() {
@@ -107,7 +107,13 @@ fn gray_balance_is_near_the_rule_of_thumb_on_coated_stock() {
         let g = gray_balance(c.model.as_ref(), 0.5);
         eprintln!(
             "{}: neutral at C {:.1} M {:.1} Y {:.1} % (L* {:.1}; relative a* {:.3} b* {:.3})",
-            c.name, g.cmy_percent[0], g.cmy_percent[1], g.cmy_percent[2], g.absolute_lab.l, g.relative_lab.a, g.relative_lab.b
+            c.name,
+            g.cmy_percent[0],
+            g.cmy_percent[1],
+            g.cmy_percent[2],
+            g.absolute_lab.l,
+            g.relative_lab.a,
+            g.relative_lab.b
         );
         assert!(g.neutral_reached, "{}", c.name);
         assert!(g.cmy_percent[1] < 50.0 && g.cmy_percent[2] < 50.0, "{}: {:?}", c.name, g.cmy_percent);
@@ -167,7 +173,13 @@ fn analytic_jacobian_of_each_condition_matches_finite_differences() {
             for r in 0..3 {
                 for k in 0..4 {
                     let tol = 2e-3 * (1.0 + fd[r][k].abs());
-                    assert!((jac[r][k] - fd[r][k]).abs() < tol, "{} {ink:?} [{r}][{k}] {} vs {}", c.name, jac[r][k], fd[r][k]);
+                    assert!(
+                        (jac[r][k] - fd[r][k]).abs() < tol,
+                        "{} {ink:?} [{r}][{k}] {} vs {}",
+                        c.name,
+                        jac[r][k],
+                        fd[r][k]
+                    );
                 }
             }
         }
@@ -182,7 +194,13 @@ fn gamut_volume_orders_the_stocks() {
         .iter()
         .map(|c| {
             let g = gamut_volume(c.model.as_ref(), c.tac, GamutOptions::default());
-            eprintln!("{}: gamut {:.0} ΔE³ under TAC {:.0} %, darkest {:?}", c.name, g.volume, c.tac * 100.0, g.darkest_lab);
+            eprintln!(
+                "{}: gamut {:.0} ΔE³ under TAC {:.0} %, darkest {:?}",
+                c.name,
+                g.volume,
+                c.tac * 100.0,
+                g.darkest_lab
+            );
             assert!(g.darkest_ink.total() <= c.tac + 1e-9);
             g.volume
         })

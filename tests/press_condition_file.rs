@@ -3,7 +3,7 @@
 
 use platesmith::ink::Cmyk;
 use platesmith::press::condition_file::{parse_condition, read_condition_file, to_toml};
-use platesmith::press::{PressModel, builtin, load_condition};
+use platesmith::press::{builtin, load_condition};
 use std::path::{Path, PathBuf};
 
 fn fixture(name: &str) -> PathBuf {

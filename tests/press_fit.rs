@@ -63,7 +63,11 @@ fn chart(params: &ModelParams, sigma: f64, seed: u64, xyz: bool) -> String {
             for y in levels {
                 for k in levels {
                     let lab = model.lab(Cmyk::from_percent([c, m, y, k]));
-                    let noisy = Lab::new(lab.l + sigma * rng.normal(), lab.a + sigma * rng.normal(), lab.b + sigma * rng.normal());
+                    let noisy = Lab::new(
+                        lab.l + sigma * rng.normal(),
+                        lab.a + sigma * rng.normal(),
+                        lab.b + sigma * rng.normal(),
+                    );
                     let id = (rows.len() + 1).to_string();
                     let mut row = vec![id, format!("{c}"), format!("{m}"), format!("{y}"), format!("{k}")];
                     if xyz {
@@ -81,7 +85,10 @@ fn chart(params: &ModelParams, sigma: f64, seed: u64, xyz: bool) -> String {
     let mut fields: Vec<String> = ["SAMPLE_ID", "CMYK_C", "CMYK_M", "CMYK_Y", "CMYK_K"].map(String::from).to_vec();
     fields.extend(colour.map(String::from));
     let table = CgatsTable {
-        keywords: vec![("ORIGINATOR".into(), "invented test data".into()), ("DESCRIPTOR".into(), "model plus noise".into())],
+        keywords: vec![
+            ("ORIGINATOR".into(), "invented test data".into()),
+            ("DESCRIPTOR".into(), "model plus noise".into()),
+        ],
         fields,
         row_lines: vec![0; rows.len()],
         rows,
@@ -169,7 +176,10 @@ fn fit_command_writes_a_loadable_condition_and_never_overwrites_silently() {
     let done = bin().arg("fit").arg(&chart_path).arg("--out").arg(&out).output().unwrap();
     assert!(done.status.success(), "{}", String::from_utf8_lossy(&done.stderr));
     let stdout = String::from_utf8_lossy(&done.stdout);
-    assert!(stdout.contains("mean") && stdout.contains("95th percentile") && stdout.contains("Worst patches"), "{stdout}");
+    assert!(
+        stdout.contains("mean") && stdout.contains("95th percentile") && stdout.contains("Worst patches"),
+        "{stdout}"
+    );
     let c = load_condition(out.to_str().unwrap()).unwrap();
     assert_eq!(c.name, "fitted-press");
     let written = std::fs::read_to_string(&out).unwrap();
@@ -180,7 +190,8 @@ fn fit_command_writes_a_loadable_condition_and_never_overwrites_silently() {
     assert!(String::from_utf8_lossy(&again.stderr).contains("--force"));
     assert_eq!(std::fs::read_to_string(&out).unwrap(), written);
 
-    let forced = bin().arg("fit").arg(&chart_path).arg("--out").arg(&out).arg("--force").arg("--json").output().unwrap();
+    let forced =
+        bin().arg("fit").arg(&chart_path).arg("--out").arg(&out).arg("--force").arg("--json").output().unwrap();
     assert!(forced.status.success());
     let json: serde_json::Value = serde_json::from_slice(&forced.stdout).unwrap();
     assert!(json["residuals"]["mean"].as_f64().unwrap() <= 0.5);

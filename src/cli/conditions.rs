@@ -125,10 +125,16 @@ fn show(name: &str, json: bool) -> Result<i32> {
         let _ = writeln!(s, "\nModel: Yule–Nielsen modified Neugebauer, 16 primaries");
         let _ = writeln!(s, "  n-factor             {:.3}", m.yule_nielsen_n);
         let _ = writeln!(s, "  TVI at 50 %          C {:.1}  M {:.1}  Y {:.1}  K {:.1} %", t[0], t[1], t[2], t[3]);
-        let _ = writeln!(s, "  black overprint      first-surface reflection {:.2} % of paper", m.black_surface_percent);
+        let _ =
+            writeln!(s, "  black overprint      first-surface reflection {:.2} % of paper", m.black_surface_percent);
     }
     if !r.aims.is_empty() {
-        let _ = writeln!(s, "\nAims (CIELAB D50)         aim L*  a*      b*       model L* a*      b*       ΔE00");
+        let _ = writeln!(s, "\nAims (CIELAB D50) and the model at the same builds");
+        let _ = writeln!(
+            s,
+            "  {:<14} {:>6} {:>7} {:>7}    {:>6} {:>7} {:>7}   {:>5}",
+            "", "aim L*", "a*", "b*", "model L*", "a*", "b*", "ΔE00"
+        );
         for a in &r.aims {
             let _ = writeln!(s, "  {:<14} {}    {}   {:5.2}", a.name, lab3(a.aim), lab3(a.predicted), a.delta_e2000);
         }

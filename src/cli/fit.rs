@@ -108,7 +108,8 @@ fn text_report(args: &FitArgs, fit: &FitResult) -> String {
     let r = &fit.residuals;
     let p = &fit.params;
     let mut s = String::new();
-    let _ = writeln!(s, "Fitted {} patches from {} ({} iterations)", r.count, args.measurements.display(), fit.iterations);
+    let _ =
+        writeln!(s, "Fitted {} patches from {} ({} iterations)", r.count, args.measurements.display(), fit.iterations);
     let _ = writeln!(s, "  ΔE2000   mean {:.2}   95th percentile {:.2}   max {:.2}", r.mean, r.p95, r.max);
     let t = p.tvi50.map(|v| v * 100.0);
     let _ = writeln!(
@@ -122,7 +123,11 @@ fn text_report(args: &FitArgs, fit: &FitResult) -> String {
         p.black_surface * 100.0
     );
     let _ = writeln!(s, "\nWorst patches");
-    let _ = writeln!(s, "  {:<10} {:>5}  {:<23} {:<22} {:<22} ΔE00", "patch", "line", "C M Y K %", "measured L* a* b*", "model L* a* b*");
+    let _ = writeln!(
+        s,
+        "  {:<10} {:>5}  {:<23} {:<22} {:<22} ΔE00",
+        "patch", "line", "C M Y K %", "measured L* a* b*", "model L* a* b*"
+    );
     for w in &r.worst {
         let i = w.ink_percent;
         let _ = writeln!(

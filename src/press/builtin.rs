@@ -104,8 +104,15 @@ pub fn uncoated_offset() -> PrintingCondition {
     // Common practice: TAC 280 % on uncoated stock; stronger GCR to keep
     // neutrals stable and ink low; 3 % smallest dot; heavier ink films.
     let black = BlackGeneration { gcr: 0.6, black_start: 0.15, black_max: 0.95, shape: 2.0, uca: 0.0 };
-    PrintingCondition::from_params("uncoated-offset", "wood-free uncoated white paper, offset", params, 2.8, black, 0.03)
-        .with_ink_film([1.4, 1.4, 1.4, 1.6])
+    PrintingCondition::from_params(
+        "uncoated-offset",
+        "wood-free uncoated white paper, offset",
+        params,
+        2.8,
+        black,
+        0.03,
+    )
+    .with_ink_film([1.4, 1.4, 1.4, 1.6])
 }
 
 /// Standard newsprint, coldset web offset (ISO 12647-3 aims, from memory).

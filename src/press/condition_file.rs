@@ -185,17 +185,7 @@ pub fn parse_condition(text: &str, path: &Path) -> Result<PrintingCondition> {
     };
 
     let a = &file.aims;
-    let spanned = [
-        &a.paper,
-        &a.cyan,
-        &a.magenta,
-        &a.yellow,
-        &a.black,
-        &a.red,
-        &a.green,
-        &a.blue,
-        &a.three_colour,
-    ];
+    let spanned = [&a.paper, &a.cyan, &a.magenta, &a.yellow, &a.black, &a.red, &a.green, &a.blue, &a.three_colour];
     let mut labs = [Lab::default(); 9];
     for (i, v) in spanned.iter().enumerate() {
         labs[i] = ck.lab(v, &format!("aims.{}", AIM_NAMES[i]))?;
@@ -203,25 +193,21 @@ pub fn parse_condition(text: &str, path: &Path) -> Result<PrintingCondition> {
     // Physical order: ink only absorbs, so every solid is darker than the paper
     // and every overprint no lighter than each ink in it. The model's
     // monotonicity (more ink never lightens) rests on this.
-    const CONTAINS: [(usize, &[usize]); 8] = [
-        (1, &[0]),
-        (2, &[0]),
-        (3, &[0]),
-        (4, &[0]),
-        (5, &[2, 3]),
-        (6, &[1, 3]),
-        (7, &[1, 2]),
-        (8, &[5, 6, 7]),
-    ];
+    const CONTAINS: [(usize, &[usize]); 8] =
+        [(1, &[0]), (2, &[0]), (3, &[0]), (4, &[0]), (5, &[2, 3]), (6, &[1, 3]), (7, &[1, 2]), (8, &[5, 6, 7])];
     for (over, parts) in CONTAINS {
         for &p in parts {
             if labs[over].l > labs[p].l || (p == 0 && labs[over].l == labs[p].l) {
-                let what = if p == 0 { "a solid must be darker than the paper" } else { "an overprint cannot be lighter than an ink in it" };
+                let what = if p == 0 {
+                    "a solid must be darker than the paper"
+                } else {
+                    "an overprint cannot be lighter than an ink in it"
+                };
                 return Err(ck.error(
                     spanned[over].span(),
                     &format!("aims.{}", AIM_NAMES[over]),
                     format!(
-                        "L* {} is lighter than aims.{} (L* {}): {what}; allowed L* below {}",
+                        "L* {} is lighter than aims.{} (L* {}): {what}; allowed L* up to {}",
                         labs[over].l, AIM_NAMES[p], labs[p].l, labs[p].l
                     ),
                 ));

@@ -44,7 +44,10 @@ pub fn patches_from_cgats(file: &CgatsFile, path: &Path) -> Result<Vec<Patch>> {
     let lab_cols: Option<Vec<usize>> = ["LAB_L", "LAB_A", "LAB_B"].iter().map(|n| table.column(n)).collect();
     let xyz_cols: Option<Vec<usize>> = ["XYZ_X", "XYZ_Y", "XYZ_Z"].iter().map(|n| table.column(n)).collect();
     if lab_cols.is_none() && xyz_cols.is_none() {
-        return Err(Error::input(path, "the CMYK table has neither LAB_L, LAB_A, LAB_B nor XYZ_X, XYZ_Y, XYZ_Z columns"));
+        return Err(Error::input(
+            path,
+            "the CMYK table has neither LAB_L, LAB_A, LAB_B nor XYZ_X, XYZ_Y, XYZ_Z columns",
+        ));
     }
     let id_col = table.column("SAMPLE_ID").or_else(|| table.column("SAMPLE_NAME"));
     let mut patches = Vec::with_capacity(table.rows.len());
@@ -66,7 +69,10 @@ pub fn patches_from_cgats(file: &CgatsFile, path: &Path) -> Result<Vec<Patch>> {
             let a = table.number(path, row, cols[1])?;
             let b = table.number(path, row, cols[2])?;
             if !(0.0..=100.5).contains(&l) {
-                return Err(Error::input(path, format!("line {line}: field LAB_L: {l} is out of range; allowed 0–100")));
+                return Err(Error::input(
+                    path,
+                    format!("line {line}: field LAB_L: {l} is out of range; allowed 0–100"),
+                ));
             }
             Lab::new(l, a, b)
         } else {
@@ -75,7 +81,9 @@ pub fn patches_from_cgats(file: &CgatsFile, path: &Path) -> Result<Vec<Patch>> {
             if v.iter().any(|&x| !(0.0..=110.0).contains(&x)) {
                 return Err(Error::input(
                     path,
-                    format!("line {line}: XYZ values must lie in 0–110 (CGATS scale, Y = 100 for the perfect diffuser)"),
+                    format!(
+                        "line {line}: XYZ values must lie in 0–110 (CGATS scale, Y = 100 for the perfect diffuser)"
+                    ),
                 ));
             }
             Lab::from_xyz(Xyz::new(v[0] / 100.0, v[1] / 100.0, v[2] / 100.0))
@@ -86,7 +94,10 @@ pub fn patches_from_cgats(file: &CgatsFile, path: &Path) -> Result<Vec<Patch>> {
     if patches.len() < 40 {
         return Err(Error::input(
             path,
-            format!("{} patches is too few to fit the model (33 parameters); a characterization chart has hundreds", patches.len()),
+            format!(
+                "{} patches is too few to fit the model (33 parameters); a characterization chart has hundreds",
+                patches.len()
+            ),
         ));
     }
     Ok(patches)
@@ -178,12 +189,7 @@ fn surface_bound(aims: &Aims) -> f64 {
 fn from_vector(v: &[f64; N_PARAMS]) -> ModelParams {
     let labs: [Lab; 9] = std::array::from_fn(|i| Lab::new(v[3 * i], v[3 * i + 1], v[3 * i + 2]));
     let aims = Aims::from_array(labs);
-    ModelParams {
-        aims,
-        tvi50: [v[27], v[28], v[29], v[30]],
-        n: v[31],
-        black_surface: v[32] * surface_bound(&aims),
-    }
+    ModelParams { aims, tvi50: [v[27], v[28], v[29], v[30]], n: v[31], black_surface: v[32] * surface_bound(&aims) }
 }
 
 fn bounds(i: usize) -> (f64, f64) {

@@ -211,60 +211,60 @@ impl SurfaceVoxels {
         let voxel = self.voxel;
         let mut marked = self.marked;
         let dims = marked.dims;
-    marked.dilate(closing);
+        marked.dilate(closing);
 
-    // Flood fill of the outside from a corner (the margin is never marked).
-    let mut outside = Grid { dims, cells: vec![false; marked.cells.len()] };
-    let mut stack = vec![0usize];
-    outside.cells[0] = true;
-    let [dx, dy, dz] = dims;
-    while let Some(idx) = stack.pop() {
-        let (x, y, z) = (idx / (dy * dz), (idx / dz) % dy, idx % dz);
-        let mut visit = |nx: usize, ny: usize, nz: usize| {
-            let n = (nx * dy + ny) * dz + nz;
-            if !outside.cells[n] && !marked.cells[n] {
-                outside.cells[n] = true;
-                stack.push(n);
-            }
-        };
-        if x > 0 {
-            visit(x - 1, y, z);
-        }
-        if x + 1 < dx {
-            visit(x + 1, y, z);
-        }
-        if y > 0 {
-            visit(x, y - 1, z);
-        }
-        if y + 1 < dy {
-            visit(x, y + 1, z);
-        }
-        if z > 0 {
-            visit(x, y, z - 1);
-        }
-        if z + 1 < dz {
-            visit(x, y, z + 1);
-        }
-    }
-    outside.dilate(closing);
-
-    let mut full = 0usize;
-    let mut boundary = 0usize;
-    for x in 1..dx - 1 {
-        for y in 1..dy - 1 {
-            for z in 1..dz - 1 {
-                if outside.cells[outside.index(x, y, z)] {
-                    continue;
+        // Flood fill of the outside from a corner (the margin is never marked).
+        let mut outside = Grid { dims, cells: vec![false; marked.cells.len()] };
+        let mut stack = vec![0usize];
+        outside.cells[0] = true;
+        let [dx, dy, dz] = dims;
+        while let Some(idx) = stack.pop() {
+            let (x, y, z) = (idx / (dy * dz), (idx / dz) % dy, idx % dz);
+            let mut visit = |nx: usize, ny: usize, nz: usize| {
+                let n = (nx * dy + ny) * dz + nz;
+                if !outside.cells[n] && !marked.cells[n] {
+                    outside.cells[n] = true;
+                    stack.push(n);
                 }
-                let touches = (0..27).any(|n| {
-                    let (ox, oy, oz) = (n / 9, (n / 3) % 3, n % 3);
-                    outside.cells[outside.index(x + ox - 1, y + oy - 1, z + oz - 1)]
-                });
-                if touches { boundary += 1 } else { full += 1 }
+            };
+            if x > 0 {
+                visit(x - 1, y, z);
+            }
+            if x + 1 < dx {
+                visit(x + 1, y, z);
+            }
+            if y > 0 {
+                visit(x, y - 1, z);
+            }
+            if y + 1 < dy {
+                visit(x, y + 1, z);
+            }
+            if z > 0 {
+                visit(x, y, z - 1);
+            }
+            if z + 1 < dz {
+                visit(x, y, z + 1);
             }
         }
-    }
-    (full as f64 + 0.5 * boundary as f64) * voxel.powi(3)
+        outside.dilate(closing);
+
+        let mut full = 0usize;
+        let mut boundary = 0usize;
+        for x in 1..dx - 1 {
+            for y in 1..dy - 1 {
+                for z in 1..dz - 1 {
+                    if outside.cells[outside.index(x, y, z)] {
+                        continue;
+                    }
+                    let touches = (0..27).any(|n| {
+                        let (ox, oy, oz) = (n / 9, (n / 3) % 3, n % 3);
+                        outside.cells[outside.index(x + ox - 1, y + oy - 1, z + oz - 1)]
+                    });
+                    if touches { boundary += 1 } else { full += 1 }
+                }
+            }
+        }
+        (full as f64 + 0.5 * boundary as f64) * voxel.powi(3)
     }
 }
 

@@ -14,7 +14,8 @@ mod params;
 
 pub use condition_file::load_condition;
 pub use neugebauer::{
-    NeugebauerModel, NeugebauerParams, TONE_CHANNEL, ToneCurve, complete_primaries, lab_with_derivative, overprint_black,
+    NeugebauerModel, NeugebauerParams, TONE_CHANNEL, ToneCurve, complete_primaries, lab_with_derivative,
+    overprint_black,
 };
 pub use params::{AIM_INKS, AIM_NAMES, Aims, ModelParams};
 

@@ -374,7 +374,12 @@ mod tests {
                 for r in 0..3 {
                     for c in 0..4 {
                         let tol = 1e-3 * (1.0 + fd[r][c].abs());
-                        assert!((jac[r][c] - fd[r][c]).abs() < tol, "n {n} {ink:?} [{r}][{c}]: {} vs {}", jac[r][c], fd[r][c]);
+                        assert!(
+                            (jac[r][c] - fd[r][c]).abs() < tol,
+                            "n {n} {ink:?} [{r}][{c}]: {} vs {}",
+                            jac[r][c],
+                            fd[r][c]
+                        );
                     }
                 }
             }

@@ -27,7 +27,8 @@ pub struct Aims {
 }
 
 /// Names of the aims in the order of [`Aims::to_array`], as used in files and reports.
-pub const AIM_NAMES: [&str; 9] = ["paper", "cyan", "magenta", "yellow", "black", "red", "green", "blue", "three_colour"];
+pub const AIM_NAMES: [&str; 9] =
+    ["paper", "cyan", "magenta", "yellow", "black", "red", "green", "blue", "three_colour"];
 
 /// Nominal CMYK (fractions) of each aim, in the order of [`Aims::to_array`].
 pub const AIM_INKS: [[f64; 4]; 9] = [
@@ -45,10 +46,8 @@ pub const AIM_INKS: [[f64; 4]; 9] = [
 impl Aims {
     /// Primaries indexed by the bit mask of [`NeugebauerParams::primaries`].
     pub fn primaries_without_black(&self) -> [Xyz; 8] {
-        [
-            self.paper, self.cyan, self.magenta, self.blue, self.yellow, self.green, self.red, self.three_colour,
-        ]
-        .map(|l| l.to_xyz())
+        [self.paper, self.cyan, self.magenta, self.blue, self.yellow, self.green, self.red, self.three_colour]
+            .map(|l| l.to_xyz())
     }
 
     /// paper, cyan, magenta, yellow, black, red, green, blue, three_colour.
