@@ -1,5 +1,7 @@
 //! Command-line definitions (clap) and dispatch.
 
+mod conditions;
+mod fit;
 pub mod options;
 pub mod recipe;
 pub mod separate;
@@ -26,6 +28,10 @@ pub enum Command {
     Recipe(recipe::RecipeArgs),
     /// Separate images into a composite CMYK TIFF and one plate per ink.
     Separate(separate::SeparateArgs),
+    /// List the built-in printing conditions or show one in detail.
+    Conditions(conditions::ConditionsArgs),
+    /// Fit a press model to measured patches (CGATS text) and write it as a condition file.
+    Fit(fit::FitArgs),
 }
 
 /// Runs a parsed command line; the returned code is the process exit code.
@@ -33,8 +39,11 @@ pub fn run(cli: Cli) -> Result<i32> {
     match cli.command {
         Command::Recipe(args) => recipe::run(args),
         Command::Separate(args) => separate::run(args),
+        Command::Conditions(args) => conditions::run(args),
+        Command::Fit(args) => fit::run(args),
     }
 }
+
 
 #[cfg(test)]
 mod tests {

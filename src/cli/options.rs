@@ -130,7 +130,7 @@ impl ModelArgs {
             .condition
             .clone()
             .or_else(|| t.condition.clone())
-            .unwrap_or_else(|| crate::press::DEFAULT_CONDITION.to_string());
+            .unwrap_or_else(|| crate::press::builtin::DEFAULT.to_string());
         let condition = crate::press::load_condition(&condition_spec).map_err(|e| match (&self.condition, &self.ticket) {
             (None, Some(_)) if t.condition.is_some() => ticket.error_at("model", "condition", format!("= \"{condition_spec}\": {e}")),
             _ => e,

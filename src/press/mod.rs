@@ -5,9 +5,19 @@
 //! allocate per call and is cheap enough to be called millions of times.
 
 pub mod builtin;
+pub mod condition_file;
+pub mod figures;
+pub mod fit;
+pub mod gamut;
 mod neugebauer;
+mod params;
 
-pub use neugebauer::{NeugebauerModel, NeugebauerParams, ToneCurve, complete_primaries, overprint_black};
+pub use condition_file::load_condition;
+pub use neugebauer::{
+    NeugebauerModel, NeugebauerParams, TONE_CHANNEL, ToneCurve, complete_primaries, lab_with_derivative,
+    overprint_black,
+};
+pub use params::{AIM_INKS, AIM_NAMES, Aims, ModelParams};
 
 use crate::colour::{D50, Lab, Xyz};
 use crate::ink::Cmyk;
@@ -31,6 +41,41 @@ pub trait PressModel: Send + Sync + Debug {
     fn paper_xyz(&self) -> Xyz {
         self.xyz(Cmyk::ZERO)
     }
+
+    /// CIELAB and its derivative with respect to the nominal coverage
+    /// fractions: rows L*, a*, b*; columns c, m, y, k. The default takes
+    /// finite differences ([`finite_difference_lab_jacobian`]); models with an
+    /// analytic derivative override it.
+    fn lab_jacobian(&self, ink: Cmyk) -> (Lab, [[f64; 4]; 3]) {
+        finite_difference_lab_jacobian(self, ink)
+    }
+}
+
+/// Step of [`finite_difference_lab_jacobian`], in coverage fraction.
+pub const JACOBIAN_STEP: f64 = 1e-5;
+
+/// dLab/dCMYK by finite differences on the clamped coverage: central
+/// differences inside 0..1, one-sided (inward) at the ends, so the result is
+/// the derivative a model clamping its input has at its edge.
+pub fn finite_difference_lab_jacobian<M: PressModel + ?Sized>(model: &M, ink: Cmyk) -> (Lab, [[f64; 4]; 3]) {
+    let ink = ink.clamped();
+    let base = ink.to_array();
+    let lab = model.lab(ink);
+    let mut jac = [[0.0; 4]; 3];
+    for i in 0..4 {
+        let lo = (base[i] - JACOBIAN_STEP).max(0.0);
+        let hi = (base[i] + JACOBIAN_STEP).min(1.0);
+        let mut a = base;
+        let mut b = base;
+        a[i] = lo;
+        b[i] = hi;
+        let la = model.lab(Cmyk::from_array(a)).to_array();
+        let lb = model.lab(Cmyk::from_array(b)).to_array();
+        for r in 0..3 {
+            jac[r][i] = (lb[r] - la[r]) / (hi - lo);
+        }
+    }
+    (lab, jac)
 }
 
 /// Conversion between absolute and media-relative colorimetry (ICC.1:2022
@@ -73,16 +118,10 @@ impl MediaWhite {
     }
 }
 
-/// The printing condition used when none is named.
-pub const DEFAULT_CONDITION: &str = "coated-offset";
-
-/// Resolves a condition named on the command line.
-pub fn load_condition(spec: &str) -> crate::Result<PrintingCondition> {
-    match spec {
-        "coated-offset" => Ok(builtin::coated_offset()),
-        other => Err(crate::Error::usage(format!("unknown printing condition '{other}'"))),
-    }
-}
+/// Ink film mass per ink (C, M, Y, K) at 100 % coverage, g/m², for ink
+/// consumption estimates: common practice for sheetfed offset on coated
+/// paper, used when a condition gives none.
+pub const DEFAULT_INK_FILM: [f64; 4] = [1.1, 1.1, 1.1, 1.2];
 
 /// A printing condition: its model plus the defaults a job starts from.
 #[derive(Debug, Clone)]
@@ -98,4 +137,55 @@ pub struct PrintingCondition {
     pub black: BlackGeneration,
     /// Smallest dot the plate and press hold, fraction (0.02 = 2 %).
     pub min_dot: f64,
+    /// Ink film mass at 100 % coverage per ink (C, M, Y, K), g/m².
+    pub ink_film: [f64; 4],
+    /// The characterization parameters the model was built from (built-in and
+    /// TOML conditions); `None` when the model comes from elsewhere (an ICC profile).
+    pub params: Option<ModelParams>,
+}
+
+impl PrintingCondition {
+    /// A condition around any model; ink film figures default to
+    /// [`DEFAULT_INK_FILM`] and there are no characterization parameters.
+    pub fn new(
+        name: impl Into<String>,
+        description: impl Into<String>,
+        model: Arc<dyn PressModel>,
+        tac: f64,
+        black: BlackGeneration,
+        min_dot: f64,
+    ) -> PrintingCondition {
+        PrintingCondition {
+            name: name.into(),
+            description: description.into(),
+            model,
+            tac,
+            black,
+            min_dot,
+            ink_film: DEFAULT_INK_FILM,
+            params: None,
+        }
+    }
+
+    /// A condition whose model is the Yule–Nielsen Neugebauer model built from
+    /// `params`; the other defaults are given by the remaining fields, set
+    /// afterwards as needed.
+    pub fn from_params(
+        name: impl Into<String>,
+        description: impl Into<String>,
+        params: ModelParams,
+        tac: f64,
+        black: BlackGeneration,
+        min_dot: f64,
+    ) -> PrintingCondition {
+        let mut condition = PrintingCondition::new(name, description, Arc::new(params.model()), tac, black, min_dot);
+        condition.params = Some(params);
+        condition
+    }
+
+    /// The same condition with other ink film figures.
+    pub fn with_ink_film(mut self, ink_film: [f64; 4]) -> PrintingCondition {
+        self.ink_film = ink_film;
+        self
+    }
 }

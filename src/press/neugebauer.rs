@@ -5,21 +5,36 @@
 //!
 //! XYZ(c, m, y, k) = ( Σᵢ wᵢ · XYZᵢ^(1/n) )^n, where wᵢ are the Demichel
 //! products of the effective coverages and XYZᵢ the colours of the 16
-//! primaries (paper, the solids and their overprints).
+//! primaries (paper, the solids and their overprints). The Demichel sum is
+//! exactly multilinear interpolation between the 16 corners of the unit
+//! 4-cube, so it is evaluated as 15 linear interpolations (ink by ink), which
+//! also gives the partial derivatives cheaply.
 //!
 //! Each ink's tone curve maps nominal coverage to effective coverage so that
-//! the Murray–Davies tone value computed from the luminance factor Y of that
-//! ink alone, TV = (Y_paper − Y)/(Y_paper − Y_solid), equals
-//! a + 4·TVI₅₀·a·(1 − a): zero gain at 0 % and 100 %, the configured gain at 50 %.
+//! the Murray–Davies tone value of that ink alone, computed from the
+//! tristimulus value of its tone channel, TV = (T_paper − T)/(T_paper − T_solid),
+//! equals a + 4·TVI₅₀·a·(1 − a): zero gain at 0 % and 100 %, the configured
+//! gain at 50 %. The tone channel is the one that sees the ink as a
+//! densitometer's complementary filter does: X for cyan (red filter), Y for
+//! magenta (green) and black (visual), Z for yellow (blue). This is the
+//! colorimetric tone value of ISO 12647-2:2013 / ISO 20654 practice (from
+//! memory), and it matches the densitometric tone values on which the TVI
+//! aims of ISO 12647-2 were set; the luminance factor Y alone barely sees
+//! yellow (its solid keeps most of the paper's Y), so a gain set through Y
+//! would make yellow midtones far too strong.
 
 use super::PressModel;
-use crate::colour::{Lab, Xyz};
+use crate::colour::{D50, Lab, Xyz};
 use crate::ink::Cmyk;
 
 /// Sampling of the tone curves (effective coverage is interpolated linearly
 /// between these points; the curves are smooth, so 1024 intervals keep the
 /// error below 1e-6).
 const TONE_STEPS: usize = 1024;
+
+/// The tristimulus channel (0 X, 1 Y, 2 Z) that defines each ink's tone value:
+/// cyan X, magenta Y, yellow Z, black Y.
+pub const TONE_CHANNEL: [usize; 4] = [0, 1, 2, 1];
 
 /// Everything that defines a Neugebauer model.
 #[derive(Debug, Clone, PartialEq)]
@@ -29,41 +44,131 @@ pub struct NeugebauerParams {
     pub primaries: [Xyz; 16],
     /// Yule–Nielsen n-factor (1 = Murray–Davies additivity).
     pub n: f64,
-    /// Tone value increase at 50 % nominal, per ink (C, M, Y, K), as fractions.
+    /// Tone value increase at 50 % nominal, per ink (C, M, Y, K), as
+    /// fractions, measured on the ink's [`TONE_CHANNEL`].
     pub tvi50: [f64; 4],
 }
 
 /// Nominal → effective coverage for one ink, tabulated.
 #[derive(Debug, Clone)]
 pub struct ToneCurve {
-    table: Vec<f64>,
+    /// TONE_STEPS + 1 samples of the curve.
+    table: Box<[f64]>,
 }
 
 impl ToneCurve {
-    /// The curve for one ink whose paper and solid have root luminance factors
-    /// `paper_root` = Y_paper^(1/n) and `solid_root` = Y_solid^(1/n).
+    /// The curve for one ink whose tone channel reads `paper_y` on paper and
+    /// `solid_y` on the solid, with Yule–Nielsen factor `n` and gain `tvi50`.
     fn new(paper_y: f64, solid_y: f64, n: f64, tvi50: f64) -> ToneCurve {
-        let pr = paper_y.powf(1.0 / n);
-        let sr = solid_y.powf(1.0 / n);
+        let pr = paper_y.max(0.0).powf(1.0 / n);
+        let sr = solid_y.max(0.0).powf(1.0 / n);
+        let span = pr - sr;
         let table = (0..=TONE_STEPS)
             .map(|i| {
                 let a = i as f64 / TONE_STEPS as f64;
                 let tone = (a + 4.0 * tvi50 * a * (1.0 - a)).clamp(0.0, 1.0);
                 let y = paper_y - tone * (paper_y - solid_y);
-                ((pr - y.powf(1.0 / n)) / (pr - sr)).clamp(0.0, 1.0)
+                if span.abs() < 1e-12 { tone } else { ((pr - y.max(0.0).powf(1.0 / n)) / span).clamp(0.0, 1.0) }
             })
             .collect();
         ToneCurve { table }
     }
 
-    /// Effective coverage for nominal coverage `a` (clamped to 0..1).
-    #[inline]
-    pub fn effective(&self, a: f64) -> f64 {
-        let x = a.clamp(0.0, 1.0) * TONE_STEPS as f64;
+    /// Segment index and position inside it for nominal coverage `a`.
+    #[inline(always)]
+    fn locate(&self, a: f64) -> (usize, f64) {
+        // `max` then `min` also maps NaN to 0 (max returns the non-NaN operand).
+        let x = a.max(0.0).min(1.0) * TONE_STEPS as f64;
         let i = (x as usize).min(TONE_STEPS - 1);
-        let t = x - i as f64;
-        self.table[i] + t * (self.table[i + 1] - self.table[i])
+        (i, x - i as f64)
     }
+
+    /// Effective coverage for nominal coverage `a` (clamped to 0..1).
+    #[inline(always)]
+    pub fn effective(&self, a: f64) -> f64 {
+        let (i, t) = self.locate(a);
+        let (lo, hi) = (self.table[i], self.table[i + 1]);
+        lo + t * (hi - lo)
+    }
+
+    /// Effective coverage and its derivative with respect to nominal coverage
+    /// (the slope of the tabulated segment; at and beyond the ends, the
+    /// one-sided slope at the end).
+    #[inline(always)]
+    pub fn effective_with_slope(&self, a: f64) -> (f64, f64) {
+        let (i, t) = self.locate(a);
+        let (lo, hi) = (self.table[i], self.table[i + 1]);
+        (lo + t * (hi - lo), (hi - lo) * TONE_STEPS as f64)
+    }
+}
+
+/// How the final power `S^n` is taken: n = 2, 2.5 and 3 by multiplications
+/// (and a square root), any other n by `powf`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Power {
+    Square,
+    TwoAndHalf,
+    Cube,
+    General(f64),
+}
+
+impl Power {
+    fn new(n: f64) -> Power {
+        match n {
+            2.0 => Power::Square,
+            2.5 => Power::TwoAndHalf,
+            3.0 => Power::Cube,
+            _ => Power::General(n),
+        }
+    }
+
+    #[inline(always)]
+    fn apply(self, s: f64) -> f64 {
+        let s = s.max(0.0);
+        match self {
+            Power::Square => s * s,
+            Power::TwoAndHalf => s * s * s.sqrt(),
+            Power::Cube => s * s * s,
+            Power::General(n) => s.powf(n),
+        }
+    }
+
+    /// `S^n` and its derivative `n·S^(n−1)`.
+    #[inline(always)]
+    fn apply_with_derivative(self, s: f64) -> (f64, f64) {
+        let s = s.max(0.0);
+        match self {
+            Power::Square => (s * s, 2.0 * s),
+            Power::Cube => (s * s * s, 3.0 * s * s),
+            Power::TwoAndHalf => {
+                let r = s.sqrt();
+                (s * s * r, 2.5 * s * r)
+            }
+            Power::General(n) => {
+                if s <= 0.0 {
+                    (0.0, 0.0)
+                } else {
+                    let p = s.powf(n);
+                    (p, n * p / s)
+                }
+            }
+        }
+    }
+}
+
+/// Cube root of a positive normal number to within a few ulps (relative
+/// error below 1e-14): an initial estimate from the exponent bits (Kahan's
+/// method, dividing the IEEE-754 bit pattern by 3) refined by two Halley
+/// steps, y ← y·(y³ + 2t)/(2y³ + t), each of which triples the correct digits.
+/// Several times faster than the library `cbrt`; the tests compare the two.
+#[inline(always)]
+fn fast_cbrt(t: f64) -> f64 {
+    let mut y = f64::from_bits(t.to_bits() / 3 + 0x2A9F_7893_782D_A1CE);
+    for _ in 0..2 {
+        let y3 = y * y * y;
+        y *= (y3 + 2.0 * t) / (2.0 * y3 + t);
+    }
+    y
 }
 
 /// A ready-to-evaluate Yule–Nielsen Neugebauer model.
@@ -72,24 +177,88 @@ pub struct NeugebauerModel {
     params: NeugebauerParams,
     /// XYZᵢ^(1/n), per primary.
     roots: [[f64; 3]; 16],
+    power: Power,
     curves: [ToneCurve; 4],
+}
+
+#[inline(always)]
+fn lerp3(a: [f64; 3], b: [f64; 3], t: f64) -> [f64; 3] {
+    [a[0] + t * (b[0] - a[0]), a[1] + t * (b[1] - a[1]), a[2] + t * (b[2] - a[2])]
+}
+
+#[inline(always)]
+fn sub3(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
+    [a[0] - b[0], a[1] - b[1], a[2] - b[2]]
+}
+
+const EPSILON: f64 = 216.0 / 24389.0;
+const KAPPA: f64 = 24389.0 / 27.0;
+
+/// CIE 15:2004 f(t) for CIELAB, with the fast cube root.
+#[inline(always)]
+fn lab_f(t: f64) -> f64 {
+    if t > EPSILON { fast_cbrt(t) } else { (KAPPA * t + 16.0) / 116.0 }
+}
+
+/// CIELAB (D50) of `xyz`: the formula of [`Lab::from_xyz`] (CIE 15:2004,
+/// exact ε and κ) with the fast cube root.
+#[inline(always)]
+pub fn fast_lab(xyz: Xyz) -> Lab {
+    let w = D50.xyz;
+    let fx = lab_f(xyz.x / w.x);
+    let fy = lab_f(xyz.y / w.y);
+    let fz = lab_f(xyz.z / w.z);
+    Lab::new(116.0 * fy - 16.0, 500.0 * (fx - fy), 200.0 * (fy - fz))
+}
+
+/// f(t) and its derivative df/dt.
+#[inline(always)]
+fn lab_f_with_derivative(t: f64) -> (f64, f64) {
+    if t > EPSILON {
+        let c = fast_cbrt(t);
+        (c, 1.0 / (3.0 * c * c))
+    } else {
+        ((KAPPA * t + 16.0) / 116.0, KAPPA / 116.0)
+    }
+}
+
+/// CIELAB (D50) of `xyz` and the 3 × 3 derivative d(L, a, b)/d(X, Y, Z).
+#[inline]
+pub fn lab_with_derivative(xyz: Xyz) -> (Lab, [[f64; 3]; 3]) {
+    let w = D50.xyz;
+    let (fx, dfx) = lab_f_with_derivative(xyz.x / w.x);
+    let (fy, dfy) = lab_f_with_derivative(xyz.y / w.y);
+    let (fz, dfz) = lab_f_with_derivative(xyz.z / w.z);
+    let (gx, gy, gz) = (dfx / w.x, dfy / w.y, dfz / w.z);
+    let lab = Lab::new(116.0 * fy - 16.0, 500.0 * (fx - fy), 200.0 * (fy - fz));
+    (lab, [[0.0, 116.0 * gy, 0.0], [500.0 * gx, -500.0 * gy, 0.0], [0.0, 200.0 * gy, -200.0 * gz]])
 }
 
 impl NeugebauerModel {
     pub fn new(params: NeugebauerParams) -> NeugebauerModel {
         let n = params.n;
-        let roots = params.primaries.map(|p| [p.x.max(0.0).powf(1.0 / n), p.y.max(0.0).powf(1.0 / n), p.z.max(0.0).powf(1.0 / n)]);
-        let paper_y = params.primaries[0].y;
-        let curves = std::array::from_fn(|i| ToneCurve::new(paper_y, params.primaries[1 << i].y, n, params.tvi50[i]));
-        NeugebauerModel { params, roots, curves }
+        let inv = 1.0 / n;
+        let roots = params.primaries.map(|p| [p.x.max(0.0).powf(inv), p.y.max(0.0).powf(inv), p.z.max(0.0).powf(inv)]);
+        let paper = params.primaries[0].to_array();
+        let curves = std::array::from_fn(|i| {
+            let ch = TONE_CHANNEL[i];
+            ToneCurve::new(paper[ch], params.primaries[1 << i].to_array()[ch], n, params.tvi50[i])
+        });
+        let power = Power::new(n);
+        NeugebauerModel { params, roots, power, curves }
     }
 
     pub fn params(&self) -> &NeugebauerParams {
         &self.params
     }
 
+    /// The tone curve of one ink (0 cyan, 1 magenta, 2 yellow, 3 black).
+    pub fn tone_curve(&self, ink: usize) -> &ToneCurve {
+        &self.curves[ink]
+    }
+
     /// Effective (post tone value increase) coverage of each ink.
-    #[inline]
+    #[inline(always)]
     pub fn effective(&self, ink: Cmyk) -> [f64; 4] {
         [
             self.curves[0].effective(ink.c),
@@ -99,24 +268,55 @@ impl NeugebauerModel {
         ]
     }
 
-    /// The model evaluated on effective coverages (no tone curve).
-    #[inline]
-    pub fn xyz_effective(&self, e: [f64; 4]) -> Xyz {
-        let mut acc = [0.0f64; 3];
+    /// Σ wᵢ·XYZᵢ^(1/n) by multilinear interpolation, ink by ink.
+    #[inline(always)]
+    fn root_sum(&self, e: [f64; 4]) -> [f64; 3] {
+        let r = &self.roots;
         let [c, m, y, k] = e;
-        // Demichel weights factorised ink by ink: w = Π (a or 1 − a).
-        let wc = [1.0 - c, c];
-        let wm = [1.0 - m, m];
-        let wy = [1.0 - y, y];
-        let wk = [1.0 - k, k];
-        for (i, root) in self.roots.iter().enumerate() {
-            let w = wc[i & 1] * wm[(i >> 1) & 1] * wy[(i >> 2) & 1] * wk[(i >> 3) & 1];
-            acc[0] += w * root[0];
-            acc[1] += w * root[1];
-            acc[2] += w * root[2];
+        let c8: [[f64; 3]; 8] = std::array::from_fn(|j| lerp3(r[2 * j], r[2 * j + 1], c));
+        let m4: [[f64; 3]; 4] = std::array::from_fn(|j| lerp3(c8[2 * j], c8[2 * j + 1], m));
+        let y2 = [lerp3(m4[0], m4[1], y), lerp3(m4[2], m4[3], y)];
+        lerp3(y2[0], y2[1], k)
+    }
+
+    /// The model evaluated on effective coverages (no tone curve).
+    #[inline(always)]
+    pub fn xyz_effective(&self, e: [f64; 4]) -> Xyz {
+        let s = self.root_sum(e);
+        Xyz::new(self.power.apply(s[0]), self.power.apply(s[1]), self.power.apply(s[2]))
+    }
+
+    /// XYZ and its derivative d(X, Y, Z)/d(c, m, y, k) with respect to the
+    /// nominal coverages (rows X, Y, Z; columns c, m, y, k).
+    pub fn xyz_jacobian(&self, ink: Cmyk) -> (Xyz, [[f64; 4]; 3]) {
+        let (ec, sc) = self.curves[0].effective_with_slope(ink.c);
+        let (em, sm) = self.curves[1].effective_with_slope(ink.m);
+        let (ey, sy) = self.curves[2].effective_with_slope(ink.y);
+        let (ek, sk) = self.curves[3].effective_with_slope(ink.k);
+        let r = &self.roots;
+        // Values after interpolating along c, and their derivatives along c.
+        let c8: [[f64; 3]; 8] = std::array::from_fn(|j| lerp3(r[2 * j], r[2 * j + 1], ec));
+        let dc8: [[f64; 3]; 8] = std::array::from_fn(|j| sub3(r[2 * j + 1], r[2 * j]));
+        let m4: [[f64; 3]; 4] = std::array::from_fn(|j| lerp3(c8[2 * j], c8[2 * j + 1], em));
+        let dc4: [[f64; 3]; 4] = std::array::from_fn(|j| lerp3(dc8[2 * j], dc8[2 * j + 1], em));
+        let dm4: [[f64; 3]; 4] = std::array::from_fn(|j| sub3(c8[2 * j + 1], c8[2 * j]));
+        let y2 = [lerp3(m4[0], m4[1], ey), lerp3(m4[2], m4[3], ey)];
+        let dc2 = [lerp3(dc4[0], dc4[1], ey), lerp3(dc4[2], dc4[3], ey)];
+        let dm2 = [lerp3(dm4[0], dm4[1], ey), lerp3(dm4[2], dm4[3], ey)];
+        let dy2 = [sub3(m4[1], m4[0]), sub3(m4[3], m4[2])];
+        let s = lerp3(y2[0], y2[1], ek);
+        let ds = [lerp3(dc2[0], dc2[1], ek), lerp3(dm2[0], dm2[1], ek), lerp3(dy2[0], dy2[1], ek), sub3(y2[1], y2[0])];
+        let slopes = [sc, sm, sy, sk];
+        let mut jac = [[0.0; 4]; 3];
+        let mut out = [0.0; 3];
+        for ch in 0..3 {
+            let (v, dv) = self.power.apply_with_derivative(s[ch]);
+            out[ch] = v;
+            for ink in 0..4 {
+                jac[ch][ink] = dv * ds[ink][ch] * slopes[ink];
+            }
         }
-        let n = self.params.n;
-        Xyz::new(acc[0].powf(n), acc[1].powf(n), acc[2].powf(n))
+        (Xyz::from_array(out), jac)
     }
 }
 
@@ -124,6 +324,23 @@ impl PressModel for NeugebauerModel {
     #[inline]
     fn xyz(&self, ink: Cmyk) -> Xyz {
         self.xyz_effective(self.effective(ink))
+    }
+
+    #[inline]
+    fn lab(&self, ink: Cmyk) -> Lab {
+        fast_lab(self.xyz(ink))
+    }
+
+    fn lab_jacobian(&self, ink: Cmyk) -> (Lab, [[f64; 4]; 3]) {
+        let (xyz, dxyz) = self.xyz_jacobian(ink);
+        let (lab, dlab) = lab_with_derivative(xyz);
+        let mut jac = [[0.0; 4]; 3];
+        for (row, d) in jac.iter_mut().zip(dlab.iter()) {
+            for (ink, cell) in row.iter_mut().enumerate() {
+                *cell = d[0] * dxyz[0][ink] + d[1] * dxyz[1][ink] + d[2] * dxyz[2][ink];
+            }
+        }
+        (lab, jac)
     }
 }
 
@@ -153,3 +370,125 @@ pub fn complete_primaries(without_black: [Xyz; 8], black_solid: Xyz, surface: f6
     all
 }
 
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::press::finite_difference_lab_jacobian;
+
+    fn model(n: f64) -> NeugebauerModel {
+        let labs = [
+            Lab::new(95.0, 0.0, -2.0),
+            Lab::new(55.0, -37.0, -50.0),
+            Lab::new(48.0, 74.0, -3.0),
+            Lab::new(24.0, 22.0, -46.0),
+            Lab::new(89.0, -5.0, 93.0),
+            Lab::new(50.0, -65.0, 27.0),
+            Lab::new(47.0, 68.0, 48.0),
+            Lab::new(23.0, 0.0, 0.0),
+        ];
+        let primaries = complete_primaries(labs.map(|l| l.to_xyz()), Lab::new(16.0, 0.0, 0.0).to_xyz(), 0.006);
+        NeugebauerModel::new(NeugebauerParams { primaries, n, tvi50: [0.14, 0.15, 0.13, 0.17] })
+    }
+
+    /// Demichel (1924) weights written out term by term, the textbook form.
+    fn xyz_by_demichel_sum(m: &NeugebauerModel, e: [f64; 4]) -> Xyz {
+        let n = m.params.n;
+        let mut acc = [0.0; 3];
+        for (i, p) in m.params.primaries.iter().enumerate() {
+            let w: f64 = (0..4).map(|b| if i >> b & 1 == 1 { e[b] } else { 1.0 - e[b] }).product();
+            for (a, v) in acc.iter_mut().zip(p.to_array()) {
+                *a += w * v.powf(1.0 / n);
+            }
+        }
+        Xyz::from_array(acc.map(|a| a.powf(n)))
+    }
+
+    #[test]
+    fn interpolation_form_equals_demichel_sum() {
+        for n in [1.0, 2.0, 2.7] {
+            let m = model(n);
+            for e in [[0.3, 0.7, 0.1, 0.9], [0.0, 1.0, 0.5, 0.25], [0.99, 0.01, 0.6, 0.0]] {
+                let a = m.xyz_effective(e).to_array();
+                let b = xyz_by_demichel_sum(&m, e).to_array();
+                for (x, y) in a.iter().zip(b) {
+                    assert!((x - y).abs() < 1e-12, "n {n} at {e:?}: {x} vs {y}");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn analytic_jacobian_matches_central_differences() {
+        for n in [2.0, 2.6] {
+            let m = model(n);
+            for ink in [
+                Cmyk::new(0.2, 0.3, 0.4, 0.1),
+                Cmyk::new(0.7, 0.05, 0.9, 0.5),
+                Cmyk::new(0.5, 0.4, 0.4, 0.0),
+                Cmyk::new(0.95, 0.9, 0.85, 0.8),
+            ] {
+                let (lab, jac) = m.lab_jacobian(ink);
+                let (lab_fd, fd) = finite_difference_lab_jacobian(&m, ink);
+                assert!((lab.l - lab_fd.l).abs() < 1e-12);
+                for r in 0..3 {
+                    for c in 0..4 {
+                        let tol = 1e-3 * (1.0 + fd[r][c].abs());
+                        assert!(
+                            (jac[r][c] - fd[r][c]).abs() < tol,
+                            "n {n} {ink:?} [{r}][{c}]: {} vs {}",
+                            jac[r][c],
+                            fd[r][c]
+                        );
+                    }
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn fast_lab_equals_the_reference_conversion() {
+        // Reference: Lab::from_xyz (CIE 15:2004 with the library cube root).
+        let mut worst: f64 = 0.0;
+        for i in 0..=20_000 {
+            let t = i as f64 / 20_000.0;
+            let xyz = Xyz::new(0.9642 * t, t * t, 0.8249 * (1.0 - t).max(0.0001));
+            let (a, b) = (fast_lab(xyz), Lab::from_xyz(xyz));
+            worst = worst.max((a.l - b.l).abs()).max((a.a - b.a).abs()).max((a.b - b.b).abs());
+        }
+        assert!(worst < 1e-10, "{worst}");
+        for t in [1e-300, 1e-10, 0.01, 0.5, 1.0, 1.2, 1e10] {
+            assert!((fast_cbrt(t) / t.cbrt() - 1.0).abs() < 1e-14, "{t}");
+        }
+    }
+
+    #[test]
+    fn special_powers_equal_powf() {
+        for n in [2.0, 2.5, 3.0] {
+            let p = Power::new(n);
+            assert_ne!(p, Power::General(n));
+            for s in [0.0, 0.1, 0.5, 0.93] {
+                let (v, d) = p.apply_with_derivative(s);
+                assert!((p.apply(s) - s.powf(n)).abs() < 1e-15 && (v - s.powf(n)).abs() < 1e-15);
+                if s > 0.0 {
+                    assert!((d - n * s.powf(n - 1.0)).abs() < 1e-14);
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn tone_curve_ends_are_exact() {
+        let m = model(2.0);
+        for i in 0..4 {
+            assert_eq!(m.tone_curve(i).effective(0.0), 0.0);
+            assert!((m.tone_curve(i).effective(1.0) - 1.0).abs() < 1e-15);
+        }
+    }
+
+    #[test]
+    fn nan_coverage_does_not_panic() {
+        let m = model(2.0);
+        let xyz = m.xyz(Cmyk::new(f64::NAN, 0.5, 0.5, 0.5));
+        assert!(xyz.y.is_finite());
+    }
+}

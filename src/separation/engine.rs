@@ -163,8 +163,6 @@ const BLACK_AIM_WEIGHT: f64 = 0.05;
 /// (hue-preserving minimum-ΔE clipping, after HPMINDE of CIE 156:2004).
 const HUE_WEIGHT: f64 = 3.0;
 
-/// Step of the finite-difference Jacobian.
-const JACOBIAN_STEP: f64 = 1e-5;
 
 /// A separator for one printing condition and one set of settings, built
 /// once and shared by every thread.
@@ -178,6 +176,7 @@ pub struct Separator {
     black_point: Lab,
     black_point_ink: Cmyk,
     gamut: Arc<GamutBoundary>,
+    relative_from_absolute: Mat3,
 }
 
 impl Separator {
@@ -195,6 +194,7 @@ impl Separator {
             black_point: Lab::new(0.0, 0.0, 0.0),
             black_point_ink: Cmyk::ZERO,
             gamut: Arc::new(GamutBoundary::from_samples(std::iter::empty(), 0.0, 100.0)),
+            relative_from_absolute: Self::relative_jacobian(&media),
         };
         let (bp_ink, bp) = sep.find_black_point();
         sep.black_point = bp;
@@ -253,21 +253,37 @@ impl Separator {
         }
     }
 
+    /// The printed colour (media-relative) and its derivatives by coverage,
+    /// from the model's own Jacobian of absolute CIELAB. Media-relative Lab
+    /// is CIELAB of the same XYZ against the paper as white, which in the
+    /// cube-root range of CIELAB is an affine map of absolute Lab
+    /// ([`Separator::relative_from_absolute`]); its matrix carries the
+    /// Jacobian across (near black, where CIELAB turns linear, the step is
+    /// still a good Newton direction and the residual stays exact).
     fn forward(&self, x: [f64; 4]) -> ([f64; 3], [[f64; 4]; 3]) {
-        let f = |x: [f64; 4]| self.printed_relative(Cmyk::from_array(x)).to_array();
-        let base = f(x);
-        let mut jac = [[0.0; 4]; 3];
-        for j in 0..4 {
-            let upper = if j == 3 { self.bounds.k_max } else { 1.0 };
-            let h = if x[j] + JACOBIAN_STEP <= upper.max(JACOBIAN_STEP) { JACOBIAN_STEP } else { -JACOBIAN_STEP };
-            let mut xs = x;
-            xs[j] += h;
-            let v = f(xs);
-            for r in 0..3 {
-                jac[r][j] = (v[r] - base[r]) / h;
+        let (abs, jac) = self.model.lab_jacobian(Cmyk::from_array(x));
+        let rel = self.media.relative_lab_from_absolute(abs).to_array();
+        let m = &self.relative_from_absolute.0;
+        let mut out = [[0.0; 4]; 3];
+        for r in 0..3 {
+            for c in 0..4 {
+                out[r][c] = m[r][0] * jac[0][c] + m[r][1] * jac[1][c] + m[r][2] * jac[2][c];
             }
         }
-        (base, jac)
+        (rel, out)
+    }
+
+    /// d(relative Lab)/d(absolute Lab) in the cube-root range of CIELAB:
+    /// f(X/X_paper) = (X_n/X_paper)^(1/3)·f(X/X_n) per tristimulus channel.
+    fn relative_jacobian(media: &MediaWhite) -> Mat3 {
+        let d50 = crate::colour::D50.xyz;
+        let w = media.white;
+        let (cx, cy, cz) = ((d50.x / w.x).cbrt(), (d50.y / w.y).cbrt(), (d50.z / w.z).cbrt());
+        Mat3([
+            [cy, 0.0, 0.0],
+            [500.0 * (cx - cy) / 116.0, cx, 0.0],
+            [200.0 * (cy - cz) / 116.0, 0.0, cz],
+        ])
     }
 
     /// The colour-error weighting for a target: lightness and chroma error

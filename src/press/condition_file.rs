@@ -1,0 +1,402 @@
+//! Printing conditions in TOML files: the same fields as the built-in
+//! conditions, percent for every ink figure, CIELAB D50 for the aims.
+//!
+//! ```toml
+//! name = "house-press"                # optional, defaults to the file stem
+//! description = "our sheetfed press"  # optional
+//! tac = 320                           # total ink limit, percent (100–400)
+//! min_dot = 2                         # smallest printable dot, percent (optional, default 2)
+//! yule_nielsen_n = 2.0                # 1–10
+//! black_surface = 1.0                 # first-surface reflection, percent of paper (0–20)
+//!
+//! [tvi]                               # tone value increase at 50 %, percent (0–30)
+//! cyan = 14
+//! magenta = 14
+//! yellow = 14
+//! black = 17
+//!
+//! [ink_film]                          # g/m² at 100 % (optional; 0–5)
+//! cyan = 1.1
+//! magenta = 1.1
+//! yellow = 1.1
+//! black = 1.2
+//!
+//! [black_generation]                  # optional; percent except shape
+//! gcr = 50
+//! black_start = 20
+//! black_max = 95
+//! shape = 2.0
+//! uca = 0
+//!
+//! [aims]                              # CIELAB D50 [L*, a*, b*]
+//! paper = [95.0, 0.0, -2.0]
+//! cyan = [55.0, -37.0, -50.0]
+//! magenta = [48.0, 74.0, -3.0]
+//! yellow = [89.0, -5.0, 93.0]
+//! black = [16.0, 0.0, 0.0]
+//! red = [47.0, 68.0, 48.0]            # magenta + yellow
+//! green = [50.0, -65.0, 27.0]         # cyan + yellow
+//! blue = [24.0, 22.0, -46.0]          # cyan + magenta
+//! three_colour = [23.0, 0.0, 0.0]     # cyan + magenta + yellow
+//! ```
+//!
+//! Unknown keys are errors (a misspelt key must not be silently ignored);
+//! every error names the file, the key, the line and the allowed range.
+
+use super::{AIM_NAMES, Aims, DEFAULT_INK_FILM, ModelParams, PrintingCondition, builtin};
+use crate::colour::Lab;
+use crate::error::{Error, Result};
+use crate::separation::BlackGeneration;
+use serde::Deserialize;
+use std::fmt::Write as _;
+use std::ops::Range;
+use std::path::Path;
+use toml::Spanned;
+
+type Num = Spanned<f64>;
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FileCondition {
+    name: Option<Spanned<String>>,
+    description: Option<String>,
+    tac: Num,
+    min_dot: Option<Num>,
+    yule_nielsen_n: Num,
+    black_surface: Num,
+    tvi: PerInk,
+    ink_film: Option<PerInk>,
+    black_generation: Option<FileBlack>,
+    aims: FileAims,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct PerInk {
+    cyan: Num,
+    magenta: Num,
+    yellow: Num,
+    black: Num,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FileBlack {
+    gcr: Num,
+    black_start: Num,
+    black_max: Num,
+    shape: Num,
+    uca: Num,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FileAims {
+    paper: Spanned<[f64; 3]>,
+    cyan: Spanned<[f64; 3]>,
+    magenta: Spanned<[f64; 3]>,
+    yellow: Spanned<[f64; 3]>,
+    black: Spanned<[f64; 3]>,
+    red: Spanned<[f64; 3]>,
+    green: Spanned<[f64; 3]>,
+    blue: Spanned<[f64; 3]>,
+    three_colour: Spanned<[f64; 3]>,
+}
+
+/// Line (1-based) of a byte offset.
+fn line_of(text: &str, offset: usize) -> usize {
+    text.as_bytes()[..offset.min(text.len())].iter().filter(|&&b| b == b'\n').count() + 1
+}
+
+/// Checks values against their allowed ranges, reporting the first failure
+/// with file, key and line.
+struct Checker<'a> {
+    path: &'a Path,
+    text: &'a str,
+}
+
+impl Checker<'_> {
+    fn error(&self, span: Range<usize>, key: &str, problem: String) -> Error {
+        Error::input(self.path, format!("line {}: `{key}`: {problem}", line_of(self.text, span.start)))
+    }
+
+    /// A number within `lo..=hi` (in the file's unit, `unit` for messages).
+    fn range(&self, v: &Num, key: &str, lo: f64, hi: f64, unit: &str) -> Result<f64> {
+        let x = *v.get_ref();
+        if !x.is_finite() || x < lo || x > hi {
+            return Err(self.error(v.span(), key, format!("{x} is out of range; allowed {lo}–{hi}{unit}")));
+        }
+        Ok(x)
+    }
+
+    fn per_ink(&self, v: &PerInk, table: &str, lo: f64, hi: f64, unit: &str) -> Result<[f64; 4]> {
+        Ok([
+            self.range(&v.cyan, &format!("{table}.cyan"), lo, hi, unit)?,
+            self.range(&v.magenta, &format!("{table}.magenta"), lo, hi, unit)?,
+            self.range(&v.yellow, &format!("{table}.yellow"), lo, hi, unit)?,
+            self.range(&v.black, &format!("{table}.black"), lo, hi, unit)?,
+        ])
+    }
+
+    fn lab(&self, v: &Spanned<[f64; 3]>, key: &str) -> Result<Lab> {
+        let [l, a, b] = *v.get_ref();
+        if !(l.is_finite() && (0.0..=100.0).contains(&l)) {
+            return Err(self.error(v.span(), key, format!("L* {l} is out of range; allowed 0–100")));
+        }
+        for (name, x) in [("a*", a), ("b*", b)] {
+            if !(x.is_finite() && (-128.0..=128.0).contains(&x)) {
+                return Err(self.error(v.span(), key, format!("{name} {x} is out of range; allowed -128–128")));
+            }
+        }
+        Ok(Lab::new(l, a, b))
+    }
+}
+
+/// Parses and validates a condition from TOML text; `path` names the file in
+/// errors and gives the default name (its stem).
+pub fn parse_condition(text: &str, path: &Path) -> Result<PrintingCondition> {
+    let file: FileCondition = toml::from_str(text).map_err(|e| {
+        let line = e.span().map(|s| format!("line {}: ", line_of(text, s.start))).unwrap_or_default();
+        Error::input(path, format!("{line}{}", e.message().trim_end()))
+    })?;
+    let ck = Checker { path, text };
+
+    let tac = ck.range(&file.tac, "tac", 100.0, 400.0, " %")? / 100.0;
+    let min_dot = match &file.min_dot {
+        Some(v) => ck.range(v, "min_dot", 0.0, 20.0, " %")? / 100.0,
+        None => 0.02,
+    };
+    let n = ck.range(&file.yule_nielsen_n, "yule_nielsen_n", 1.0, 10.0, "")?;
+    let surface = ck.range(&file.black_surface, "black_surface", 0.0, 20.0, " % of paper")? / 100.0;
+    let tvi50 = ck.per_ink(&file.tvi, "tvi", 0.0, 30.0, " %")?.map(|v| v / 100.0);
+    let ink_film = match &file.ink_film {
+        Some(v) => ck.per_ink(v, "ink_film", 0.0, 5.0, " g/m²")?,
+        None => DEFAULT_INK_FILM,
+    };
+    let black = match &file.black_generation {
+        Some(b) => BlackGeneration {
+            gcr: ck.range(&b.gcr, "black_generation.gcr", 0.0, 100.0, " %")? / 100.0,
+            black_start: ck.range(&b.black_start, "black_generation.black_start", 0.0, 100.0, " %")? / 100.0,
+            black_max: ck.range(&b.black_max, "black_generation.black_max", 0.0, 100.0, " %")? / 100.0,
+            shape: ck.range(&b.shape, "black_generation.shape", 0.2, 10.0, "")?,
+            uca: ck.range(&b.uca, "black_generation.uca", 0.0, 100.0, " %")? / 100.0,
+        },
+        None => BlackGeneration::default(),
+    };
+
+    let a = &file.aims;
+    let spanned = [&a.paper, &a.cyan, &a.magenta, &a.yellow, &a.black, &a.red, &a.green, &a.blue, &a.three_colour];
+    let mut labs = [Lab::default(); 9];
+    for (i, v) in spanned.iter().enumerate() {
+        labs[i] = ck.lab(v, &format!("aims.{}", AIM_NAMES[i]))?;
+    }
+    // Physical order: ink only absorbs, so every solid is darker than the paper
+    // and every overprint no lighter than each ink in it. The model's
+    // monotonicity (more ink never lightens) rests on this.
+    const CONTAINS: [(usize, &[usize]); 8] =
+        [(1, &[0]), (2, &[0]), (3, &[0]), (4, &[0]), (5, &[2, 3]), (6, &[1, 3]), (7, &[1, 2]), (8, &[5, 6, 7])];
+    for (over, parts) in CONTAINS {
+        for &p in parts {
+            if labs[over].l > labs[p].l || (p == 0 && labs[over].l == labs[p].l) {
+                let what = if p == 0 {
+                    "a solid must be darker than the paper"
+                } else {
+                    "an overprint cannot be lighter than an ink in it"
+                };
+                return Err(ck.error(
+                    spanned[over].span(),
+                    &format!("aims.{}", AIM_NAMES[over]),
+                    format!(
+                        "L* {} is lighter than aims.{} (L* {}): {what}; allowed L* up to {}",
+                        labs[over].l, AIM_NAMES[p], labs[p].l, labs[p].l
+                    ),
+                ));
+            }
+        }
+    }
+    let aims = Aims::from_array(labs);
+    let max_surface = aims.black.to_xyz().y / aims.paper.to_xyz().y;
+    if surface >= max_surface {
+        return Err(ck.error(
+            file.black_surface.span(),
+            "black_surface",
+            format!(
+                "{} % is not below the black solid's luminance factor relative to paper; allowed 0–{:.2} % for these aims",
+                surface * 100.0,
+                max_surface * 100.0
+            ),
+        ));
+    }
+
+    let name = match &file.name {
+        Some(n) => {
+            let s = n.get_ref().trim();
+            if s.is_empty() || s.len() > 64 || s.chars().any(|c| c.is_control()) {
+                return Err(ck.error(n.span(), "name", "must be 1–64 printable characters".into()));
+            }
+            s.to_string()
+        }
+        None => path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "condition".into()),
+    };
+    let description = file.description.unwrap_or_else(|| format!("printing condition from {}", path.display()));
+    let params = ModelParams { aims, tvi50, n, black_surface: surface };
+    Ok(PrintingCondition::from_params(name, description, params, tac, black, min_dot).with_ink_film(ink_film))
+}
+
+/// Reads a condition file.
+pub fn read_condition_file(path: &Path) -> Result<PrintingCondition> {
+    let text = std::fs::read_to_string(path).map_err(|e| Error::input(path, format!("cannot read: {e}")))?;
+    parse_condition(&text, path)
+}
+
+/// A printing condition from a built-in name (`coated-offset`) or a `.toml`
+/// file. ICC output profiles (`.icc`, `.icm`) are not read here: they are
+/// loaded through the ICC profile model, and this function says so.
+pub fn load_condition(spec: &str) -> Result<PrintingCondition> {
+    let lower = spec.to_ascii_lowercase();
+    if lower.ends_with(".toml") {
+        return read_condition_file(Path::new(spec));
+    }
+    if lower.ends_with(".icc") || lower.ends_with(".icm") {
+        return Err(Error::input(
+            spec,
+            "an ICC output profile is not a built-in or TOML printing condition; it is loaded through the ICC profile model",
+        ));
+    }
+    builtin::by_name(spec).ok_or_else(|| {
+        Error::usage(format!(
+            "unknown printing condition `{spec}`: built-in conditions are {}; or give a .toml condition file or a CMYK .icc profile",
+            builtin::names().join(", ")
+        ))
+    })
+}
+
+/// Writes `text` to `path` atomically: a temporary file in the same folder,
+/// then a rename (or, without `overwrite`, a hard link that fails when `path`
+/// exists, so an existing file is never replaced even in a race).
+pub fn write_file_atomically(path: &Path, text: &str, overwrite: bool) -> Result<()> {
+    use std::io::Write;
+    if !overwrite && path.exists() {
+        return Err(Error::output(path, "the file exists; choose another name or allow overwriting (--force)"));
+    }
+    let dir = match path.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+        _ => std::path::PathBuf::from("."),
+    };
+    let stem = path.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "condition".into());
+    let temp = dir.join(format!(".{stem}.{}.partial", std::process::id()));
+    let result = (|| -> std::io::Result<()> {
+        let mut f = std::fs::OpenOptions::new().write(true).create_new(true).open(&temp)?;
+        f.write_all(text.as_bytes())?;
+        f.sync_all()?;
+        drop(f);
+        if overwrite {
+            std::fs::rename(&temp, path)
+        } else {
+            match std::fs::hard_link(&temp, path) {
+                Ok(()) => std::fs::remove_file(&temp),
+                Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => Err(e),
+                // A file system without hard links: checked above, rename.
+                Err(_) => std::fs::rename(&temp, path),
+            }
+        }
+    })();
+    if result.is_err() {
+        let _ = std::fs::remove_file(&temp);
+    }
+    result.map_err(|e| {
+        if e.kind() == std::io::ErrorKind::AlreadyExists {
+            Error::output(path, "the file exists; choose another name or allow overwriting (--force)")
+        } else {
+            Error::output(path, e.to_string())
+        }
+    })
+}
+
+/// A number for a TOML file: rounded to `decimals`, always with a decimal point.
+fn num(x: f64, decimals: usize) -> String {
+    let s = format!("{x:.decimals$}");
+    let s = if s.contains('.') { s.trim_end_matches('0').trim_end_matches('.').to_string() } else { s };
+    let s = if s == "-0" { "0".to_string() } else { s };
+    if s.contains('.') { s } else { format!("{s}.0") }
+}
+
+/// TOML text for a condition with characterization parameters, in the form
+/// [`parse_condition`] reads. `header` lines are written as comments first.
+pub fn to_toml(condition: &PrintingCondition, header: &[String]) -> Result<String> {
+    let p = condition.params.as_ref().ok_or_else(|| {
+        Error::usage(format!("condition `{}` has no characterization parameters to write as TOML", condition.name))
+    })?;
+    let mut s = String::new();
+    for h in header {
+        let _ = writeln!(s, "# {h}");
+    }
+    let esc = |t: &str| t.replace('\\', "\\\\").replace('"', "\\\"");
+    let _ = writeln!(s, "name = \"{}\"", esc(&condition.name));
+    let _ = writeln!(s, "description = \"{}\"", esc(&condition.description));
+    let _ = writeln!(s, "tac = {}  # percent", num(condition.tac * 100.0, 1));
+    let _ = writeln!(s, "min_dot = {}  # percent", num(condition.min_dot * 100.0, 2));
+    let _ = writeln!(s, "yule_nielsen_n = {}", num(p.n, 4));
+    let _ = writeln!(s, "black_surface = {}  # percent of paper", num(p.black_surface * 100.0, 3));
+    let inks = ["cyan", "magenta", "yellow", "black"];
+    let _ = writeln!(s, "\n[tvi]  # tone value increase at 50 %, percent");
+    for (i, ink) in inks.iter().enumerate() {
+        let _ = writeln!(s, "{ink} = {}", num(p.tvi50[i] * 100.0, 2));
+    }
+    let _ = writeln!(s, "\n[ink_film]  # g/m² at 100 %");
+    for (i, ink) in inks.iter().enumerate() {
+        let _ = writeln!(s, "{ink} = {}", num(condition.ink_film[i], 3));
+    }
+    let b = &condition.black;
+    let _ = writeln!(s, "\n[black_generation]  # percent, except shape");
+    let _ = writeln!(s, "gcr = {}", num(b.gcr * 100.0, 2));
+    let _ = writeln!(s, "black_start = {}", num(b.black_start * 100.0, 2));
+    let _ = writeln!(s, "black_max = {}", num(b.black_max * 100.0, 2));
+    let _ = writeln!(s, "shape = {}", num(b.shape, 3));
+    let _ = writeln!(s, "uca = {}", num(b.uca * 100.0, 2));
+    let _ = writeln!(s, "\n[aims]  # CIELAB D50 [L*, a*, b*]");
+    for (name, lab) in AIM_NAMES.iter().zip(p.aims.to_array()) {
+        let _ = writeln!(s, "{name} = [{}, {}, {}]", num(lab.l, 2), num(lab.a, 2), num(lab.b, 2));
+    }
+    Ok(s)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn built_in_conditions_round_trip_through_toml() {
+        for c in builtin::all() {
+            let text = to_toml(&c, &[]).unwrap();
+            let back = parse_condition(&text, Path::new("x.toml")).unwrap();
+            assert_eq!(back.name, c.name);
+            let (a, b) = (c.params.unwrap(), back.params.unwrap());
+            assert_eq!(a.aims, b.aims);
+            assert!((a.black_surface - b.black_surface).abs() < 1e-12 && (a.n - b.n).abs() < 1e-12);
+            assert!(a.tvi50.iter().zip(b.tvi50).all(|(x, y)| (x - y).abs() < 1e-12));
+            assert!((back.black.gcr - c.black.gcr).abs() < 1e-12);
+            assert!((back.tac - c.tac).abs() < 1e-12);
+            assert_eq!(back.ink_film, c.ink_film);
+        }
+    }
+
+    #[test]
+    fn numbers_always_parse_as_floats() {
+        assert_eq!(num(14.000000000000002, 2), "14.0");
+        assert_eq!(num(-0.0001, 2), "0.0");
+        assert_eq!(num(2.4, 4), "2.4");
+    }
+
+    #[test]
+    fn icc_spec_is_refused_with_a_clear_message() {
+        let err = load_condition("press.icc").unwrap_err().to_string();
+        assert!(err.contains("press.icc") && err.contains("ICC"), "{err}");
+    }
+
+    #[test]
+    fn unknown_name_lists_the_built_in_names() {
+        let err = load_condition("glossy").unwrap_err().to_string();
+        assert!(err.contains("coated-offset") && err.contains("newsprint"), "{err}");
+    }
+}
