@@ -403,10 +403,22 @@ impl Separator {
         if share <= 0.0 {
             return low;
         }
-        let high = self.solve_exact(target, self.bounds.k_max, self.bounds, low.x).unwrap_or(low);
+        let mut raised = low.x;
+        raised[3] = (low.x[3] + 0.1).min(self.bounds.k_max);
+        let high = [low.x, raised, [0.2, 0.15, 0.15, self.bounds.k_max * 0.8]]
+            .into_iter()
+            .find_map(|start| self.solve_exact(target, self.bounds.k_max, self.bounds, start))
+            .unwrap_or(low);
         let k = low.x[3] + share * (high.x[3] - low.x[3]);
         let mid: [f64; 4] = std::array::from_fn(|i| low.x[i] + share * (high.x[i] - low.x[i]));
-        self.solve_exact(target, k, self.bounds.with_black(k), mid)
+        let held = self.bounds.with_black(k);
+        let mut from_low = low.x;
+        from_low[3] = k;
+        let mut from_high = high.x;
+        from_high[3] = k;
+        [mid, from_low, from_high]
+            .into_iter()
+            .find_map(|start| self.solve_exact(target, k, held, start))
             .or_else(|| self.solve_exact(target, k, self.bounds, mid))
             .unwrap_or(low)
     }
