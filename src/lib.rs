@@ -8,6 +8,7 @@
 pub mod cli;
 pub mod colour;
 pub mod error;
+pub mod icc;
 pub mod ink;
 pub mod press;
 pub mod separation;

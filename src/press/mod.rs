@@ -5,6 +5,7 @@
 //! allocate per call and is cheap enough to be called millions of times.
 
 pub mod builtin;
+pub mod icc_model;
 mod neugebauer;
 
 pub use neugebauer::{NeugebauerModel, NeugebauerParams, ToneCurve, complete_primaries, overprint_black};
