@@ -72,7 +72,11 @@ mod tests {
 
     /// lcms2's own Lab encoders (cmspcs.c), the reference for `encoding`.
     fn lcms2_encode(lab: Lab, version: IccVersion) -> [u16; 3] {
-        let input = sys::CIELab { L: lab.l, a: lab.a, b: lab.b };
+        let input = sys::CIELab {
+            L: lab.l,
+            a: lab.a,
+            b: lab.b,
+        };
         let mut out = [0u16; 3];
         // SAFETY: both functions read one CIELab and write exactly three u16
         // into the array, which lives for the call; they keep no pointer.
@@ -111,8 +115,16 @@ mod tests {
             for _ in 0..20_000 {
                 // Beyond both ends of the encodable range, to check clamping too.
                 let lab = Lab::new(next() * 110.0 - 5.0, next() * 280.0 - 140.0, next() * 280.0 - 140.0);
-                assert_eq!(encoding::encode_lab(lab, version), lcms2_encode(lab, version), "{lab:?} {version:?}");
-                let code = [(next() * 65535.0) as u16, (next() * 65535.0) as u16, (next() * 65535.0) as u16];
+                assert_eq!(
+                    encoding::encode_lab(lab, version),
+                    lcms2_encode(lab, version),
+                    "{lab:?} {version:?}"
+                );
+                let code = [
+                    (next() * 65535.0) as u16,
+                    (next() * 65535.0) as u16,
+                    (next() * 65535.0) as u16,
+                ];
                 let (ours, theirs) = (encoding::decode_lab(code, version), lcms2_decode(code, version));
                 assert!((ours.l - theirs.l).abs() < 1e-12 && (ours.a - theirs.a).abs() < 1e-12);
                 assert!((ours.b - theirs.b).abs() < 1e-12);
@@ -124,7 +136,10 @@ mod tests {
     fn pipeline_has_the_stage_pattern_of_each_table_type() {
         let table = vec![0u16; 2usize.pow(4) * 3];
         let framed = clut_pipeline(4, 3, 2, &table, Framing::CurvesAroundClut).unwrap();
-        assert_eq!((framed.stage_count(), framed.input_channels(), framed.output_channels()), (3, 4, 3));
+        assert_eq!(
+            (framed.stage_count(), framed.input_channels(), framed.output_channels()),
+            (3, 4, 3)
+        );
         let bare = clut_pipeline(4, 3, 2, &table, Framing::ClutOnly).unwrap();
         assert_eq!(bare.stage_count(), 1);
         assert!(clut_pipeline(4, 3, 3, &table, Framing::ClutOnly).is_err());

@@ -17,8 +17,7 @@ mod writer;
 
 pub use encoding::{decode_lab, encode_lab, encode_unit, grid_lab};
 pub use writer::{
-    DEFAULT_A2B_GRID, DEFAULT_B2A_GRID, DEFAULT_COPYRIGHT, OutputProfileSpec, build_output_profile,
-    default_description,
+    DEFAULT_A2B_GRID, DEFAULT_B2A_GRID, DEFAULT_COPYRIGHT, OutputProfileSpec, build_output_profile, default_description,
 };
 
 /// The ICC specification version a profile is written for.

@@ -1,8 +1,8 @@
 //! Building a CMYK output profile from callbacks sampled on regular grids.
 
+use super::IccVersion;
 use super::encoding::{encode_lab, encode_unit, grid_lab};
 use super::ffi::{Framing, clut_pipeline};
-use super::IccVersion;
 use crate::colour::{Lab, Xyz};
 use crate::ink::Cmyk;
 use crate::{Error, Result};
@@ -15,7 +15,8 @@ pub const DEFAULT_A2B_GRID: u32 = 17;
 /// Default grid of the BToA and gamut tables (points per L*, a*, b* axis): 33³ nodes.
 pub const DEFAULT_B2A_GRID: u32 = 33;
 /// Copyright text written when the caller has nothing more specific.
-pub const DEFAULT_COPYRIGHT: &str = "Made with platesmith from a model of the printing condition; free to use and share.";
+pub const DEFAULT_COPYRIGHT: &str =
+    "Made with platesmith from a model of the printing condition; free to use and share.";
 
 /// Largest table accepted, in 16-bit values (48 MiB of table data, e.g. 63⁴ × 3):
 /// far beyond any useful grid, small enough to never exhaust memory.
@@ -118,9 +119,15 @@ pub fn build_output_profile(spec: &OutputProfileSpec) -> Result<Vec<u8>> {
     let mut description = MLU::new(1);
     let mut copyright = MLU::new(1);
     if !description.set_text(&spec.description, locale) || !copyright.set_text(&spec.copyright, locale) {
-        return Err(Error::usage("profile description and copyright must be text without NUL characters"));
+        return Err(Error::usage(
+            "profile description and copyright must be text without NUL characters",
+        ));
     }
-    write(&mut profile, TagSignature::ProfileDescriptionTag, Tag::MLU(&description))?;
+    write(
+        &mut profile,
+        TagSignature::ProfileDescriptionTag,
+        Tag::MLU(&description),
+    )?;
     write(&mut profile, TagSignature::CopyrightTag, Tag::MLU(&copyright))?;
     let white = CIEXYZ { X: w.x, Y: w.y, Z: w.z };
     write(&mut profile, TagSignature::MediaWhitePointTag, Tag::CIEXYZ(&white))?;
@@ -158,15 +165,21 @@ pub fn build_output_profile(spec: &OutputProfileSpec) -> Result<Vec<u8>> {
         // The profile ID (MD5 of the profile, ICC.1:2022 §7.2.18) exists only in v4.
         profile.set_default_profile_id();
     }
-    profile.icc().map_err(|e| Error::Internal(format!("lcms2 could not serialise the profile: {e}")))
+    profile
+        .icc()
+        .map_err(|e| Error::Internal(format!("lcms2 could not serialise the profile: {e}")))
 }
 
 fn check_grid(what: &str, grid: u32, inputs: u32, outputs: usize) -> Result<()> {
     if !(2..=255).contains(&grid) {
-        return Err(Error::usage(format!("{what} grid must have 2 to 255 points per axis, got {grid}")));
+        return Err(Error::usage(format!(
+            "{what} grid must have 2 to 255 points per axis, got {grid}"
+        )));
     }
     if (grid as usize).pow(inputs) * outputs > MAX_TABLE_VALUES {
-        return Err(Error::usage(format!("{what} grid of {grid} points per axis makes a table too large to write")));
+        return Err(Error::usage(format!(
+            "{what} grid of {grid} points per axis makes a table too large to write"
+        )));
     }
     Ok(())
 }
@@ -183,7 +196,9 @@ fn link(profile: &mut Profile, sig: TagSignature, to: TagSignature) -> Result<()
     if profile.link_tag(sig, to) {
         Ok(())
     } else {
-        Err(Error::Internal(format!("lcms2 could not link the {sig:?} tag to {to:?}")))
+        Err(Error::Internal(format!(
+            "lcms2 could not link the {sig:?} tag to {to:?}"
+        )))
     }
 }
 

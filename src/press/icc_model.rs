@@ -25,9 +25,14 @@ use rayon::prelude::*;
 use std::path::Path;
 use std::sync::Arc;
 
-/// Default points per CMYK axis of the sampled grid: 21⁴ = 194 481 nodes,
-/// 2.3 MB. The interpolation error against lcms2 evaluating the profile
-/// directly is measured in tests/icc_profile.rs (`sampled_grid_error_against_lcms2`).
+/// Default points per CMYK axis of the sampled grid: 21⁴ = 194 481 nodes, 2.3 MB.
+///
+/// Measured against lcms2 evaluating the profile directly on 5000 random builds
+/// (tests/icc_profile.rs, `sampled_grid_error_against_lcms2`), ΔE2000 mean / max:
+/// profile 11⁴ — grid 17: 0.059 / 0.40, grid 21: 0.013 / 0.18; profile 17⁴ —
+/// grid 17: 0.020 / 0.25, grid 21: 0.032 / 0.22; grid 33 (14 MB, several
+/// times slower to load) reaches 0.006 / 0.12. 21 keeps the worst case near
+/// 0.2 whatever the profile's own grid, at a size that stays in cache.
 pub const DEFAULT_MODEL_GRID: usize = 21;
 
 /// Total ink limit assumed when lcms2 cannot detect one (the profile has no
@@ -58,7 +63,10 @@ pub struct IccModelOptions {
 
 impl Default for IccModelOptions {
     fn default() -> Self {
-        IccModelOptions { colorimetry: IccColorimetry::Relative, grid: DEFAULT_MODEL_GRID }
+        IccModelOptions {
+            colorimetry: IccColorimetry::Relative,
+            grid: DEFAULT_MODEL_GRID,
+        }
     }
 }
 
@@ -90,7 +98,10 @@ impl IccPressModel {
     pub fn from_bytes(bytes: &[u8], origin: &Path, options: IccModelOptions) -> Result<IccPressModel> {
         let bad = |message: String| Error::input(origin, message);
         if !(2..=65).contains(&options.grid) {
-            return Err(Error::usage(format!("ICC model grid must be 2 to 65 points per axis, got {}", options.grid)));
+            return Err(Error::usage(format!(
+                "ICC model grid must be 2 to 65 points per axis, got {}",
+                options.grid
+            )));
         }
         check_header(bytes).map_err(bad)?;
         let profile = Profile::new_icc(bytes)
@@ -108,7 +119,9 @@ impl IccPressModel {
         }
         let pcs = profile.pcs();
         if pcs != ColorSpaceSignature::LabData && pcs != ColorSpaceSignature::XYZData {
-            return Err(bad(format!("has an invalid profile connection space {pcs:?} (Lab or XYZ expected)")));
+            return Err(bad(format!(
+                "has an invalid profile connection space {pcs:?} (Lab or XYZ expected)"
+            )));
         }
         let intent = match options.colorimetry {
             IccColorimetry::Relative => Intent::RelativeColorimetric,
@@ -116,7 +129,9 @@ impl IccPressModel {
         };
         // LCMS_USED_AS_INPUT = 0: the CMYK → PCS direction.
         if !profile.is_intent_supported(intent, 0) {
-            return Err(bad("has no CMYK → PCS table (AToB0/AToB1) to model the press with".into()));
+            return Err(bad(
+                "has no CMYK → PCS table (AToB0/AToB1) to model the press with".into()
+            ));
         }
         let media_white = match profile.read_tag(TagSignature::MediaWhitePointTag) {
             Tag::CIEXYZ(w) => Xyz::new(w.X, w.Y, w.Z),
@@ -129,7 +144,11 @@ impl IccPressModel {
 
         let d50 = D50.xyz;
         let sum = d50.x + d50.y + d50.z;
-        let white = CIExyY { x: d50.x / sum, y: d50.y / sum, Y: 1.0 };
+        let white = CIExyY {
+            x: d50.x / sum,
+            y: d50.y / sum,
+            Y: 1.0,
+        };
         let lab_profile = Profile::new_lab4_context(GlobalContext::new(), &white)
             .map_err(|e| Error::Internal(format!("lcms2 could not create a Lab profile: {e}")))?;
         // No cache: the transform is then `Sync` and rows are transformed in parallel.
@@ -178,7 +197,9 @@ impl IccPressModel {
             table,
             media_white,
             tac_percent: (tac.is_finite() && tac > 0.0).then_some(tac),
-            description: profile.info(InfoType::Description, Locale::none()).filter(|d| !d.trim().is_empty()),
+            description: profile
+                .info(InfoType::Description, Locale::none())
+                .filter(|d| !d.trim().is_empty()),
         })
     }
 
@@ -233,7 +254,11 @@ impl IccPressModel {
         let mut index = base;
         let mut node = t[index];
         let mut weight = 1.0 - axes[0].0;
-        let mut out = [node[0] as f64 * weight, node[1] as f64 * weight, node[2] as f64 * weight];
+        let mut out = [
+            node[0] as f64 * weight,
+            node[1] as f64 * weight,
+            node[2] as f64 * weight,
+        ];
         for k in 0..4 {
             index += axes[k].1;
             node = t[index];
@@ -272,9 +297,15 @@ impl PressModel for IccPressModel {
 /// - `min_dot`: 0.02 (a default, common practice: 2 % is the smallest dot most plates hold).
 pub fn condition_from_icc(path: &Path) -> Result<PrintingCondition> {
     let model = IccPressModel::from_file(path)?;
-    let name = path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "icc".into());
+    let name = path
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "icc".into());
     let description = model.description().map(str::to_owned).unwrap_or_else(|| {
-        format!("ICC output profile {}", path.file_name().map(|f| f.to_string_lossy()).unwrap_or_default())
+        format!(
+            "ICC output profile {}",
+            path.file_name().map(|f| f.to_string_lossy()).unwrap_or_default()
+        )
     });
     let tac = model.detected_tac().unwrap_or(FALLBACK_TAC_PERCENT) / 100.0;
     Ok(PrintingCondition {
@@ -293,7 +324,10 @@ pub fn condition_from_icc(path: &Path) -> Result<PrintingCondition> {
 /// signature 'acsp'.
 fn check_header(bytes: &[u8]) -> std::result::Result<(), String> {
     if bytes.len() < 132 {
-        return Err(format!("is not an ICC profile: {} bytes, shorter than the 128-byte header and tag count", bytes.len()));
+        return Err(format!(
+            "is not an ICC profile: {} bytes, shorter than the 128-byte header and tag count",
+            bytes.len()
+        ));
     }
     if &bytes[36..40] != b"acsp" {
         return Err("is not an ICC profile (no 'acsp' signature at byte 36)".into());
@@ -329,7 +363,13 @@ mod tests {
         // A table whose Lab is an affine function of CMYK: simplex interpolation
         // reproduces affine functions exactly (barycentric weights sum to 1 and
         // reproduce the vertex coordinates).
-        let f = |c: [f64; 4]| [90.0 - 20.0 * c[0] - 30.0 * c[1] - 5.0 * c[2] - 60.0 * c[3], 40.0 * c[1] - 30.0 * c[0], 70.0 * c[2] - 45.0 * c[0]];
+        let f = |c: [f64; 4]| {
+            [
+                90.0 - 20.0 * c[0] - 30.0 * c[1] - 5.0 * c[2] - 60.0 * c[3],
+                40.0 * c[1] - 30.0 * c[0],
+                70.0 * c[2] - 45.0 * c[0],
+            ]
+        };
         let n = grid;
         let table = (0..n.pow(4))
             .map(|i| {
@@ -350,7 +390,11 @@ mod tests {
     #[test]
     fn simplex_interpolation_reproduces_affine_tables() {
         let model = linear_model(5);
-        for ink in [Cmyk::new(0.13, 0.77, 0.5, 0.91), Cmyk::new(1.0, 0.0, 0.33, 0.999), Cmyk::new(0.6, 0.6, 0.6, 0.6)] {
+        for ink in [
+            Cmyk::new(0.13, 0.77, 0.5, 0.91),
+            Cmyk::new(1.0, 0.0, 0.33, 0.999),
+            Cmyk::new(0.6, 0.6, 0.6, 0.6),
+        ] {
             let lab = model.lab(ink);
             let want = 90.0 - 20.0 * ink.c - 30.0 * ink.m - 5.0 * ink.y - 60.0 * ink.k;
             assert!((lab.l - want).abs() < 1e-4, "{ink:?}: {lab:?}");
@@ -361,7 +405,10 @@ mod tests {
     #[test]
     fn coverage_is_clamped_and_nan_does_not_panic() {
         let model = linear_model(3);
-        assert_eq!(model.lab(Cmyk::new(-1.0, 2.0, 0.0, 0.0)), model.lab(Cmyk::new(0.0, 1.0, 0.0, 0.0)));
+        assert_eq!(
+            model.lab(Cmyk::new(-1.0, 2.0, 0.0, 0.0)),
+            model.lab(Cmyk::new(0.0, 1.0, 0.0, 0.0))
+        );
         assert!(!model.lab(Cmyk::new(f64::NAN, 0.0, 0.0, 0.0)).is_finite());
     }
 
