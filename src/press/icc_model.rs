@@ -71,7 +71,7 @@ impl Default for IccModelOptions {
 }
 
 /// A press model sampled from a CMYK ICC output profile.
-#[derive(Debug, Clone)]
+#[derive(Clone)]
 pub struct IccPressModel {
     grid: usize,
     /// Index strides of C, M, Y, K (K fastest).
@@ -271,6 +271,18 @@ impl IccPressModel {
     }
 }
 
+/// Shows the settings, not the 2 MB table.
+impl std::fmt::Debug for IccPressModel {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("IccPressModel")
+            .field("grid", &self.grid)
+            .field("media_white", &self.media_white)
+            .field("tac_percent", &self.tac_percent)
+            .field("description", &self.description)
+            .finish_non_exhaustive()
+    }
+}
+
 impl PressModel for IccPressModel {
     fn xyz(&self, ink: Cmyk) -> Xyz {
         Lab::from_array(self.interpolate(ink)).to_xyz()
@@ -410,6 +422,8 @@ mod tests {
             model.lab(Cmyk::new(0.0, 1.0, 0.0, 0.0))
         );
         assert!(!model.lab(Cmyk::new(f64::NAN, 0.0, 0.0, 0.0)).is_finite());
+        // Debug output names the settings and leaves the table out.
+        assert!(format!("{model:?}").len() < 200);
     }
 
     #[test]
