@@ -249,19 +249,16 @@ pub fn read_condition_file(path: &Path) -> Result<PrintingCondition> {
     parse_condition(&text, path)
 }
 
-/// A printing condition from a built-in name (`coated-offset`) or a `.toml`
-/// file. ICC output profiles (`.icc`, `.icm`) are not read here: they are
-/// loaded through the ICC profile model, and this function says so.
+/// A printing condition from a built-in name (`coated-offset`), a `.toml`
+/// file, or a CMYK ICC output profile (`.icc`, `.icm`) read through the ICC
+/// profile model.
 pub fn load_condition(spec: &str) -> Result<PrintingCondition> {
     let lower = spec.to_ascii_lowercase();
     if lower.ends_with(".toml") {
         return read_condition_file(Path::new(spec));
     }
     if lower.ends_with(".icc") || lower.ends_with(".icm") {
-        return Err(Error::input(
-            spec,
-            "an ICC output profile is not a built-in or TOML printing condition; it is loaded through the ICC profile model",
-        ));
+        return super::icc_model::condition_from_icc(Path::new(spec));
     }
     builtin::by_name(spec).ok_or_else(|| {
         Error::usage(format!(
@@ -389,7 +386,7 @@ mod tests {
     }
 
     #[test]
-    fn icc_spec_is_refused_with_a_clear_message() {
+    fn a_missing_icc_profile_is_named_in_the_error() {
         let err = load_condition("press.icc").unwrap_err().to_string();
         assert!(err.contains("press.icc") && err.contains("ICC"), "{err}");
     }

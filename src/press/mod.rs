@@ -9,6 +9,7 @@ pub mod condition_file;
 pub mod figures;
 pub mod fit;
 pub mod gamut;
+pub mod icc_model;
 mod neugebauer;
 mod params;
 

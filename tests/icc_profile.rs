@@ -1,0 +1,460 @@
+//! ICC output profiles written by platesmith and read back as press models.
+//!
+//! References: lcms2 (through the `lcms2` crate) reads, transforms and
+//! inspects every profile; the profile structure is checked against ICC.1:2022
+//! §7.2 (header) and §8.5 (tags of an output profile); ΔE is CIEDE2000
+//! (CIE 142-2001, implemented in `platesmith::colour`).
+//!
+//! The source model is the built-in `coated-offset` condition. The BToA tables
+//! here come from a test-only inversion (nearest colour on a coarse CMYK grid
+//! under an ink limit): the profile's AToB side and the machinery are under
+//! test, not the quality of that inversion.
+
+use lcms2::{
+    CIExyY, ColorSpaceSignature, Flags, GlobalContext, Intent, Locale, PixelFormat, Profile, ProfileClassSignature,
+    Tag, TagSignature, Transform,
+};
+use platesmith::colour::{D50, Lab, ciede2000, delta_e76};
+use platesmith::icc::{IccVersion, OutputProfileSpec, build_output_profile, default_description, encode_lab, grid_lab};
+use platesmith::ink::Cmyk;
+use platesmith::press::icc_model::{
+    DEFAULT_MODEL_GRID, IccColorimetry, IccModelOptions, IccPressModel, condition_from_icc,
+};
+use platesmith::press::{MediaWhite, PressModel, builtin::coated_offset};
+use rayon::prelude::*;
+use std::collections::HashMap;
+use std::path::Path;
+use std::sync::Arc;
+
+/// xorshift64 (Marsaglia 2003), deterministic test input.
+struct Rng(u64);
+
+impl Rng {
+    fn unit(&mut self) -> f64 {
+        self.0 ^= self.0 << 13;
+        self.0 ^= self.0 >> 7;
+        self.0 ^= self.0 << 17;
+        (self.0 >> 11) as f64 / (1u64 << 53) as f64
+    }
+
+    fn cmyk(&mut self) -> Cmyk {
+        Cmyk::new(self.unit(), self.unit(), self.unit(), self.unit())
+    }
+}
+
+/// Test-only inversion: the nearest (CIE76) colour among CMYK builds on an
+/// 11-step grid whose total ink stays within `tac`.
+struct NearestInversion {
+    candidates: Vec<(Cmyk, Lab)>,
+}
+
+impl NearestInversion {
+    fn new(model: &dyn PressModel, media: MediaWhite, tac: f64) -> NearestInversion {
+        let mut candidates = Vec::new();
+        for i in 0..11usize.pow(4) {
+            let ink = Cmyk::from_array([i / 1331, i / 121 % 11, i / 11 % 11, i % 11].map(|v| v as f64 / 10.0));
+            if ink.total() <= tac + 1e-9 {
+                candidates.push((ink, media.relative_lab(model.xyz(ink))));
+            }
+        }
+        NearestInversion { candidates }
+    }
+
+    fn nearest(&self, lab: Lab) -> (Cmyk, f64) {
+        let mut best = (Cmyk::ZERO, f64::INFINITY);
+        for &(ink, c) in &self.candidates {
+            let d = (c.l - lab.l).powi(2) + (c.a - lab.a).powi(2) + (c.b - lab.b).powi(2);
+            if d < best.1 {
+                best = (ink, d);
+            }
+        }
+        (best.0, best.1.sqrt())
+    }
+}
+
+struct Fixture {
+    model: Arc<dyn PressModel>,
+    media: MediaWhite,
+    inversion: NearestInversion,
+}
+
+fn fixture(tac: f64) -> Fixture {
+    let model = coated_offset().model;
+    let media = MediaWhite::new(model.paper_xyz());
+    let inversion = NearestInversion::new(&*model, media, tac);
+    Fixture {
+        model,
+        media,
+        inversion,
+    }
+}
+
+fn profile_bytes(f: &Fixture, version: IccVersion, a2b_grid: u32, b2a_grid: u32) -> Vec<u8> {
+    let a2b = |ink: Cmyk| f.media.relative_lab(f.model.xyz(ink));
+    // The three BToA tables and the gamut table sample the same nodes: search each node once.
+    let nodes: HashMap<[u64; 3], (Cmyk, f64)> = (0..b2a_grid.pow(3))
+        .into_par_iter()
+        .map(|i| {
+            let lab = grid_lab(
+                [i / (b2a_grid * b2a_grid), i / b2a_grid % b2a_grid, i % b2a_grid],
+                b2a_grid,
+                version,
+            );
+            (lab.to_array().map(f64::to_bits), f.inversion.nearest(lab))
+        })
+        .collect();
+    let nearest = |lab: Lab| match nodes.get(&lab.to_array().map(f64::to_bits)) {
+        Some(&found) => found,
+        None => f.inversion.nearest(lab),
+    };
+    let b2a = |lab: Lab| nearest(lab).0;
+    // Test-only gamut measure: CIE76 distance to the nearest grid build beyond
+    // the 5 ΔE the coarse grid itself leaves between neighbours.
+    let gamut = |lab: Lab| (nearest(lab).1 - 5.0).max(0.0);
+    let spec = OutputProfileSpec {
+        description: default_description("coated-offset"),
+        copyright: "test profile".into(),
+        version,
+        media_white: f.model.paper_xyz(),
+        a2b: &a2b,
+        a2b_perceptual: None,
+        b2a: [&b2a, &b2a, &b2a],
+        gamut: &gamut,
+        a2b_grid,
+        b2a_grid,
+    };
+    build_output_profile(&spec).expect("profile builds")
+}
+
+fn lab_profile() -> Profile {
+    let d = D50.xyz;
+    let s = d.x + d.y + d.z;
+    Profile::new_lab4_context(
+        GlobalContext::new(),
+        &CIExyY {
+            x: d.x / s,
+            y: d.y / s,
+            Y: 1.0,
+        },
+    )
+    .unwrap()
+}
+
+fn cmyk_to_lab(
+    profile: &Profile,
+    intent: Intent,
+) -> Transform<[f64; 4], [f64; 3], GlobalContext, lcms2::DisallowCache> {
+    Transform::new_flags_context(
+        GlobalContext::new(),
+        profile,
+        PixelFormat::CMYK_DBL,
+        &lab_profile(),
+        PixelFormat::Lab_DBL,
+        intent,
+        Flags::NO_CACHE | Flags::NO_OPTIMIZE,
+    )
+    .unwrap()
+}
+
+fn lcms2_lab(t: &Transform<[f64; 4], [f64; 3], GlobalContext, lcms2::DisallowCache>, ink: Cmyk) -> Lab {
+    let mut out = [[0.0; 3]];
+    t.transform_pixels(&[ink.to_percent()], &mut out);
+    Lab::from_array(out[0])
+}
+
+fn stats(values: &[f64]) -> (f64, f64) {
+    (
+        values.iter().sum::<f64>() / values.len() as f64,
+        values.iter().cloned().fold(0.0, f64::max),
+    )
+}
+
+const VERSIONS: [IccVersion; 2] = [IccVersion::V4, IccVersion::V2];
+
+#[test]
+fn written_profile_is_a_cmyk_output_profile_in_v4_and_v2() {
+    let f = fixture(3.2);
+    for version in VERSIONS {
+        let bytes = profile_bytes(&f, version, 9, 9);
+        // ICC.1:2022 §7.2: size in bytes 0–3, 'acsp' at 36, class 'prtr' at 12,
+        // data colour space 'CMYK' at 16, PCS 'Lab ' at 20.
+        assert_eq!(
+            u32::from_be_bytes(bytes[0..4].try_into().unwrap()) as usize,
+            bytes.len()
+        );
+        assert_eq!(
+            (&bytes[12..16], &bytes[16..20], &bytes[20..24]),
+            (&b"prtr"[..], &b"CMYK"[..], &b"Lab "[..])
+        );
+        assert_eq!(&bytes[36..40], b"acsp");
+        let p = Profile::new_icc(&bytes).expect("lcms2 reads the profile");
+        assert_eq!(p.device_class(), ProfileClassSignature::OutputClass);
+        assert_eq!(p.color_space(), ColorSpaceSignature::CmykData);
+        assert_eq!(p.pcs(), ColorSpaceSignature::LabData);
+        let want = version.number();
+        assert!(
+            (p.version() - want).abs() < 1e-9,
+            "{version:?}: version {}",
+            p.version()
+        );
+        use TagSignature::*;
+        for tag in [
+            AToB0Tag,
+            AToB1Tag,
+            AToB2Tag,
+            BToA0Tag,
+            BToA1Tag,
+            BToA2Tag,
+            GamutTag,
+            MediaWhitePointTag,
+            ProfileDescriptionTag,
+            CopyrightTag,
+        ] {
+            assert!(p.has_tag(tag), "{version:?}: {tag:?} missing");
+        }
+        for intent in [Intent::Perceptual, Intent::RelativeColorimetric, Intent::Saturation] {
+            assert!(
+                p.is_clut(intent, 0) && p.is_clut(intent, 1),
+                "{version:?}: {intent:?} tables"
+            );
+        }
+        let description = p.info(lcms2::InfoType::Description, Locale::none()).unwrap();
+        assert_eq!(description, "platesmith output profile for coated-offset");
+    }
+}
+
+#[test]
+fn lcms2_reads_the_atob_table_as_the_model_wrote_it() {
+    // Checks the PCS encoding of each version: lcms2 decodes the tables
+    // (undoing the v2 legacy encoding itself) and must give the model's colour.
+    let f = fixture(3.2);
+    let mut rng = Rng(0x9e37_79b9_7f4a_7c15);
+    for version in VERSIONS {
+        let p = Profile::new_icc(&profile_bytes(&f, version, 17, 9)).unwrap();
+        let relative = cmyk_to_lab(&p, Intent::RelativeColorimetric);
+        let absolute = cmyk_to_lab(&p, Intent::AbsoluteColorimetric);
+        // At the grid nodes only the 16-bit quantisation separates the two.
+        let mut worst_node = 0.0f64;
+        for i in 0..5usize.pow(4) {
+            let ink = Cmyk::from_array([i / 125, i / 25 % 5, i / 5 % 5, i % 5].map(|v| v as f64 / 4.0));
+            let want = f.media.relative_lab(f.model.xyz(ink));
+            worst_node = worst_node.max(delta_e76(lcms2_lab(&relative, ink), want));
+            let abs_want = f.model.lab(ink);
+            worst_node = worst_node.max(delta_e76(lcms2_lab(&absolute, ink), abs_want));
+        }
+        assert!(worst_node < 0.02, "{version:?}: node ΔE76 {worst_node}");
+        let des: Vec<f64> = (0..5000)
+            .map(|_| {
+                let ink = rng.cmyk();
+                ciede2000(lcms2_lab(&relative, ink), f.media.relative_lab(f.model.xyz(ink)))
+            })
+            .collect();
+        let (mean, max) = stats(&des);
+        println!("{version:?}: lcms2 through the 17^4 AToB1 vs model: ΔE2000 mean {mean:.3} max {max:.3}");
+        assert!(mean <= 0.5, "{version:?}: mean {mean}");
+    }
+}
+
+#[test]
+fn icc_model_agrees_with_the_source_model() {
+    let f = fixture(3.2);
+    let mut rng = Rng(0x0123_4567_89ab_cdef);
+    for version in VERSIONS {
+        let bytes = profile_bytes(&f, version, 17, 9);
+        let icc = IccPressModel::from_bytes(&bytes, Path::new("coated.icc"), IccModelOptions::default()).unwrap();
+        let des: Vec<f64> = (0..20_000)
+            .map(|_| {
+                let ink = rng.cmyk();
+                ciede2000(icc.lab(ink), f.model.lab(ink))
+            })
+            .collect();
+        let (mean, max) = stats(&des);
+        println!(
+            "{version:?}: IccPressModel (21^4 over a 17^4 profile) vs source model: ΔE2000 mean {mean:.3} max {max:.3}"
+        );
+        assert!(mean <= 0.5, "{version:?}: mean {mean}");
+        // The paper and the solids sit on grid nodes of both tables.
+        for ink in [Cmyk::ZERO, Cmyk::new(1.0, 0.0, 0.0, 0.0), Cmyk::new(0.0, 0.0, 0.0, 1.0)] {
+            assert!(ciede2000(icc.lab(ink), f.model.lab(ink)) < 0.05, "{version:?} {ink:?}");
+        }
+        // xyz() and lab() describe the same colour.
+        let ink = Cmyk::new(0.3, 0.6, 0.1, 0.2);
+        assert!(delta_e76(Lab::from_xyz(icc.xyz(ink)), icc.lab(ink)) < 1e-6);
+
+        // Absolute colorimetry through lcms2 equals relative + media white
+        // scaling when the profile has no chad tag (ICC.1:2022 Annex A).
+        let options = IccModelOptions {
+            colorimetry: IccColorimetry::Absolute,
+            ..IccModelOptions::default()
+        };
+        let abs = IccPressModel::from_bytes(&bytes, Path::new("coated.icc"), options).unwrap();
+        for _ in 0..200 {
+            let ink = rng.cmyk();
+            assert!(delta_e76(abs.lab(ink), icc.lab(ink)) < 0.01, "{version:?} {ink:?}");
+        }
+    }
+}
+
+#[test]
+fn media_white_round_trips() {
+    let f = fixture(3.2);
+    let paper = f.model.paper_xyz();
+    for version in VERSIONS {
+        let bytes = profile_bytes(&f, version, 5, 5);
+        let p = Profile::new_icc(&bytes).unwrap();
+        let Tag::CIEXYZ(w) = p.read_tag(TagSignature::MediaWhitePointTag) else {
+            panic!("no wtpt")
+        };
+        // XYZNumber is s15Fixed16 (ICC.1:2022 §4.14): half a step is 2^-17.
+        let tolerance = 1.0 / 131072.0 + 1e-12;
+        for (got, want) in [w.X, w.Y, w.Z].into_iter().zip(paper.to_array()) {
+            assert!((got - want).abs() <= tolerance, "{version:?}: {got} vs {want}");
+        }
+        let icc = IccPressModel::from_bytes(&bytes, Path::new("w.icc"), IccModelOptions::default()).unwrap();
+        assert!((icc.media_white().y - paper.y).abs() <= tolerance);
+        assert!(delta_e76(Lab::from_xyz(icc.paper_xyz()), Lab::from_xyz(paper)) < 0.01);
+    }
+}
+
+#[test]
+fn gamut_and_btoa_tables_read_back() {
+    let f = fixture(3.2);
+    for version in VERSIONS {
+        let grid = 9;
+        let p = Profile::new_icc(&profile_bytes(&f, version, 5, grid)).unwrap();
+        // Raw gamut table as stored (inputs in the PCS encoding of the version):
+        // a paper-like colour is inside, a saturated blue far beyond any ink is outside.
+        let Tag::Pipeline(gamut) = p.read_tag(TagSignature::GamutTag) else {
+            panic!("no gamt")
+        };
+        let node = |lab: Lab| {
+            let mut out = [0u16];
+            gamut.eval(&encode_lab(lab, version), &mut out);
+            out[0]
+        };
+        assert_eq!(node(Lab::new(80.0, 0.0, 0.0)), 0, "{version:?}");
+        // A grid node far beyond the blue corner: the stored count is the callback's ΔE, rounded.
+        let far = grid_lab([4, 4, 1], grid, version);
+        let outside = node(far);
+        let want = (f.inversion.nearest(far).1 - 5.0).max(0.0);
+        assert!(
+            outside > 20 && (outside as f64 - want).abs() <= 1.0,
+            "{version:?}: {outside} vs {want:.1}"
+        );
+
+        // lcms2's Lab → CMYK at a grid node returns the inversion's build there.
+        let t: Transform<[f64; 3], [f64; 4], GlobalContext, lcms2::DisallowCache> = Transform::new_flags_context(
+            GlobalContext::new(),
+            &lab_profile(),
+            PixelFormat::Lab_DBL,
+            &p,
+            PixelFormat::CMYK_DBL,
+            Intent::RelativeColorimetric,
+            Flags::NO_CACHE | Flags::NO_OPTIMIZE,
+        )
+        .unwrap();
+        for index in [[6u32, 4, 4], [4, 3, 2], [2, 5, 3]] {
+            let lab = grid_lab(index, grid, version);
+            let mut out = [[0.0; 4]];
+            t.transform_pixels(&[lab.to_array()], &mut out);
+            let want = f.inversion.nearest(lab).0.to_percent();
+            for (got, want) in out[0].iter().zip(want) {
+                assert!((got - want).abs() < 1.0, "{version:?} {lab:?}: {:?} vs {want}", out[0]);
+            }
+        }
+    }
+}
+
+#[test]
+fn detected_tac_follows_the_ink_limit_of_the_btoa_table() {
+    let f = fixture(3.0);
+    let dir = tempfile::tempdir().unwrap();
+    for version in VERSIONS {
+        let bytes = profile_bytes(&f, version, 9, 17);
+        let icc = IccPressModel::from_bytes(&bytes, Path::new("limited.icc"), IccModelOptions::default()).unwrap();
+        let tac = icc.detected_tac().expect("lcms2 detects a TAC");
+        println!("{version:?}: BToA limited to 300 %: lcms2 detects {tac:.1} %");
+        assert!((290.0..=301.0).contains(&tac), "{version:?}: {tac}");
+
+        let path = dir.path().join(format!("sheetfed-{version:?}.icc"));
+        std::fs::write(&path, &bytes).unwrap();
+        let condition = condition_from_icc(&path).unwrap();
+        assert_eq!(condition.name, format!("sheetfed-{version:?}"));
+        assert!((condition.tac * 100.0 - tac).abs() < 1e-9);
+        assert_eq!(condition.description, "platesmith output profile for coated-offset");
+    }
+}
+
+#[test]
+fn bad_files_give_errors_naming_the_file() {
+    let f = fixture(3.2);
+    let dir = tempfile::tempdir().unwrap();
+    let good = profile_bytes(&f, IccVersion::V4, 5, 5);
+    let srgb = Profile::new_srgb().icc().unwrap();
+    let cases: [(&str, Vec<u8>, &str); 4] = [
+        (
+            "garbage.icc",
+            b"this is not a colour profile at all, just text that goes on for a while ".repeat(4),
+            "not an ICC profile",
+        ),
+        ("display.icc", srgb, "display profile, not a CMYK output"),
+        ("cut.icc", good[..good.len() / 2].to_vec(), "truncated"),
+        ("empty.icc", Vec::new(), "not an ICC profile"),
+    ];
+    for (name, bytes, expected) in cases {
+        let path = dir.path().join(name);
+        std::fs::write(&path, &bytes).unwrap();
+        let message = IccPressModel::from_file(&path).unwrap_err().to_string();
+        assert!(
+            message.contains(name) && message.contains(expected),
+            "{name}: {message}"
+        );
+        assert!(condition_from_icc(&path).is_err());
+    }
+    let missing = dir.path().join("missing.icc");
+    let message = IccPressModel::from_file(&missing).unwrap_err().to_string();
+    assert!(
+        message.contains("missing.icc") && message.contains("cannot read"),
+        "{message}"
+    );
+}
+
+#[test]
+fn sampled_grid_error_against_lcms2() {
+    // How far the model's simplex interpolation of its sampled grid strays
+    // from lcms2 evaluating the same profile directly (lcms2 interpolates a
+    // 4D table linearly along C and tetrahedrally in M, Y, K), for profiles
+    // with 11 and 17 points per axis. Measured figures are in the module docs
+    // of `platesmith::press::icc_model`.
+    let f = fixture(3.2);
+    let mut rng = Rng(0xdead_beef_cafe_f00d);
+    let points: Vec<Cmyk> = (0..5000).map(|_| rng.cmyk()).collect();
+    for profile_grid in [11, 17] {
+        let bytes = profile_bytes(&f, IccVersion::V4, profile_grid, 5);
+        let p = Profile::new_icc(&bytes).unwrap();
+        let relative = cmyk_to_lab(&p, Intent::RelativeColorimetric);
+        let direct: Vec<Lab> = points
+            .iter()
+            .map(|&ink| f.media.absolute_lab_from_relative(lcms2_lab(&relative, ink)))
+            .collect();
+        for grid in [17, DEFAULT_MODEL_GRID] {
+            let options = IccModelOptions {
+                grid,
+                ..IccModelOptions::default()
+            };
+            let icc = IccPressModel::from_bytes(&bytes, Path::new("grid.icc"), options).unwrap();
+            let des: Vec<f64> = points
+                .iter()
+                .zip(&direct)
+                .map(|(&ink, &d)| ciede2000(icc.lab(ink), d))
+                .collect();
+            let (mean, max) = stats(&des);
+            println!(
+                "profile {profile_grid}^4, model grid {grid}^4 vs lcms2 direct: ΔE2000 mean {mean:.3} max {max:.3}"
+            );
+            if grid == DEFAULT_MODEL_GRID {
+                assert!(mean <= 0.1 && max <= 0.5, "default grid: mean {mean} max {max}");
+            }
+        }
+    }
+}
