@@ -16,18 +16,18 @@ fn platesmith() -> Command {
 /// Writes an 8- or 16-bit PNG; `channels` 1 (gray), 2, 3 (RGB) or 4 (RGBA).
 fn write_png(path: &Path, width: u32, height: u32, channels: u8, bits: u8, data: &[u16], icc: Option<Vec<u8>>) {
     let file = std::fs::File::create(path).unwrap();
-    let mut enc = png::Encoder::new(std::io::BufWriter::new(file), width, height);
-    enc.set_color(match channels {
+    let mut info = png::Info::with_size(width, height);
+    info.color_type = match channels {
         1 => png::ColorType::Grayscale,
         2 => png::ColorType::GrayscaleAlpha,
         3 => png::ColorType::Rgb,
         _ => png::ColorType::Rgba,
-    });
-    enc.set_depth(if bits == 16 { png::BitDepth::Sixteen } else { png::BitDepth::Eight });
-    if let Some(p) = icc {
-        enc.set_icc_profile(p.into()).unwrap();
-    }
-    enc.set_pixel_dims(Some(png::PixelDimensions { xppu: 5906, yppu: 5906, unit: png::Unit::Meter })); // 150 ppi
+    };
+    info.bit_depth = if bits == 16 { png::BitDepth::Sixteen } else { png::BitDepth::Eight };
+    info.icc_profile = icc.map(std::borrow::Cow::Owned);
+    // 150 ppi in pHYs (pixels per metre, ISO/IEC 15948 §11.3.5.3).
+    info.pixel_dims = Some(png::PixelDimensions { xppu: 5906, yppu: 5906, unit: png::Unit::Meter });
+    let enc = png::Encoder::with_info(std::io::BufWriter::new(file), info).unwrap();
     let mut w = enc.write_header().unwrap();
     let bytes: Vec<u8> = if bits == 16 { data.iter().flat_map(|v| v.to_be_bytes()).collect() } else { data.iter().map(|&v| v as u8).collect() };
     w.write_image_data(&bytes).unwrap();
