@@ -341,3 +341,21 @@ fn grid_outside_the_allowed_range_is_refused() {
         assert!(err.to_string().contains("5–33"), "{err}");
     }
 }
+
+/// The 16-bit path and the fractional lookup interpolate the same table.
+#[test]
+fn sixteen_bit_path_agrees_with_lookup() {
+    let table = identity_table();
+    let mut rng = Rng(13);
+    let input: Vec<u16> = (0..4000 * 4).map(|_| (rng.next() * 65536.0) as u16).collect();
+    let mut out = vec![0u16; input.len()];
+    table.apply_cmyk16(&input, &mut out, 64);
+    for (px, got) in input.chunks_exact(4).zip(out.chunks_exact(4)) {
+        let want = table.lookup(Cmyk::from_array(
+            [px[0], px[1], px[2], px[3]].map(|v| v as f64 / 65535.0),
+        ));
+        for (g, w) in got.iter().zip(want.to_array()) {
+            assert!((*g as f64 - w * 65535.0).abs() <= 2.0, "{px:?}: {got:?} vs {want:?}");
+        }
+    }
+}

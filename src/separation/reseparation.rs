@@ -349,42 +349,57 @@ impl ReseparationTable {
         self.black_curve.as_deref()
     }
 
+    /// Node offset of each axis's position per unit index (c, m, y, k).
+    #[inline]
+    fn strides(&self) -> [u32; 4] {
+        let n = self.grid as u32;
+        [n * n * n, n * n, n, 1]
+    }
+
     #[inline]
     fn interpolate(&self, p: [Position; 4]) -> [u32; 4] {
-        let n = self.grid as u32;
-        let stride = [n * n * n, n * n, n, 1];
-        let base = ((p[0].index * n + p[1].index) * n + p[2].index) * n + p[3].index;
-        let f = [p[0].fraction, p[1].fraction, p[2].fraction, p[3].fraction];
-        // Axes in order of decreasing fraction (a sorting network of five
-        // compare-exchanges; ties take either order, their weight is zero).
-        let mut o = [0usize, 1, 2, 3];
-        let cx = |a: usize, b: usize, o: &mut [usize; 4]| {
-            if f[o[a]] < f[o[b]] {
-                o.swap(a, b);
-            }
+        let s = self.strides();
+        let base = p[0].index * s[0] + p[1].index * s[1] + p[2].index * s[2] + p[3].index * s[3];
+        self.interpolate_at(base, std::array::from_fn(|a| (p[a].fraction, s[a])))
+    }
+
+    /// Simplex interpolation in the cell at node `base`; `axes` holds each
+    /// axis's fraction and node stride.
+    #[inline]
+    fn interpolate_at(&self, base: u32, axes: [(u32, u32); 4]) -> [u32; 4] {
+        // Axes in order of decreasing fraction: a sorting network of five
+        // compare-exchanges on (fraction, stride) packed into one key, with
+        // min/max so that it compiles without branches. Ties take either
+        // order; their weight is zero.
+        let mut k = axes.map(|(f, s)| ((f as u64) << 32) | s as u64);
+        let cx = |k: &mut [u64; 4], a: usize, b: usize| {
+            let (hi, lo) = (k[a].max(k[b]), k[a].min(k[b]));
+            k[a] = hi;
+            k[b] = lo;
         };
-        cx(0, 1, &mut o);
-        cx(2, 3, &mut o);
-        cx(0, 2, &mut o);
-        cx(1, 3, &mut o);
-        cx(1, 2, &mut o);
+        cx(&mut k, 0, 1);
+        cx(&mut k, 2, 3);
+        cx(&mut k, 0, 2);
+        cx(&mut k, 1, 3);
+        cx(&mut k, 1, 2);
+        let axes = k.map(|v| ((v >> 32) as u32, v as u32));
         let w = [
-            WEIGHT_ONE - f[o[0]],
-            f[o[0]] - f[o[1]],
-            f[o[1]] - f[o[2]],
-            f[o[2]] - f[o[3]],
-            f[o[3]],
+            WEIGHT_ONE - axes[0].0,
+            axes[0].0 - axes[1].0,
+            axes[1].0 - axes[2].0,
+            axes[2].0 - axes[3].0,
+            axes[3].0,
         ];
-        let v1 = base + stride[o[0]];
-        let v2 = v1 + stride[o[1]];
-        let v3 = v2 + stride[o[2]];
-        let v4 = v3 + stride[o[3]];
+        let v1 = base + axes[0].1;
+        let v2 = v1 + axes[1].1;
+        let v3 = v2 + axes[2].1;
+        let v4 = v3 + axes[3].1;
         let v = [
-            &self.nodes[base as usize],
-            &self.nodes[v1 as usize],
-            &self.nodes[v2 as usize],
-            &self.nodes[v3 as usize],
-            &self.nodes[v4 as usize],
+            self.nodes[base as usize],
+            self.nodes[v1 as usize],
+            self.nodes[v2 as usize],
+            self.nodes[v3 as usize],
+            self.nodes[v4 as usize],
         ];
         std::array::from_fn(|ch| {
             (w[0] * v[0][ch] as u32
@@ -413,7 +428,14 @@ impl ReseparationTable {
     /// Re-separates interleaved 8-bit CMYK (0 = no ink; `input.len() =
     /// output.len() = 4·pixels`), in parallel over rows of `row_pixels`.
     pub fn apply_cmyk8(&self, input: &[u8], output: &mut [u8], row_pixels: usize) {
-        let lut: Vec<Position> = (0..256).map(|v| position(v, 255, self.grid)).collect();
+        // Per axis and 8-bit code: node offset of the cell and fraction.
+        let strides = self.strides();
+        let lut: Vec<[(u32, u32); 4]> = (0..256)
+            .map(|v| {
+                let p = position(v, 255, self.grid);
+                strides.map(|s| (p.index * s, p.fraction))
+            })
+            .collect();
         let row_pixels = row_pixels.max(1);
         input
             .par_chunks(4 * row_pixels)
@@ -426,12 +448,21 @@ impl ReseparationTable {
                         out.copy_from_slice(&[0, 0, 0, curve8[px[3] as usize]]);
                         continue;
                     }
-                    let v = self.interpolate([
-                        lut[px[0] as usize],
-                        lut[px[1] as usize],
-                        lut[px[2] as usize],
-                        lut[px[3] as usize],
-                    ]);
+                    let (a, b, c, d) = (
+                        lut[px[0] as usize][0],
+                        lut[px[1] as usize][1],
+                        lut[px[2] as usize][2],
+                        lut[px[3] as usize][3],
+                    );
+                    let v = self.interpolate_at(
+                        a.0 + b.0 + c.0 + d.0,
+                        [
+                            (a.1, strides[0]),
+                            (b.1, strides[1]),
+                            (c.1, strides[2]),
+                            (d.1, strides[3]),
+                        ],
+                    );
                     for ch in 0..4 {
                         out[ch] = to_8bit(v[ch]);
                     }
