@@ -359,3 +359,29 @@ fn sixteen_bit_path_agrees_with_lookup() {
         }
     }
 }
+
+/// Builds with a trace of colour beside pure black (C, M, Y ≤ 6 %) keep
+/// their printed colour too: the black-only path is for exact pure black and
+/// does not bend the cells beside it (ground truth the forward model).
+#[test]
+fn near_pure_black_builds_keep_their_colour() {
+    let sep = relative();
+    let table = identity_table();
+    let condition = coated_offset();
+    let mut rng = Rng(14);
+    let errors: Vec<f64> = (0..5000)
+        .map(|_| {
+            let x = Cmyk::new(
+                rng.next() * 0.06,
+                rng.next() * 0.06,
+                rng.next() * 0.06,
+                rng.next() * 0.95,
+            );
+            ciede2000(printed(&condition, x), sep.printed_relative(table.lookup(x)))
+        })
+        .collect();
+    let mean = errors.iter().sum::<f64>() / errors.len() as f64;
+    let max = errors.iter().cloned().fold(0.0, f64::max);
+    eprintln!("near pure black (grid 11): mean ΔE2000 {mean:.3}, max {max:.3}");
+    assert!(mean <= 0.6, "mean {mean}");
+}

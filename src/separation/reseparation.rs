@@ -23,9 +23,22 @@
 //! media-relative L* matches the L* the source prints with that black alone
 //! (clamped to the target's maximum black; the curve is made monotone by a
 //! running maximum, so a darker source black never gets less target black).
-//! The grid nodes on the black axis take the same values, so builds with a
-//! trace of colour beside pure black interpolate toward the black-only build
-//! instead of jumping to a four-colour one.
+//! Only pixels with exactly no C, M, Y take this path (as RGB pure black does
+//! in the RGB table); the grid nodes on the black axis keep their colorimetric
+//! builds. Setting those nodes to the black-only builds as well would make the
+//! plates continuous next to pure black, but the cells beside the black axis
+//! would then blend builds of one colour with very different black (the
+//! black-only build and the target's black generation), and such blends print
+//! another colour: at grid 17, same condition, relative intent, builds with
+//! C, M, Y ≤ 6 % were off by ΔE2000 1.9 on average (12 at worst) that way,
+//! against 0.3 (3.5) with colorimetric nodes. A pixel with a trace of colour
+//! beside pure black therefore gets the target's four-colour build of its
+//! colour.
+//!
+//! The intents that need the source's black (perceptual, relative with black
+//! point compensation) take the darkest neutral the source prints with every
+//! ink at full coverage (no ink limit is known for an incoming file), where
+//! the RGB path takes L* 0 for the source black.
 
 use super::SeparationSettings;
 use super::engine::{Intent, Separator};
@@ -306,14 +319,10 @@ impl ReseparationTable {
             smooth_shadows(&mut inks, &lightness, n, target_black.l);
         }
         let (tac, k_max) = (settings.tac, settings.black.black_max);
-        let mut nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, tac, k_max)).collect();
+        let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, tac, k_max)).collect();
 
         let (black_curve, black_curve8) = if keep_pure_black {
             let curve = black_only_curve(&source_gamut, target);
-            // The black axis (node index k, c = m = y = 0) prints black only.
-            for (k, node) in nodes.iter_mut().take(n).enumerate() {
-                *node = [0, 0, 0, curve_at(&curve, k as u32, n as u32 - 1)];
-            }
             let curve8: Vec<u8> = (0..256u32).map(|v| to_8bit(curve_at(&curve, v, 255) as u32)).collect();
             (Some(curve), Some(curve8))
         } else {
