@@ -50,7 +50,14 @@ pub struct JobOptions {
     pub gray: GrayMode,
     pub ignore_bad_profile: bool,
     pub source_space: RgbSpace,
+    /// The condition CMYK input was separated for (default: the target's).
+    pub source_condition: crate::press::PrintingCondition,
+    /// CMYK input: pixels with only black stay black only.
+    pub keep_pure_black_cmyk: bool,
 }
+
+/// Nodes per axis of the 4-D re-separation table.
+pub const CMYK_TABLE_GRID: usize = 13;
 
 /// Ink statistics of a separated image.
 #[derive(Debug, Clone, Default)]
@@ -189,6 +196,7 @@ pub struct Workshop {
     pub settings_report: SettingsReport,
     pub options: JobOptions,
     tables: Mutex<HashMap<Vec<u8>, Arc<SeparationTable>>>,
+    cmyk_table: std::sync::OnceLock<Result<Arc<crate::separation::ReseparationTable>>>,
 }
 
 fn ms(t: Instant) -> f64 {
@@ -197,7 +205,7 @@ fn ms(t: Instant) -> f64 {
 
 impl Workshop {
     pub fn new(separator: Separator, settings_report: SettingsReport, options: JobOptions) -> Workshop {
-        Workshop { separator, settings_report, options, tables: Mutex::new(HashMap::new()) }
+        Workshop { separator, settings_report, options, tables: Mutex::new(HashMap::new()), cmyk_table: std::sync::OnceLock::new() }
     }
 
     /// The table for a source, built once per run.
@@ -270,7 +278,46 @@ impl Workshop {
                 (cmyk, table_ms, ms(t2))
             }
             None => {
-                return Err(Error::input(path, "CMYK input is re-separated with `--source-condition`; this build does not re-separate CMYK yet"));
+                let table = self
+                    .cmyk_table
+                    .get_or_init(|| {
+                        crate::separation::ReseparationTable::build(&self.separator, &self.options.source_condition, self.options.keep_pure_black_cmyk, CMYK_TABLE_GRID).map(Arc::new)
+                    })
+                    .as_ref()
+                    .map_err(|e| Error::usage(e.to_string()))?
+                    .clone();
+                let table_ms = ms(t);
+                notes.push(format!(
+                    "CMYK re-separated from {} to {}{}",
+                    self.options.source_condition.name,
+                    self.separator.condition().name,
+                    if self.options.keep_pure_black_cmyk { "; pure black kept black only" } else { "" }
+                ));
+                if raster.icc_profile.is_some() {
+                    notes.push("embedded CMYK profile not used; the source condition describes the input".into());
+                }
+                let t2 = Instant::now();
+                let pixels = raster.samples.len() / 4;
+                let w = raster.width as usize;
+                let cmyk = match (&raster.samples, self.options.bits) {
+                    (Samples::U8(v), 8) => {
+                        let mut out = vec![0u8; pixels * 4];
+                        table.apply_cmyk8(v, &mut out, w);
+                        Samples::U8(out)
+                    }
+                    (Samples::U8(v), _) => {
+                        let wide: Vec<u16> = v.iter().map(|&x| x as u16 * 257).collect();
+                        let mut out = vec![0u16; pixels * 4];
+                        table.apply_cmyk16(&wide, &mut out, w);
+                        Samples::U16(out)
+                    }
+                    (Samples::U16(v), bits) => {
+                        let mut out = vec![0u16; pixels * 4];
+                        table.apply_cmyk16(v, &mut out, w);
+                        if bits == 16 { Samples::U16(out) } else { Samples::U8(out.par_iter().map(|&x| ((x as u32 + 128) / 257) as u8).collect()) }
+                    }
+                };
+                (cmyk, table_ms, ms(t2))
             }
         };
         let image = CmykImage::new(raster.width, raster.height, image)?;
@@ -326,7 +373,13 @@ impl Workshop {
             timings: Timings { read_ms, table_ms, separate_ms, write_ms: 0.0, total_ms: 0.0 },
             note: crate::report::PREDICTION_NOTE,
         };
-        summary.source = summary.notes.iter().find(|n| n.contains("assumed")).map(|_| format!("{} (assumed)", self.options.source_space.name())).unwrap_or_else(|| "embedded ICC profile".into());
+        summary.source = if raster.layout == Layout::Cmyk {
+            format!("CMYK for {}", self.options.source_condition.name)
+        } else if summary.notes.iter().any(|n| n.contains("assumed")) {
+            format!("{} (assumed)", self.options.source_space.name())
+        } else {
+            "embedded ICC profile".into()
+        };
         summary.timings.write_ms = ms(t);
         summary.timings.total_ms = ms(total);
         let json = serde_json::to_string_pretty(&summary).map_err(|e| Error::Internal(e.to_string()))?;

@@ -197,6 +197,11 @@ fn existing_outputs_are_kept_without_force() {
 
 #[test]
 fn a_failed_write_leaves_no_partial_file() {
+    // The failure hook is read by builds with debug assertions only (the test profile).
+    if !cfg!(debug_assertions) {
+        eprintln!("skipped: release build, the write-failure hook is off");
+        return;
+    }
     let o = Outputs::new();
     let out = o.path("out");
     let input = o.path("a.png");
@@ -291,4 +296,42 @@ fn written_tiffs_read_in_an_independent_reader() {
     );
     let r = std::process::Command::new("python3").args(["-c", &code]).output().unwrap();
     assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
+}
+
+#[test]
+fn cmyk_input_is_reseparated_and_pure_black_stays_black_only() {
+    let o = Outputs::new();
+    let first = o.path("first");
+    let input = o.path("art.png");
+    // Left half a colour picture, right half pure black text-like pixels.
+    let mut px = picture(24, 12, 3, 255);
+    for y in 0..12 {
+        for x in 12..24 {
+            let i = (y * 24 + x) * 3;
+            px[i..i + 3].copy_from_slice(&[0, 0, 0]);
+        }
+    }
+    write_png(&input, 24, 12, 3, 8, &px, None);
+    separate(&input, &first, &["--keep-pure-black", "--tac", "330"]).success();
+    let cmyk_in = first.join("art.cmyk.tif");
+    let second = o.path("second");
+    platesmith()
+        .arg("separate")
+        .arg(&cmyk_in)
+        .arg("--out-dir")
+        .arg(&second)
+        .args(["--condition", "newsprint", "--source-condition", "coated-offset"])
+        .assert()
+        .success();
+    let out = samples_u32(&read_raster(&second.join("art.cmyk.cmyk.tif"), &Limits::default()).unwrap().samples);
+    let src = samples_u32(&read_raster(&cmyk_in, &Limits::default()).unwrap().samples);
+    for (k, (a, b)) in src.chunks_exact(4).zip(out.chunks_exact(4)).enumerate() {
+        if a[0] == 0 && a[1] == 0 && a[2] == 0 {
+            assert!(b[0] == 0 && b[1] == 0 && b[2] == 0, "pixel {k}: pure black {a:?} became {b:?}");
+        }
+        // newsprint's ink limit (240 %, from its condition) + 1 % rounding.
+        assert!(b.iter().sum::<u32>() as f64 / 255.0 <= 2.41, "pixel {k}: {b:?}");
+    }
+    let s: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(second.join("art.cmyk.summary.json")).unwrap()).unwrap();
+    assert_eq!(s["source"], "CMYK for coated-offset");
 }

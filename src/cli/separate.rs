@@ -20,7 +20,7 @@ pub enum CompressionArg {
 
 #[derive(Debug, Args)]
 pub struct SeparateArgs {
-    /// Images to separate (PNG, TIFF, JPEG; RGB, RGBA, gray).
+    /// Images to separate (PNG, TIFF, JPEG; RGB, RGBA, gray; CMYK TIFF/JPEG are re-separated).
     #[arg(required_unless_present = "print_ticket")]
     pub inputs: Vec<PathBuf>,
     /// Folder for the outputs. Default: ./separated
@@ -40,6 +40,13 @@ pub struct SeparateArgs {
     /// Grayscale input: separate as neutrals, or on the black plate only. Default: neutral.
     #[arg(long, value_enum)]
     pub gray: Option<GrayMode>,
+    /// CMYK input: the printing condition it was separated for (a name or a
+    /// file). Default: the target condition.
+    #[arg(long, value_name = "NAME|FILE")]
+    pub source_condition: Option<String>,
+    /// CMYK input: re-separate black-only pixels too (by default they stay black only).
+    #[arg(long)]
+    pub reseparate_pure_black: bool,
     /// Replace outputs that already exist.
     #[arg(long)]
     pub force: bool,
@@ -102,6 +109,9 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
     }
     if args.print_ticket {
         let mut model = setup.model_section();
+        if args.source_condition.is_some() {
+            model.source_condition = args.source_condition.clone();
+        }
         model.gray = Some(match gray {
             GrayMode::Neutral => "neutral".into(),
             GrayMode::BlackOnly => "black-only".into(),
@@ -124,6 +134,10 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
     std::fs::create_dir_all(&out_dir).map_err(|e| Error::output(&out_dir, format!("cannot create the folder: {e}")))?;
     let report = SettingsReport::new(&setup.condition, &setup.settings, setup.source_space);
     let separator = Separator::new(setup.condition.clone(), setup.settings.clone())?;
+    let source_condition = match args.source_condition.as_deref().or(t.model.source_condition.as_deref()) {
+        Some(spec) => crate::press::load_condition(spec)?,
+        None => setup.condition.clone(),
+    };
     let options = JobOptions {
         out_dir,
         bits,
@@ -134,6 +148,8 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
         gray,
         ignore_bad_profile: args.ignore_bad_profile,
         source_space: setup.source_space,
+        source_condition,
+        keep_pure_black_cmyk: !args.reseparate_pure_black,
     };
     let workshop = Workshop::new(separator, report, options);
     let progress = progress_bar(args.inputs.len() as u64);
