@@ -328,7 +328,7 @@ impl Workshop {
         out.protect([path]);
         let tiff = TiffOptions { compression: self.options.compression, resolution: raster.resolution, icc_profile: None };
         out.stage(&format!("{stem}.cmyk.tif"), |w| crate::raster::write_cmyk_tiff(w, &image, &tiff))?;
-        for ink in crate::raster::Ink::ALL {
+        for ink in Ink::ALL {
             match self.options.plates {
                 PlateFormat::Tiff => {
                     out.stage(&format!("{stem}.{}.tif", ink.letter()), |w| crate::raster::write_plate_tiff(w, &image, ink, &tiff))?;
@@ -444,7 +444,7 @@ impl Workshop {
             Samples::U8(v) => v.chunks_exact(channels).map(|p| flatten_gray(p[0] as f64, p.get(1).map(|&a| a as f64), max_in)).collect(),
             Samples::U16(v) => v.chunks_exact(channels).map(|p| flatten_gray(p[0] as f64, p.get(1).map(|&a| a as f64), max_in)).collect(),
         };
-        let k: Vec<f64> = gray.par_iter().map(|&g| if pure && g == 0.0 { 1.0 } else { k_at(g) }).collect();
+        let k: Vec<f64> = gray.par_iter().map(|&g| if pure && g == 0.0 { k_max } else { k_at(g) }).collect();
         if bits == 8 {
             Samples::U8(k.iter().flat_map(|&k| [0, 0, 0, k_code(k).round() as u8]).collect())
         } else {

@@ -62,7 +62,7 @@ pub struct ModelArgs {
     /// Under colour addition in the deepest shadows, percent.
     #[arg(long, value_name = "PERCENT")]
     pub uca: Option<f64>,
-    /// Source pure black prints as 100 % black ink only (black text stays one plate).
+    /// Source pure black prints as black ink only, at the maximum black (black text stays one plate).
     #[arg(long)]
     pub keep_pure_black: bool,
     /// Nodes per axis of the separation table (5–129).

@@ -112,7 +112,7 @@ pub fn recipe(spec: ColourSpec, separator: &Separator, source_space: RgbSpace) -
             let lab = converter.to_lab(EncodedRgb(rgb.map(|v| v as f64 / 255.0)));
             let mut s = separator.separate(lab, &mapping);
             if separator.settings().keep_pure_black && rgb == [0, 0, 0] {
-                let pure = separator.describe_build(Cmyk::new(0.0, 0.0, 0.0, 1.0));
+                let pure = separator.describe_build(Cmyk::new(0.0, 0.0, 0.0, separator.settings().black.black_max));
                 s = Separation { target: s.target, delta_e: crate::colour::ciede2000(s.target, pure.printed), ..pure };
             }
             s

@@ -258,28 +258,8 @@ impl Raster {
     }
 }
 
-/// The four inks of a composite, in file order.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-pub enum Ink {
-    Cyan,
-    Magenta,
-    Yellow,
-    Black,
-}
-
-impl Ink {
-    pub const ALL: [Ink; 4] = [Ink::Cyan, Ink::Magenta, Ink::Yellow, Ink::Black];
-
-    /// Channel index in an interleaved CMYK pixel.
-    pub fn index(self) -> usize {
-        self as usize
-    }
-
-    /// The one-letter name used in plate file names (C, M, Y, K).
-    pub fn letter(self) -> char {
-        ['C', 'M', 'Y', 'K'][self.index()]
-    }
-}
+/// The four inks of a composite, in file order (the crate's own ink type).
+pub use crate::ink::Ink;
 
 /// An interleaved CMYK image of ink amounts (0 = no ink), the input of the writers.
 #[derive(Debug, Clone, PartialEq)]

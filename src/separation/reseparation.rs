@@ -40,6 +40,7 @@
 //! ink at full coverage (no ink limit is known for an incoming file), where
 //! the RGB path takes L* 0 for the source black.
 
+use super::table::{Position, WEIGHT_BITS, WEIGHT_ONE, position, quantize, smooth_shadows};
 use super::SeparationSettings;
 use super::engine::{Intent, Separator};
 use super::gamut::{GamutBoundary, PerceptualMap, SourceGamut, black_point_compensation};
@@ -58,9 +59,6 @@ pub const DEFAULT_RESEPARATION_GRID: usize = 17;
 /// Allowed nodes per axis (17⁴ = 83 521 nodes; 33⁴ ≈ 1.2 million).
 pub const RESEPARATION_GRID_RANGE: std::ops::RangeInclusive<usize> = 5..=33;
 
-/// Fixed-point scale of interpolation weights (as in the RGB table).
-const WEIGHT_BITS: u32 = 15;
-const WEIGHT_ONE: u32 = 1 << WEIGHT_BITS;
 
 /// The colours a source printing condition can print with any ink amount
 /// (no ink limit, black up to 100 %), for perceptual gamut mapping.
@@ -120,92 +118,6 @@ impl SourceGamut for CmykSourceGamut {
 
     fn ridge(&self) -> Option<Vec<Lab>> {
         Some(self.separator.process_ridge())
-    }
-}
-
-/// Index and fixed-point fraction of one input code value on the grid
-/// (the same rule as the RGB table's).
-#[derive(Debug, Clone, Copy)]
-struct Position {
-    index: u32,
-    fraction: u32,
-}
-
-fn position(value: u32, max: u32, grid: usize) -> Position {
-    let scaled = value as u64 * (grid as u64 - 1);
-    let mut index = (scaled / max as u64) as u32;
-    let mut fraction = (((scaled % max as u64) << WEIGHT_BITS) + max as u64 / 2) / max as u64;
-    if index as usize >= grid - 1 {
-        index = grid as u32 - 2;
-        fraction = WEIGHT_ONE as u64;
-    }
-    Position {
-        index,
-        fraction: fraction as u32,
-    }
-}
-
-/// Rounds a node to 16 bits without letting rounding break the limits:
-/// channels rounded up are taken back, largest rounding first, until the
-/// total and black fit (the same rule as the RGB table's).
-fn quantize(x: [f64; 4], tac: f64, k_max: f64) -> [u16; 4] {
-    let scale = 65535.0;
-    let mut q = x.map(|v| (v * scale).round().clamp(0.0, scale) as i64);
-    let k_cap = (k_max * scale + 1e-6).floor() as i64;
-    q[3] = q[3].min(k_cap);
-    let cap = (tac * scale + 1e-6).floor() as i64;
-    while q.iter().sum::<i64>() > cap {
-        let i = (0..4)
-            .filter(|&i| q[i] > 0)
-            .max_by(|&a, &b| (q[a] as f64 - x[a] * scale).total_cmp(&(q[b] as f64 - x[b] * scale)))
-            .unwrap_or(0);
-        q[i] -= 1;
-    }
-    q.map(|v| v as u16)
-}
-
-/// Lightness range above the black point over which the table is smoothed.
-const SHADOW_RANGE: f64 = 10.0;
-
-/// Smoothing passes in the shadows.
-const SHADOW_PASSES: usize = 3;
-
-/// The shadow smoothing of the RGB table, over the four axes of this grid:
-/// used with the intents that carry the source black onto the press black
-/// point (perceptual, relative with black point compensation). Near the
-/// black point the exact inversion swings the plates widely for small colour
-/// differences; a few passes of a [1 2 1]/4 kernel along each axis are
-/// blended in with a weight of 1 at the black point and 0 at `SHADOW_RANGE`
-/// above it. Every node stays a convex combination of in-limit builds.
-fn smooth_shadows(inks: &mut [[f64; 4]], lightness: &[f64], n: usize, black_l: f64) {
-    let weight: Vec<f64> = lightness
-        .iter()
-        .map(|&l| {
-            let t = ((l - black_l) / SHADOW_RANGE).clamp(0.0, 1.0);
-            1.0 - t * t * (3.0 - 2.0 * t)
-        })
-        .collect();
-    if weight.iter().all(|&w| w == 0.0) {
-        return;
-    }
-    let stride = [n * n * n, n * n, n, 1];
-    for _ in 0..SHADOW_PASSES {
-        for &d in &stride {
-            let src = inks.to_vec();
-            for i in 0..inks.len() {
-                let w = weight[i];
-                if w == 0.0 {
-                    continue;
-                }
-                let pos = (i / d) % n;
-                let lo = if pos > 0 { i - d } else { i };
-                let hi = if pos + 1 < n { i + d } else { i };
-                for ch in 0..4 {
-                    let blurred = 0.25 * src[lo][ch] + 0.5 * src[i][ch] + 0.25 * src[hi][ch];
-                    inks[i][ch] = (1.0 - w) * src[i][ch] + w * blurred;
-                }
-            }
-        }
     }
 }
 
@@ -316,7 +228,7 @@ impl ReseparationTable {
             .collect();
         let (mut inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = lines.into_iter().flatten().unzip();
         if target.maps_source_black_to_black_point() {
-            smooth_shadows(&mut inks, &lightness, n, target_black.l);
+            smooth_shadows(&mut inks, &lightness, n, 4, target_black.l);
         }
         let (tac, k_max) = (settings.tac, settings.black.black_max);
         let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, tac, k_max)).collect();

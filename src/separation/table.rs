@@ -14,8 +14,8 @@ use crate::ink::Cmyk;
 use rayon::prelude::*;
 
 /// Fixed-point scale of interpolation weights.
-const WEIGHT_BITS: u32 = 15;
-const WEIGHT_ONE: u32 = 1 << WEIGHT_BITS;
+pub(crate) const WEIGHT_BITS: u32 = 15;
+pub(crate) const WEIGHT_ONE: u32 = 1 << WEIGHT_BITS;
 
 /// A 3-D table from source RGB (encoded, 0..1 on each axis) to CMYK.
 #[derive(Debug, Clone)]
@@ -23,18 +23,19 @@ pub struct SeparationTable {
     grid: usize,
     /// CMYK per node as 0..65535, node index (r·N + g)·N + b.
     nodes: Vec<[u16; 4]>,
-    /// Source pure black (all channels 0) prints as black ink only.
-    keep_pure_black: bool,
+    /// Source pure black (all channels 0) prints as black ink only, at the
+    /// maximum black (16-bit value), when set.
+    pure_black: Option<u16>,
 }
 
 /// Index and fixed-point fraction of one input code value on the grid.
 #[derive(Debug, Clone, Copy)]
-struct Position {
-    index: u32,
-    fraction: u32,
+pub(crate) struct Position {
+    pub(crate) index: u32,
+    pub(crate) fraction: u32,
 }
 
-fn position(value: u32, max: u32, grid: usize) -> Position {
+pub(crate) fn position(value: u32, max: u32, grid: usize) -> Position {
     let scaled = value as u64 * (grid as u64 - 1);
     let mut index = (scaled / max as u64) as u32;
     let mut fraction = (((scaled % max as u64) << WEIGHT_BITS) + max as u64 / 2) / max as u64;
@@ -63,21 +64,21 @@ const SHADOW_PASSES: usize = 3;
 /// with a weight that is 1 at the black point and 0 at `SHADOW_RANGE` above
 /// it. Every node stays a convex combination of in-limit builds, so the ink
 /// limit and maximum black still hold.
-fn smooth_shadows(inks: &mut [[f64; 4]], lightness: &[f64], n: usize, black_l: f64) {
+/// `axes` is the number of grid dimensions (3 for RGB, 4 for CMYK input).
+pub(crate) fn smooth_shadows(inks: &mut [[f64; 4]], lightness: &[f64], n: usize, axes: u32, black_l: f64) {
     let weight: Vec<f64> = lightness
         .iter()
         .map(|&l| {
             let t = ((l - black_l) / SHADOW_RANGE).clamp(0.0, 1.0);
-            let s = 1.0 - t * t * (3.0 - 2.0 * t);
-            s
+            1.0 - t * t * (3.0 - 2.0 * t)
         })
         .collect();
     if weight.iter().all(|&w| w == 0.0) {
         return;
     }
-    let stride = [n * n, n, 1];
+    let strides: Vec<usize> = (0..axes).rev().map(|a| n.pow(a)).collect();
     for _ in 0..SHADOW_PASSES {
-        for &d in &stride {
+        for &d in &strides {
             let src = inks.to_vec();
             for i in 0..inks.len() {
                 let w = weight[i];
@@ -99,7 +100,7 @@ fn smooth_shadows(inks: &mut [[f64; 4]], lightness: &[f64], n: usize, black_l: f
 /// Rounds a node to 16 bits without letting rounding break the limits:
 /// channels rounded up are taken back, largest rounding first, until the
 /// total and black fit.
-fn quantize(x: [f64; 4], tac: f64, k_max: f64) -> [u16; 4] {
+pub(crate) fn quantize(x: [f64; 4], tac: f64, k_max: f64) -> [u16; 4] {
     let scale = 65535.0;
     let mut q = x.map(|v| (v * scale).round().clamp(0.0, scale) as i64);
     let k_cap = (k_max * scale + 1e-6).floor() as i64;
@@ -144,13 +145,13 @@ impl SeparationTable {
             .collect();
         let (mut inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = lines.into_iter().flatten().unzip();
         if separator.maps_source_black_to_black_point() {
-            smooth_shadows(&mut inks, &lightness, n, separator.black_point().0.l);
+            smooth_shadows(&mut inks, &lightness, n, 3, separator.black_point().0.l);
         }
         let (tac, k_max) = (separator.settings().tac, separator.settings().black.black_max);
         SeparationTable {
             grid: n,
             nodes: inks.into_iter().map(|x| quantize(x, tac, k_max)).collect(),
-            keep_pure_black: separator.settings().keep_pure_black,
+            pure_black: separator.settings().keep_pure_black.then(|| (k_max * 65535.0 + 1e-6).floor() as u16),
         }
     }
 
@@ -191,6 +192,9 @@ impl SeparationTable {
 
     /// CMYK for one encoded RGB value (0..1 per channel), interpolated.
     pub fn lookup(&self, rgb: [f64; 3]) -> Cmyk {
+        if let (Some(k), true) = (self.pure_black, rgb.iter().all(|&v| v <= 0.0)) {
+            return Cmyk::new(0.0, 0.0, 0.0, k as f64 / 65535.0);
+        }
         let max = 1u32 << 24;
         let p = rgb.map(|v| position((v.clamp(0.0, 1.0) * max as f64).round() as u32, max, self.grid));
         Cmyk::from_array(self.interpolate(p).map(|v| v as f64 / 65535.0))
@@ -204,8 +208,8 @@ impl SeparationTable {
         let row_pixels = row_pixels.max(1);
         rgb.par_chunks(3 * row_pixels).zip(cmyk.par_chunks_mut(4 * row_pixels)).for_each(|(src, dst)| {
             for (px, out) in src.chunks_exact(3).zip(dst.chunks_exact_mut(4)) {
-                if self.keep_pure_black && px == [0, 0, 0] {
-                    out.copy_from_slice(&[0, 0, 0, 255]);
+                if let (Some(k), [0, 0, 0]) = (self.pure_black, px) {
+                    out.copy_from_slice(&[0, 0, 0, (k as u32 * 255 / 65535) as u8]);
                     continue;
                 }
                 let v = self.interpolate([lut[px[0] as usize], lut[px[1] as usize], lut[px[2] as usize]]);
@@ -221,8 +225,8 @@ impl SeparationTable {
         let row_pixels = row_pixels.max(1);
         rgb.par_chunks(3 * row_pixels).zip(cmyk.par_chunks_mut(4 * row_pixels)).for_each(|(src, dst)| {
             for (px, out) in src.chunks_exact(3).zip(dst.chunks_exact_mut(4)) {
-                if self.keep_pure_black && px == [0, 0, 0] {
-                    out.copy_from_slice(&[0, 0, 0, 65535]);
+                if let (Some(k), [0, 0, 0]) = (self.pure_black, px) {
+                    out.copy_from_slice(&[0, 0, 0, k]);
                     continue;
                 }
                 let p = [px[0], px[1], px[2]].map(|v| position(v as u32, 65535, self.grid));
