@@ -1,0 +1,169 @@
+#!/usr/bin/env bash
+# Runs the criterion benches of the separation engine, times the release
+# binary on one recipe, and writes the figures with a description of the
+# machine into docs/PERFORMANCE.md between the figures markers.
+#
+#   scripts/bench.sh            run the benches, then record
+#   scripts/bench.sh --record   record from the last run's target/criterion
+#
+# The load average is read before and after the run. When the 1-minute load
+# before the run is 0.5 or more (other work held half a core or more on
+# average), the figures are marked as recorded on a loaded machine.
+set -euo pipefail
+
+root="$(cd "$(dirname "$0")/.." && pwd)"
+cd "$root"
+doc="docs/PERFORMANCE.md"
+crit="${CARGO_TARGET_DIR:-target}/criterion"
+meta="$(mktemp)"
+trap 'rm -f "$meta"' EXIT
+
+load_before="$(cut -d' ' -f1-3 /proc/loadavg)"
+echo "load average before: $load_before"
+
+if [[ "${1:-}" != "--record" ]]; then
+    rm -rf "$crit/forward_model" "$crit/separator_new" "$crit/table_build" "$crit/invert" "$crit/table_apply"
+    cargo bench --bench separation --bench table_apply -- --noplot
+fi
+
+# Release binary: one recipe end to end (process start, separator build,
+# one separation, JSON out), wall time and peak memory.
+recipe_line=""
+if [[ "${1:-}" != "--record" ]]; then
+    cargo build --release --quiet
+    bin="${CARGO_TARGET_DIR:-target}/release/platesmith"
+    if [[ -x /usr/bin/time ]]; then
+        best=""
+        peak=""
+        for _ in 1 2 3; do
+            out="$(/usr/bin/time -f '%e %M' "$bin" recipe '#c81e3c' --json 2>&1 >/dev/null | tail -n 1)"
+            t="${out%% *}"
+            m="${out##* }"
+            if [[ -z "$best" ]] || python3 -c "import sys; sys.exit(0 if $t < $best else 1)"; then
+                best="$t"
+                peak="$m"
+            fi
+        done
+        recipe_line="$best $peak"
+    fi
+fi
+
+load_after="$(cut -d' ' -f1-3 /proc/loadavg)"
+echo "load average after: $load_after"
+
+{
+    echo "model=$(lscpu | sed -n 's/^Model name:[[:space:]]*//p' | head -n 1)"
+    echo "cores=$(nproc)"
+    echo "date=$(date -u '+%Y-%m-%d %H:%M UTC')"
+    echo "rustc=$(rustc --version)"
+    echo "commit=$(git rev-parse --short HEAD)"
+    echo "load_before=$load_before"
+    echo "load_after=$load_after"
+    echo "recipe=$recipe_line"
+} >"$meta"
+
+python3 - "$crit" "$doc" "$meta" <<'PY'
+import json, os, sys
+
+crit, doc, meta_path = sys.argv[1:4]
+meta = dict(line.rstrip("\n").split("=", 1) for line in open(meta_path) if "=" in line)
+
+def read(group, function, value=None):
+    """Mean and 95 % interval (ns per iteration) and elements per iteration."""
+    parts = [crit, group, function] + ([value] if value else [])
+    path = os.path.join(*parts)
+    try:
+        est = json.load(open(os.path.join(path, "new", "estimates.json")))
+        bench = json.load(open(os.path.join(path, "new", "benchmark.json")))
+    except FileNotFoundError:
+        return None
+    mean = est["mean"]
+    elements = (bench.get("throughput") or {}).get("Elements")
+    return mean["point_estimate"], mean["confidence_interval"]["lower_bound"], \
+        mean["confidence_interval"]["upper_bound"], elements
+
+def seconds(ns):
+    if ns >= 1e9:
+        return f"{ns / 1e9:.3f} s"
+    if ns >= 1e6:
+        return f"{ns / 1e6:.1f} ms"
+    if ns >= 1e3:
+        return f"{ns / 1e3:.1f} µs"
+    return f"{ns:.0f} ns"
+
+rows = []
+def row(label, r, per="time", target="", check=None, unit="M/s"):
+    if r is None:
+        rows.append(f"| {label} | not measured | | |")
+        return
+    mean, lo, hi, elements = r
+    if per == "time":
+        figure = f"{seconds(mean)} ({seconds(lo)}–{seconds(hi)})"
+        value = mean
+    elif per == "each":
+        figure = f"{seconds(mean / elements)} per call"
+        value = mean / elements
+    elif per == "rate":
+        rate = elements / (mean / 1e9) / 1e6
+        figure = f"{rate:.1f} {unit} ({seconds(mean)} per {elements})"
+        value = rate
+    verdict = "" if check is None else ("met" if check(value) else "**missed**")
+    rows.append(f"| {label} | {figure} | {target} | {verdict} |")
+
+cores = int(meta["cores"])
+row("forward model CMYK → Lab, 1 thread", read("forward_model", "lab"), "rate",
+    "≥ 5 M evals/s", lambda v: v >= 5.0, "M evals/s")
+row("Separator::new (coated offset, gamut boundary)", read("separator_new", "coated_offset"))
+for intent in ("perceptual", "relative"):
+    for grid in ("17", "33"):
+        target, check = "", None
+        if grid == "33":
+            target = "≤ 1 s (issue 4), ≤ 0.5 s (issue 9)"
+            check = lambda v: v <= 0.5e9
+        row(f"table build, {intent}, grid {grid}, {cores} threads", read("table_build", intent, grid),
+            "time", target, check)
+row("invert, in-gamut target, cold start", read("invert", "in_gamut"), "each")
+row("invert, out-of-gamut target, cold start", read("invert", "out_of_gamut"), "each")
+for bits in ("rgb8", "rgb16"):
+    for threads in ("1_thread", f"{cores}_threads"):
+        target, check = "", None
+        if bits == "rgb8" and threads == "1_thread":
+            target, check = "≥ 100 Mpixel/s per core", (lambda v: v >= 100.0)
+        label = f"apply table, {bits[3:]}-bit, {threads.replace('_', ' ')}, 4 Mpixel"
+        row(label, read("table_apply", bits, threads), "rate", target, check, "Mpixel/s")
+one = read("table_apply", "rgb8", "1_thread")
+many = read("table_apply", "rgb8", f"{cores}_threads")
+if one and many:
+    rows.append(f"| scaling, 8-bit, {cores} threads over 1 | {one[0] / many[0]:.2f} × | ≥ 1.8 × (issue 9) | "
+                f"{'met' if one[0] / many[0] >= 1.8 else '**missed**'} |")
+if meta.get("recipe"):
+    t, kb = meta["recipe"].split()
+    rows.append(f"| release binary `recipe '#c81e3c' --json`, wall, best of 3 | {float(t):.2f} s, "
+                f"peak {int(kb) / 1024:.0f} MiB | | |")
+
+loaded = float(meta["load_before"].split()[0]) >= 0.5
+status = ("**Recorded on a loaded machine** (1-minute load average before the run ≥ 0.5): "
+          "the figures are pessimistic and vary between runs."
+          if loaded else "Recorded on an idle machine (1-minute load average before the run < 0.5).")
+block = "\n".join([
+    "<!-- figures:begin -->",
+    f"Machine: {meta['model']}, {meta['cores']} cores; {meta['rustc']}; commit {meta['commit']}; {meta['date']}.",
+    f"Load average (1, 5, 15 min): {meta['load_before']} before the run, {meta['load_after']} after.",
+    "",
+    status,
+    "",
+    "| stage | mean (95 % interval) or rate | target | |",
+    "| --- | --- | --- | --- |",
+    *rows,
+    "<!-- figures:end -->",
+])
+
+text = open(doc).read()
+begin, end = "<!-- figures:begin -->", "<!-- figures:end -->"
+if begin not in text or end not in text:
+    sys.exit(f"{doc}: the markers {begin} and {end} are missing")
+head, rest = text.split(begin, 1)
+_, tail = rest.split(end, 1)
+open(doc, "w").write(head + block + tail)
+print(block)
+PY
