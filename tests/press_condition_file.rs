@@ -37,12 +37,13 @@ fn example_condition_loads_with_percent_converted_to_fractions() {
 }
 
 #[test]
-fn load_condition_accepts_names_and_toml_paths_and_refuses_icc_here() {
+fn load_condition_accepts_names_toml_paths_and_icc_profiles() {
     assert_eq!(load_condition("newsprint").unwrap().name, "newsprint");
     let path = fixture("harbour-lane-sheetfed.toml");
     assert_eq!(load_condition(path.to_str().unwrap()).unwrap().name, "harbour-lane-sheetfed");
+    // A .icc path goes to the ICC profile model, which names the missing file.
     let err = load_condition("press.icc").unwrap_err().to_string();
-    assert!(err.contains("ICC profile model"), "{err}");
+    assert!(err.contains("press.icc"), "{err}");
     let err = load_condition("missing-file.toml").unwrap_err().to_string();
     assert!(err.contains("missing-file.toml") && err.contains("cannot read"), "{err}");
 }
