@@ -47,7 +47,7 @@ pub(crate) fn position(value: u32, max: u32, grid: usize) -> Position {
 }
 
 /// Lightness range above the black point over which the table is smoothed.
-const SHADOW_RANGE: f64 = 10.0;
+const SHADOW_RANGE: f64 = 13.0;
 
 /// Smoothing passes in the shadows.
 const SHADOW_PASSES: usize = 3;
