@@ -314,7 +314,7 @@ impl Workshop {
                     (Samples::U16(v), bits) => {
                         let mut out = vec![0u16; pixels * 4];
                         table.apply_cmyk16(v, &mut out, w);
-                        if bits == 16 { Samples::U16(out) } else { Samples::U8(out.par_iter().map(|&x| ((x as u32 + 128) / 257) as u8).collect()) }
+                        if bits == 16 { Samples::U16(out) } else { narrow_to_8bit(&out) }
                     }
                 };
                 (cmyk, table_ms, ms(t2))
@@ -410,7 +410,7 @@ impl Workshop {
             (Samples::U16(v), _) => {
                 let mut out16 = vec![0u16; pixels * 4];
                 table.apply_rgb16(v, &mut out16, width);
-                Samples::U8(out16.par_iter().map(|&x| ((x as u32 + 128) / 257) as u8).collect())
+                narrow_to_8bit(&out16)
             }
         }
     }
@@ -451,6 +451,11 @@ impl Workshop {
             Samples::U16(k.iter().flat_map(|&k| [0, 0, 0, k_code(k).round() as u16]).collect())
         }
     }
+}
+
+/// 16-bit samples rounded to 8 bits.
+fn narrow_to_8bit(v: &[u16]) -> Samples {
+    Samples::U8(v.par_iter().map(|&x| ((x as u32 + 128) / 257) as u8).collect())
 }
 
 fn flatten_gray(g: f64, alpha: Option<f64>, max: f64) -> f64 {

@@ -88,7 +88,7 @@ impl SeparationSettings {
     pub fn validate(&self) -> Result<()> {
         let pct = |name: &str, v: f64, lo: f64, hi: f64| {
             if !(v.is_finite() && v >= lo && v <= hi) {
-                Err(Error::usage(format!("{name} is {:.4}; allowed range is {lo}–{hi}", v * 100.0).replace(&format!("{lo}–{hi}"), &format!("{}–{} %", lo * 100.0, hi * 100.0))))
+                Err(Error::usage(format!("{name} is {:.4}; allowed range is {}–{} %", v * 100.0, lo * 100.0, hi * 100.0)))
             } else {
                 Ok(())
             }
