@@ -4,7 +4,7 @@
 
 use criterion::{Criterion, Throughput, criterion_group, criterion_main};
 use platesmith::ink::Cmyk;
-use platesmith::press::{PressModel, builtin};
+use platesmith::press::builtin;
 use std::hint::black_box;
 
 /// 4096 builds spread over the ink space (a fixed low-discrepancy sequence).

@@ -62,14 +62,19 @@ pub const CMYK_TABLE_GRID: usize = 13;
 /// Ink statistics of a separated image.
 #[derive(Debug, Clone, Default)]
 pub struct InkStats {
-    pixels: u64,
+    pub pixels: u64,
     /// Total ink histogram in steps of 0.5 % (0..=400 %).
-    tac_hist: Vec<u64>,
-    tac_sum: f64,
-    tac_max: f64,
-    over: u64,
-    plate_sum: [f64; 4],
-    plate_inked: [u64; 4],
+    pub tac_hist: Vec<u64>,
+    /// Sum of total ink over the pixels (fractions).
+    pub tac_sum: f64,
+    /// Largest total ink (fraction).
+    pub tac_max: f64,
+    /// Pixels over the limit by more than 0.5 % (rounding).
+    pub over: u64,
+    /// Sum of each ink over the pixels (fractions), in C, M, Y, K order.
+    pub plate_sum: [f64; 4],
+    /// Pixels with at least 1 % of each ink.
+    pub plate_inked: [u64; 4],
 }
 
 impl std::ops::AddAssign for InkStats {
@@ -190,6 +195,25 @@ pub struct JobSummary {
     pub note: &'static str,
 }
 
+/// One file read and separated in memory, before anything is written.
+pub struct SeparatedFile {
+    /// The file as read (RGB, gray or CMYK samples, resolution, embedded profile).
+    pub raster: Raster,
+    /// The CMYK separation, at the job's output depth.
+    pub image: CmykImage,
+    /// The RGB source the separation started from; `None` for CMYK input and
+    /// for gray input put on the black plate only.
+    pub rgb_source: Option<RgbSource>,
+    /// How the summary names the source ("sRGB (assumed)", "embedded ICC profile", …).
+    pub source_description: String,
+    /// What was assumed or done on the way (flattened alpha, assumed space…).
+    pub notes: Vec<String>,
+    pub stats: InkStats,
+    pub read_ms: f64,
+    pub table_ms: f64,
+    pub separate_ms: f64,
+}
+
 /// The shared state of a run: one separator, tables cached per source.
 pub struct Workshop {
     pub separator: Separator,
@@ -254,12 +278,22 @@ impl Workshop {
     /// Separates one file and writes its outputs.
     pub fn run(&self, path: &Path) -> Result<JobSummary> {
         let total = Instant::now();
+        let separated = self.separate_file(path)?;
+        self.write_outputs(path, &separated, total)
+    }
+
+    /// Reads and separates one file in memory; nothing is written.
+    ///
+    /// The same path as [`Workshop::run`] up to the output: callers that check
+    /// a separation (inspect, proof) see exactly the CMYK that `separate` writes.
+    pub fn separate_file(&self, path: &Path) -> Result<SeparatedFile> {
         let t = Instant::now();
         let raster = crate::raster::read_raster(path, &self.options.limits)?;
         let read_ms = ms(t);
         let mut notes = Vec::new();
         let t = Instant::now();
         let gray = matches!(raster.layout, Layout::Gray | Layout::GrayAlpha);
+        let mut rgb_source = None;
         let (image, table_ms, separate_ms) = match to_rgb(&raster, &mut notes) {
             Some(_) if gray && self.options.gray == GrayMode::BlackOnly => {
                 let cmyk = self.gray_to_black(&raster);
@@ -275,6 +309,7 @@ impl Workshop {
                 let table_ms = ms(t);
                 let t2 = Instant::now();
                 let cmyk = self.apply(&table, &rgb, raster.width as usize);
+                rgb_source = Some(source);
                 (cmyk, table_ms, ms(t2))
             }
             None => {
@@ -322,19 +357,33 @@ impl Workshop {
         };
         let image = CmykImage::new(raster.width, raster.height, image)?;
         let stats = InkStats::of_samples(&image.samples, self.separator.settings().tac);
+        let source_description = if raster.layout == Layout::Cmyk {
+            format!("CMYK for {}", self.options.source_condition.name)
+        } else if notes.iter().any(|n| n.contains("assumed")) {
+            format!("{} (assumed)", self.options.source_space.name())
+        } else {
+            "embedded ICC profile".into()
+        };
+        Ok(SeparatedFile { raster, image, rgb_source, source_description, notes, stats, read_ms, table_ms, separate_ms })
+    }
+
+    /// Writes the composite, the plates and the summary of a separated file as
+    /// one set; `started` is when the job began (for the total time).
+    pub fn write_outputs(&self, path: &Path, separated: &SeparatedFile, started: Instant) -> Result<JobSummary> {
+        let SeparatedFile { raster, image, stats, .. } = separated;
         let t = Instant::now();
         let stem = path.file_stem().and_then(|s| s.to_str()).unwrap_or("image").to_string();
         let mut out = OutputSet::new(&self.options.out_dir, self.options.overwrite)?;
         out.protect([path]);
         let tiff = TiffOptions { compression: self.options.compression, resolution: raster.resolution, icc_profile: None };
-        out.stage(&format!("{stem}.cmyk.tif"), |w| crate::raster::write_cmyk_tiff(w, &image, &tiff))?;
+        out.stage(&format!("{stem}.cmyk.tif"), |w| crate::raster::write_cmyk_tiff(w, image, &tiff))?;
         for ink in Ink::ALL {
             match self.options.plates {
                 PlateFormat::Tiff => {
-                    out.stage(&format!("{stem}.{}.tif", ink.letter()), |w| crate::raster::write_plate_tiff(w, &image, ink, &tiff))?;
+                    out.stage(&format!("{stem}.{}.tif", ink.letter()), |w| crate::raster::write_plate_tiff(w, image, ink, &tiff))?;
                 }
                 PlateFormat::Png => {
-                    out.stage(&format!("{stem}.{}.png", ink.letter()), |w| crate::raster::write_plate_png(w, &image, ink, raster.resolution))?;
+                    out.stage(&format!("{stem}.{}.png", ink.letter()), |w| crate::raster::write_plate_png(w, image, ink, raster.resolution))?;
                 }
                 PlateFormat::None => {}
             }
@@ -351,8 +400,8 @@ impl Workshop {
             height: raster.height,
             resolution_ppi: [round_to(res.x_ppi, 2), round_to(res.y_ppi, 2)],
             input: format!("{} {:?} {}-bit", raster.format.name(), raster.layout, raster.bits),
-            source: String::new(),
-            notes,
+            source: separated.source_description.clone(),
+            notes: separated.notes.clone(),
             settings: self.settings_report.clone(),
             bits: self.options.bits,
             plates: Ink::ALL
@@ -370,18 +419,11 @@ impl Workshop {
                 mean: round_to(stats.tac_sum / px * 100.0, 1),
                 over_fraction: stats.over as f64 / px,
             },
-            timings: Timings { read_ms, table_ms, separate_ms, write_ms: 0.0, total_ms: 0.0 },
+            timings: Timings { read_ms: separated.read_ms, table_ms: separated.table_ms, separate_ms: separated.separate_ms, write_ms: 0.0, total_ms: 0.0 },
             note: crate::report::PREDICTION_NOTE,
         };
-        summary.source = if raster.layout == Layout::Cmyk {
-            format!("CMYK for {}", self.options.source_condition.name)
-        } else if summary.notes.iter().any(|n| n.contains("assumed")) {
-            format!("{} (assumed)", self.options.source_space.name())
-        } else {
-            "embedded ICC profile".into()
-        };
         summary.timings.write_ms = ms(t);
-        summary.timings.total_ms = ms(total);
+        summary.timings.total_ms = ms(started);
         let json = serde_json::to_string_pretty(&summary).map_err(|e| Error::Internal(e.to_string()))?;
         out.stage(&summary_name, |w| std::io::Write::write_all(w, json.as_bytes()))?;
         out.commit()?;

@@ -80,7 +80,7 @@ fn in_gamut_targets_are_reproduced() {
 /// deepest shadows, see `SeparationTable`).
 #[test]
 fn table_agrees_with_direct_separation() {
-    let (mean, p99, max) = table_agrees(relative(), relative_table(), "relative");
+    let (mean, _p99, max) = table_agrees(relative(), relative_table(), "relative");
     assert!(mean <= 0.5 && max <= 2.0, "relative: mean {mean} max {max}");
     // Perceptual: the table is also smoothed in the deepest shadows, and the
     // mapping bends at the knee of the chroma compression; the bound on the
