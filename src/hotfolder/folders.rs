@@ -24,8 +24,8 @@ pub struct Folders {
 }
 
 impl Folders {
-    /// The layout under `root` (which must exist), creating the folders that are missing.
-    pub fn prepare(root: &Path) -> Result<Folders> {
+    /// The layout under `root`, which must be an existing folder; nothing is created yet.
+    pub fn at(root: &Path) -> Result<Folders> {
         match fs::metadata(root) {
             Ok(m) if m.is_dir() => {}
             Ok(_) => return Err(Error::input(root, "is not a folder")),
@@ -42,9 +42,21 @@ impl Folders {
             staging: root.join("out").join(".staging"),
             log: root.join("hotfolder.log"),
         };
-        for dir in [&f.incoming, &f.work, &f.out, &f.done, &f.failed, &f.staging] {
+        Ok(f)
+    }
+
+    /// Creates the folders that are missing.
+    pub fn create(&self) -> Result<()> {
+        for dir in [&self.incoming, &self.work, &self.out, &self.done, &self.failed, &self.staging] {
             fs::create_dir_all(dir).map_err(|e| Error::output(dir, format!("cannot create the folder: {e}")))?;
         }
+        Ok(())
+    }
+
+    /// The layout under `root` (which must exist), creating the folders that are missing.
+    pub fn prepare(root: &Path) -> Result<Folders> {
+        let f = Folders::at(root)?;
+        f.create()?;
         Ok(f)
     }
 }

@@ -164,10 +164,11 @@ pub fn run(settings: &Settings, stop: &AtomicBool) -> Result<RunSummary> {
     if settings.jobs == 0 {
         return Err(Error::usage("--jobs must be at least 1"));
     }
-    let folders = Folders::prepare(&settings.dir)?;
+    let folders = Folders::at(&settings.dir)?;
     let ticket_path = settings.ticket.clone().or_else(|| Some(folders.root.join("ticket.toml")).filter(|p| p.is_file()));
     let (workshop, ticket) = crate::cli::separate::ticket_workshop(ticket_path.as_deref())?;
     let steps = steps::pipeline(Arc::new(workshop), &ticket)?;
+    folders.create()?;
     let id = folders::instance_id();
     let log = EventLog::open(&folders.log, &id, settings.log_to_stderr)?;
     let instance = Instance::register(&folders, &id)?;
