@@ -190,6 +190,21 @@ pub fn find_orphans(folders: &Folders, own: &str, held: &[String]) -> Vec<Orphan
         let _ = fs::remove_dir_all(folders.staging.join(&id));
         found.push(Orphan { id, dir, lock_path, _lock: lock });
     }
+    // Lock files of gone instances that never made their folder.
+    if let Ok(entries) = fs::read_dir(&folders.work) {
+        for e in entries.filter_map(|e| e.ok()) {
+            let name = e.file_name().to_string_lossy().to_string();
+            let Some(id) = name.strip_suffix(".lock") else { continue };
+            if id.starts_with('.') || id == own || held.iter().any(|h| h == id) || folders.work.join(id).exists() {
+                continue;
+            }
+            if let Ok(f) = OpenOptions::new().read(true).write(true).open(e.path()) {
+                if f.try_lock().is_ok() && !folders.work.join(id).exists() {
+                    let _ = fs::remove_file(e.path());
+                }
+            }
+        }
+    }
     // Staging folders of instances with neither a work folder nor a lock file.
     if let Ok(entries) = fs::read_dir(&folders.staging) {
         for e in entries.filter_map(|e| e.ok()) {

@@ -251,6 +251,8 @@ fn schedule(settings: &Settings, stop: &AtomicBool, shared: &Shared, instance: &
     let mut tracker = watch::Tracker::new(settings.settle);
     let mut held: Vec<Orphan> = Vec::new();
     let mut refused: HashSet<OsString> = HashSet::new();
+    // Files of gone instances that could not be taken over (reported once).
+    let mut skipped: HashSet<PathBuf> = HashSet::new();
     let mut summary = RunSummary::default();
     let mut in_flight = 0usize;
     let mut stopping = false;
@@ -275,7 +277,7 @@ fn schedule(settings: &Settings, stop: &AtomicBool, shared: &Shared, instance: &
             }
             // Files left by gone instances first: they arrived earlier.
             while in_flight < settings.jobs {
-                let Some(claimed) = take_orphan_file(shared, instance, &held, &mut summary) else { break };
+                let Some(claimed) = take_orphan_file(shared, instance, &held, &mut summary, &mut skipped) else { break };
                 if job_tx.send(claimed).is_ok() {
                     in_flight += 1;
                 }
@@ -327,7 +329,8 @@ fn schedule(settings: &Settings, stop: &AtomicBool, shared: &Shared, instance: &
             }
         }
         let idle = in_flight == 0;
-        if idle && (stopping || (settings.once && tracker.is_empty() && held.is_empty() && last_scan.is_some())) {
+        let orphans_left = held.iter().any(|o| o.files().iter().any(|n| !skipped.contains(&o.dir.join(n))));
+        if idle && (stopping || (settings.once && tracker.is_empty() && !orphans_left && last_scan.is_some())) {
             break;
         }
         let wait = if stopping { Duration::from_millis(100) } else { tick };
@@ -376,10 +379,13 @@ fn claim(shared: &Shared, instance: &Instance, name: &OsStr) -> Claim {
 
 /// The next file of a gone instance to process again, finishing on the way
 /// those whose results were already committed.
-fn take_orphan_file(shared: &Shared, instance: &Instance, held: &[Orphan], summary: &mut RunSummary) -> Option<Claimed> {
+fn take_orphan_file(shared: &Shared, instance: &Instance, held: &[Orphan], summary: &mut RunSummary, skipped: &mut HashSet<PathBuf>) -> Option<Claimed> {
     for orphan in held {
         for name in orphan.files() {
             let src = orphan.dir.join(&name);
+            if skipped.contains(&src) {
+                continue;
+            }
             let shown = name.to_string_lossy().to_string();
             if folders::link_count(&src) > 1 {
                 if std::fs::remove_file(&src).is_ok() {
@@ -397,6 +403,9 @@ fn take_orphan_file(shared: &Shared, instance: &Instance, held: &[Orphan], summa
                     _ => fail(shared, &claimed, &record.reasons, Some(&out_name), started),
                 };
                 summary.count(outcome);
+                if outcome == Outcome::Stuck {
+                    skipped.insert(orphan.dir.join(&name));
+                }
                 continue;
             }
             let target = instance.dir.join(&name);
@@ -410,7 +419,8 @@ fn take_orphan_file(shared: &Shared, instance: &Instance, held: &[Orphan], summa
                 }
                 Err(e) if e.kind() == std::io::ErrorKind::NotFound => continue,
                 Err(e) => {
-                    shared.log.event("error", &shown, &format!("cannot take over {}: {e}", src.display()), None);
+                    shared.log.event("error", &shown, &format!("cannot take over {}: {e}; it stays there", src.display()), None);
+                    skipped.insert(src);
                 }
             }
         }
