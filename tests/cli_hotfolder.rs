@@ -486,3 +486,71 @@ fn bad_settings_exit_2_naming_the_problem_and_create_nothing() {
     assert!(String::from_utf8_lossy(&out.stderr).contains("no-such-folder"), "{}", String::from_utf8_lossy(&out.stderr));
     assert!(!missing.exists());
 }
+
+/// Lays out what a process killed between two steps of the protocol leaves:
+/// an unlocked lock file and a work folder holding `name`.
+fn dead_instance(hot: &Hot, id: &str, name: &str, bytes: &[u8]) -> PathBuf {
+    for d in ["work", "out", "done", "failed"] {
+        fs::create_dir_all(hot.path(d)).unwrap();
+    }
+    fs::write(hot.path("work").join(format!("{id}.lock")), format!("{id}\n")).unwrap();
+    let dir = hot.path("work").join(id);
+    fs::create_dir(&dir).unwrap();
+    fs::write(dir.join(name), bytes).unwrap();
+    dir.join(name)
+}
+
+#[test]
+fn a_crash_after_the_results_were_committed_finishes_without_processing_again() {
+    let hot = Hot::new();
+    let bytes = png_bytes(8, 8, 8);
+    hot.put("label.png", &bytes);
+    let (status, stderr) = hot.once(&[]);
+    assert_eq!(status.code(), Some(0), "{stderr}");
+    // Make it look as if the instance died after renaming its results into
+    // out/ and before moving the input: the record names that claim.
+    let id = "gone-4242-abc";
+    fs::remove_file(hot.path("done/label.png")).unwrap();
+    let left = dead_instance(&hot, id, "label.png", &bytes);
+    let record_path = hot.path("out/label/hotfolder.json");
+    let mut record: serde_json::Value = serde_json::from_str(&fs::read_to_string(&record_path).unwrap()).unwrap();
+    record["job"] = format!("{id}/label.png").into();
+    fs::write(&record_path, serde_json::to_string(&record).unwrap()).unwrap();
+    let (status, stderr) = hot.once(&[]);
+    assert_eq!(status.code(), Some(0), "{stderr}");
+    assert!(!left.exists());
+    assert_eq!(fs::read(hot.path("done/label.png")).unwrap(), bytes);
+    assert_eq!(hot.visible("out"), ["label".to_string()].into(), "not processed a second time");
+    assert_clean(&hot);
+}
+
+#[test]
+fn a_crash_between_link_and_unlink_leaves_the_file_moved_once() {
+    let hot = Hot::new();
+    let bytes = png_bytes(8, 8, 9);
+    let id = "gone-4343-def";
+    let left = dead_instance(&hot, id, "badge.png", &bytes);
+    // The move to done/ made its link and died before the unlink.
+    fs::hard_link(&left, hot.path("done/badge.png")).unwrap();
+    let (status, stderr) = hot.once(&[]);
+    assert_eq!(status.code(), Some(0), "{stderr}");
+    assert!(!left.exists());
+    assert_eq!(hot.visible("done"), ["badge.png".to_string()].into());
+    assert!(hot.visible("out").is_empty(), "not processed again");
+    assert_clean(&hot);
+    assert!(hot.log_lines().iter().any(|l| l[1] == "recovered" && l[2] == "badge.png"), "{}", hot.log());
+}
+
+#[test]
+fn a_folder_of_a_live_instance_is_left_alone() {
+    let hot = Hot::new();
+    let bytes = png_bytes(8, 8, 10);
+    hot.put("tag.png", &bytes);
+    // A live instance holds its claim while its job runs (60 s).
+    let _live = hot.spawn(&["--settle", "0.2"], Some(60_000));
+    wait_until("tag.png is taken", || hot.log_lines().iter().any(|l| l[1] == "take" && l[2] == "tag.png"));
+    let (status, stderr) = hot.once(&[]);
+    assert_eq!(status.code(), Some(0), "{stderr}");
+    assert!(hot.visible("done").is_empty() && hot.visible("out").is_empty(), "the other instance's file was not taken");
+    assert_eq!(hot.log_lines().iter().filter(|l| l[1] == "take" && l[2] == "tag.png").count(), 1);
+}
