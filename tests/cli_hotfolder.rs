@@ -211,7 +211,8 @@ fn thirty_files_each_end_once_in_done_or_failed_with_complete_outputs() {
     let hot = Hot::new();
     let mut rng = Rng(0x5EED_0001);
     // (name, bytes, expected: Some(size) = done, None = failed)
-    let mut files: Vec<(String, Vec<u8>, Option<(u32, u32)>)> = Vec::new();
+    type Fixture = (String, Vec<u8>, Option<(u32, u32)>);
+    let mut files: Vec<Fixture> = Vec::new();
     for i in 0..12u32 {
         let (w, h) = (6 + i, 5 + i % 4);
         files.push((format!("art{i:02}.png"), png_bytes(w, h, i as u64), Some((w, h))));

@@ -198,10 +198,11 @@ pub fn find_orphans(folders: &Folders, own: &str, held: &[String]) -> Vec<Orphan
             if id.starts_with('.') || id == own || held.iter().any(|h| h == id) || folders.work.join(id).exists() {
                 continue;
             }
-            if let Ok(f) = OpenOptions::new().read(true).write(true).open(e.path()) {
-                if f.try_lock().is_ok() && !folders.work.join(id).exists() {
-                    let _ = fs::remove_file(e.path());
-                }
+            if let Ok(f) = OpenOptions::new().read(true).write(true).open(e.path())
+                && f.try_lock().is_ok()
+                && !folders.work.join(id).exists()
+            {
+                let _ = fs::remove_file(e.path());
             }
         }
     }

@@ -44,10 +44,10 @@ impl EventLog {
             Ok(mut f) => f.write_all(line.as_bytes()),
             Err(_) => Ok(()),
         };
-        if let Err(e) = written {
-            if !self.write_failed.swap(true, Ordering::Relaxed) {
-                eprintln!("platesmith: {}: cannot write the log: {e}", self.path.display());
-            }
+        if let Err(e) = written
+            && !self.write_failed.swap(true, Ordering::Relaxed)
+        {
+            eprintln!("platesmith: {}: cannot write the log: {e}", self.path.display());
         }
     }
 }

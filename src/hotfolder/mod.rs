@@ -456,10 +456,10 @@ fn find_record(out: &Path, job: &str) -> Option<(PathBuf, JobRecord)> {
             continue;
         }
         let Ok(text) = std::fs::read_to_string(entry.path().join(RECORD_NAME)) else { continue };
-        if let Ok(record) = serde_json::from_str::<JobRecord>(&text) {
-            if record.job == job {
-                return Some((entry.path(), record));
-            }
+        if let Ok(record) = serde_json::from_str::<JobRecord>(&text)
+            && record.job == job
+        {
+            return Some((entry.path(), record));
         }
     }
     None
