@@ -214,6 +214,16 @@ pub struct SeparatedFile {
     pub separate_ms: f64,
 }
 
+/// Where [`Workshop::write_outputs_in`] writes, and how the summary names things.
+pub struct OutputPlace<'a> {
+    /// The existing folder the files are written into.
+    pub dir: &'a Path,
+    /// The folder the summary lists the outputs under.
+    pub listed_dir: &'a Path,
+    /// The input as the summary names it.
+    pub input_shown: &'a Path,
+}
+
 /// The shared state of a run: one separator, tables cached per source.
 pub struct Workshop {
     pub separator: Separator,
@@ -370,10 +380,18 @@ impl Workshop {
     /// Writes the composite, the plates and the summary of a separated file as
     /// one set; `started` is when the job began (for the total time).
     pub fn write_outputs(&self, path: &Path, separated: &SeparatedFile, started: Instant) -> Result<JobSummary> {
+        self.write_outputs_in(path, separated, started, &OutputPlace { dir: &self.options.out_dir, listed_dir: &self.options.out_dir, input_shown: path })
+    }
+
+    /// [`Workshop::write_outputs`] into another folder than the job's `out_dir`,
+    /// with the summary naming the outputs under `place.listed_dir` and the
+    /// input as `place.input_shown` (the hot folder writes into a staging
+    /// folder that is renamed when complete).
+    pub fn write_outputs_in(&self, path: &Path, separated: &SeparatedFile, started: Instant, place: &OutputPlace) -> Result<JobSummary> {
         let SeparatedFile { raster, image, stats, .. } = separated;
         let t = Instant::now();
         let stem = path.file_stem().and_then(|s| s.to_str()).unwrap_or("image").to_string();
-        let mut out = OutputSet::new(&self.options.out_dir, self.options.overwrite)?;
+        let mut out = OutputSet::new(place.dir, self.options.overwrite)?;
         out.protect([path]);
         let tiff = TiffOptions { compression: self.options.compression, resolution: raster.resolution, icc_profile: None };
         out.stage(&format!("{stem}.cmyk.tif"), |w| crate::raster::write_cmyk_tiff(w, image, &tiff))?;
@@ -389,12 +407,13 @@ impl Workshop {
             }
         }
         let res = raster.resolution.unwrap_or(Resolution::DEFAULT);
-        let mut outputs: Vec<String> = out.staged().iter().map(|p| p.display().to_string()).collect();
+        let listed = |name: &std::ffi::OsStr| place.listed_dir.join(name).display().to_string();
+        let mut outputs: Vec<String> = out.staged().iter().filter_map(|p| p.file_name().map(listed)).collect();
         let summary_name = format!("{stem}.summary.json");
-        outputs.push(self.options.out_dir.join(&summary_name).display().to_string());
+        outputs.push(listed(summary_name.as_ref()));
         let px = stats.pixels.max(1) as f64;
         let mut summary = JobSummary {
-            file: path.display().to_string(),
+            file: place.input_shown.display().to_string(),
             outputs,
             width: raster.width,
             height: raster.height,

@@ -9,6 +9,7 @@ pub mod cgats;
 pub mod cli;
 pub mod colour;
 pub mod error;
+pub mod hotfolder;
 pub mod icc;
 pub mod ink;
 pub mod job;

@@ -2,6 +2,7 @@
 
 mod conditions;
 mod fit;
+pub mod hotfolder;
 pub mod options;
 pub mod recipe;
 pub mod separate;
@@ -32,6 +33,8 @@ pub enum Command {
     Conditions(conditions::ConditionsArgs),
     /// Fit a press model to measured patches (CGATS text) and write it as a condition file.
     Fit(fit::FitArgs),
+    /// Watch a folder: separate every file that arrives, results to out/, inputs to done/ or failed/.
+    Hotfolder(hotfolder::HotfolderArgs),
 }
 
 /// Runs a parsed command line; the returned code is the process exit code.
@@ -41,6 +44,7 @@ pub fn run(cli: Cli) -> Result<i32> {
         Command::Separate(args) => separate::run(args),
         Command::Conditions(args) => conditions::run(args),
         Command::Fit(args) => fit::run(args),
+        Command::Hotfolder(args) => hotfolder::run(args),
     }
 }
 
