@@ -3,6 +3,7 @@
 mod conditions;
 mod fit;
 pub mod options;
+pub mod profile;
 pub mod recipe;
 pub mod separate;
 
@@ -32,6 +33,8 @@ pub enum Command {
     Conditions(conditions::ConditionsArgs),
     /// Fit a press model to measured patches (CGATS text) and write it as a condition file.
     Fit(fit::FitArgs),
+    /// Write the separation as an ICC output profile (CMYK, CIELAB PCS, all intents).
+    Profile(profile::ProfileArgs),
 }
 
 /// Runs a parsed command line; the returned code is the process exit code.
@@ -41,6 +44,7 @@ pub fn run(cli: Cli) -> Result<i32> {
         Command::Separate(args) => separate::run(args),
         Command::Conditions(args) => conditions::run(args),
         Command::Fit(args) => fit::run(args),
+        Command::Profile(args) => profile::run(args),
     }
 }
 
