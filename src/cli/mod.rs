@@ -4,6 +4,7 @@ mod conditions;
 mod fit;
 pub mod options;
 pub mod profile;
+pub mod proof;
 pub mod recipe;
 pub mod separate;
 
@@ -35,6 +36,8 @@ pub enum Command {
     Fit(fit::FitArgs),
     /// Write the separation as an ICC output profile (CMYK, CIELAB PCS, all intents).
     Profile(profile::ProfileArgs),
+    /// Simulate the print on screen: a PNG of how the separation prints on the condition.
+    Proof(proof::ProofArgs),
 }
 
 /// Runs a parsed command line; the returned code is the process exit code.
@@ -45,6 +48,7 @@ pub fn run(cli: Cli) -> Result<i32> {
         Command::Conditions(args) => conditions::run(args),
         Command::Fit(args) => fit::run(args),
         Command::Profile(args) => profile::run(args),
+        Command::Proof(args) => proof::run(args),
     }
 }
 
