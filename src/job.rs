@@ -231,6 +231,8 @@ pub struct Workshop {
     pub options: JobOptions,
     tables: Mutex<HashMap<Vec<u8>, Arc<SeparationTable>>>,
     cmyk_table: std::sync::OnceLock<Result<Arc<crate::separation::ReseparationTable>>>,
+    /// The output ICC profile embedded in the composites, built once per run.
+    profile: std::sync::OnceLock<std::result::Result<Vec<u8>, String>>,
 }
 
 fn ms(t: Instant) -> f64 {
@@ -239,7 +241,16 @@ fn ms(t: Instant) -> f64 {
 
 impl Workshop {
     pub fn new(separator: Separator, settings_report: SettingsReport, options: JobOptions) -> Workshop {
-        Workshop { separator, settings_report, options, tables: Mutex::new(HashMap::new()), cmyk_table: std::sync::OnceLock::new() }
+        Workshop { separator, settings_report, options, tables: Mutex::new(HashMap::new()), cmyk_table: std::sync::OnceLock::new(), profile: std::sync::OnceLock::new() }
+    }
+
+    /// The ICC output profile of this run's condition and settings (v4, default
+    /// tables), built on first use and embedded in every composite.
+    pub fn output_profile(&self) -> Result<&[u8]> {
+        self.profile
+            .get_or_init(|| crate::icc::profile_for_separator(&self.separator, &crate::icc::ProfileOptions::default()).map_err(|e| e.to_string()))
+            .as_deref()
+            .map_err(|e| Error::Internal(format!("the output profile could not be built: {e}")))
     }
 
     /// The table for a source, built once per run.
@@ -393,7 +404,8 @@ impl Workshop {
         let stem = path.file_stem().and_then(|s| s.to_str()).unwrap_or("image").to_string();
         let mut out = OutputSet::new(place.dir, self.options.overwrite)?;
         out.protect([path]);
-        let tiff = TiffOptions { compression: self.options.compression, resolution: raster.resolution, icc_profile: None };
+        let icc = self.output_profile()?;
+        let tiff = TiffOptions { compression: self.options.compression, resolution: raster.resolution, icc_profile: Some(icc) };
         out.stage(&format!("{stem}.cmyk.tif"), |w| crate::raster::write_cmyk_tiff(w, image, &tiff))?;
         for ink in Ink::ALL {
             match self.options.plates {

@@ -14,6 +14,7 @@ pub mod icc;
 pub mod ink;
 pub mod job;
 pub mod press;
+pub mod proof;
 pub mod report;
 pub mod raster;
 pub mod separation;

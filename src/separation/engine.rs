@@ -697,4 +697,15 @@ impl Separator {
         }
         GamutBoundary::from_samples(samples, self.black_point.l, 100.0)
     }
+
+    /// The same separator for another rendering intent (and black point
+    /// compensation setting). The printing condition, limits, black point and
+    /// gamut boundary do not depend on the intent and are shared, so this is
+    /// cheap (an ICC profile needs all intents from one set of settings).
+    pub fn with_intent(&self, intent: Intent, bpc: bool) -> Separator {
+        let mut sep = self.clone();
+        sep.settings.intent = intent;
+        sep.settings.bpc = bpc;
+        sep
+    }
 }
