@@ -99,6 +99,11 @@ pub struct Solution {
 
 const MAX_ITERATIONS: usize = 60;
 
+/// Colour error (CIELAB units) within which a point counts as on the curve of
+/// exact solutions: black moves only from such points (predictor), and the
+/// Newton steps in between bring the colour back (corrector).
+const ON_CURVE: f64 = 1e-3;
+
 /// How often one exact inversion may release a bound it had taken on.
 const MAX_RELEASES: usize = 8;
 
@@ -225,12 +230,12 @@ impl Problem<'_> {
             let (lab, jac) = (self.forward)(x);
             let r = [lab[0] - self.target[0], lab[1] - self.target[1], lab[2] - self.target[2]];
             let err = (r[0] * r[0] + r[1] * r[1] + r[2] * r[2]).sqrt();
-            if err < 1e-3 {
+            if err < ON_CURVE {
                 on_curve = Some((x, fixed, tac_active));
             }
             // Predictor–corrector: move along the curve of exact solutions only
             // from a point on it, and by at most `stride` at a time.
-            let black_move = if err > 0.5 || black_stuck { 0.0 } else { (self.k_aim - x[3]).clamp(-stride, stride) };
+            let black_move = if err > ON_CURVE || black_stuck { 0.0 } else { (self.k_aim - x[3]).clamp(-stride, stride) };
             let Some(step) = exact_step(&jac, r, &x, black_move, &fixed, tac_active, b) else {
                 let (px, pf, pt) = on_curve?;
                 (x, fixed, tac_active) = (px, pf, pt);
