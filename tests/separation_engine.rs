@@ -303,3 +303,30 @@ fn table_is_independent_of_thread_count() {
     };
     assert_eq!(build(1), build(2));
 }
+
+/// The other built-in conditions hold the same table accuracy (perceptual,
+/// the default intent). Newsprint's yellowish paper leaves near-whites such
+/// as sRGB (255, 255, 240) outside the gamut next to saturated yellows on the
+/// same table line: a warm start from the yellow once clipped them to a
+/// heavy olive build.
+#[test]
+fn table_agrees_with_direct_separation_on_every_builtin_condition() {
+    for name in ["uncoated-offset", "newsprint"] {
+        let c = platesmith::press::builtin::by_name(name).unwrap();
+        let s = SeparationSettings::for_condition(&c);
+        let sep = Separator::new(c, s).unwrap();
+        let conv = RgbSpace::Srgb.converter();
+        let gamut = RgbGamut(conv);
+        let mapping = sep.source_mapping(&gamut);
+        let table = SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)));
+        let (mean, p99, max) = table_agrees(&sep, &table, name);
+        // Newsprint's 240 % limit leaves dark colours two far-apart builds
+        // (more cyan or more black) at nearly the same cost; where neighbouring
+        // nodes took the other one, interpolation lands up to 2.4 ΔE2000 off
+        // (measured). Held at that level so a regression fails.
+        let max_allowed = if name == "newsprint" { 2.5 } else { 2.0 };
+        assert!(mean <= 0.5 && p99 <= 1.5 && max <= max_allowed, "{name}: mean {mean} p99 {p99} max {max}");
+        let near_white = table.lookup([1.0, 1.0, 240.0 / 255.0]);
+        assert!(near_white.total() < 0.15, "{name}: sRGB (255, 255, 240) separates to {near_white:?}");
+    }
+}

@@ -369,11 +369,20 @@ impl Separator {
     }
 
     /// The nearest printable colour (hue-weighted), for targets outside the
-    /// gamut; several starts when there is no neighbour to start from.
+    /// gamut. A neighbour's solution (`start`) keeps neighbouring colours on
+    /// one branch, but a neighbour across a steep part of the table (say a
+    /// saturated yellow beside a near-white) can lead to a far local minimum,
+    /// so the neutral start of the target's lightness is always tried too;
+    /// with no neighbour, two more starts.
     fn clip(&self, target: Lab, start: Option<[f64; 4]>) -> Solution {
         let cold = Self::cold_start(target);
         let mut best = self.solve_with(target, 0.0, self.bounds, start.unwrap_or(cold));
-        if start.is_none() {
+        if start.is_some() {
+            let s = self.solve_with(target, 0.0, self.bounds, cold);
+            if s.colour_error + 1e-9 < best.colour_error {
+                best = s;
+            }
+        } else {
             for alt in [[0.0, 0.0, 0.0, 0.0], [0.9, 0.8, 0.8, self.bounds.k_max]] {
                 let s = self.solve_with(target, 0.0, self.bounds, alt);
                 if s.colour_error + 1e-9 < best.colour_error {

@@ -39,6 +39,27 @@ pub struct GamutBoundary {
     pub l_max: f64,
 }
 
+/// Segments a dip in hue may span and still count as a sampling gap.
+const DIP_RADIUS: usize = 2;
+
+/// Morphological closing (a running maximum, then a running minimum, over
+/// ±`DIP_RADIUS` segments, circular in hue). Near paper white and the black
+/// point the boundary samples are sparse in hue, and a segment hit only by a
+/// sample inside the surface reads far too little chroma: a hole a few
+/// degrees wide that would pull the chroma of colours of that hue down, and
+/// back up beside it. Closing fills dips narrower than the window and keeps
+/// peaks (the cusps of the primaries) and wide valleys as they are.
+fn close_narrow_dips(row: &mut [f64]) {
+    let n = row.len();
+    let window = |v: &[f64], i: usize, pick: fn(f64, f64) -> f64| {
+        (1..=DIP_RADIUS).fold(v[i], |acc, d| pick(pick(acc, v[(i + d) % n]), v[(i + n - d) % n]))
+    };
+    let dilated: Vec<f64> = (0..n).map(|i| window(row, i, f64::max)).collect();
+    for (i, c) in row.iter_mut().enumerate() {
+        *c = window(&dilated, i, f64::min).max(*c);
+    }
+}
+
 impl GamutBoundary {
     /// Builds the boundary from samples of the boundary surface.
     pub fn from_samples(samples: impl IntoIterator<Item = Lab>, l_min: f64, l_max: f64) -> GamutBoundary {
@@ -63,6 +84,7 @@ impl GamutBoundary {
                 continue;
             }
             fill_circular(row);
+            close_narrow_dips(row);
         }
         for hi in 0..H_STEPS {
             let mut column: Vec<f64> = (0..L_STEPS).map(|li| c_max[li * H_STEPS + hi]).collect();
