@@ -193,8 +193,22 @@ fn fixtures() -> Vec<Fixture> {
         f("short-row.txt", cgats("SAMPLE_ID CMYK_C CMYK_M CMYK_Y CMYK_K LAB_L LAB_A LAB_B", &["1 0 0 0 0 95 0 -2", "2 100 0 0 55 -37 -50"]).into_bytes()),
         f("no-end-data.txt", b"CGATS.17\nBEGIN_DATA_FORMAT\nSAMPLE_ID CMYK_C\nEND_DATA_FORMAT\nBEGIN_DATA\n1 0\n".to_vec()),
         f("binary.txt", (0..=255u8).cycle().take(600).collect()),
+        f("no-solids.txt", cgats("SAMPLE_ID CMYK_C CMYK_M CMYK_Y CMYK_K LAB_L LAB_A LAB_B", &NO_SOLIDS).into_bytes()),
     ]
 }
+
+/// Forty patches of paper and light tints: enough rows to fit, but no ink's solid.
+const NO_SOLIDS: [&str; 40] = {
+    const ROW: &str = "1 0 0 0 0 95 0 -2";
+    const TINT: &str = "2 20 20 20 20 70 0 -1";
+    let mut rows = [ROW; 40];
+    let mut i = 1;
+    while i < 40 {
+        rows[i] = TINT;
+        i += 2;
+    }
+    rows
+};
 
 /// The example condition file of testdata/press with one line replaced.
 fn condition_text(find: &str, replace: &str) -> String {
@@ -661,6 +675,7 @@ fn bad_measurement_files_name_file_line_and_problem() {
         ("short-row.txt", &["7 values", "8 fields"], Some("2 100 0 0 55")),
         ("no-end-data.txt", &["END_DATA"], Some("BEGIN_DATA\n")),
         ("binary.txt", &[], None),
+        ("no-solids.txt", &["no patch with cyan", "solid"], None),
         ("absent.txt", &["cannot read"], None),
     ];
     for (name, fragments, line_of) in cases {
@@ -691,4 +706,22 @@ fn the_readme_describes_every_fixture() {
     }
     // Fixtures stay tiny: they are remade by this file on every run, never committed.
     assert!(fixtures().iter().all(|f| f.bytes.len() < 4096));
+}
+
+// ---------------------------------------------------------------- a bug
+
+#[test]
+fn a_panic_is_one_line_asking_for_the_input_and_exit_3() {
+    // The hook that forces a panic is read by builds with debug assertions only (the test profile).
+    if !cfg!(debug_assertions) {
+        eprintln!("skipped: release build, the forced-panic hook is off");
+        return;
+    }
+    let o = platesmith().env("PLATESMITH_FORCE_PANIC", "1").args(["recipe", "#336699"]).output().unwrap();
+    let stderr = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(3), "{stderr}");
+    let lines: Vec<&str> = stderr.lines().collect();
+    assert_eq!(lines.len(), 1, "{stderr}");
+    assert!(lines[0].starts_with("platesmith: internal error") && lines[0].contains("please report this with the input"), "{stderr}");
+    assert!(!stderr.contains("panicked") && !stderr.contains("backtrace"), "{stderr}");
 }

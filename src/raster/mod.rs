@@ -23,7 +23,7 @@ mod sniff;
 mod write;
 
 pub use output::{OutputSet, StagedWriter};
-pub use read::{read_raster, read_raster_bytes};
+pub use read::{decoder_panic_is_caught, read_raster, read_raster_bytes};
 pub use write::{Compression, TiffOptions, write_cmyk_tiff, write_plate_png, write_plate_tiff};
 
 #[doc(hidden)]

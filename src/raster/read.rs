@@ -65,11 +65,13 @@ fn read_from<R: BufRead + Seek>(path: &Path, mut reader: R, len: u64, limits: &L
         _ => String::new(),
     };
     // A decoder that panics on a hostile file is a bug to report, not a crash.
+    DECODING.with(|d| d.set(true));
     let decoded = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| match format {
         Format::Png => read_png(path, reader, limits),
         Format::Tiff => read_tiff(path, reader, limits),
         Format::Jpeg => read_jpeg(path, reader, len, limits),
     }));
+    DECODING.with(|d| d.set(false));
     let result = decoded.unwrap_or_else(|_| {
         Err(Error::Internal(format!(
             "the {} decoder failed on {}",
@@ -84,6 +86,16 @@ fn read_from<R: BufRead + Seek>(path: &Path, mut reader: R, len: u64, limits: &L
         },
         other => other,
     })
+}
+
+thread_local! {
+    static DECODING: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
+}
+
+/// Whether this thread is inside a decoder, whose panic [`read_raster`] catches and
+/// returns as [`Error::Internal`] naming the file (a panic hook can stay quiet then).
+pub fn decoder_panic_is_caught() -> bool {
+    DECODING.with(|d| d.get())
 }
 
 fn read_up_to(r: &mut impl Read, buf: &mut [u8]) -> std::io::Result<usize> {
