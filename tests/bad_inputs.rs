@@ -345,6 +345,14 @@ fn missing_folder_and_unreadable_inputs_are_refused() {
     let folder = m.path("art.png");
     std::fs::create_dir(&folder).unwrap();
     refused(&mut separate(&folder, &out), "art.png", &["is a folder"], &[], Some(&out));
+    // Unreadable whoever runs the test: a symbolic link that points at itself, and one
+    // whose target is gone.
+    let looped = m.path("loop.png");
+    std::os::unix::fs::symlink(&looped, &looped).unwrap();
+    refused(&mut separate(&looped, &out), "loop.png", &["cannot open"], &[], Some(&out));
+    let dangling = m.path("dangling.png");
+    std::os::unix::fs::symlink(m.path("gone.png"), &dangling).unwrap();
+    refused(&mut separate(&dangling, &out), "dangling.png", &["no such file"], &[], Some(&out));
     // Permission bits: the superuser reads through them, so the case only holds for other users.
     let locked = m.path("locked.png");
     std::fs::write(&locked, rgb_png(4, 4)).unwrap();
