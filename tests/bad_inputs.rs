@@ -733,3 +733,33 @@ fn a_panic_is_one_line_asking_for_the_input_and_exit_3() {
     assert!(lines[0].starts_with("platesmith: internal error") && lines[0].contains("please report this with the input"), "{stderr}");
     assert!(!stderr.contains("panicked") && !stderr.contains("backtrace"), "{stderr}");
 }
+
+// ---------------------------------------------------------------- decoding from memory
+
+#[test]
+fn decoding_from_memory_matches_reading_the_file() {
+    // read_raster_bytes (the fuzz target's entry) must take the same path as read_raster.
+    let m = Matrix::new();
+    let limits = Limits::default();
+    let valid = [
+        ("rgb.png", rgb_png(9, 7)),
+        ("rgb.tif", rgb_tiff(9, 7)),
+        ("cmyk.jpg", jpeg(16, 8, &blocks(16, 8, 4), jpeg_encoder::ColorType::Cmyk)),
+    ];
+    for (name, bytes) in valid {
+        let path = m.path(name);
+        std::fs::write(&path, &bytes).unwrap();
+        let from_file = read_raster(&path, &limits).unwrap();
+        let from_memory = platesmith::raster::read_raster_bytes(&bytes, Path::new(name), &limits).unwrap();
+        assert_eq!(from_file, from_memory, "{name}");
+    }
+    for f in fixtures().iter().filter(|f| f.name.ends_with(".png") || f.name.ends_with(".tif") || f.name.ends_with(".jpg")) {
+        let from_file = read_raster(&m.path(f.name), &limits).map(|_| ());
+        let from_memory = platesmith::raster::read_raster_bytes(&f.bytes, Path::new(f.name), &limits).map(|_| ());
+        match (from_file, from_memory) {
+            (Err(a), Err(b)) => assert_eq!(a.to_string().replace(&format!("{}/", m.dir.path().display()), ""), b.to_string(), "{}", f.name),
+            (Ok(()), Ok(())) => {}
+            (a, b) => panic!("{}: file {a:?}, memory {b:?}", f.name),
+        }
+    }
+}
