@@ -550,6 +550,15 @@ fn umount(dir: &Path) {
     let _ = std::process::Command::new("umount").arg(dir).status();
 }
 
+/// Unmounts when dropped, so a failed assertion does not leave a mount behind.
+struct Mounted<'a>(&'a Path);
+
+impl Drop for Mounted<'_> {
+    fn drop(&mut self) {
+        umount(self.0);
+    }
+}
+
 #[test]
 fn a_read_only_output_folder_is_refused() {
     let m = Matrix::new();
@@ -564,8 +573,9 @@ fn a_read_only_output_folder_is_refused() {
         eprintln!("skipped: cannot make a read-only bind mount here (needs root and mount)");
         return;
     }
+    let mounted = Mounted(&out);
     let line = refused(&mut separate(&input, &out), "ro", &["cannot write"], &[&input], Some(&out));
-    umount(&out);
+    drop(mounted);
     assert!(line.to_lowercase().contains("read-only"), "{line}");
 }
 
@@ -587,8 +597,9 @@ fn a_full_disk_leaves_no_partial_file() {
     let out = m.path("small-disk");
     std::fs::create_dir(&out).unwrap();
     if mount(&["-t", "tmpfs", "-o", "size=64k", "tmpfs", out.to_str().unwrap()]) {
+        let mounted = Mounted(&out);
         let line = refused(separate(&input, &out).args(["--compression", "none"]), "small-disk", &["cannot write"], &[&input], Some(&out));
-        umount(&out);
+        drop(mounted);
         assert!(line.contains("space") || line.contains("full"), "{line}");
     } else {
         eprintln!("skipped the tmpfs case: cannot mount a small tmpfs here; the injected write error below stands in");
