@@ -289,7 +289,7 @@ pub fn parse(text: &str, path: &Path) -> Result<CgatsFile> {
 
 /// Reads and parses a CGATS file.
 pub fn read(path: &Path) -> Result<CgatsFile> {
-    let bytes = std::fs::read(path).map_err(|e| Error::input(path, format!("cannot read: {e}")))?;
+    let bytes = std::fs::read(path).map_err(|e| Error::input(path, format!("cannot read: {}", crate::error::io_reason(&e))))?;
     let text = String::from_utf8_lossy(&bytes);
     parse(&text, path)
 }

@@ -5,11 +5,21 @@ fn main() -> ExitCode {
     // A panic is a bug: say so in one line and exit 3 (the default hook's
     // backtrace text is not for operators).
     std::panic::set_hook(Box::new(|info| {
+        // The image readers catch a decoder's panic and return it as an internal error naming the file.
+        if platesmith::raster::decoder_panic_is_caught() {
+            return;
+        }
         let place = info.location().map(|l| format!(" at {}:{}", l.file(), l.line())).unwrap_or_default();
         eprintln!("platesmith: internal error{place}: please report this with the input that caused it");
     }));
     let cli = platesmith::cli::Cli::parse();
-    let code = match std::panic::catch_unwind(|| platesmith::cli::run(cli)) {
+    let code = match std::panic::catch_unwind(|| {
+        // Test builds can force a panic to check this path (exit 3, one line).
+        if cfg!(debug_assertions) && std::env::var_os("PLATESMITH_FORCE_PANIC").is_some() {
+            panic!("forced by PLATESMITH_FORCE_PANIC");
+        }
+        platesmith::cli::run(cli)
+    }) {
         Ok(Ok(code)) => code,
         Ok(Err(platesmith::Error::BrokenPipe)) => 0,
         Ok(Err(err)) => {

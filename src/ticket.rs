@@ -131,13 +131,13 @@ pub fn line_of(text: &str, section: &str, key: &str) -> Option<usize> {
 impl Ticket {
     /// Reads and validates a ticket file.
     pub fn load(path: &Path) -> Result<Ticket> {
-        let text = std::fs::read_to_string(path).map_err(|e| Error::input(path, format!("cannot read the ticket: {e}")))?;
+        let text = std::fs::read_to_string(path).map_err(|e| Error::input(path, format!("cannot read the ticket: {}", crate::error::io_reason(&e))))?;
         Ticket::parse(&text, path)
     }
 
     pub fn parse(text: &str, path: &Path) -> Result<Ticket> {
         let mut ticket: Ticket = toml::from_str(text).map_err(|e| {
-            let line = e.span().map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1);
+            let line = e.span().map(|s| text.as_bytes()[..s.start.min(text.len())].iter().filter(|&&b| b == b'\n').count() + 1);
             let msg = e.message().trim().to_string();
             match line {
                 Some(l) => Error::input(path, format!("line {l}: {msg}")),

@@ -54,6 +54,7 @@ pub fn run(args: FitArgs) -> Result<i32> {
 
     let file = cgats::read(&args.measurements)?;
     let patches = patches_from_cgats(&file, &args.measurements)?;
+    check_solids(&patches, &args.measurements)?;
     let start = starting_point(&patches, &base_params);
     let fit = fit_model(&patches, &start, 200);
 
@@ -101,6 +102,22 @@ pub fn run(args: FitArgs) -> Result<i32> {
         crate::error::write_stdout(&text_report(&args, &fit))?;
     }
     Ok(0)
+}
+
+/// The solids of each ink fix the model's aims: a chart without them (a file
+/// of paper patches, a single-ink ramp) would "fit" by keeping the base
+/// condition's aims, so it is refused. Characterization charts carry every
+/// solid (ISO 12642-2 layouts do; common practice).
+fn check_solids(patches: &[crate::press::fit::Patch], path: &std::path::Path) -> Result<()> {
+    for (i, name) in ["cyan", "magenta", "yellow", "black"].iter().enumerate() {
+        if !patches.iter().any(|p| p.ink.to_array()[i] >= 0.95) {
+            return Err(Error::input(
+                path,
+                format!("no patch with {name} at 95 % or more: a chart must measure each ink's solid to fit the model"),
+            ));
+        }
+    }
+    Ok(())
 }
 
 fn text_report(args: &FitArgs, fit: &FitResult) -> String {

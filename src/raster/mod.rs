@@ -23,7 +23,7 @@ mod sniff;
 mod write;
 
 pub use output::{OutputSet, StagedWriter};
-pub use read::read_raster;
+pub use read::{decoder_panic_is_caught, read_raster, read_raster_bytes};
 pub use write::{Compression, TiffOptions, write_cmyk_tiff, write_plate_png, write_plate_tiff};
 
 #[doc(hidden)]
@@ -98,8 +98,12 @@ fn human_bytes(bytes: u64) -> String {
     let b = bytes as f64;
     if b >= GIB {
         format!("{:.1} GiB", b / GIB)
-    } else {
+    } else if b >= MIB {
         format!("{:.1} MiB", b / MIB)
+    } else if bytes >= 1024 {
+        format!("{:.1} KiB", b / 1024.0)
+    } else {
+        format!("{bytes} bytes")
     }
 }
 
@@ -298,5 +302,18 @@ impl CmykImage {
     /// Samples in one row.
     pub fn row_len(&self) -> usize {
         self.width as usize * 4
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn sizes_in_messages_keep_their_magnitude() {
+        assert_eq!(human_bytes(48), "48 bytes");
+        assert_eq!(human_bytes(3 << 10), "3.0 KiB");
+        assert_eq!(human_bytes(5 << 20), "5.0 MiB");
+        assert_eq!(human_bytes(30_000_000_000), "27.9 GiB");
     }
 }

@@ -2,11 +2,12 @@
 //! The format is told by the file's signature; the extension only improves messages.
 
 use std::fs::File;
-use std::io::{BufReader, Read, Seek, SeekFrom};
+use std::io::{BufRead, BufReader, Cursor, Read, Seek, SeekFrom};
 use std::path::Path;
 
 use super::sniff::{self, JpegHeader};
 use super::{Format, Layout, Limits, Raster, Resolution, Samples};
+use crate::error::io_reason;
 use crate::{Error, Result};
 
 /// Reads an image, refusing from its header anything over `limits`.
@@ -26,10 +27,19 @@ pub fn read_raster(path: &Path, limits: &Limits) -> Result<Raster> {
     if meta.is_dir() {
         return Err(Error::input(path, "is a folder, not an image file"));
     }
-    if meta.len() == 0 {
+    read_from(path, BufReader::with_capacity(1 << 16, file), meta.len(), limits)
+}
+
+/// Decodes an image held in memory through the same path as [`read_raster`]; `name`
+/// stands for the file in messages (and its extension only improves them).
+pub fn read_raster_bytes(bytes: &[u8], name: &Path, limits: &Limits) -> Result<Raster> {
+    read_from(name, Cursor::new(bytes), bytes.len() as u64, limits)
+}
+
+fn read_from<R: BufRead + Seek>(path: &Path, mut reader: R, len: u64, limits: &Limits) -> Result<Raster> {
+    if len == 0 {
         return Err(Error::input(path, "empty file (0 bytes), not an image"));
     }
-    let mut reader = BufReader::with_capacity(1 << 16, file);
     let mut head = [0u8; 8];
     let n = read_up_to(&mut reader, &mut head)
         .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
@@ -55,11 +65,13 @@ pub fn read_raster(path: &Path, limits: &Limits) -> Result<Raster> {
         _ => String::new(),
     };
     // A decoder that panics on a hostile file is a bug to report, not a crash.
+    DECODING.with(|d| d.set(true));
     let decoded = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| match format {
         Format::Png => read_png(path, reader, limits),
         Format::Tiff => read_tiff(path, reader, limits),
-        Format::Jpeg => read_jpeg(path, reader, meta.len(), limits),
+        Format::Jpeg => read_jpeg(path, reader, len, limits),
     }));
+    DECODING.with(|d| d.set(false));
     let result = decoded.unwrap_or_else(|_| {
         Err(Error::Internal(format!(
             "the {} decoder failed on {}",
@@ -76,6 +88,16 @@ pub fn read_raster(path: &Path, limits: &Limits) -> Result<Raster> {
     })
 }
 
+thread_local! {
+    static DECODING: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
+}
+
+/// Whether this thread is inside a decoder, whose panic [`read_raster`] catches and
+/// returns as [`Error::Internal`] naming the file (a panic hook can stay quiet then).
+pub fn decoder_panic_is_caught() -> bool {
+    DECODING.with(|d| d.get())
+}
+
 fn read_up_to(r: &mut impl Read, buf: &mut [u8]) -> std::io::Result<usize> {
     let mut n = 0;
     while n < buf.len() {
@@ -89,17 +111,14 @@ fn read_up_to(r: &mut impl Read, buf: &mut [u8]) -> std::io::Result<usize> {
     Ok(n)
 }
 
-fn io_reason(e: &std::io::Error) -> String {
-    match e.kind() {
-        std::io::ErrorKind::NotFound => "no such file".into(),
-        std::io::ErrorKind::PermissionDenied => "permission denied".into(),
-        _ => e.to_string(),
-    }
-}
 
 fn is_truncation(message: &str) -> bool {
     let m = message.to_ascii_lowercase();
-    m.contains("eof") || m.contains("end of file") || m.contains("truncat") || m.contains("no more bytes")
+    m.contains("eof")
+        || m.contains("end of file")
+        || m.contains("truncat")
+        || m.contains("no more bytes")
+        || m.contains("failed to fill whole buffer")
 }
 
 fn decode_error(path: &Path, format: Format, message: String) -> Error {
@@ -119,7 +138,7 @@ fn decode_error(path: &Path, format: Format, message: String) -> Error {
 
 // ---------------------------------------------------------------- PNG
 
-fn read_png(path: &Path, mut reader: BufReader<File>, limits: &Limits) -> Result<Raster> {
+fn read_png<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> Result<Raster> {
     // The header's claim is checked before the decoder reads on (it would fail on a file
     // that is only a header, or go on to buffer chunks).
     let mut head = [0u8; 26];
@@ -206,7 +225,7 @@ fn try_alloc_u8(path: &Path, size: usize) -> Result<Vec<u8>> {
 
 // ---------------------------------------------------------------- TIFF
 
-fn read_tiff(path: &Path, mut reader: BufReader<File>, limits: &Limits) -> Result<Raster> {
+fn read_tiff<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> Result<Raster> {
     use tiff::ColorType as T;
     use tiff::tags::Tag;
     let err = |e: tiff::TiffError| decode_error(path, Format::Tiff, e.to_string());
@@ -250,7 +269,7 @@ fn read_tiff(path: &Path, mut reader: BufReader<File>, limits: &Limits) -> Resul
             format!("unsupported TIFF bit depth {bits}; use 8 or 16 bit"),
         ));
     }
-    let tag_u16 = |dec: &mut tiff::decoder::Decoder<BufReader<File>>, tag: Tag| -> Result<Option<u16>> {
+    let tag_u16 = |dec: &mut tiff::decoder::Decoder<R>, tag: Tag| -> Result<Option<u16>> {
         dec.find_tag_unsigned::<u16>(tag).map_err(err)
     };
     if tag_u16(&mut dec, Tag::PlanarConfiguration)? == Some(2) {
@@ -352,7 +371,7 @@ fn tiff_resolution<R: Read + Seek>(dec: &mut tiff::decoder::Decoder<R>) -> tiff:
 
 // ---------------------------------------------------------------- JPEG
 
-fn read_jpeg(path: &Path, mut reader: BufReader<File>, file_len: u64, limits: &Limits) -> Result<Raster> {
+fn read_jpeg<R: BufRead + Seek>(path: &Path, mut reader: R, file_len: u64, limits: &Limits) -> Result<Raster> {
     use zune_core::colorspace::ColorSpace as Z;
     // JPEG data is read whole: it is small next to the decoded image, and zune-jpeg decodes from memory.
     if file_len > limits.max_bytes {
@@ -361,7 +380,9 @@ fn read_jpeg(path: &Path, mut reader: BufReader<File>, file_len: u64, limits: &L
             "JPEG file is larger than the limits setting allows; raise the limits to read it",
         ));
     }
-    let mut data = Vec::with_capacity(file_len as usize);
+    let mut data = Vec::new();
+    data.try_reserve_exact(usize::try_from(file_len).unwrap_or(usize::MAX))
+        .map_err(|_| Error::input(path, format!("not enough memory to read the JPEG file ({file_len} bytes)")))?;
     reader
         .read_to_end(&mut data)
         .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;

@@ -203,7 +203,7 @@ pub(crate) fn tiff_header<R: std::io::Read + std::io::Seek>(r: &mut R) -> Option
             4 => 4,
             _ => continue,
         };
-        if n * width_of > inline_len {
+        if n.saturating_mul(width_of) > inline_len {
             // The values do not fit in the entry: it holds their offset. Only BitsPerSample
             // (one value per sample) is a list among the tags read here.
             if tag == 258 && ty == 3 {
