@@ -73,7 +73,7 @@ pub fn rfc3339(time: SystemTime) -> String {
 
 /// Proleptic Gregorian date of a day count since 1970-01-01, after H. Hinnant,
 /// "chrono-Compatible Low-Level Date Algorithms" (`civil_from_days`).
-fn civil_from_days(z: i64) -> (i64, u32, u32) {
+pub(crate) fn civil_from_days(z: i64) -> (i64, u32, u32) {
     let z = z + 719_468;
     let era = z.div_euclid(146_097);
     let doe = z.rem_euclid(146_097);

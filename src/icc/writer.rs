@@ -161,13 +161,42 @@ pub fn build_output_profile(spec: &OutputProfileSpec) -> Result<Vec<u8>> {
     let gamut = pipe(spec.b2a_grid, 3, 1, &gamut)?;
     write(&mut profile, TagSignature::GamutTag, Tag::Pipeline(&gamut))?;
 
+    let serialise = |p: &Profile| p.icc().map_err(|e| Error::Internal(format!("lcms2 could not serialise the profile: {e}")));
+    let mut bytes = serialise(&profile)?;
+    stamp_creation_date(&mut bytes, creation_epoch());
     if version == IccVersion::V4 {
-        // The profile ID (MD5 of the profile, ICC.1:2022 §7.2.18) exists only in v4.
-        profile.set_default_profile_id();
+        // The profile ID (MD5 of the profile, ICC.1:2022 §7.2.18) exists only
+        // in v4; it covers the date, so it is computed after the stamp.
+        let mut stamped = Profile::new_icc(&bytes).map_err(|e| Error::Internal(format!("lcms2 could not read back the profile: {e}")))?;
+        stamped.set_default_profile_id();
+        bytes = serialise(&stamped)?;
     }
-    profile
-        .icc()
-        .map_err(|e| Error::Internal(format!("lcms2 could not serialise the profile: {e}")))
+    Ok(bytes)
+}
+
+/// 2026-01-01T00:00:00Z, the creation date written when SOURCE_DATE_EPOCH is
+/// not set.
+const FIXED_CREATION_EPOCH: i64 = 1_767_225_600;
+
+/// The creation date of every profile: `SOURCE_DATE_EPOCH` (seconds since
+/// 1970, the reproducible-builds convention) when set, else a fixed date, so
+/// that the same settings give byte-identical profiles and composites.
+fn creation_epoch() -> i64 {
+    std::env::var("SOURCE_DATE_EPOCH").ok().and_then(|v| v.trim().parse::<i64>().ok()).filter(|&v| v >= 0).unwrap_or(FIXED_CREATION_EPOCH)
+}
+
+/// Writes the header's creation date (ICC.1:2022 §7.2.8, a dateTimeNumber at
+/// byte 24: year, month, day, hours, minutes, seconds as big-endian u16, UTC).
+fn stamp_creation_date(bytes: &mut [u8], epoch: i64) {
+    if bytes.len() < 36 {
+        return;
+    }
+    let (days, secs) = (epoch.div_euclid(86_400), epoch.rem_euclid(86_400));
+    let (year, month, day) = crate::hotfolder::log::civil_from_days(days);
+    let fields = [year as u16, month as u16, day as u16, (secs / 3600) as u16, (secs / 60 % 60) as u16, (secs % 60) as u16];
+    for (i, v) in fields.iter().enumerate() {
+        bytes[24 + 2 * i..26 + 2 * i].copy_from_slice(&v.to_be_bytes());
+    }
 }
 
 fn check_grid(what: &str, grid: u32, inputs: u32, outputs: usize) -> Result<()> {
@@ -250,4 +279,22 @@ fn sample_pcs(
         }
     })?;
     Ok(table)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn creation_date_is_written_as_icc_date_time_number() {
+        // 2026-01-01T00:00:00Z and the instant 1234567890 =
+        // 2009-02-13T23:31:30Z (from memory; the hot folder's log tests check
+        // the same conversion against the system date tool).
+        let mut header = vec![0u8; 128];
+        stamp_creation_date(&mut header, FIXED_CREATION_EPOCH);
+        assert_eq!(&header[24..36], &[0x07, 0xEA, 0, 1, 0, 1, 0, 0, 0, 0, 0, 0]);
+        stamp_creation_date(&mut header, 1_234_567_890);
+        let words: Vec<u16> = header[24..36].chunks(2).map(|c| u16::from_be_bytes([c[0], c[1]])).collect();
+        assert_eq!(words, [2009, 2, 13, 23, 31, 30]);
+    }
 }
