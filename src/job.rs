@@ -390,7 +390,12 @@ impl Workshop {
 
     /// Writes the composite, the plates and the summary of a separated file as
     /// one set; `started` is when the job began (for the total time).
+    ///
+    /// The output folder is made here, when there is something to write, so a
+    /// run whose inputs all fail leaves no empty folder behind.
     pub fn write_outputs(&self, path: &Path, separated: &SeparatedFile, started: Instant) -> Result<JobSummary> {
+        let dir = &self.options.out_dir;
+        std::fs::create_dir_all(dir).map_err(|e| Error::output(dir, format!("cannot create the output folder: {}", crate::error::io_reason(&e))))?;
         self.write_outputs_in(path, separated, started, &OutputPlace { dir: &self.options.out_dir, listed_dir: &self.options.out_dir, input_shown: path })
     }
 
@@ -547,9 +552,10 @@ fn strip_path(e: &Error, path: &Path) -> String {
 /// Interleaved RGB at the raster's depth: alpha flattened onto paper white
 /// (source white), gray expanded to neutral RGB. `None` for CMYK.
 fn to_rgb<'a>(raster: &'a Raster, notes: &mut Vec<String>) -> Option<Cow<'a, Samples>> {
-    fn convert<T: Copy + Into<u32> + TryFrom<u32> + Send + Sync>(v: &[T], layout: Layout, max: u32) -> Vec<T> {
+    fn convert<T: Copy + Into<u32> + TryFrom<u32> + Default + Send + Sync>(v: &[T], layout: Layout, max: u32) -> Vec<T> {
         let ch = layout.channels();
-        let cast = |x: u32| T::try_from(x.min(max)).ok().unwrap_or_else(|| unreachable_value());
+        // `max` is the type's own largest value, so the clamped sample always fits.
+        let cast = |x: u32| T::try_from(x.min(max)).ok().unwrap_or_default();
         v.par_chunks(ch)
             .flat_map_iter(|p| {
                 let get = |i: usize| p[i].into();
@@ -564,9 +570,6 @@ fn to_rgb<'a>(raster: &'a Raster, notes: &mut Vec<String>) -> Option<Cow<'a, Sam
                 [cast(flat(r)), cast(flat(g)), cast(flat(b))]
             })
             .collect()
-    }
-    fn unreachable_value<T>() -> T {
-        panic!("a clamped sample does not fit its own type")
     }
     if raster.layout == Layout::Cmyk {
         return None;

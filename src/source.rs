@@ -30,7 +30,8 @@ impl RgbSource {
         let bad = |what: &str| Error::input(file, format!("embedded ICC profile {what}"));
         let profile = Profile::new_icc(bytes).map_err(|e| bad(&format!("cannot be read ({e})")))?;
         if profile.color_space() != ColorSpaceSignature::RgbData {
-            return Err(bad(&format!("describes {:?} data, not RGB", profile.color_space())));
+            let space = format!("{:?}", profile.color_space());
+            return Err(bad(&format!("describes {} data, not RGB", space.trim_end_matches("Data"))));
         }
         let lab = Profile::new_lab4_context(GlobalContext::new(), CIExyY::d50()).map_err(|e| Error::Internal(e.to_string()))?;
         let intent = Intent::RelativeColorimetric;

@@ -534,7 +534,7 @@ fn an_output_folder_that_cannot_be_made_is_refused() {
     std::fs::write(&input, rgb_png(4, 4)).unwrap();
     std::fs::write(m.path("plain-file"), b"x").unwrap();
     let out = m.path("plain-file").join("out");
-    refused(&mut separate(&input, &out), "plain-file/out", &["cannot create the folder"], &[&input, &m.path("plain-file")], None);
+    refused(&mut separate(&input, &out), "plain-file/out", &["cannot create the output folder"], &[&input, &m.path("plain-file")], None);
     // A folder that does not exist yet is made, nested too.
     let nested = m.path("a").join("b").join("c");
     separate(&input, &nested).assert().success();
@@ -773,4 +773,29 @@ fn decoding_from_memory_matches_reading_the_file() {
             (a, b) => panic!("{}: file {a:?}, memory {b:?}", f.name),
         }
     }
+}
+
+/// Limits that cannot mean anything are refused before any work: a zero
+/// side, a zero memory budget, a budget whose bytes overflow.
+#[test]
+fn meaningless_limits_are_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    for (flag, value, fragment) in [("--max-side", "0", "--max-side is 0"), ("--max-memory", "0", "--max-memory is 0"), ("--max-memory", "18446744073709551615", "--max-memory is 18446744073709551615")] {
+        let o = Command::cargo_bin("platesmith").unwrap().args(["separate", "missing.png", flag, value, "--out-dir"]).arg(&out).output().unwrap();
+        let stderr = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{flag} {value}: {stderr}");
+        assert!(stderr.contains(fragment), "{flag} {value}: {stderr}");
+        assert!(!out.exists(), "{flag} {value}: the output folder was made");
+    }
+}
+
+/// A run whose every input fails leaves no empty output folder behind.
+#[test]
+fn a_run_that_writes_nothing_makes_no_folder() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    let o = Command::cargo_bin("platesmith").unwrap().args(["separate", "missing.png", "--out-dir"]).arg(&out).output().unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    assert!(!out.exists(), "the output folder was made");
 }

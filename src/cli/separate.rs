@@ -113,11 +113,17 @@ fn resolve(args: &SeparateArgs) -> Result<Resolved> {
     });
     let mut limits = Limits::default();
     if let Some(side) = args.max_side.or(t.limits.max_side) {
+        if side == 0 {
+            return Err(Error::usage("--max-side is 0; give the largest image side to accept, in pixels (at least 1)"));
+        }
         limits.max_width = side;
         limits.max_height = side;
     }
     if let Some(mib) = args.max_memory.or(t.limits.max_memory_mib) {
-        limits.max_bytes = mib << 20;
+        limits.max_bytes = match mib.checked_mul(1 << 20) {
+            Some(bytes) if mib > 0 => bytes,
+            _ => return Err(Error::usage(format!("--max-memory is {mib} MiB; give 1 to {} MiB", u64::MAX >> 20))),
+        };
     }
     Ok(Resolved { setup, out_dir, bits, plates, compression, gray, limits })
 }
@@ -200,7 +206,6 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
         crate::error::write_stdout(&ticket.to_toml()?)?;
         return Ok(0);
     }
-    std::fs::create_dir_all(out_dir).map_err(|e| Error::output(out_dir, format!("cannot create the folder: {e}")))?;
     let workshop = build_workshop(&args, r)?;
     let progress = progress_bar(args.inputs.len() as u64);
     let (mut done, mut failed) = (0usize, 0usize);
