@@ -10,6 +10,7 @@ pub mod cli;
 pub mod colour;
 pub mod error;
 pub mod icc;
+pub mod inspect;
 pub mod ink;
 pub mod job;
 pub mod press;

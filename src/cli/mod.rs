@@ -2,6 +2,7 @@
 
 mod conditions;
 mod fit;
+pub mod inspect;
 pub mod options;
 pub mod recipe;
 pub mod separate;
@@ -32,6 +33,8 @@ pub enum Command {
     Conditions(conditions::ConditionsArgs),
     /// Fit a press model to measured patches (CGATS text) and write it as a condition file.
     Fit(fit::FitArgs),
+    /// How an RGB file will print, or whether a CMYK file is safe to plate: ΔE, ink, regions, rules.
+    Inspect(inspect::InspectArgs),
 }
 
 /// Runs a parsed command line; the returned code is the process exit code.
@@ -41,6 +44,7 @@ pub fn run(cli: Cli) -> Result<i32> {
         Command::Separate(args) => separate::run(args),
         Command::Conditions(args) => conditions::run(args),
         Command::Fit(args) => fit::run(args),
+        Command::Inspect(args) => inspect::run(args),
     }
 }
 

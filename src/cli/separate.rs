@@ -72,6 +72,27 @@ fn compression_name(c: Compression) -> &'static str {
     }
 }
 
+/// The gray mode: the flag, else the ticket's, else neutral.
+pub(crate) fn gray_mode(flag: Option<GrayMode>, t: &Ticket) -> GrayMode {
+    flag.unwrap_or(match t.model.gray.as_deref() {
+        Some("black-only") => GrayMode::BlackOnly,
+        _ => GrayMode::Neutral,
+    })
+}
+
+/// Reading limits: the flags, else the ticket's, else the defaults.
+pub(crate) fn read_limits(max_side: Option<u32>, max_memory: Option<u64>, t: &Ticket) -> Limits {
+    let mut limits = Limits::default();
+    if let Some(side) = max_side.or(t.limits.max_side) {
+        limits.max_width = side;
+        limits.max_height = side;
+    }
+    if let Some(mib) = max_memory.or(t.limits.max_memory_mib) {
+        limits.max_bytes = mib << 20;
+    }
+    limits
+}
+
 pub fn run(args: SeparateArgs) -> Result<i32> {
     let setup = args.model.resolve()?;
     let t = &setup.ticket;
@@ -95,18 +116,8 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
             _ => Compression::Lzw,
         },
     };
-    let gray = args.gray.unwrap_or(match t.model.gray.as_deref() {
-        Some("black-only") => GrayMode::BlackOnly,
-        _ => GrayMode::Neutral,
-    });
-    let mut limits = Limits::default();
-    if let Some(side) = args.max_side.or(t.limits.max_side) {
-        limits.max_width = side;
-        limits.max_height = side;
-    }
-    if let Some(mib) = args.max_memory.or(t.limits.max_memory_mib) {
-        limits.max_bytes = mib << 20;
-    }
+    let gray = gray_mode(args.gray, t);
+    let limits = read_limits(args.max_side, args.max_memory, t);
     if args.print_ticket {
         let mut model = setup.model_section();
         if args.source_condition.is_some() {
