@@ -176,7 +176,7 @@ pub fn text_summary(r: &InspectReport) -> String {
         let _ = writeln!(o, "  ΔE2000      mean {:.2}  p95 {:.2}  max {:.2}  ({})", g.mean_de, g.p95_de, g.max_de, shares.join(", "));
     }
     let _ = writeln!(o, "  total ink   max {:.1} %  p99 {:.1} %  mean {:.1} %  (limit {:.0} %; {:.3} % of the image over)", r.tac.max, r.tac.p99, r.tac.mean, r.tac.limit, r.tac.over_fraction * 100.0);
-    let plates: Vec<String> = r.plates.iter().map(|p| format!("{} {:.1}", &p.ink[..1].to_uppercase(), p.mean_percent)).collect();
+    let plates: Vec<String> = r.plates.iter().zip(["C", "M", "Y", "K"]).map(|(p, letter)| format!("{letter} {:.1}", p.mean_percent)).collect();
     let dots = r.plates.iter().map(|p| p.below_min_dot_fraction).fold(0.0, f64::max);
     let _ = writeln!(o, "  plates      {} % mean; up to {:.2} % of the image with dots below {} %", plates.join("  "), dots * 100.0, r.settings.min_dot_percent);
     let _ = writeln!(o, "  ink         {:.2} kg for {} copies of a {} × {} mm sheet (estimate)", r.ink_use.run_total_kg, r.ink_use.copies, r.ink_use.sheet_mm[0], r.ink_use.sheet_mm[1]);

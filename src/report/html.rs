@@ -124,9 +124,10 @@ fn bar_chart(title: &str, bars: &[(u64, String)], x_label: &dyn Fn(usize) -> Str
 
 fn de_histogram(hist: &[u64], thresholds: &[f64], p95: f64) -> String {
     let hi = thresholds.last().copied().unwrap_or(5.0);
-    let range = (p95 * 1.5).max(hi * 2.0).clamp(4.0, 100.0).ceil();
+    let wanted = (p95 * 1.5).max(hi * 2.0);
+    let range = [5.0, 10.0, 20.0, 50.0, 100.0].into_iter().find(|&r| r >= wanted).unwrap_or(100.0);
     let bins = 50usize;
-    let step = ((range / DE_BIN) / bins as f64).ceil() as usize;
+    let step = ((range / DE_BIN) / bins as f64).round() as usize;
     let width = step as f64 * DE_BIN;
     let lo = thresholds.first().copied().unwrap_or(2.0);
     let bars: Vec<(u64, String)> = rebin(hist, step, bins)
@@ -138,7 +139,7 @@ fn de_histogram(hist: &[u64], thresholds: &[f64], p95: f64) -> String {
         })
         .collect();
     let marks: Vec<(f64, String)> = thresholds.iter().map(|&t| (t / width, format!("ΔE {t}"))).collect();
-    bar_chart("ΔE2000 per pixel (share of the image)", &bars, &|i| format!("{:.0}", i as f64 * width), 10, &marks)
+    bar_chart("ΔE2000 per pixel (share of the image)", &bars, &|i| format!("{}", crate::report::round_to(i as f64 * width, 2)), 10, &marks)
 }
 
 fn ink_histogram(hist: &[u64], limit: f64) -> String {
@@ -179,7 +180,7 @@ fn ab_chart(inspection: &Inspection, separator: &Separator) -> String {
     let scale = (size / 2.0 - 30.0) / r;
     let px = |a: f64, b: f64| (c0 + a * scale, c0 - b * scale);
     let mut s = String::new();
-    let _ = write!(s, "<svg xmlns='http://www.w3.org/2000/svg' width='{}' height='{size}' viewBox='0 0 {} {size}' role='img' aria-label='a*b* chart'>", size + 150.0, size + 150.0);
+    let _ = write!(s, "<svg xmlns='http://www.w3.org/2000/svg' width='{}' height='{size}' viewBox='0 0 {} {size}' role='img' aria-label='a*b* chart'>", size + 200.0, size + 200.0);
     let mut g = -r;
     while g <= r + 1e-9 {
         let (x, _) = px(g, 0.0);
@@ -288,9 +289,9 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
                 reg.bbox_mm.map(|v| format!("{v:.1}")).join(", "),
                 reg.pixels,
                 reg.area_mm2,
-                reg.max,
+                if reg.unit == "%" { format!("{:.1}", reg.max) } else { format!("{:.2}", reg.max) },
                 escape(reg.unit),
-                reg.mean,
+                if reg.unit == "%" { format!("{:.1}", reg.mean) } else { format!("{:.2}", reg.mean) },
                 chip(c.lab),
                 c.lab[0], c.lab[1], c.lab[2],
                 chip(c.printed_lab),
@@ -319,9 +320,14 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
     h.push_str("<h2>Settings</h2><table>");
     if let Ok(serde_json::Value::Object(map)) = serde_json::to_value(&r.settings) {
         for (k, v) in map {
-            let text = match v {
-                serde_json::Value::String(s) => s,
+            let plain = |v: &serde_json::Value| match v {
+                serde_json::Value::String(s) => s.clone(),
                 other => other.to_string(),
+            };
+            let text = match &v {
+                serde_json::Value::Array(items) => items.iter().map(plain).collect::<Vec<_>>().join(", "),
+                serde_json::Value::Object(fields) => fields.iter().map(|(k, v)| format!("{} {}", k.replace('_', " "), plain(v))).collect::<Vec<_>>().join(" · "),
+                other => plain(other),
             };
             let _ = write!(h, "<tr><th>{}</th><td>{}</td></tr>", escape(&k.replace('_', " ")), escape(&text));
         }

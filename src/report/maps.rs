@@ -35,6 +35,9 @@ fn glyph(c: char) -> [u8; 7] {
         '8' => [0x0E, 0x11, 0x11, 0x0E, 0x11, 0x11, 0x0E],
         '9' => [0x0E, 0x11, 0x11, 0x0F, 0x01, 0x02, 0x0C],
         '.' => [0, 0, 0, 0, 0, 0x0C, 0x0C],
+        ':' => [0, 0x0C, 0x0C, 0, 0x0C, 0x0C, 0],
+        '(' => [0x02, 0x04, 0x08, 0x08, 0x08, 0x04, 0x02],
+        ')' => [0x08, 0x04, 0x02, 0x02, 0x02, 0x04, 0x08],
         '%' => [0x18, 0x19, 0x02, 0x04, 0x08, 0x13, 0x03],
         '-' => [0, 0, 0, 0x1F, 0, 0, 0],
         '>' => [0x08, 0x04, 0x02, 0x01, 0x02, 0x04, 0x08],
@@ -189,16 +192,20 @@ fn label(v: f64) -> String {
     if (v - v.round()).abs() < 1e-9 { format!("{v:.0}") } else { format!("{v:.1}") }
 }
 
-/// The page around a map: the map at the top left, a legend strip below.
-fn frame(maps: &MapData, legend_h: usize) -> (Canvas, usize) {
+/// The page around a map: the map at the top left, a legend strip below
+/// (92 px tall at scale 1). Returns the canvas, the margin and the legend's
+/// scale, which grows with the map so the legend stays readable when the
+/// image is shown smaller.
+fn frame(maps: &MapData) -> (Canvas, usize, i64) {
     let pad = 12;
     let w = (maps.width as usize + 2 * pad).max(640);
-    let h = maps.height as usize + 2 * pad + legend_h;
-    (Canvas::new(w, h, PAPER), pad)
+    let s = (w / 600).max(1);
+    let h = maps.height as usize + 2 * pad + 92 * s;
+    (Canvas::new(w, h, PAPER), pad, s as i64)
 }
 
 /// Outlines and numbers regions given as (number, bbox in image pixels).
-fn draw_regions(c: &mut Canvas, maps: &MapData, pad: usize, regions: &[(usize, [u32; 4])]) {
+fn draw_regions(c: &mut Canvas, maps: &MapData, pad: usize, s: i64, regions: &[(usize, [u32; 4])]) {
     let f = maps.factor as f64;
     for &(n, [x, y, w, h]) in regions {
         let rx = pad as i64 + (x as f64 / f).floor() as i64;
@@ -209,17 +216,18 @@ fn draw_regions(c: &mut Canvas, maps: &MapData, pad: usize, regions: &[(usize, [
         c.outline(rx - 2, ry - 2, rw + 4, rh + 4, 1, OUTLINE);
         c.outline(rx, ry, rw, rh, 1, OUTLINE);
         let tag = format!("{n}");
-        let tw = text_width(&tag, 1) + 4;
-        let ty = if ry >= 14 { ry - 13 } else { ry + rh + 3 };
-        c.fill(rx - 2, ty, tw, 11, OUTLINE);
-        c.text(rx, ty + 2, 1, &tag, [255; 3]);
+        let tw = text_width(&tag, s) + 3 * s;
+        let th = 11 * s;
+        let ty = if ry >= th + 3 { ry - th - 2 } else { ry + rh + 3 };
+        c.fill(rx - 2, ty, tw, th, OUTLINE);
+        c.text(rx - 2 + 2 * s, ty + 2 * s, s, &tag, [255; 3]);
     }
 }
 
 /// The ΔE2000 map (RGB input), as PNG bytes.
 pub fn de_map_png(maps: &MapData, thresholds: &[f64], regions: &[(usize, [u32; 4])]) -> Result<Vec<u8>> {
     let de = maps.de.as_ref().ok_or_else(|| Error::Internal("ΔE map of a file without ΔE".into()))?;
-    let (mut c, pad) = frame(maps, 92);
+    let (mut c, pad, s) = frame(maps);
     let lo = thresholds.first().copied().unwrap_or(2.0);
     for y in 0..maps.height as usize {
         for x in 0..maps.width as usize {
@@ -229,31 +237,34 @@ pub fn de_map_png(maps: &MapData, thresholds: &[f64], regions: &[(usize, [u32; 4
             c.set((pad + x) as i64, (pad + y) as i64, colour);
         }
     }
-    draw_regions(&mut c, maps, pad, regions);
+    draw_regions(&mut c, maps, pad, s, regions);
     // Legend: the ramp from the lower threshold to four times the upper.
     let stops = de_stops(thresholds);
     let top = (maps.height as usize + 2 * pad) as i64;
     let x0 = pad as i64;
-    c.text(x0, top + 4, 2, "ΔE2000 PRINTED VS SOURCE", TEXT);
-    let bar_w = 420i64;
-    let bar_y = top + 26;
+    c.text(x0, top + 4 * s, 2 * s, "ΔE2000 PRINTED VS SOURCE", TEXT);
+    let (bar_x, bar_y, bar_w, bar_h) = (x0 + 110 * s, top + 26 * s, 360 * s, 18 * s);
     let span = stops[3] * 1.1 - stops[0];
     for i in 0..bar_w {
         let v = stops[0] + span * i as f64 / (bar_w - 1) as f64;
-        c.fill(x0 + 110 + i, bar_y, 1, 18, de_colour(thresholds, v));
+        c.fill(bar_x + i, bar_y, 1, bar_h, de_colour(thresholds, v));
     }
-    c.fill(x0, bar_y, 90, 18, muted([150, 150, 150]));
-    c.outline(x0, bar_y, 90, 18, 1, TEXT);
-    c.outline(x0 + 110, bar_y, bar_w, 18, 1, TEXT);
-    c.text(x0, bar_y + 24, 1, &format!("<= {} MUTED", label(lo)), TEXT);
-    for s in stops {
-        let x = x0 + 110 + ((s - stops[0]) / span * (bar_w - 1) as f64).round() as i64;
-        c.fill(x, bar_y + 18, 1, 5, TEXT);
-        let t = label(s);
-        c.text(x - text_width(&t, 2) / 2, bar_y + 26, 2, &t, TEXT);
+    c.fill(x0, bar_y, 90 * s, bar_h, muted([150, 150, 150]));
+    c.outline(x0, bar_y, 90 * s, bar_h, 1, TEXT);
+    c.outline(bar_x, bar_y, bar_w, bar_h, 1, TEXT);
+    c.text(x0, bar_y + bar_h + 8 * s, s, &format!("UP TO {}:", label(lo)), TEXT);
+    c.text(x0, bar_y + bar_h + 18 * s, s, "IMAGE MUTED", TEXT);
+    for v in stops {
+        let x = bar_x + ((v - stops[0]) / span * (bar_w - 1) as f64).round() as i64;
+        c.fill(x, bar_y + bar_h, s, 5 * s, TEXT);
+        let t = label(v);
+        c.text(x - text_width(&t, 2 * s) / 2, bar_y + bar_h + 8 * s, 2 * s, &t, TEXT);
     }
-    c.text(x0 + 110 + bar_w + 12, bar_y + 4, 1, "NUMBERED BOXES = REGIONS", OUTLINE);
-    c.text(x0 + 110 + bar_w + 12, bar_y + 18, 1, &format!("1 MAP PIXEL = {} X {} PX", maps.factor, maps.factor), TEXT);
+    let note_x = bar_x + bar_w + 16 * s;
+    c.text(note_x, bar_y + 2 * s, s, "BOXES: REGIONS", OUTLINE);
+    c.text(note_x, bar_y + 14 * s, s, "(NUMBERS AS IN", OUTLINE);
+    c.text(note_x, bar_y + 26 * s, s, "THE TABLE)", OUTLINE);
+    c.text(note_x, bar_y + 42 * s, s, &format!("1 MAP PX = {} X {} PX", maps.factor, maps.factor), TEXT);
     c.png()
 }
 
@@ -263,7 +274,7 @@ fn hatch(x: i64, y: i64) -> Rgb {
 
 /// The total ink map, as PNG bytes.
 pub fn ink_map_png(maps: &MapData, limit: f64, regions: &[(usize, [u32; 4])]) -> Result<Vec<u8>> {
-    let (mut c, pad) = frame(maps, 92);
+    let (mut c, pad, s) = frame(maps);
     let stops = ink_stops(limit);
     for y in 0..maps.height as usize {
         for x in 0..maps.width as usize {
@@ -273,32 +284,34 @@ pub fn ink_map_png(maps: &MapData, limit: f64, regions: &[(usize, [u32; 4])]) ->
             c.set(px, py, colour);
         }
     }
-    draw_regions(&mut c, maps, pad, regions);
+    draw_regions(&mut c, maps, pad, s, regions);
     let top = (maps.height as usize + 2 * pad) as i64;
     let x0 = pad as i64;
-    c.text(x0, top + 4, 2, "TOTAL INK %", TEXT);
-    let bar_w = 420i64;
-    let bar_y = top + 26;
+    c.text(x0, top + 4 * s, 2 * s, "TOTAL INK %", TEXT);
+    let (bar_y, bar_w, bar_h) = (top + 26 * s, 360 * s, 18 * s);
     for i in 0..bar_w {
         let v = limit * i as f64 / (bar_w - 1) as f64;
-        c.fill(x0 + i, bar_y, 1, 18, ramp(&INK_COLOURS, stops, v));
+        c.fill(x0 + i, bar_y, 1, bar_h, ramp(&INK_COLOURS, stops, v));
     }
-    c.outline(x0, bar_y, bar_w, 18, 1, TEXT);
-    for s in stops {
-        let x = x0 + (s / limit * (bar_w - 1) as f64).round() as i64;
-        c.fill(x, bar_y + 18, 1, 5, TEXT);
-        let t = label(s);
-        c.text((x - text_width(&t, 2) / 2).max(x0), bar_y + 26, 2, &t, TEXT);
+    c.outline(x0, bar_y, bar_w, bar_h, 1, TEXT);
+    for v in stops {
+        let x = x0 + (v / limit * (bar_w - 1) as f64).round() as i64;
+        c.fill(x, bar_y + bar_h, s, 5 * s, TEXT);
+        let t = label(v);
+        let tx = (x - text_width(&t, 2 * s) / 2).clamp(x0, x0 + bar_w - text_width(&t, 2 * s));
+        c.text(tx, bar_y + bar_h + 8 * s, 2 * s, &t, TEXT);
     }
-    let sx = x0 + bar_w + 20;
-    for yy in 0..18 {
-        for xx in 0..60 {
+    let sx = x0 + bar_w + 28 * s;
+    for yy in 0..bar_h {
+        for xx in 0..48 * s {
             c.set(sx + xx, bar_y + yy, hatch(sx + xx, bar_y + yy));
         }
     }
-    c.outline(sx, bar_y, 60, 18, 1, TEXT);
-    c.text(sx, bar_y + 26, 2, &format!("> {}", label(limit)), TEXT);
-    c.text(sx + 72, bar_y + 4, 1, "OVER THE LIMIT", TEXT);
+    c.outline(sx, bar_y, 48 * s, bar_h, 1, TEXT);
+    c.text(sx, bar_y + bar_h + 8 * s, 2 * s, &format!("> {}", label(limit)), TEXT);
+    c.text(sx + 56 * s, bar_y + 2 * s, s, "OVER THE", TEXT);
+    c.text(sx + 56 * s, bar_y + 12 * s, s, "INK LIMIT", TEXT);
+    c.text(x0 + 200 * s, top + 8 * s, s, "BOXES: REGIONS (NUMBERS AS IN THE TABLE)", OUTLINE);
     c.png()
 }
 
