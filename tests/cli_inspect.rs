@@ -178,6 +178,30 @@ fn out_of_gamut_patches_are_found_where_they_are_with_the_delta_e_of_a_direct_co
 }
 
 #[test]
+fn sixteen_bit_input_agrees_with_eight_bit() {
+    // The same scene at 16 bits (v × 257 is the same colour): the same regions
+    // and, within the 8-bit rounding of the CMYK, the same ΔE.
+    let d = Dir::new();
+    let (w, h) = SCENE;
+    let eight = d.path("scene8.png");
+    write_rgb_png(&eight, w, h, &scene());
+    let sixteen = d.path("scene16.png");
+    let file = std::fs::File::create(&sixteen).unwrap();
+    let mut enc = png::Encoder::new(std::io::BufWriter::new(file), w, h);
+    enc.set_color(png::ColorType::Rgb);
+    enc.set_depth(png::BitDepth::Sixteen);
+    let data: Vec<u8> = scene().iter().flat_map(|&v| (v as u16 * 257).to_be_bytes()).collect();
+    enc.write_header().unwrap().write_image_data(&data).unwrap();
+    let run = |p: &Path| json_of(&platesmith().arg("inspect").arg(p).args(MODEL).arg("--json").assert().get_output().stdout.clone());
+    let (a, b) = (run(&eight), run(&sixteen));
+    for key in ["mean_de", "max_de"] {
+        assert!((a["gamut"][key].as_f64().unwrap() - b["gamut"][key].as_f64().unwrap()).abs() < 0.5, "{key}: {} vs {}", a["gamut"], b["gamut"]);
+    }
+    let boxes = |r: &Value| r["regions"].as_array().unwrap().iter().map(bbox).collect::<Vec<_>>();
+    assert_eq!(boxes(&a), boxes(&b));
+}
+
+#[test]
 fn region_threshold_and_minimum_area_are_configurable() {
     let d = Dir::new();
     let input = d.path("scene.png");

@@ -318,6 +318,8 @@ struct Tally {
     de_over: Vec<u64>,
     region_over: u64,
     small_dots: [u64; 4],
+    /// CMYK input: the ink statistics (RGB input has them from the separation).
+    ink: InkStats,
     bands: Vec<Band>,
 }
 
@@ -342,16 +344,124 @@ impl Tally {
             self.small_dots[i] += o.small_dots[i];
         }
         self.bands.append(&mut o.bands);
+        self.ink += o.ink;
         self
     }
 }
 
-/// Ink of interleaved CMYK samples as fractions.
-#[inline]
-fn ink_at(samples: &Samples, i: usize) -> [f32; 4] {
-    match samples {
-        Samples::U8(v) => std::array::from_fn(|c| v[i * 4 + c] as f32 / 255.0),
-        Samples::U16(v) => std::array::from_fn(|c| v[i * 4 + c] as f32 / 65535.0),
+/// The settings of the per-pixel pass.
+struct Pass {
+    w: usize,
+    h: usize,
+    factor: usize,
+    map_w: usize,
+    keep_maps: bool,
+    thresholds: Vec<f32>,
+    region_de: f32,
+    sample_step: usize,
+    /// The code value of 100 % ink.
+    max: f64,
+    /// Total ink codes above this are over the limit (beyond 0.5 % rounding).
+    over_code: u32,
+    rich_k_code: u32,
+    rich_cmy_code: u32,
+    /// Dots of at least one code and below this are below the minimum dot.
+    min_dot_code: u32,
+    small_dot_regions: bool,
+    /// Gather [`InkStats`] (CMYK input).
+    ink_stats: bool,
+}
+
+impl Pass {
+    /// One band of `factor` rows (one row of map cells).
+    fn band<T: Copy + Into<u32>>(&self, cmyk: &[T], mut lookup: Option<&mut DeLookup>, band_index: usize, tally: &mut Tally) {
+        let (w, factor) = (self.w, self.factor);
+        if lookup.is_some() && tally.de_hist.is_empty() {
+            tally.de_hist = vec![0; DE_BINS];
+            tally.de_over = vec![0; self.thresholds.len()];
+        }
+        if self.ink_stats && tally.ink.tac_hist.is_empty() {
+            tally.ink.tac_hist = vec![0; 801];
+        }
+        let to_percent = 100.0 / self.max as f32;
+        let y0 = band_index * factor;
+        let y1 = (y0 + factor).min(self.h);
+        let mut band = Band { index: band_index, runs: Default::default(), cells: if self.keep_maps { vec![Cell::default(); self.map_w] } else { Vec::new() }, samples: Vec::new() };
+        let mut plate_sum = [0u64; 4];
+        for y in y0..y1 {
+            let mut rows: [RowRuns; 4] = Default::default();
+            let row = &cmyk[y * w * 4..(y + 1) * w * 4];
+            for (x, px) in row.chunks_exact(4).enumerate() {
+                let ink: [u32; 4] = [px[0].into(), px[1].into(), px[2].into(), px[3].into()];
+                let total = ink[0] + ink[1] + ink[2] + ink[3];
+                let mut de = 0.0f32;
+                if let Some(l) = lookup.as_mut() {
+                    let i = y * w + x;
+                    de = l.get(i);
+                    tally.de_hist[((de * (1.0 / DE_BIN as f32)).round() as usize).min(DE_BINS - 1)] += 1;
+                    tally.de_sum += de as f64;
+                    tally.de_max = tally.de_max.max(de);
+                    for (k, &th) in self.thresholds.iter().enumerate() {
+                        tally.de_over[k] += (de > th) as u64;
+                    }
+                    if de > self.region_de {
+                        tally.region_over += 1;
+                        rows[0].push(x as u32, de);
+                        if x % self.sample_step == 0 && y % self.sample_step == 0 {
+                            band.samples.push(i);
+                        }
+                    }
+                }
+                if total > self.over_code {
+                    rows[1].push(x as u32, total as f32 * to_percent);
+                }
+                if ink[3] >= self.rich_k_code && ink[0] + ink[1] + ink[2] >= self.rich_cmy_code {
+                    rows[2].push(x as u32, total as f32 * to_percent);
+                }
+                let mut smallest = u32::MAX;
+                for c in 0..4 {
+                    if ink[c] > 0 && ink[c] < self.min_dot_code {
+                        tally.small_dots[c] += 1;
+                        smallest = smallest.min(ink[c]);
+                    }
+                }
+                if self.small_dot_regions && smallest != u32::MAX {
+                    // Worst = smallest dot: stored negated so the maximum is the smallest.
+                    rows[3].push(x as u32, -(smallest as f32) * to_percent);
+                }
+                if self.ink_stats {
+                    let s = &mut tally.ink;
+                    let t = total as f64 / self.max;
+                    s.tac_hist[((t * 200.0).round() as usize).min(800)] += 1;
+                    s.tac_sum += t;
+                    s.tac_max = s.tac_max.max(t);
+                    s.over += (total > self.over_code) as u64;
+                    for c in 0..4 {
+                        plate_sum[c] += ink[c] as u64;
+                        s.plate_inked[c] += (ink[c] as f64 >= 0.01 * self.max) as u64;
+                    }
+                }
+                if self.keep_maps {
+                    let cell = &mut band.cells[x / factor];
+                    cell.de = cell.de.max(de);
+                    cell.tac = cell.tac.max(total as f32 * to_percent);
+                    for c in 0..4 {
+                        cell.ink[c] += ink[c] as f32 / self.max as f32;
+                    }
+                    cell.n += 1;
+                }
+            }
+            for (k, r) in rows.into_iter().enumerate() {
+                band.runs[k].push(r.finish());
+            }
+        }
+        if self.ink_stats {
+            tally.ink.pixels += ((y1 - y0) * w) as u64;
+            for c in 0..4 {
+                tally.ink.plate_sum[c] += plate_sum[c] as f64 / self.max;
+            }
+        }
+        tally.bands.push(band);
     }
 }
 
@@ -427,21 +537,30 @@ impl<'a> DeModel<'a> {
                 (i != u32::MAX).then_some((k as u32, i))
             })
             .collect();
-        // The forward model once per distinct CMYK.
-        let mut inks: Vec<u64> = distinct.par_iter().map(|&(_, i)| cmyk_key(cmyk, i as usize)).collect();
-        inks.par_sort_unstable();
-        inks.dedup();
-        let printed: Vec<Lab> = inks.par_iter().map(|&k| separator.printed_in_frame(cmyk_of_key(k))).collect();
-        distinct.par_chunks(4096).for_each(|chunk| {
-            let rgb: Vec<[f64; 3]> = chunk.iter().map(|&(_, i)| rgb_at(model.rgb, i as usize)).collect();
+        // Grouped by the CMYK they separate to: the forward model once per
+        // distinct CMYK, the source colour once per distinct RGB.
+        let mut items: Vec<(u64, u32)> = distinct.par_iter().map(|&(key, i)| (cmyk_key(cmyk, i as usize), key)).collect();
+        items.par_sort_unstable();
+        let mut starts: Vec<usize> = Vec::with_capacity(items.len() / 4096 + 2);
+        starts.push(0);
+        let mut last = 0;
+        for k in 1..items.len() {
+            if k - last >= 4096 && items[k].0 != items[k - 1].0 {
+                starts.push(k);
+                last = k;
+            }
+        }
+        starts.push(items.len());
+        starts.par_windows(2).for_each(|span| {
+            let group = &items[span[0]..span[1]];
+            let rgb: Vec<[f64; 3]> = group.iter().map(|&(_, key)| [(key >> 16) as f64 / 255.0, ((key >> 8) & 255) as f64 / 255.0, (key & 255) as f64 / 255.0]).collect();
             let labs = source.labs_of(&rgb);
-            for (&(key, i), lab) in chunk.iter().zip(labs) {
-                let ink = cmyk_key(cmyk, i as usize);
-                let p = match inks.binary_search(&ink) {
-                    Ok(j) => printed[j],
-                    Err(_) => separator.printed_in_frame(cmyk_of_key(ink)),
-                };
-                first[key as usize].store((ciede2000(lab, p) as f32).to_bits(), Ordering::Relaxed);
+            let mut printed = (u64::MAX, Lab::default());
+            for (&(ink, key), lab) in group.iter().zip(labs) {
+                if printed.0 != ink {
+                    printed = (ink, separator.printed_in_frame(cmyk_of_key(ink)));
+                }
+                first[key as usize].store((ciede2000(lab, printed.1) as f32).to_bits(), Ordering::Relaxed);
             }
         });
         model.distinct = distinct.len() as u64;
@@ -514,7 +633,8 @@ pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> 
     let rgb_cow;
     let (raster, cmyk, stats, rgb, source, notes, source_description, separate_ms) = if raster.layout == Layout::Cmyk {
         owned_raster = raster;
-        let stats = InkStats::of_samples(&owned_raster.samples, tac_limit);
+        // Ink statistics are gathered in the pass below.
+        let stats = None;
         let notes = vec![format!("the file's own CMYK is checked for {}, as it would be plated (not re-separated)", separator.condition().name)];
         (&owned_raster, &owned_raster.samples, stats, None, None, notes, "CMYK".to_string(), 0.0)
     } else {
@@ -526,7 +646,7 @@ pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> 
         if s.rgb_source.is_none() {
             notes.push(format!("ΔE measured against {} gray", workshop.options.source_space.name()));
         }
-        (&s.raster, &s.image.samples, s.stats.clone(), rgb_cow.as_deref(), Some(source), notes, s.source_description.clone(), s.table_ms + s.separate_ms)
+        (&s.raster, &s.image.samples, Some(s.stats.clone()), rgb_cow.as_deref(), Some(source), notes, s.source_description.clone(), s.table_ms + s.separate_ms)
     };
     let t = Instant::now();
     let (w, h) = (raster.width as usize, raster.height as usize);
@@ -534,94 +654,46 @@ pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> 
     let (mm_x, mm_y) = (25.4 / res.x_ppi, 25.4 / res.y_ppi);
     let px_mm2 = mm_x * mm_y;
     let min_pixels = ((opts.min_area_mm2 / px_mm2).ceil() as u64).max(1);
-    let min_dot = separator.condition().min_dot as f32;
-    let over_at = (tac_limit + 0.005) as f32;
-    let (rb_k, rb_cmy) = (opts.rich_black_k as f32 - 1e-4, opts.rich_black_cmy as f32 - 1e-4);
-
+    let min_dot = separator.condition().min_dot;
     let de_model = match (rgb, source) {
         (Some(rgb), Some(source)) => Some(DeModel::new(separator, source, rgb, cmyk)),
         _ => None,
     };
     let factor = (raster.width.max(raster.height)).div_ceil(MAP_SIDE).max(1) as usize;
     let (map_w, map_h) = (w.div_ceil(factor), h.div_ceil(factor));
-    let thresholds: Vec<f32> = opts.de_thresholds.iter().map(|&v| v as f32).collect();
-    let region_de = opts.region_de as f32;
-    // About 100 000 pixels on a regular grid feed the a*b* chart.
-    let sample_step = ((w * h) as f64 / 100_000.0).sqrt().ceil().max(1.0) as usize;
-    let keep_maps = opts.keep_maps;
-
+    let max = if cmyk.bits() == 8 { 255.0 } else { 65535.0 };
+    let ctx = Pass {
+        w,
+        h,
+        factor,
+        map_w,
+        keep_maps: opts.keep_maps,
+        thresholds: opts.de_thresholds.iter().map(|&v| v as f32).collect(),
+        region_de: opts.region_de as f32,
+        // About 100 000 pixels on a regular grid feed the a*b* chart.
+        sample_step: ((w * h) as f64 / 100_000.0).sqrt().ceil().max(1.0) as usize,
+        max,
+        // Integer thresholds on the code values, exact for the fractions they stand for.
+        over_code: ((tac_limit + 0.005) * max).floor() as u32,
+        rich_k_code: ((opts.rich_black_k - 1e-4) * max).ceil() as u32,
+        rich_cmy_code: ((opts.rich_black_cmy - 1e-4) * max).ceil() as u32,
+        min_dot_code: (min_dot * max).ceil() as u32,
+        small_dot_regions: opts.small_dot_regions,
+        ink_stats: stats.is_none(),
+    };
     let tally = (0..map_h)
         .into_par_iter()
         .fold(Tally::default, |mut tally, band_index| {
-            if de_model.is_some() && tally.de_hist.is_empty() {
-                tally.de_hist = vec![0; DE_BINS];
-                tally.de_over = vec![0; thresholds.len()];
-            }
             let mut lookup = de_model.as_ref().map(|m| DeLookup { model: m, memo: HashMap::new() });
-            let y0 = band_index * factor;
-            let y1 = (y0 + factor).min(h);
-            let mut band = Band { index: band_index, runs: Default::default(), cells: if keep_maps { vec![Cell::default(); map_w] } else { Vec::new() }, samples: Vec::new() };
-            for y in y0..y1 {
-                let mut rows: [RowRuns; 4] = Default::default();
-                for x in 0..w {
-                    let i = y * w + x;
-                    let ink = ink_at(cmyk, i);
-                    let total = ink[0] + ink[1] + ink[2] + ink[3];
-                    let mut de = 0.0f32;
-                    if let Some(l) = lookup.as_mut() {
-                        de = l.get(i);
-                        tally.de_hist[((de as f64 / DE_BIN).round() as usize).min(DE_BINS - 1)] += 1;
-                        tally.de_sum += de as f64;
-                        tally.de_max = tally.de_max.max(de);
-                        for (k, &th) in thresholds.iter().enumerate() {
-                            if de > th {
-                                tally.de_over[k] += 1;
-                            }
-                        }
-                        if de > region_de {
-                            tally.region_over += 1;
-                            rows[0].push(x as u32, de);
-                            if x % sample_step == 0 && y % sample_step == 0 {
-                                band.samples.push(i);
-                            }
-                        }
-                    }
-                    if total > over_at {
-                        rows[1].push(x as u32, total * 100.0);
-                    }
-                    if ink[3] >= rb_k && ink[0] + ink[1] + ink[2] >= rb_cmy {
-                        rows[2].push(x as u32, total * 100.0);
-                    }
-                    let mut smallest = f32::INFINITY;
-                    for c in 0..4 {
-                        if ink[c] > 0.0 && ink[c] < min_dot {
-                            tally.small_dots[c] += 1;
-                            smallest = smallest.min(ink[c]);
-                        }
-                    }
-                    if opts.small_dot_regions && smallest.is_finite() {
-                        // Worst = smallest dot: stored negated so the maximum is the smallest.
-                        rows[3].push(x as u32, -smallest * 100.0);
-                    }
-                    if keep_maps {
-                        let cell = &mut band.cells[x / factor];
-                        cell.de = cell.de.max(de);
-                        cell.tac = cell.tac.max(total * 100.0);
-                        for c in 0..4 {
-                            cell.ink[c] += ink[c];
-                        }
-                        cell.n += 1;
-                    }
-                }
-                for (k, r) in rows.into_iter().enumerate() {
-                    band.runs[k].push(r.finish());
-                }
+            match cmyk {
+                Samples::U8(v) => ctx.band(v, lookup.as_mut(), band_index, &mut tally),
+                Samples::U16(v) => ctx.band(v, lookup.as_mut(), band_index, &mut tally),
             }
-            tally.bands.push(band);
             tally
         })
         .reduce(Tally::default, Tally::merge);
     let mut tally = tally;
+    let stats = stats.unwrap_or_else(|| std::mem::take(&mut tally.ink));
     tally.bands.sort_by_key(|b| b.index);
 
     // Regions per kind.
@@ -730,7 +802,7 @@ pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> 
         let values: Vec<[f64; 3]> = picked.iter().step_by(stride).map(|&i| rgb_at(rgb, i)).collect();
         out_of_gamut_labs = src.labs_of(&values);
     }
-    let maps = keep_maps.then(|| {
+    let maps = opts.keep_maps.then(|| {
         let cells: Vec<Cell> = tally.bands.iter().flat_map(|b| b.cells.iter().copied()).collect();
         let srgb = RgbSpace::Srgb.converter();
         let base = cells
@@ -842,6 +914,38 @@ mod tests {
         h[7] = 10;
         assert_eq!(hist_quantile(&h, 0.9, 0.5), 0.5);
         assert_eq!(hist_quantile(&h, 0.95, 0.5), 3.5);
+    }
+
+    /// The memo per distinct value gives exactly what a direct computation
+    /// per pixel gives, for repeated and unrelated values alike.
+    #[test]
+    fn memoised_delta_e_is_the_direct_computation() {
+        let condition = crate::press::builtin::coated_offset();
+        let settings = crate::separation::SeparationSettings::for_condition(&condition);
+        let separator = Separator::new(condition, settings).unwrap();
+        let source = RgbSource::Named(RgbSpace::Srgb);
+        let mut state = 0x5EED_u64;
+        let mut next = || {
+            state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+            (state >> 56) as u8
+        };
+        let pixels = 3000;
+        // Few distinct RGB values (so most repeat), each with its own CMYK;
+        // some CMYK shared between RGB values.
+        let palette: Vec<([u8; 3], [u8; 4])> = (0..200).map(|k| ([next(), next(), next()], if k % 3 == 0 { [10, 20, 30, 40] } else { [next(), next(), next(), next()] })).collect();
+        let (mut rgb, mut cmyk) = (Vec::new(), Vec::new());
+        for _ in 0..pixels {
+            let (r, c) = palette[next() as usize % palette.len()];
+            rgb.extend(r);
+            cmyk.extend(c);
+        }
+        let (rgb, cmyk) = (Samples::U8(rgb), Samples::U8(cmyk));
+        let model = DeModel::new(&separator, &source, &rgb, &cmyk);
+        assert!(model.dense.is_some());
+        let mut lookup = DeLookup { model: &model, memo: HashMap::new() };
+        for i in 0..pixels {
+            assert_eq!(lookup.get(i).to_bits(), model.compute(i).to_bits(), "pixel {i}");
+        }
     }
 
     #[test]
