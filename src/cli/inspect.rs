@@ -143,7 +143,9 @@ pub fn write_report_dir(dir: &Path, overwrite: bool, input: &Path, inspection: &
     let maps = inspection.maps.as_ref().ok_or_else(|| Error::Internal("report folder without maps".into()))?;
     // Regions numbered as in the table; outlined on the map of their kind.
     let numbered: Vec<(usize, &crate::inspect::RegionReport)> = r.regions.iter().enumerate().map(|(i, g)| (i + 1, g)).collect();
-    let on = |kinds: &[&str]| numbered.iter().filter(|(_, g)| kinds.contains(&g.kind)).map(|(n, g)| (*n, g.bbox)).collect::<Vec<_>>();
+    // At most MAP_OUTLINES boxes per map (the largest of each kind first), so the map stays legible.
+    const MAP_OUTLINES: usize = 40;
+    let on = |kinds: &[&str]| numbered.iter().filter(|(_, g)| kinds.contains(&g.kind)).take(MAP_OUTLINES).map(|(n, g)| (*n, g.bbox)).collect::<Vec<_>>();
     let de_png = match maps.de {
         Some(_) => Some(crate::report::maps::de_map_png(maps, &r.settings.de_thresholds, &on(&[crate::inspect::KIND_OUT_OF_GAMUT]))?),
         None => None,
@@ -182,12 +184,20 @@ pub fn text_summary(r: &InspectReport) -> String {
     let _ = writeln!(o, "  ink         {:.2} kg for {} copies of a {} × {} mm sheet (estimate)", r.ink_use.run_total_kg, r.ink_use.copies, r.ink_use.sheet_mm[0], r.ink_use.sheet_mm[1]);
     let counts: Vec<String> = r.regions_by_kind.iter().filter(|(_, n)| **n > 0).map(|(k, n)| format!("{n} {k}")).collect();
     let _ = writeln!(o, "  regions     {}", if counts.is_empty() { "none".to_string() } else { counts.join(", ") });
-    for (i, g) in r.regions.iter().enumerate().take(8) {
+    // The three largest of each kind, numbered as in the report.
+    let mut shown = std::collections::BTreeMap::new();
+    for (i, g) in r.regions.iter().enumerate() {
+        let n = shown.entry(g.kind).or_insert(0usize);
+        *n += 1;
+        if *n > 3 {
+            continue;
+        }
         let limits = g.limited_by.as_ref().map(|l| if l.is_empty() { " (in gamut; moved by the intent)".to_string() } else { format!(" (limited by {})", l.join(", ")) }).unwrap_or_default();
         let _ = writeln!(o, "    #{} {} at {},{} {}×{} px, {:.2} mm², worst {} {}, mean {}{}", i + 1, g.kind, g.bbox[0], g.bbox[1], g.bbox[2], g.bbox[3], g.area_mm2, g.max, g.unit, g.mean, limits);
     }
-    if r.regions.len() > 8 {
-        let _ = writeln!(o, "    … {} more (see --json or --report)", r.regions_total - 8);
+    let listed: usize = shown.values().map(|&n| n.min(3)).sum();
+    if r.regions_total > listed {
+        let _ = writeln!(o, "    … {} more (see --json or --report)", r.regions_total - listed);
     }
     let verdict: Vec<String> = r.rules.iter().map(|o| format!("{} {}", o.rule, if o.failed { "FAILED" } else { "passed" })).collect();
     let _ = writeln!(o, "  result      {} ({})", if r.pass { "pass" } else { "fail" }, verdict.join("; "));

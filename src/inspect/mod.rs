@@ -92,7 +92,7 @@ pub struct InspectOptions {
     pub copies_given: bool,
     /// Ink film at 100 %, g/m² (C, M, Y, K); `None` = the condition's.
     pub ink_film: Option<[f64; 4]>,
-    /// Regions listed in the report (all are counted).
+    /// Regions listed in the report per kind, largest first (all are counted).
     pub max_regions: usize,
     /// The pass/fail rules (empty: [`rules::DEFAULT_RULE`]).
     pub rules: Vec<rules::Rule>,
@@ -115,7 +115,7 @@ impl Default for InspectOptions {
             copies: DEFAULT_COPIES,
             copies_given: false,
             ink_film: None,
-            max_regions: 500,
+            max_regions: 200,
             rules: Vec::new(),
             keep_maps: false,
         }
@@ -704,28 +704,26 @@ pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> 
         }
     }
     let side = ((opts.rich_black_detail_mm / mm_x.min(mm_y)).round() as u32).max(2);
-    let mut found: Vec<(usize, Region)> = Vec::new();
-    for (k, rows) in kind_rows.iter().enumerate() {
-        let regions = regions::label(rows, min_pixels);
-        let regions: Vec<Region> = if k == 2 { regions.into_par_iter().filter(|r| regions::is_fine_detail(r, side)).collect() } else { regions };
-        found.extend(regions.into_iter().map(|r| (k, r)));
-    }
-    drop(kind_rows);
     let mut regions_by_kind = BTreeMap::new();
     for kind in KINDS {
         regions_by_kind.insert(kind, 0usize);
     }
-    for (k, _) in &found {
-        *regions_by_kind.entry(KINDS[*k]).or_insert(0) += 1;
+    let mut regions_total = 0;
+    let mut found: Vec<(usize, Region)> = Vec::new();
+    for (k, rows) in kind_rows.iter().enumerate() {
+        let regions = regions::label(rows, min_pixels);
+        let regions: Vec<Region> = if k == 2 { regions.into_par_iter().filter(|r| regions::is_fine_detail(r, side)).collect() } else { regions };
+        *regions_by_kind.entry(KINDS[k]).or_insert(0) += regions.len();
+        regions_total += regions.len();
+        found.extend(regions.into_iter().take(opts.max_regions).map(|r| (k, r)));
     }
-    let regions_total = found.len();
+    drop(kind_rows);
     let working = |lab: Lab| match separator.settings().intent {
         Intent::Absolute => separator.media_white().relative_lab_from_absolute(lab),
         _ => lab,
     };
     let region_reports: Vec<RegionReport> = found
         .par_iter()
-        .take(opts.max_regions)
         .map(|(k, r)| {
             let (x, y) = r.max_at;
             let i = y as usize * w + x as usize;

@@ -48,6 +48,9 @@ fn hex(c: [u8; 3]) -> String {
     format!("#{:02x}{:02x}{:02x}", c[0], c[1], c[2])
 }
 
+/// Regions shown in the page's table (the CSV and JSON hold every listed one).
+const TABLE_ROWS: usize = 100;
+
 const STYLE: &str = "
 :root { --ink: #22262b; --soft: #5b6470; --line: #d8d2c4; --paper: #fbf8f1; --accent: #0e5e6f; }
 * { box-sizing: border-box; }
@@ -256,9 +259,9 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
 
     h.push_str("<h2>Maps</h2><div class='maps'>");
     if let Some(png) = de_png {
-        let _ = write!(h, "<figure><img alt='ΔE2000 map' src='data:image/png;base64,{}'><figcaption>ΔE2000 between the source colour and its printed colour, over a muted copy of the predicted print. Numbers are the regions of the table below.</figcaption></figure>", base64(png));
+        let _ = write!(h, "<figure><img alt='ΔE2000 map' src='data:image/png;base64,{}'><figcaption>ΔE2000 between the source colour and its printed colour, over a muted copy of the predicted print. Numbered boxes are the largest regions (up to 40 per map), numbered as in the table below.</figcaption></figure>", base64(png));
     }
-    let _ = write!(h, "<figure><img alt='total ink map' src='data:image/png;base64,{}'><figcaption>Total ink (largest in each map pixel); hatched where it is over the limit of {} %.</figcaption></figure>", base64(ink_png), r.tac.limit);
+    let _ = write!(h, "<figure><img alt='total ink map' src='data:image/png;base64,{}'><figcaption>Total ink (largest in each map pixel); hatched where it is over the limit of {} %. Boxes: over-ink and rich-black-detail regions.</figcaption></figure>", base64(ink_png), r.tac.limit);
     h.push_str("</div>");
 
     h.push_str("<h2>Distributions</h2><div class='charts'>");
@@ -273,11 +276,18 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
         h.push_str("</div>");
     }
 
-    let _ = write!(h, "<h2>Regions</h2><p class='sub'>{} found after dropping specks under {} mm²; {} listed.</p>", r.regions_total, r.settings.min_area_mm2, r.regions.len());
+    let _ = write!(
+        h,
+        "<h2>Regions</h2><p class='sub'>{} found after dropping specks under {} mm²; {} listed in the JSON and the CSV (the largest of each kind), the first {} here.</p>",
+        r.regions_total,
+        r.settings.min_area_mm2,
+        r.regions.len(),
+        r.regions.len().min(TABLE_ROWS)
+    );
     if !r.regions.is_empty() {
         h.push_str("<table><tr><th>#</th><th>kind</th><th>box, px (x, y, w, h)</th><th>box, mm</th><th>pixels</th><th>area, mm²</th><th>worst</th><th>mean</th><th>colour (worst pixel)</th><th>CMYK %</th><th>limited by</th></tr>");
         let srgb = RgbSpace::Srgb.converter();
-        for (n, reg) in r.regions.iter().enumerate() {
+        for (n, reg) in r.regions.iter().enumerate().take(TABLE_ROWS) {
             let c = &reg.colour;
             let chip = |lab: [f64; 3]| hex(srgb.from_lab(crate::colour::Lab::from_array(lab)).0.map(|v| (v.clamp(0.0, 1.0) * 255.0).round() as u8));
             let _ = write!(

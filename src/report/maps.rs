@@ -199,7 +199,8 @@ fn label(v: f64) -> String {
 fn frame(maps: &MapData) -> (Canvas, usize, i64) {
     let pad = 12;
     let w = (maps.width as usize + 2 * pad).max(640);
-    let s = (w / 600).max(1);
+    let s = ((w as f64 / 600.0).round() as usize).max(1);
+    let w = w.max(600 * s + 2 * pad);
     let h = maps.height as usize + 2 * pad + 92 * s;
     (Canvas::new(w, h, PAPER), pad, s as i64)
 }
