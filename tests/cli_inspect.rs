@@ -264,6 +264,9 @@ fn a_400_percent_block_is_one_over_ink_region_of_the_right_area() {
     assert_eq!(mm, vec![5.08, 6.35, 12.7, 7.62]);
     assert_eq!((g["max"].as_f64(), g["mean"].as_f64()), (Some(400.0), Some(400.0)));
     assert!((r["tac"]["over_fraction"].as_f64().unwrap() - 6000.0 / (240.0 * 160.0)).abs() < 1e-6);
+    // Mean total ink from the drawn areas: 400 %, 664/255 and 103/255 of 100 %.
+    let tac_mean = (6000.0 * 400.0 + 400.0 * 66400.0 / 255.0 + 32000.0 * 10300.0 / 255.0) / 38400.0;
+    assert!((r["tac"]["mean"].as_f64().unwrap() - tac_mean).abs() < 0.06, "{} vs {tac_mean}", r["tac"]);
     // The 2-pixel (0.25 mm) rich black line is fine detail; the block is not.
     let rich: Vec<&Value> = r["regions"].as_array().unwrap().iter().filter(|g| g["kind"] == "rich-black-detail").collect();
     assert_eq!(rich.len(), 1, "{rich:?}");
