@@ -87,9 +87,16 @@ fn metric_names() -> String {
 }
 
 impl Rule {
+    /// Parses a rule given on the command line (errors name `--fail-if`).
     pub fn parse(text: &str) -> Result<Rule> {
+        Rule::parse_plain(text).map_err(|why| Error::usage(format!("--fail-if '{text}': {why}")))
+    }
+
+    /// Parses a rule; the error says what is wrong with it, for any caller
+    /// to place (a flag, a ticket line).
+    pub fn parse_plain(text: &str) -> std::result::Result<Rule, String> {
         let t: String = text.chars().filter(|c| !c.is_whitespace()).collect();
-        let bad = |why: String| Error::usage(format!("--fail-if '{text}': {why}"));
+        let bad = |why: String| why;
         let at = t.find(['<', '>']).ok_or_else(|| bad("expected METRIC>VALUE, METRIC>=VALUE, METRIC<VALUE or METRIC<=VALUE".into()))?;
         let (name, rest) = t.split_at(at);
         let (op, number) = match rest {
