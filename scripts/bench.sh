@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Runs the criterion benches of the separation engine, times the release
+# Runs the criterion benches of the separation engine and of inspect, times the release
 # binary on one recipe, and writes the figures with a description of the
 # machine into docs/PERFORMANCE.md between the figures markers.
 #
@@ -22,8 +22,8 @@ load_before="$(cut -d' ' -f1-3 /proc/loadavg)"
 echo "load average before: $load_before"
 
 if [[ "${1:-}" != "--record" ]]; then
-    rm -rf "$crit/forward_model" "$crit/separator_new" "$crit/table_build" "$crit/invert" "$crit/table_apply"
-    cargo bench --bench separation --bench table_apply -- --noplot
+    rm -rf "$crit/forward_model" "$crit/separator_new" "$crit/table_build" "$crit/invert" "$crit/table_apply" "$crit/inspect"
+    cargo bench --bench separation --bench table_apply --bench inspect -- --noplot
 fi
 
 # Release binary: one recipe end to end (process start, separator build,
@@ -136,6 +136,10 @@ many = read("table_apply", "rgb8", f"{cores}_threads")
 if one and many:
     rows.append(f"| scaling, 8-bit, {cores} threads over 1 | {one[0] / many[0]:.2f} × | ≥ 1.8 × (issue 9) | "
                 f"{'met' if one[0] / many[0] >= 1.8 else '**missed**'} |")
+row(f"inspect, 50-megapixel 8-bit RGB file, {cores} threads (read, separate, ΔE, regions)",
+    read("inspect", "rgb_50mp"), "time", "≤ 4 s on 2 cores (issue 6)", lambda v: v <= 4e9)
+row(f"inspect, 50-megapixel 8-bit CMYK file, {cores} threads (read, ink, regions)",
+    read("inspect", "cmyk_50mp"), "time", "≤ 2 s on 2 cores (issue 6)", lambda v: v <= 2e9)
 if meta.get("recipe"):
     t, kb = meta["recipe"].split()
     rows.append(f"| release binary `recipe '#c81e3c' --json`, wall, best of 3 | {float(t):.2f} s, "

@@ -157,7 +157,7 @@ pub struct PlateSummary {
     pub inked_area_percent: f64,
 }
 
-#[derive(Debug, Serialize)]
+#[derive(Debug, Clone, Serialize)]
 pub struct TacSummary {
     pub limit: f64,
     pub max: f64,
@@ -311,6 +311,12 @@ impl Workshop {
         let t = Instant::now();
         let raster = crate::raster::read_raster(path, &self.options.limits)?;
         let read_ms = ms(t);
+        self.separate_raster(path, raster, read_ms)
+    }
+
+    /// Separates a raster already read from `path` (as [`Workshop::separate_file`]
+    /// does after reading); `read_ms` is the time the read took.
+    pub fn separate_raster(&self, path: &Path, raster: Raster, read_ms: f64) -> Result<SeparatedFile> {
         let mut notes = Vec::new();
         let t = Instant::now();
         let gray = matches!(raster.layout, Layout::Gray | Layout::GrayAlpha);
@@ -551,7 +557,7 @@ fn strip_path(e: &Error, path: &Path) -> String {
 
 /// Interleaved RGB at the raster's depth: alpha flattened onto paper white
 /// (source white), gray expanded to neutral RGB. `None` for CMYK.
-fn to_rgb<'a>(raster: &'a Raster, notes: &mut Vec<String>) -> Option<Cow<'a, Samples>> {
+pub fn to_rgb<'a>(raster: &'a Raster, notes: &mut Vec<String>) -> Option<Cow<'a, Samples>> {
     fn convert<T: Copy + Into<u32> + TryFrom<u32> + Default + Send + Sync>(v: &[T], layout: Layout, max: u32) -> Vec<T> {
         let ch = layout.channels();
         // `max` is the type's own largest value, so the clamped sample always fits.

@@ -11,6 +11,7 @@ pub mod colour;
 pub mod error;
 pub mod hotfolder;
 pub mod icc;
+pub mod inspect;
 pub mod ink;
 pub mod job;
 pub mod press;

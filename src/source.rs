@@ -72,6 +72,22 @@ impl RgbSource {
         }
     }
 
+    /// CIELAB D50 (PCS) of many encoded RGB values (0..1), in order: the same
+    /// conversion as [`RgbSource::node_labs`], for arbitrary values.
+    pub fn labs_of(&self, rgb: &[[f64; 3]]) -> Vec<Lab> {
+        match self {
+            RgbSource::Named(space) => {
+                let conv = space.converter();
+                rgb.iter().map(|&v| conv.to_lab(EncodedRgb(v))).collect()
+            }
+            RgbSource::Icc(p) => {
+                let mut out = vec![[0.0; 3]; rgb.len()];
+                p.to_lab.transform_pixels(rgb, &mut out);
+                out.into_iter().map(Lab::from_array).collect()
+            }
+        }
+    }
+
     /// The source gamut, for the perceptual intent.
     pub fn gamut(&self) -> Box<dyn SourceGamut + '_> {
         match self {

@@ -205,6 +205,11 @@ impl Ticket {
                 return Err(self.error_at("limits", "max_side", "= 0: must be at least 1"));
             }
         }
+        for rule in &self.checks.fail_if {
+            if let Err(why) = crate::inspect::rules::Rule::parse_plain(rule) {
+                return Err(self.error_at("checks", "fail_if", format!("rule \"{rule}\": {why}")));
+            }
+        }
         if let Some(s) = self.limits.max_memory_mib {
             if s == 0 {
                 return Err(self.error_at("limits", "max_memory_mib", "= 0: must be at least 1"));
@@ -241,6 +246,13 @@ mod tests {
     fn broken_toml_names_the_line() {
         let err = Ticket::parse("[model]\ntac = = 3\n", Path::new("job.toml")).unwrap_err().to_string();
         assert!(err.contains("line 2"), "{err}");
+    }
+
+    #[test]
+    fn a_bad_check_rule_names_the_line_and_the_problem() {
+        let err = Ticket::parse("[checks]\nfail_if = [\"tac>300\", \"ink>3\"]\n", Path::new("job.toml")).unwrap_err().to_string();
+        assert!(err.contains("line 2") && err.contains("checks.fail_if") && err.contains("unknown metric 'ink'"), "{err}");
+        assert!(Ticket::parse("[checks]\nfail_if = [\"tac>300\"]\n", Path::new("job.toml")).is_ok());
     }
 
     #[test]

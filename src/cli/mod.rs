@@ -3,6 +3,7 @@
 mod conditions;
 mod fit;
 pub mod hotfolder;
+pub mod inspect;
 pub mod options;
 pub mod profile;
 pub mod proof;
@@ -41,6 +42,8 @@ pub enum Command {
     Profile(profile::ProfileArgs),
     /// Simulate the print on screen: a PNG of how the separation prints on the condition.
     Proof(proof::ProofArgs),
+    /// How an RGB file will print, or whether a CMYK file is safe to plate: ΔE, ink, regions, rules.
+    Inspect(inspect::InspectArgs),
 }
 
 /// Runs a parsed command line; the returned code is the process exit code.
@@ -53,6 +56,7 @@ pub fn run(cli: Cli) -> Result<i32> {
         Command::Hotfolder(args) => hotfolder::run(args),
         Command::Profile(args) => profile::run(args),
         Command::Proof(args) => proof::run(args),
+        Command::Inspect(args) => inspect::run(args),
     }
 }
 

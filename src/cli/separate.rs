@@ -84,6 +84,34 @@ struct Resolved {
     limits: Limits,
 }
 
+/// The gray mode: the flag, else the ticket's, else neutral.
+pub(crate) fn gray_mode(flag: Option<GrayMode>, t: &Ticket) -> GrayMode {
+    flag.unwrap_or(match t.model.gray.as_deref() {
+        Some("black-only") => GrayMode::BlackOnly,
+        _ => GrayMode::Neutral,
+    })
+}
+
+/// Reading limits: the flags, else the ticket's, else the defaults. A zero
+/// side and a zero or overflowing memory budget are refused.
+pub(crate) fn read_limits(max_side: Option<u32>, max_memory: Option<u64>, t: &Ticket) -> Result<Limits> {
+    let mut limits = Limits::default();
+    if let Some(side) = max_side.or(t.limits.max_side) {
+        if side == 0 {
+            return Err(Error::usage("--max-side is 0; give the largest image side to accept, in pixels (at least 1)"));
+        }
+        limits.max_width = side;
+        limits.max_height = side;
+    }
+    if let Some(mib) = max_memory.or(t.limits.max_memory_mib) {
+        limits.max_bytes = match mib.checked_mul(1 << 20) {
+            Some(bytes) if mib > 0 => bytes,
+            _ => return Err(Error::usage(format!("--max-memory is {mib} MiB; give 1 to {} MiB", u64::MAX >> 20))),
+        };
+    }
+    Ok(limits)
+}
+
 fn resolve(args: &SeparateArgs) -> Result<Resolved> {
     let setup = args.model.resolve()?;
     let t = &setup.ticket;
@@ -107,24 +135,8 @@ fn resolve(args: &SeparateArgs) -> Result<Resolved> {
             _ => Compression::Lzw,
         },
     };
-    let gray = args.gray.unwrap_or(match t.model.gray.as_deref() {
-        Some("black-only") => GrayMode::BlackOnly,
-        _ => GrayMode::Neutral,
-    });
-    let mut limits = Limits::default();
-    if let Some(side) = args.max_side.or(t.limits.max_side) {
-        if side == 0 {
-            return Err(Error::usage("--max-side is 0; give the largest image side to accept, in pixels (at least 1)"));
-        }
-        limits.max_width = side;
-        limits.max_height = side;
-    }
-    if let Some(mib) = args.max_memory.or(t.limits.max_memory_mib) {
-        limits.max_bytes = match mib.checked_mul(1 << 20) {
-            Some(bytes) if mib > 0 => bytes,
-            _ => return Err(Error::usage(format!("--max-memory is {mib} MiB; give 1 to {} MiB", u64::MAX >> 20))),
-        };
-    }
+    let gray = gray_mode(args.gray, t);
+    let limits = read_limits(args.max_side, args.max_memory, t)?;
     Ok(Resolved { setup, out_dir, bits, plates, compression, gray, limits })
 }
 

@@ -1,5 +1,9 @@
 //! Reports for people and scripts.
 
+pub mod html;
+pub mod maps;
+pub mod region_table;
+
 use crate::colour::RgbSpace;
 use crate::press::PrintingCondition;
 use crate::separation::SeparationSettings;
