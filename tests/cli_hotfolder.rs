@@ -471,11 +471,11 @@ fn bad_settings_exit_2_naming_the_problem_and_create_nothing() {
     assert_eq!(status.code(), Some(2));
     assert!(stderr.contains("/nonexistent/job.toml"), "{stderr}");
 
-    // Pass/fail rules are not run without their checks.
-    fs::write(hot.path("ticket.toml"), "[model]\ntable_grid = 9\n[checks]\nfail_if = [\"tac_max > 300\"]\n").unwrap();
+    // A rule inspect cannot evaluate is named with the ticket's line.
+    fs::write(hot.path("ticket.toml"), "[model]\ntable_grid = 9\n[checks]\nfail_if = [\"shade > 3\"]\n").unwrap();
     let (status, stderr) = hot.once(&[]);
     assert_eq!(status.code(), Some(2));
-    assert!(stderr.contains("ticket.toml") && stderr.contains("fail_if"), "{stderr}");
+    assert!(stderr.contains("ticket.toml") && stderr.contains("shade"), "{stderr}");
 
     let (status, stderr) = hot.once(&["--jobs", "0"]);
     assert_eq!(status.code(), Some(2));
@@ -554,4 +554,40 @@ fn a_folder_of_a_live_instance_is_left_alone() {
     assert_eq!(status.code(), Some(0), "{stderr}");
     assert!(hot.visible("done").is_empty() && hot.visible("out").is_empty(), "the other instance's file was not taken");
     assert_eq!(hot.log_lines().iter().filter(|l| l[1] == "take" && l[2] == "tag.png").count(), 1);
+}
+
+/// Every job is inspected: the report sits beside the plates, and the
+/// ticket's `[checks] fail_if` rules decide between done/ and failed/ (the
+/// failed rule named in the error text), the outputs kept either way.
+#[test]
+fn the_tickets_rules_judge_each_file_and_the_inspection_report_is_kept() {
+    let hot = Hot::new();
+    // Random pixels always carry some ink: a total of more than 1 % fails.
+    fs::write(hot.path("ticket.toml"), "[model]\ntable_grid = 9\n[checks]\nfail_if = [\"tac>1\"]\n").unwrap();
+    hot.put("heavy.png", &png_bytes(16, 12, 7));
+    let (status, stderr) = hot.once(&[]);
+    assert_eq!(status.code(), Some(1), "a failed rule fails the run: {stderr}");
+    assert_eq!(hot.visible("failed"), ["heavy.png".to_string(), "heavy.png.error.txt".to_string()].into());
+    let why = fs::read_to_string(hot.path("failed/heavy.png.error.txt")).unwrap();
+    assert!(why.contains("tac>1"), "the error text names the rule: {why}");
+    let kept = hot.visible("out/heavy");
+    for f in ["heavy.cmyk.tif", "heavy.inspect.json", "heavy.inspect.html", "heavy.regions.csv", "heavy.ink-map.png", "heavy.de-map.png"] {
+        assert!(kept.contains(f), "out/heavy holds {kept:?}, not {f}");
+    }
+    let report: serde_json::Value = serde_json::from_str(&fs::read_to_string(hot.path("out/heavy/heavy.inspect.json")).unwrap()).unwrap();
+    assert_eq!(report["file"], "heavy.png");
+    assert_eq!(report["pass"], false);
+
+    // The same file under a rule it meets goes to done/, with its report.
+    fs::write(hot.path("ticket.toml"), "[model]\ntable_grid = 9\n[checks]\nfail_if = [\"tac>400\"]\n").unwrap();
+    hot.put("light.png", &png_bytes(16, 12, 7));
+    let (status, stderr) = hot.once(&[]);
+    assert_eq!(status.code(), Some(0), "{stderr}");
+    assert!(hot.visible("done").contains("light.png"));
+    let record = assert_complete_output(&hot, "light", "light.png", (16, 12));
+    assert_eq!(record["result"], "done");
+    let report: serde_json::Value = serde_json::from_str(&fs::read_to_string(hot.path("out/light/light.inspect.json")).unwrap()).unwrap();
+    assert_eq!(report["pass"], true);
+    assert_eq!(report["kind"], "rgb");
+    assert_clean(&hot);
 }

@@ -9,7 +9,11 @@
 //! the input goes to `failed/` with the reasons in its `.error.txt`.
 
 use crate::error::{Error, Result};
+use crate::cli::inspect::write_report_dir;
+use crate::inspect::rules::parse_all;
+use crate::inspect::{InspectOptions, inspect_file};
 use crate::job::{OutputPlace, SeparatedFile, Workshop};
+use crate::raster::Layout;
 use crate::ticket::Ticket;
 use std::path::Path;
 use std::sync::Arc;
@@ -72,22 +76,58 @@ pub fn pipeline(workshop: Arc<Workshop>, ticket: &Ticket) -> Result<Vec<Box<dyn 
     Ok(steps)
 }
 
-/// **Where the inspect step plugs in.** Returns the step that checks the
-/// separated file (`job.separated`, exactly the CMYK written) against the
-/// ticket's `[checks] fail_if` rules, writes its report into `job.staging`
-/// (through an [`crate::raster::OutputSet`] on that folder) and returns
-/// [`Verdict::Fail`] with one reason per failed rule, naming the rule, so the
-/// input goes to `failed/` and the rule appears in its `.error.txt`.
+/// Inspects what was separated and writes the inspection report (JSON, CSV
+/// of regions, maps, HTML page) beside the plates, through one
+/// [`crate::raster::OutputSet`] on the staging folder. The ticket's
+/// `[checks] fail_if` rules judge it (with none, the inspect default: no pixel
+/// over the ink limit); a failed rule gives [`Verdict::Fail`] naming it, so the
+/// input goes to `failed/` with the rule in its `.error.txt`.
 ///
-/// The inspect command is not part of this build: a ticket with `fail_if`
-/// rules is refused rather than run without its checks.
-pub fn inspect_step(_workshop: &Arc<Workshop>, ticket: &Ticket) -> Result<Option<Box<dyn Step>>> {
-    if ticket.checks.fail_if.is_empty() {
-        return Ok(None);
+/// RGB and gray input are inspected from the file (the same separation the
+/// separate step wrote, with the ΔE of every pixel); CMYK input is re-separated
+/// by the separate step, so the composite it wrote is what gets plated and is
+/// what is checked.
+pub struct InspectStep {
+    pub workshop: Arc<Workshop>,
+    pub options: InspectOptions,
+}
+
+impl Step for InspectStep {
+    fn name(&self) -> &'static str {
+        "inspect"
     }
-    let message = "sets [checks] fail_if rules, which this build of the hot folder cannot evaluate; remove them to separate without checks";
-    Err(match &ticket.source {
-        Some((path, _)) => Error::input(path, message),
-        None => Error::usage(format!("the ticket {message}")),
-    })
+
+    fn run(&self, job: &mut JobFile) -> Result<Verdict> {
+        let stem = job.input.file_stem().and_then(|s| s.to_str()).unwrap_or("image").to_string();
+        let cmyk_input = job.separated.as_ref().is_some_and(|s| s.raster.layout == Layout::Cmyk);
+        let checked = if cmyk_input { job.staging.join(format!("{stem}.cmyk.tif")) } else { job.input.to_path_buf() };
+        let mut inspection = inspect_file(&self.workshop, &checked, &self.options)?;
+        inspection.report.file = job.name.to_string();
+        if cmyk_input {
+            inspection.report.notes.push(format!("checked: the re-separated composite {stem}.cmyk.tif"));
+        }
+        write_report_dir(job.staging, false, job.input, &inspection, &self.workshop.separator)?;
+        let failed: Vec<String> = inspection
+            .report
+            .rules
+            .iter()
+            .filter(|o| o.failed)
+            .map(|o| match o.value {
+                Some(v) => format!("rule '{}' failed (measured {})", o.rule, crate::report::round_to(v, 3)),
+                None => format!("rule '{}' failed", o.rule),
+            })
+            .collect();
+        Ok(if failed.is_empty() { Verdict::Pass } else { Verdict::Fail(failed) })
+    }
+}
+
+/// The inspect step for a ticket: its `[checks] fail_if` rules (checked when
+/// the ticket was read; a bad rule names the ticket's file and line there).
+pub fn inspect_step(workshop: &Arc<Workshop>, ticket: &Ticket) -> Result<Option<Box<dyn Step>>> {
+    let rules = parse_all(&ticket.checks.fail_if).map_err(|e| match &ticket.source {
+        Some((path, _)) => Error::input(path, e.to_string()),
+        None => e,
+    })?;
+    let options = InspectOptions { rules, keep_maps: true, ..InspectOptions::default() };
+    Ok(Some(Box::new(InspectStep { workshop: workshop.clone(), options })))
 }
