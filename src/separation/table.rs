@@ -97,7 +97,7 @@ impl Sample for u16 {
 /// (at most 2^15) times a 16-bit value, summed over vertices whose weights add
 /// up to 2^15, stays below 2^31 in each 32-bit lane, so the lanes never carry
 /// into each other and the result is exactly the per-channel sum.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, PartialEq)]
 pub(crate) struct PackedNodes(Vec<[u64; 2]>);
 
 impl PackedNodes {
