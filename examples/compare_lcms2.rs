@@ -91,6 +91,15 @@ fn thread_cpu_seconds() -> Option<f64> {
     Some(s.split_whitespace().next()?.parse::<f64>().ok()? / 1e9)
 }
 
+/// CPU time of the whole process (every thread), in seconds (Linux
+/// `/proc/self/stat`, user + system, in clock ticks of 1/100 s); `None` elsewhere.
+fn process_cpu_seconds() -> Option<f64> {
+    let s = std::fs::read_to_string("/proc/self/stat").ok()?;
+    let fields: Vec<&str> = s.rsplit_once(')')?.1.split_whitespace().collect();
+    let ticks = fields.get(11)?.parse::<f64>().ok()? + fields.get(12)?.parse::<f64>().ok()?;
+    Some(ticks / 100.0)
+}
+
 /// Best on-CPU time of `repeat` runs of `run` on the current thread.
 fn best_cpu_of(repeat: usize, mut run: impl FnMut()) -> Option<f64> {
     let mut best = f64::INFINITY;
@@ -152,9 +161,11 @@ fn run() -> Result<(), String> {
     let conv = RgbSpace::Srgb.converter();
     let gamut = RgbGamut(conv);
     let t = Instant::now();
+    let cpu0 = process_cpu_seconds();
     let mapping = sep.source_mapping(&gamut);
     let table = SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)));
     let table_s = t.elapsed().as_secs_f64();
+    let table_cpu_s = cpu0.zip(process_cpu_seconds()).map(|(a, b)| b - a);
 
     let (profile_bytes, profile_note) = match &args.profile {
         Some(p) => (std::fs::read(p).map_err(|e| format!("{}: {e}", p.display()))?, format!("{}", p.display())),
@@ -227,6 +238,9 @@ fn run() -> Result<(), String> {
     println!("threads={threads}");
     println!("profile={profile_note}");
     println!("table_build_s={table_s:.3}");
+    if let Some(c) = table_cpu_s {
+        println!("table_build_cpu_s={c:.2}");
+    }
     println!("platesmith_1_thread_mpx_s={:.1}", mp / a1);
     println!("platesmith_{threads}_threads_mpx_s={:.1}", mp / an);
     println!("platesmith_scaling={:.2}", a1 / an);

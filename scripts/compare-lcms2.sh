@@ -49,19 +49,23 @@ wall="$(sed -n 's/^[[:space:]]*Elapsed (wall clock) time (h:mm:ss or m:ss): //p'
 load_after="$(cut -d' ' -f1-3 /proc/loadavg)"
 echo "load average after: $load_after; peak memory ${peak_kb} kB"
 
-python3 - "$doc" "$tmp/figures" <<PY
-import sys
+LOAD_BEFORE="$load_before" LOAD_AFTER="$load_after" STAND_IN="$stand_in" WALL="$wall" PEAK_KB="$peak_kb" \
+COMMIT="$(git rev-parse --short HEAD)" DATE="$(date -u '+%Y-%m-%d %H:%M UTC')" \
+python3 - "$doc" "$tmp/figures" <<'PY'
+import os, sys
 doc, figures = sys.argv[1:3]
 f = dict(line.rstrip("\n").split("=", 1) for line in open(figures) if "=" in line)
 t = f["threads"]
-loaded = float("$load_before".split()[0]) >= 0.5
+env = os.environ
+loaded = float(env["LOAD_BEFORE"].split()[0]) >= 0.5
 status = ("**Recorded on a loaded machine** (1-minute load average before the run ≥ 0.5): wall-clock "
           "figures are pessimistic; the on-CPU one-thread figures leave out time spent waiting for a core."
           if loaded else "Recorded on an idle machine (1-minute load average before the run < 0.5).")
-stand_in = $stand_in == 1
+stand_in = env["STAND_IN"] == "1"
 def met(v, target):
     return "met" if float(v) >= target else "**missed**"
 rows = [
+    f"| default table build (perceptual, grid 33), {t} threads | {f['table_build_s']} s wall, {f.get('table_build_cpu_s', '–')} s CPU over all threads | ≤ 1 s (issue 4), ≤ 0.5 s (issue 9) |",
     f"| (a) platesmith `apply_rgb8`, 1 thread | {f['platesmith_1_thread_mpx_s']} Mpixel/s wall; {f.get('platesmith_1_thread_cpu_mpx_s', '–')} Mpixel/s on-CPU | |",
     f"| (a) platesmith `apply_rgb8`, {t} threads | {f[f'platesmith_{t}_threads_mpx_s']} Mpixel/s wall; scaling {f['platesmith_scaling']} × | ≥ 1.8 × (issue 9): {met(f['platesmith_scaling'], 1.8)} |",
     f"| (b) lcms2, default flags, 1 thread | {f['lcms2_default_1_thread_mpx_s']} Mpixel/s wall (setup {f['lcms2_setup_default_s']} s) | |",
@@ -74,13 +78,13 @@ rows = [
     f"| (a)/(b), {t} threads, wall | {f[f'ratio_a_over_b_{t}_threads']} × | |",
     f"| (a)/(c), 1 thread, wall | {f['ratio_a_over_c_1_thread']} of the copy's throughput | |",
     f"| mean \\|platesmith − lcms2\\| per plate, C, M, Y, K | {f['mean_abs_difference_percent_cmyk'].replace(',', ' %, ')} % | |",
-    f"| whole run (picture, table, profile, all measurements) | wall $wall, peak memory {int('$peak_kb') / 1024:.0f} MiB | |",
+    f"| whole run (picture, table, profile, all measurements) | wall {env['WALL']}, peak memory {int(env['PEAK_KB']) / 1024:.0f} MiB | |",
 ]
 model = open("/proc/cpuinfo").read().split("model name")[1].split(":", 1)[1].split("\n", 1)[0].strip()
 block = "\n".join([
     "<!-- lcms2:begin -->",
-    f"Machine: {model}, {t} threads; commit $(git rev-parse --short HEAD); $(date -u '+%Y-%m-%d %H:%M UTC'); {f['pixels']} pixels.",
-    f"Load average (1, 5, 15 min): $load_before before the run, $load_after after.",
+    f"Machine: {model}, {t} threads; commit {env['COMMIT']}; {env['DATE']}; {f['pixels']} pixels.",
+    f"Load average (1, 5, 15 min): {env['LOAD_BEFORE']} before the run, {env['LOAD_AFTER']} after.",
     f"Profile: {f['profile']}." + (" **Stand-in profile: a trial, not the figure for the record.**" if stand_in else ""),
     "",
     status,
