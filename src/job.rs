@@ -227,6 +227,16 @@ pub struct SeparatedFile {
     pub separate_ms: f64,
 }
 
+/// Where [`Workshop::write_outputs_in`] writes, and how the summary names things.
+pub struct OutputPlace<'a> {
+    /// The existing folder the files are written into.
+    pub dir: &'a Path,
+    /// The folder the summary lists the outputs under.
+    pub listed_dir: &'a Path,
+    /// The input as the summary names it.
+    pub input_shown: &'a Path,
+}
+
 /// The shared state of a run: one separator, tables cached per source.
 pub struct Workshop {
     pub separator: Separator,
@@ -234,6 +244,8 @@ pub struct Workshop {
     pub options: JobOptions,
     tables: Mutex<HashMap<Vec<u8>, Arc<SeparationTable>>>,
     cmyk_table: std::sync::OnceLock<Result<Arc<crate::separation::ReseparationTable>>>,
+    /// The output ICC profile embedded in the composites, built once per run.
+    profile: std::sync::OnceLock<std::result::Result<Vec<u8>, String>>,
 }
 
 fn ms(t: Instant) -> f64 {
@@ -242,7 +254,16 @@ fn ms(t: Instant) -> f64 {
 
 impl Workshop {
     pub fn new(separator: Separator, settings_report: SettingsReport, options: JobOptions) -> Workshop {
-        Workshop { separator, settings_report, options, tables: Mutex::new(HashMap::new()), cmyk_table: std::sync::OnceLock::new() }
+        Workshop { separator, settings_report, options, tables: Mutex::new(HashMap::new()), cmyk_table: std::sync::OnceLock::new(), profile: std::sync::OnceLock::new() }
+    }
+
+    /// The ICC output profile of this run's condition and settings (v4, default
+    /// tables), built on first use and embedded in every composite.
+    pub fn output_profile(&self) -> Result<&[u8]> {
+        self.profile
+            .get_or_init(|| crate::icc::profile_for_separator(&self.separator, &crate::icc::ProfileOptions::default()).map_err(|e| e.to_string()))
+            .as_deref()
+            .map_err(|e| Error::Internal(format!("the output profile could not be built: {e}")))
     }
 
     /// The table for a source, built once per run.
@@ -383,12 +404,21 @@ impl Workshop {
     /// Writes the composite, the plates and the summary of a separated file as
     /// one set; `started` is when the job began (for the total time).
     pub fn write_outputs(&self, path: &Path, separated: &SeparatedFile, started: Instant) -> Result<JobSummary> {
+        self.write_outputs_in(path, separated, started, &OutputPlace { dir: &self.options.out_dir, listed_dir: &self.options.out_dir, input_shown: path })
+    }
+
+    /// [`Workshop::write_outputs`] into another folder than the job's `out_dir`,
+    /// with the summary naming the outputs under `place.listed_dir` and the
+    /// input as `place.input_shown` (the hot folder writes into a staging
+    /// folder that is renamed when complete).
+    pub fn write_outputs_in(&self, path: &Path, separated: &SeparatedFile, started: Instant, place: &OutputPlace) -> Result<JobSummary> {
         let SeparatedFile { raster, image, stats, .. } = separated;
         let t = Instant::now();
         let stem = path.file_stem().and_then(|s| s.to_str()).unwrap_or("image").to_string();
-        let mut out = OutputSet::new(&self.options.out_dir, self.options.overwrite)?;
+        let mut out = OutputSet::new(place.dir, self.options.overwrite)?;
         out.protect([path]);
-        let tiff = TiffOptions { compression: self.options.compression, resolution: raster.resolution, icc_profile: None };
+        let icc = self.output_profile()?;
+        let tiff = TiffOptions { compression: self.options.compression, resolution: raster.resolution, icc_profile: Some(icc) };
         // The composite and the plates are written at the same time, one file per thread.
         let mut files: Vec<(String, crate::raster::StageFn)> = vec![(format!("{stem}.cmyk.tif"), Box::new(|w| crate::raster::write_cmyk_tiff(w, image, &tiff)))];
         for ink in Ink::ALL {
@@ -401,12 +431,13 @@ impl Workshop {
         }
         out.stage_parallel(files)?;
         let res = raster.resolution.unwrap_or(Resolution::DEFAULT);
-        let mut outputs: Vec<String> = out.staged().iter().map(|p| p.display().to_string()).collect();
+        let listed = |name: &std::ffi::OsStr| place.listed_dir.join(name).display().to_string();
+        let mut outputs: Vec<String> = out.staged().iter().filter_map(|p| p.file_name().map(listed)).collect();
         let summary_name = format!("{stem}.summary.json");
-        outputs.push(self.options.out_dir.join(&summary_name).display().to_string());
+        outputs.push(listed(summary_name.as_ref()));
         let px = stats.pixels.max(1) as f64;
         let mut summary = JobSummary {
-            file: path.display().to_string(),
+            file: place.input_shown.display().to_string(),
             outputs,
             width: raster.width,
             height: raster.height,

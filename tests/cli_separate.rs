@@ -335,3 +335,26 @@ fn cmyk_input_is_reseparated_and_pure_black_stays_black_only() {
     let s: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(second.join("art.cmyk.summary.json")).unwrap()).unwrap();
     assert_eq!(s["source"], "CMYK for coated-offset");
 }
+
+#[test]
+fn the_composite_embeds_our_output_profile() {
+    // ICC.1:2022 §7.2 header fields read through lcms2: an output (prtr)
+    // profile for CMYK data with a CIELAB PCS, described as platesmith's for
+    // the condition; the plates carry none (one ink, no CMYK meaning).
+    use lcms2::{ColorSpaceSignature, Locale, Profile, ProfileClassSignature};
+    let o = Outputs::new();
+    let input = o.path("tagged.png");
+    write_png(&input, 8, 8, 3, 8, &picture(8, 8, 3, 255), None);
+    let out = o.path("out");
+    separate(&input, &out, &["--tac", "300"]).success();
+    let composite = read_raster(&out.join("tagged.cmyk.tif"), &Limits::default()).unwrap();
+    let bytes = composite.icc_profile.expect("the composite embeds a profile");
+    let p = Profile::new_icc(&bytes).expect("lcms2 reads the embedded profile");
+    assert_eq!(p.device_class(), ProfileClassSignature::OutputClass);
+    assert_eq!(p.color_space(), ColorSpaceSignature::CmykData);
+    assert_eq!(p.pcs(), ColorSpaceSignature::LabData);
+    let description = p.info(lcms2::InfoType::Description, Locale::none()).unwrap();
+    assert!(description.contains("platesmith") && description.contains("coated-offset") && description.contains("TAC 300 %"), "{description}");
+    let plate = read_raster(&out.join("tagged.C.tif"), &Limits::default()).unwrap();
+    assert!(plate.icc_profile.is_none());
+}

@@ -76,19 +76,15 @@ fn in_gamut_targets_are_reproduced() {
 }
 
 /// The table against the direct solve, 10 000 random sRGB colours, for the
-/// relative and the perceptual intent (whose table is smoothed in the
-/// deepest shadows, see `SeparationTable`).
+/// relative and the perceptual intent: mean ΔE2000 ≤ 0.5, max ≤ 2 (the
+/// separation-engine requirement).
 #[test]
 fn table_agrees_with_direct_separation() {
     let (mean, _p99, max) = table_agrees(relative(), relative_table(), "relative");
     assert!(mean <= 0.5 && max <= 2.0, "relative: mean {mean} max {max}");
-    // Perceptual: the table is also smoothed in the deepest shadows, and the
-    // mapping bends at the knee of the chroma compression; the bound on the
-    // worst colour is held at the 99th percentile.
     let perceptual = separator(Intent::Perceptual);
     let (mean, p99, max) = table_agrees(&perceptual, &table_for(Intent::Perceptual, false), "perceptual");
-    assert!(mean <= 0.5 && p99 <= 2.0, "perceptual: mean {mean} p99 {p99} max {max}");
-    let _ = p99;
+    assert!(mean <= 0.5 && max <= 2.0, "perceptual: mean {mean} p99 {p99} max {max}");
 }
 
 fn table_agrees(sep: &Separator, table: &SeparationTable, label: &str) -> (f64, f64, f64) {

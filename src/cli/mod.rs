@@ -2,7 +2,10 @@
 
 mod conditions;
 mod fit;
+pub mod hotfolder;
 pub mod options;
+pub mod profile;
+pub mod proof;
 pub mod recipe;
 pub mod separate;
 
@@ -32,6 +35,12 @@ pub enum Command {
     Conditions(conditions::ConditionsArgs),
     /// Fit a press model to measured patches (CGATS text) and write it as a condition file.
     Fit(fit::FitArgs),
+    /// Watch a folder: separate every file that arrives, results to out/, inputs to done/ or failed/.
+    Hotfolder(hotfolder::HotfolderArgs),
+    /// Write the separation as an ICC output profile (CMYK, CIELAB PCS, all intents).
+    Profile(profile::ProfileArgs),
+    /// Simulate the print on screen: a PNG of how the separation prints on the condition.
+    Proof(proof::ProofArgs),
 }
 
 /// Runs a parsed command line; the returned code is the process exit code.
@@ -41,6 +50,9 @@ pub fn run(cli: Cli) -> Result<i32> {
         Command::Separate(args) => separate::run(args),
         Command::Conditions(args) => conditions::run(args),
         Command::Fit(args) => fit::run(args),
+        Command::Hotfolder(args) => hotfolder::run(args),
+        Command::Profile(args) => profile::run(args),
+        Command::Proof(args) => proof::run(args),
     }
 }
 

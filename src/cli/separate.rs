@@ -1,7 +1,7 @@
 //! `platesmith separate INPUT...`: rasters in, composite CMYK TIFF, plates
 //! and a summary out.
 
-use super::options::ModelArgs;
+use super::options::{ModelArgs, ModelSetup};
 use crate::error::{Error, Result};
 use crate::job::{GrayMode, JobOptions, PlateFormat, Workshop};
 use crate::raster::{Compression, Limits};
@@ -9,7 +9,7 @@ use crate::report::SettingsReport;
 use crate::separation::Separator;
 use crate::ticket::{LimitsSection, OutputSection, Ticket};
 use clap::Args;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
 pub enum CompressionArg {
@@ -72,7 +72,19 @@ fn compression_name(c: Compression) -> &'static str {
     }
 }
 
-pub fn run(args: SeparateArgs) -> Result<i32> {
+/// The job settings of a `separate` command line: the ticket, then the flags,
+/// over the condition's defaults.
+struct Resolved {
+    setup: ModelSetup,
+    out_dir: PathBuf,
+    bits: u8,
+    plates: PlateFormat,
+    compression: Compression,
+    gray: GrayMode,
+    limits: Limits,
+}
+
+fn resolve(args: &SeparateArgs) -> Result<Resolved> {
     let setup = args.model.resolve()?;
     let t = &setup.ticket;
     let out_dir = args.out_dir.clone().or_else(|| t.output.out_dir.clone()).unwrap_or_else(|| PathBuf::from("separated"));
@@ -107,31 +119,37 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
     if let Some(mib) = args.max_memory.or(t.limits.max_memory_mib) {
         limits.max_bytes = mib << 20;
     }
-    if args.print_ticket {
-        let mut model = setup.model_section();
-        if args.source_condition.is_some() {
-            model.source_condition = args.source_condition.clone();
-        }
-        model.gray = Some(match gray {
-            GrayMode::Neutral => "neutral".into(),
-            GrayMode::BlackOnly => "black-only".into(),
-        });
-        let ticket = Ticket {
-            model,
-            output: OutputSection {
-                out_dir: Some(out_dir),
-                bits: Some(bits),
-                plates: Some(format!("{plates:?}").to_lowercase()),
-                compression: Some(compression_name(compression).into()),
-            },
-            limits: LimitsSection { max_side: Some(limits.max_width), max_memory_mib: Some(limits.max_bytes >> 20) },
-            checks: t.checks.clone(),
-            source: None,
-        };
-        crate::error::write_stdout(&ticket.to_toml()?)?;
-        return Ok(0);
-    }
-    std::fs::create_dir_all(&out_dir).map_err(|e| Error::output(&out_dir, format!("cannot create the folder: {e}")))?;
+    Ok(Resolved { setup, out_dir, bits, plates, compression, gray, limits })
+}
+
+/// The [`Workshop`] of `platesmith separate --ticket FILE` (no other flags), or
+/// of the built-in defaults when there is no ticket; the ticket as read is
+/// returned beside it (its `[checks]` rules, for callers that check).
+pub fn ticket_workshop(ticket: Option<&Path>) -> Result<(Workshop, Ticket)> {
+    let args = SeparateArgs {
+        inputs: Vec::new(),
+        out_dir: None,
+        model: ModelArgs { ticket: ticket.map(Path::to_path_buf), ..ModelArgs::default() },
+        bits: None,
+        plates: None,
+        compression: None,
+        gray: None,
+        source_condition: None,
+        reseparate_pure_black: false,
+        force: false,
+        ignore_bad_profile: false,
+        max_side: None,
+        max_memory: None,
+        print_ticket: false,
+    };
+    let resolved = resolve(&args)?;
+    let ticket = resolved.setup.ticket.clone();
+    Ok((build_workshop(&args, resolved)?, ticket))
+}
+
+fn build_workshop(args: &SeparateArgs, r: Resolved) -> Result<Workshop> {
+    let Resolved { setup, out_dir, bits, plates, compression, gray, limits } = r;
+    let t = &setup.ticket;
     let report = SettingsReport::new(&setup.condition, &setup.settings, setup.source_space);
     let separator = Separator::new(setup.condition.clone(), setup.settings.clone())?;
     let source_condition = match args.source_condition.as_deref().or(t.model.source_condition.as_deref()) {
@@ -151,7 +169,39 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
         source_condition,
         keep_pure_black_cmyk: !args.reseparate_pure_black,
     };
-    let workshop = Workshop::new(separator, report, options);
+    Ok(Workshop::new(separator, report, options))
+}
+
+pub fn run(args: SeparateArgs) -> Result<i32> {
+    let r = resolve(&args)?;
+    let (setup, out_dir, bits, plates, compression, gray, limits) = (&r.setup, &r.out_dir, r.bits, r.plates, r.compression, r.gray, &r.limits);
+    let t = &setup.ticket;
+    if args.print_ticket {
+        let mut model = setup.model_section();
+        if args.source_condition.is_some() {
+            model.source_condition = args.source_condition.clone();
+        }
+        model.gray = Some(match gray {
+            GrayMode::Neutral => "neutral".into(),
+            GrayMode::BlackOnly => "black-only".into(),
+        });
+        let ticket = Ticket {
+            model,
+            output: OutputSection {
+                out_dir: Some(out_dir.clone()),
+                bits: Some(bits),
+                plates: Some(format!("{plates:?}").to_lowercase()),
+                compression: Some(compression_name(compression).into()),
+            },
+            limits: LimitsSection { max_side: Some(limits.max_width), max_memory_mib: Some(limits.max_bytes >> 20) },
+            checks: t.checks.clone(),
+            source: None,
+        };
+        crate::error::write_stdout(&ticket.to_toml()?)?;
+        return Ok(0);
+    }
+    std::fs::create_dir_all(out_dir).map_err(|e| Error::output(out_dir, format!("cannot create the folder: {e}")))?;
+    let workshop = build_workshop(&args, r)?;
     let progress = progress_bar(args.inputs.len() as u64);
     let (mut done, mut failed) = (0usize, 0usize);
     for input in &args.inputs {

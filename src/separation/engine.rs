@@ -156,6 +156,10 @@ pub struct SourceMapping<'a> {
 /// A colour counts as printable when the inversion reaches it this closely.
 pub const IN_GAMUT_TOLERANCE: f64 = 0.1;
 
+/// A clipped solution this close to its target (colour-error units) lies on
+/// the curve of exact solutions, near enough for the exact search to start.
+const REACH_TOLERANCE: f64 = 1e-2;
+
 /// Weight of the black aim in the inversion (colour-error units per unit black).
 const BLACK_AIM_WEIGHT: f64 = 0.05;
 
@@ -396,8 +400,19 @@ impl Separator {
             .solve_exact(target, 0.0, self.bounds, first)
             .or_else(|| self.solve_exact(target, 0.0, self.bounds, cold))
             .or_else(|| self.solve_exact(target, 0.0, self.bounds, [0.9, 0.8, 0.8, self.bounds.k_max]));
-        let Some(low) = low else {
-            return self.clip(target, start);
+        // Newton from a far start can run into a corner of the ink bounds
+        // before it reaches the curve of exact solutions; the bounded
+        // least-squares clip gets there robustly, and the exact search then
+        // starts on the curve.
+        let low = match low {
+            Some(low) => low,
+            None => {
+                let clipped = self.clip(target, start);
+                if clipped.colour_error > REACH_TOLERANCE {
+                    return clipped;
+                }
+                self.solve_exact(target, 0.0, self.bounds, clipped.x).unwrap_or(clipped)
+            }
         };
         let share = self.black_share(self.darkness(target));
         if share <= 0.0 {
@@ -428,6 +443,17 @@ impl Separator {
     /// with black point compensation).
     pub fn maps_source_black_to_black_point(&self) -> bool {
         matches!(self.settings.intent, Intent::Perceptual) || (self.settings.intent == Intent::Relative && self.settings.bpc)
+    }
+
+    /// True where the table smooths the deepest shadows in ink space:
+    /// relative colorimetric with black point compensation, which carries the
+    /// whole shadow range onto the press black point by a fixed scaling (ISO
+    /// 18619) and leaves no room to shape chroma there. The perceptual intent
+    /// shapes its shadows in the mapping itself (the shadow taper of
+    /// [`PerceptualMap`](super::gamut::PerceptualMap)), so its table equals
+    /// the direct separation.
+    pub fn smooths_shadows_in_ink(&self) -> bool {
+        self.settings.intent == Intent::Relative && self.settings.bpc
     }
 
     /// The printed red (M+Y), yellow, green (C+Y), cyan, blue (C+M) and
@@ -670,5 +696,16 @@ impl Separator {
             }
         }
         GamutBoundary::from_samples(samples, self.black_point.l, 100.0)
+    }
+
+    /// The same separator for another rendering intent (and black point
+    /// compensation setting). The printing condition, limits, black point and
+    /// gamut boundary do not depend on the intent and are shared, so this is
+    /// cheap (an ICC profile needs all intents from one set of settings).
+    pub fn with_intent(&self, intent: Intent, bpc: bool) -> Separator {
+        let mut sep = self.clone();
+        sep.settings.intent = intent;
+        sep.settings.bpc = bpc;
+        sep
     }
 }

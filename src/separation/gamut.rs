@@ -360,6 +360,11 @@ fn refine_cusp(lo: f64, hi: f64, chroma: &dyn Fn(f64) -> f64) -> (f64, f64) {
 }
 
 
+/// L* above the printable black over which the perceptual map tapers chroma.
+pub const SHADOW_TAPER_RANGE: f64 = 20.0;
+/// Share of chroma the taper keeps at the black point itself.
+pub const SHADOW_TAPER_FLOOR: f64 = 0.2;
+
 /// Perceptual gamut mapping from one source gamut into the printable gamut.
 ///
 /// 1. Lightness: the source range [black, 100] maps linearly onto the
@@ -374,6 +379,13 @@ fn refine_cusp(lo: f64, hi: f64, chroma: &dyn Fn(f64) -> f64) -> (f64, f64) {
 ///    lightness point, which keeps the deep shadows continuous with the
 ///    neutral axis): chroma up to 90 % of the destination boundary stays; the
 ///    rest of the source range is compressed linearly into the remaining 10 %.
+///
+/// 4. A shadow taper of our own (not part of SGCK or GCUSP): within
+///    [`SHADOW_TAPER_RANGE`] L* above the printable black, chroma is scaled
+///    down smoothly to [`SHADOW_TAPER_FLOOR`] of its value at the black
+///    point, where the gamut ends in a point. Without it, 8-bit ramps into
+///    the darkest shadows step by more than 3 % of a plate per code value
+///    (measured on the built-in coated condition, see tests/separation_engine.rs).
 pub struct PerceptualMap<'a> {
     dest: &'a GamutBoundary,
     hues: Option<HueAlignment>,
@@ -467,6 +479,12 @@ impl<'a> PerceptualMap<'a> {
         } else {
             knee + (d - knee) * (d_dest - knee) / (d_source - knee)
         };
+        // 4. Shadow taper: toward the black point the printable gamut narrows
+        //    to a point, where small differences of chroma take large changes
+        //    of ink; chroma there is drawn toward the lightness axis so that
+        //    the deepest shadows separate smoothly.
+        let t = ((l_mapped - self.dest.l_min) / SHADOW_TAPER_RANGE).clamp(0.0, 1.0);
+        let c_new = c_new * (SHADOW_TAPER_FLOOR + (1.0 - SHADOW_TAPER_FLOOR) * t * t * (3.0 - 2.0 * t));
         Lch::new(l_mapped, c_new, lch.h).to_lab()
     }
 }

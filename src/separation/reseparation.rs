@@ -229,7 +229,7 @@ impl ReseparationTable {
             })
             .collect();
         let (mut inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = lines.into_iter().flatten().unzip();
-        if target.maps_source_black_to_black_point() {
+        if target.smooths_shadows_in_ink() {
             smooth_shadows(&mut inks, &lightness, n, 4, target_black.l);
         }
         let (tac, k_max) = (settings.tac, settings.black.black_max);

@@ -99,6 +99,11 @@ pub struct Solution {
 
 const MAX_ITERATIONS: usize = 60;
 
+/// Colour error (CIELAB units) within which a point counts as on the curve of
+/// exact solutions: black moves only from such points (predictor), and the
+/// Newton steps in between bring the colour back (corrector).
+const ON_CURVE: f64 = 1e-3;
+
 /// How often one exact inversion may release a bound it had taken on.
 const MAX_RELEASES: usize = 8;
 
@@ -212,14 +217,32 @@ impl Problem<'_> {
         let mut fixed: [bool; 4] = std::array::from_fn(|i| b.lower(i) == b.upper(i));
         let mut tac_active = false;
         let mut releases = 0;
-        for _ in 0..80 {
+        // The last point found on the curve of exact solutions, with its
+        // active set: when a move of black along the curve runs into a corner
+        // (a bound and the ink limit together leave more equations than free
+        // inks) or a singular step, the search goes back there and moves black
+        // by half as much; once the stride is negligible, black rests there
+        // (the end of the curve).
+        let mut stride = BLACK_STRIDE;
+        let mut on_curve: Option<([f64; 4], [bool; 4], bool)> = None;
+        let mut black_stuck = false;
+        for _ in 0..120 {
             let (lab, jac) = (self.forward)(x);
             let r = [lab[0] - self.target[0], lab[1] - self.target[1], lab[2] - self.target[2]];
             let err = (r[0] * r[0] + r[1] * r[1] + r[2] * r[2]).sqrt();
+            if err < ON_CURVE {
+                on_curve = Some((x, fixed, tac_active));
+            }
             // Predictor–corrector: move along the curve of exact solutions only
-            // from a point on it, and by at most `BLACK_STRIDE` at a time.
-            let black_move = if err > 0.5 { 0.0 } else { (self.k_aim - x[3]).clamp(-BLACK_STRIDE, BLACK_STRIDE) };
-            let step = exact_step(&jac, r, &x, black_move, &fixed, tac_active, b)?;
+            // from a point on it, and by at most `stride` at a time.
+            let black_move = if err > ON_CURVE || black_stuck { 0.0 } else { (self.k_aim - x[3]).clamp(-stride, stride) };
+            let Some(step) = exact_step(&jac, r, &x, black_move, &fixed, tac_active, b) else {
+                let (px, pf, pt) = on_curve?;
+                (x, fixed, tac_active) = (px, pf, pt);
+                stride *= 0.5;
+                black_stuck = stride < 1e-4;
+                continue;
+            };
             let size: f64 = step.iter().map(|v| v.abs()).sum();
             if err < 1e-7 && size < 1e-9 {
                 // Converged for this active set: release a bound the black aim
@@ -288,6 +311,16 @@ impl Problem<'_> {
                     tau = t;
                     tac_blocks = true;
                     blocking = None;
+                }
+            }
+            let free_after = fixed.iter().filter(|&&f| !f).count() - usize::from(blocking.is_some());
+            let rows_after = 3 + usize::from(tac_active || tac_blocks);
+            if (blocking.is_some() || tac_blocks) && rows_after > free_after {
+                if let Some((px, pf, pt)) = on_curve {
+                    (x, fixed, tac_active) = (px, pf, pt);
+                    stride *= 0.5;
+                    black_stuck = stride < 1e-4;
+                    continue;
                 }
             }
             for i in 0..4 {

@@ -205,9 +205,10 @@ const SHADOW_RANGE: f64 = 13.0;
 /// Smoothing passes in the shadows.
 const SHADOW_PASSES: usize = 3;
 
-/// Used with the intents that carry the source black onto the press black
-/// point (perceptual, relative with black point compensation), where the
-/// whole shadow range is reproduced; plain relative colorimetric clips it.
+/// Used with relative colorimetric with black point compensation, which
+/// carries the source black onto the press black point so that the whole
+/// shadow range is reproduced (see `Separator::smooths_shadows_in_ink`; the
+/// perceptual intent shapes its shadows in the mapping instead).
 ///
 /// Near the black point the press responds little to any ink but black: the
 /// exact inversion there swings the other plates widely for small colour
@@ -297,7 +298,7 @@ impl SeparationTable {
             })
             .collect();
         let (mut inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = lines.into_iter().flatten().unzip();
-        if separator.maps_source_black_to_black_point() {
+        if separator.smooths_shadows_in_ink() {
             smooth_shadows(&mut inks, &lightness, n, 3, separator.black_point().0.l);
         }
         let (tac, k_max) = (separator.settings().tac, separator.settings().black.black_max);

@@ -1,0 +1,56 @@
+//! `platesmith profile` driven as a user would; the written profile is read
+//! back through lcms2 (the outside reader) and its header checked against
+//! ICC.1:2022 §7.2.
+
+use assert_cmd::Command;
+use lcms2::{ColorSpaceSignature, Locale, Profile, ProfileClassSignature};
+
+fn platesmith() -> Command {
+    Command::cargo_bin("platesmith").unwrap()
+}
+
+#[test]
+fn writes_a_v4_profile_and_a_v2_profile_on_request() {
+    let dir = tempfile::tempdir().unwrap();
+    for (flag, version, name) in [(None, 4.4, "press.icc"), (Some("2"), 2.4, "press-v2.icc")] {
+        let path = dir.path().join(name);
+        let mut cmd = platesmith();
+        cmd.args(["profile", "--out"]).arg(&path).args(["--condition", "newsprint", "--tac", "230", "--gcr", "70"]);
+        if let Some(v) = flag {
+            cmd.args(["--icc-version", v]);
+        }
+        cmd.assert().success().stderr(predicates::str::contains("prediction"));
+        let bytes = std::fs::read(&path).unwrap();
+        // ICC.1:2022 §7.2.2: the size field is the file's size; 'acsp' at byte 36.
+        assert_eq!(u32::from_be_bytes(bytes[0..4].try_into().unwrap()) as usize, bytes.len());
+        assert_eq!(&bytes[36..40], b"acsp");
+        let p = Profile::new_icc(&bytes).expect("lcms2 reads it");
+        assert_eq!(p.device_class(), ProfileClassSignature::OutputClass);
+        assert_eq!((p.color_space(), p.pcs()), (ColorSpaceSignature::CmykData, ColorSpaceSignature::LabData));
+        assert!((p.version() - version).abs() < 1e-9, "{}", p.version());
+        let d = p.info(lcms2::InfoType::Description, Locale::none()).unwrap();
+        assert!(d.contains("newsprint") && d.contains("TAC 230 %") && d.contains("GCR 70 %"), "{d}");
+        // lcms2 finds the ink limit in the BToA table (cmsDetectTAC).
+        let tac = platesmith::press::icc_model::IccPressModel::from_bytes(&bytes, &path, Default::default()).unwrap().detected_tac().unwrap();
+        assert!((220.0..=231.0).contains(&tac), "{tac}");
+    }
+}
+
+#[test]
+fn an_existing_file_is_kept_without_force_and_bad_options_write_nothing() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("p.icc");
+    std::fs::write(&path, b"keep me").unwrap();
+    platesmith().args(["profile", "--out"]).arg(&path).assert().code(2).stderr(predicates::str::contains("p.icc")).stderr(predicates::str::contains("--force"));
+    assert_eq!(std::fs::read(&path).unwrap(), b"keep me");
+    platesmith().args(["profile", "--force", "--out"]).arg(&path).assert().success();
+    assert!(Profile::new_icc(&std::fs::read(&path).unwrap()).is_ok());
+
+    let other = dir.path().join("q.icc");
+    platesmith().args(["profile", "--tac", "500", "--out"]).arg(&other).assert().code(2).stderr(predicates::str::contains("100–400"));
+    platesmith().args(["profile", "--icc-version", "3", "--out"]).arg(&other).assert().code(2);
+    platesmith().args(["profile", "--out"]).arg(dir.path().join("missing/q.icc")).assert().code(2).stderr(predicates::str::contains("does not exist"));
+    assert!(!other.exists());
+    let left: Vec<_> = std::fs::read_dir(dir.path()).unwrap().map(|e| e.unwrap().file_name()).collect();
+    assert_eq!(left.len(), 1, "{left:?}");
+}
