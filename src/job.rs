@@ -101,27 +101,40 @@ impl InkStats {
     /// ink limit `tac` (fraction).
     pub fn of_samples(samples: &Samples, tac: f64) -> InkStats {
         fn collect<T: Copy + Into<u32> + Sync>(v: &[T], max: f64, tac: f64) -> InkStats {
+            // Sums in integer codes, converted to fractions once per chunk. The
+            // histogram bin round(total·200) is computed exactly as
+            // ⌊(400·total + max) / (2·max)⌋: with an odd `max` (255, 65535) a
+            // total never falls on a half step, so the bins equal those of the
+            // fractions.
+            let m = max as u64;
+            let inked_from = (0..=max as u32).find(|&c| c as f64 / max >= 0.01).unwrap_or(max as u32);
+            let over_from = (tac + 0.5 / 100.0) * max;
             v.par_chunks(4 * 4096)
                 .map(|chunk| {
-                    let mut s = InkStats { tac_hist: vec![0; 801], ..Default::default() };
+                    let mut hist = vec![0u64; 801];
+                    let (mut total_sum, mut total_max, mut over) = (0u64, 0u32, 0u64);
+                    let (mut plate, mut inked) = ([0u64; 4], [0u64; 4]);
                     for px in chunk.chunks_exact(4) {
-                        let f: [f64; 4] = std::array::from_fn(|i| px[i].into() as f64 / max);
-                        let total = f.iter().sum::<f64>();
-                        s.pixels += 1;
-                        s.tac_hist[((total * 200.0).round() as usize).min(800)] += 1;
-                        s.tac_sum += total;
-                        s.tac_max = s.tac_max.max(total);
-                        if total > tac + 0.5 / 100.0 {
-                            s.over += 1;
-                        }
+                        let codes: [u32; 4] = std::array::from_fn(|i| px[i].into());
+                        let total = codes[0] + codes[1] + codes[2] + codes[3];
+                        hist[((400 * total as u64 + m) / (2 * m)).min(800) as usize] += 1;
+                        total_sum += total as u64;
+                        total_max = total_max.max(total);
+                        over += u64::from(total as f64 > over_from);
                         for i in 0..4 {
-                            s.plate_sum[i] += f[i];
-                            if f[i] >= 0.01 {
-                                s.plate_inked[i] += 1;
-                            }
+                            plate[i] += codes[i] as u64;
+                            inked[i] += u64::from(codes[i] >= inked_from);
                         }
                     }
-                    s
+                    InkStats {
+                        pixels: (chunk.len() / 4) as u64,
+                        tac_hist: hist,
+                        tac_sum: total_sum as f64 / max,
+                        tac_max: total_max as f64 / max,
+                        over,
+                        plate_sum: plate.map(|p| p as f64 / max),
+                        plate_inked: inked,
+                    }
                 })
                 .reduce(InkStats::default, |mut a, b| {
                     a += b;
@@ -417,18 +430,17 @@ impl Workshop {
         out.protect([path]);
         let icc = self.output_profile()?;
         let tiff = TiffOptions { compression: self.options.compression, resolution: raster.resolution, icc_profile: Some(icc) };
-        out.stage(&format!("{stem}.cmyk.tif"), |w| crate::raster::write_cmyk_tiff(w, image, &tiff))?;
+        // The composite and the plates are written at the same time, one file per thread.
+        let mut files: Vec<(String, crate::raster::StageFn)> = vec![(format!("{stem}.cmyk.tif"), Box::new(|w| crate::raster::write_cmyk_tiff(w, image, &tiff)))];
         for ink in Ink::ALL {
+            let tiff = &tiff;
             match self.options.plates {
-                PlateFormat::Tiff => {
-                    out.stage(&format!("{stem}.{}.tif", ink.letter()), |w| crate::raster::write_plate_tiff(w, image, ink, &tiff))?;
-                }
-                PlateFormat::Png => {
-                    out.stage(&format!("{stem}.{}.png", ink.letter()), |w| crate::raster::write_plate_png(w, image, ink, raster.resolution))?;
-                }
+                PlateFormat::Tiff => files.push((format!("{stem}.{}.tif", ink.letter()), Box::new(move |w| crate::raster::write_plate_tiff(w, image, ink, tiff)))),
+                PlateFormat::Png => files.push((format!("{stem}.{}.png", ink.letter()), Box::new(move |w| crate::raster::write_plate_png(w, image, ink, raster.resolution)))),
                 PlateFormat::None => {}
             }
         }
+        out.stage_parallel(files)?;
         let res = raster.resolution.unwrap_or(Resolution::DEFAULT);
         let listed = |name: &std::ffi::OsStr| place.listed_dir.join(name).display().to_string();
         let mut outputs: Vec<String> = out.staged().iter().filter_map(|p| p.file_name().map(listed)).collect();

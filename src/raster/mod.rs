@@ -22,7 +22,7 @@ mod read;
 mod sniff;
 mod write;
 
-pub use output::{OutputSet, StagedWriter};
+pub use output::{OutputSet, StageFn, StagedWriter};
 pub use read::{decoder_panic_is_caught, read_raster, read_raster_bytes};
 pub use write::{Compression, TiffOptions, write_cmyk_tiff, write_plate_png, write_plate_tiff};
 

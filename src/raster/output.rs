@@ -45,6 +45,9 @@ struct Staged {
     target: PathBuf,
 }
 
+/// One file's writing closure for [`OutputSet::stage_parallel`].
+pub type StageFn<'f> = Box<dyn FnOnce(&mut StagedWriter) -> io::Result<()> + Send + 'f>;
+
 /// The writer handed to a staging closure: buffered, seekable (TIFF needs it), counting bytes.
 pub struct StagedWriter {
     inner: BufWriter<fs::File>,
@@ -205,23 +208,7 @@ impl OutputSet {
         F: FnOnce(&mut StagedWriter) -> io::Result<()>,
     {
         let target = self.check(file_name)?;
-        let prefix = format!(".{file_name}.");
-        let mut builder = tempfile::Builder::new();
-        builder.prefix(&prefix).suffix(".part");
-        #[cfg(unix)]
-        {
-            use std::os::unix::fs::PermissionsExt;
-            builder.permissions(fs::Permissions::from_mode(0o644));
-        }
-        let temp = builder
-            .tempfile_in(&self.dir)
-            .map_err(|e| Error::output(&target, describe(&e)))?;
-        let (file, temp) = temp.into_parts();
-        let mut writer = StagedWriter {
-            inner: BufWriter::with_capacity(1 << 20, file),
-            written: 0,
-            fail_after: self.fail_after,
-        };
+        let (mut writer, temp) = self.create_temp(file_name, &target)?;
         let result = write(&mut writer).and_then(|()| writer.flush());
         drop(writer);
         match result {
@@ -235,6 +222,64 @@ impl OutputSet {
             // `temp` is dropped here, which removes the temporary file.
             Err(e) => Err(Error::output(&target, describe(&e))),
         }
+    }
+
+    /// Writes several files at once, each through its own closure on a thread of the rayon
+    /// pool, with the same guarantees as [`stage`](Self::stage) one after another: the names
+    /// are checked and the temporary files made first, in order; when any write fails every
+    /// temporary file of the batch is removed and the first failure in the given order is
+    /// returned. Returns the final paths in the given order.
+    pub fn stage_parallel<'f>(&mut self, files: Vec<(String, StageFn<'f>)>) -> Result<Vec<PathBuf>> {
+        use rayon::prelude::*;
+        let mut open = Vec::with_capacity(files.len());
+        for (file_name, write) in files {
+            let target = self.check(&file_name)?;
+            if open.iter().any(|(t, ..): &(PathBuf, _, _, _)| *t == target) {
+                return Err(Error::output(&target, "is produced twice by this job"));
+            }
+            let (writer, temp) = self.create_temp(&file_name, &target)?;
+            open.push((target, temp, writer, write));
+        }
+        let results: Vec<io::Result<()>> = open
+            .par_iter_mut()
+            .map(|(_, _, writer, write)| {
+                let write = std::mem::replace(write, Box::new(|_| Ok(())));
+                write(writer).and_then(|()| writer.flush())
+            })
+            .collect();
+        if let Some((i, e)) = results.iter().enumerate().find_map(|(i, r)| r.as_ref().err().map(|e| (i, e))) {
+            // Dropping `open` removes every temporary file of the batch.
+            return Err(Error::output(&open[i].0, describe(e)));
+        }
+        let mut targets = Vec::with_capacity(open.len());
+        for (target, temp, writer, _) in open {
+            drop(writer);
+            self.staged.push(Staged { temp, target: target.clone() });
+            targets.push(target);
+        }
+        Ok(targets)
+    }
+
+    /// The temporary file for `file_name` in the destination folder and its writer.
+    fn create_temp(&self, file_name: &str, target: &Path) -> Result<(StagedWriter, tempfile::TempPath)> {
+        let prefix = format!(".{file_name}.");
+        let mut builder = tempfile::Builder::new();
+        builder.prefix(&prefix).suffix(".part");
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::PermissionsExt;
+            builder.permissions(fs::Permissions::from_mode(0o644));
+        }
+        let temp = builder
+            .tempfile_in(&self.dir)
+            .map_err(|e| Error::output(target, describe(&e)))?;
+        let (file, temp) = temp.into_parts();
+        let writer = StagedWriter {
+            inner: BufWriter::with_capacity(1 << 20, file),
+            written: 0,
+            fail_after: self.fail_after,
+        };
+        Ok((writer, temp))
     }
 
     /// Final paths of the files staged so far.
@@ -287,4 +332,68 @@ fn describe(e: &io::Error) -> String {
 fn file_id(path: &Path) -> Option<(u64, u64)> {
     use std::os::unix::fs::MetadataExt;
     fs::metadata(path).ok().map(|m| (m.dev(), m.ino()))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn names(dir: &Path) -> Vec<String> {
+        let mut v: Vec<String> = fs::read_dir(dir).unwrap().map(|e| e.unwrap().file_name().to_string_lossy().into_owned()).collect();
+        v.sort();
+        v
+    }
+
+    #[test]
+    fn parallel_staging_writes_every_file_and_commits_them_together() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut set = OutputSet::new(dir.path(), false).unwrap();
+        let files: Vec<(String, StageFn)> = (0..5u8).map(|i| (format!("f{i}.bin"), Box::new(move |w: &mut StagedWriter| w.write_all(&vec![i; 200_000 + i as usize])) as StageFn)).collect();
+        let targets = set.stage_parallel(files).unwrap();
+        assert_eq!(targets, (0..5).map(|i| dir.path().join(format!("f{i}.bin"))).collect::<Vec<_>>());
+        assert!(names(dir.path()).iter().all(|n| n.starts_with('.') && n.ends_with(".part")));
+        set.commit().unwrap();
+        assert_eq!(names(dir.path()), ["f0.bin", "f1.bin", "f2.bin", "f3.bin", "f4.bin"]);
+        for i in 0..5u8 {
+            assert_eq!(fs::read(dir.path().join(format!("f{i}.bin"))).unwrap(), vec![i; 200_000 + i as usize]);
+        }
+    }
+
+    #[test]
+    fn one_failed_file_in_a_parallel_batch_leaves_none_of_the_batch() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut set = OutputSet::new(dir.path(), false).unwrap();
+        set.stage("first.txt", |w| w.write_all(b"kept until the job gives up")).unwrap();
+        set.fail_writes_after(100_000);
+        let files: Vec<(String, StageFn)> = vec![
+            ("small.bin".into(), Box::new(|w: &mut StagedWriter| w.write_all(&[1; 10]))),
+            ("large.bin".into(), Box::new(|w: &mut StagedWriter| w.write_all(&[2; 300_000]))),
+            ("other.bin".into(), Box::new(|w: &mut StagedWriter| w.write_all(&[3; 10]))),
+        ];
+        match set.stage_parallel(files) {
+            Err(Error::Output { path, message }) => {
+                assert_eq!(path, dir.path().join("large.bin"));
+                assert!(message.contains("disk full"), "{message}");
+            }
+            other => panic!("expected the large file's write failure, got {other:?}"),
+        }
+        // Only the earlier staged file's temporary remains; the batch left nothing.
+        let left = names(dir.path());
+        assert_eq!(left.len(), 1, "{left:?}");
+        assert!(left[0].starts_with(".first.txt."), "{left:?}");
+        drop(set);
+        assert!(names(dir.path()).is_empty());
+    }
+
+    #[test]
+    fn a_name_twice_in_one_batch_is_refused() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut set = OutputSet::new(dir.path(), false).unwrap();
+        let files: Vec<(String, StageFn)> = vec![
+            ("a.bin".into(), Box::new(|w: &mut StagedWriter| w.write_all(&[1]))),
+            ("a.bin".into(), Box::new(|w: &mut StagedWriter| w.write_all(&[2]))),
+        ];
+        assert!(matches!(set.stage_parallel(files), Err(Error::Output { .. })));
+        assert!(names(dir.path()).is_empty());
+    }
 }

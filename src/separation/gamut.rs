@@ -441,6 +441,12 @@ impl<'a> PerceptualMap<'a> {
 
     /// Step 1 and 2 are affine in L for a fixed chroma and hue: L' = α·L + β.
     fn lightness_affine(&self, c: f64, h: f64, source_hue: f64) -> (f64, f64) {
+        self.lightness_affine_with(c, self.source_cusps.at(source_hue), self.dest_cusps.at(h))
+    }
+
+    /// [`PerceptualMap::lightness_affine`] with the cusps at the two hues
+    /// looked up once (they are constant along one colour's chroma line).
+    fn lightness_affine_with(&self, c: f64, source_cusp: (f64, f64), dest_cusp: (f64, f64)) -> (f64, f64) {
         let d = self.dest;
         let a = (d.l_max - d.l_min) / (100.0 - self.source_black);
         let pc = 1.0 - (c.powi(3) / (c.powi(3) + 5e5)).sqrt();
@@ -448,8 +454,8 @@ impl<'a> PerceptualMap<'a> {
         let alpha = pc * a + 1.0 - pc;
         let mut beta = pc * (d.l_min - self.source_black * a);
         // step 2: shift toward the destination cusp
-        let (ls, cs) = self.source_cusps.at(source_hue);
-        let (ld, _) = self.dest_cusps.at(h);
+        let (ls, cs) = source_cusp;
+        let (ld, _) = dest_cusp;
         if cs > 1e-6 {
             let pcs = 1.0 - (cs.powi(3) / (cs.powi(3) + 5e5)).sqrt();
             let ls1 = pcs * (d.l_min + (ls - self.source_black) * a) + (1.0 - pcs) * ls;
@@ -482,9 +488,10 @@ impl<'a> PerceptualMap<'a> {
         let margin = BOUNDARY_MARGIN + (1.0 - BOUNDARY_MARGIN) * shadow;
         let d_dest = margin * boundary_distance(origin, dir, lch.h, 250.0, &|p| self.dest.contains(p));
         // The source boundary at the same place, after steps 1 and 2.
+        let cusps = (self.source_cusps.at(source_hue), self.dest_cusps.at(lch.h));
         let source_inside = |p: Lab| {
             let q = p.to_lch();
-            let (a, b) = self.lightness_affine(q.c, lch.h, source_hue);
+            let (a, b) = self.lightness_affine_with(q.c, cusps.0, cusps.1);
             self.source.contains(Lch::new((q.l - b) / a, q.c, source_hue).to_lab())
         };
         let d_source = boundary_distance(origin, dir, lch.h, 250.0, &source_inside).max(d);

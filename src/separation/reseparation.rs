@@ -40,7 +40,7 @@
 //! ink at full coverage (no ink limit is known for an incoming file), where
 //! the RGB path takes L* 0 for the source black.
 
-use super::table::{Position, WEIGHT_BITS, WEIGHT_ONE, position, quantize, smooth_shadows};
+use super::table::{PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, position, quantize, simplex, smooth_shadows, step_table, steps};
 use super::SeparationSettings;
 use super::engine::{Intent, Separator};
 use super::gamut::{GamutBoundary, PerceptualMap, SourceGamut, black_point_compensation};
@@ -144,6 +144,8 @@ pub struct ReseparationTable {
     grid: usize,
     /// Target CMYK per node as 0..65535, node index ((c·N + m)·N + y)·N + k.
     nodes: Vec<[u16; 4]>,
+    /// The same nodes packed for the pixel kernel.
+    packed: PackedNodes,
     /// Source black → target black only, 0..65535, when pure black is kept.
     black_curve: Option<Vec<u16>>,
     /// The same curve sampled at the 256 8-bit codes, rounded to 8 bits.
@@ -242,6 +244,7 @@ impl ReseparationTable {
         };
         Ok(ReseparationTable {
             grid: n,
+            packed: PackedNodes::new(&nodes),
             nodes,
             black_curve,
             black_curve8,
@@ -349,67 +352,39 @@ impl ReseparationTable {
     /// Re-separates interleaved 8-bit CMYK (0 = no ink; `input.len() =
     /// output.len() = 4·pixels`), in parallel over rows of `row_pixels`.
     pub fn apply_cmyk8(&self, input: &[u8], output: &mut [u8], row_pixels: usize) {
-        // Per axis and 8-bit code: node offset of the cell and fraction.
-        let strides = self.strides();
-        let lut: Vec<[(u32, u32); 4]> = (0..256)
-            .map(|v| {
-                let p = position(v, 255, self.grid);
-                strides.map(|s| (p.index * s, p.fraction))
-            })
-            .collect();
-        let row_pixels = row_pixels.max(1);
-        input
-            .par_chunks(4 * row_pixels)
-            .zip(output.par_chunks_mut(4 * row_pixels))
-            .for_each(|(src, dst)| {
-                for (px, out) in src.chunks_exact(4).zip(dst.chunks_exact_mut(4)) {
-                    if let Some(curve8) = &self.black_curve8
-                        && px[..3] == [0, 0, 0]
-                    {
-                        out.copy_from_slice(&[0, 0, 0, curve8[px[3] as usize]]);
-                        continue;
-                    }
-                    let (a, b, c, d) = (
-                        lut[px[0] as usize][0],
-                        lut[px[1] as usize][1],
-                        lut[px[2] as usize][2],
-                        lut[px[3] as usize][3],
-                    );
-                    let v = self.interpolate_at(
-                        a.0 + b.0 + c.0 + d.0,
-                        [
-                            (a.1, strides[0]),
-                            (b.1, strides[1]),
-                            (c.1, strides[2]),
-                            (d.1, strides[3]),
-                        ],
-                    );
-                    for ch in 0..4 {
-                        out[ch] = to_8bit(v[ch]);
-                    }
-                }
-            });
+        let curve8 = self.black_curve8.as_deref();
+        self.apply(input, output, row_pixels, curve8.map(|c| move |k: u32| c[k as usize]))
     }
 
     /// Re-separates interleaved 16-bit CMYK (0 = no ink) into interleaved
     /// 16-bit CMYK, in parallel over rows of `row_pixels`.
     pub fn apply_cmyk16(&self, input: &[u16], output: &mut [u16], row_pixels: usize) {
+        let curve = self.black_curve.as_deref();
+        self.apply(input, output, row_pixels, curve.map(|c| move |k: u32| curve_at(c, k, 65535)))
+    }
+
+    /// The pixel kernel for either sample type: simplex interpolation as in
+    /// [`ReseparationTable::lookup`] at the pixel's codes, rounded to the
+    /// sample type; `black` re-separates pixels without C, M, Y.
+    fn apply<S: Sample>(&self, input: &[S], output: &mut [S], row_pixels: usize, black: Option<impl Fn(u32) -> S + Sync>) {
+        let strides = self.strides();
+        let table = step_table::<S, 4>(self.grid, strides);
+        let zero = S::from_16(0);
         let row_pixels = row_pixels.max(1);
         input
             .par_chunks(4 * row_pixels)
             .zip(output.par_chunks_mut(4 * row_pixels))
             .for_each(|(src, dst)| {
                 for (px, out) in src.chunks_exact(4).zip(dst.chunks_exact_mut(4)) {
-                    if let Some(curve) = &self.black_curve
-                        && px[..3] == [0, 0, 0]
+                    if let Some(black) = &black
+                        && px[0].code() | px[1].code() | px[2].code() == 0
                     {
-                        out.copy_from_slice(&[0, 0, 0, curve_at(curve, px[3] as u32, 65535)]);
+                        out.copy_from_slice(&[zero, zero, zero, black(px[3].code())]);
                         continue;
                     }
-                    let p = [px[0], px[1], px[2], px[3]].map(|v| position(v as u32, 65535, self.grid));
-                    let v = self.interpolate(p);
+                    let v = simplex::<4, 5>(&self.packed, steps(&table, px, self.grid, strides));
                     for ch in 0..4 {
-                        out[ch] = v[ch] as u16;
+                        out[ch] = S::from_16(v[ch]);
                     }
                 }
             });
@@ -505,10 +480,29 @@ mod tests {
             .collect();
         let t = ReseparationTable {
             grid: n,
+            packed: PackedNodes::new(&nodes),
             nodes,
             black_curve: None,
             black_curve8: None,
         };
+        // Linear precision holds for the pixel kernels too, to within the
+        // rounding of the node values and of the output (8 bits: ±1 code).
+        let codes8: Vec<u8> = (0..=255u32).flat_map(|v| [v, (v * 7) % 256, 255 - v, (v * 13 + 5) % 256].map(|c| c as u8)).collect();
+        let mut out8 = vec![0u8; codes8.len()];
+        t.apply_cmyk8(&codes8, &mut out8, 16);
+        for (px, out) in codes8.chunks_exact(4).zip(out8.chunks_exact(4)) {
+            for ch in 0..4 {
+                assert!((px[ch] as i32 - out[ch] as i32).abs() <= 1, "{px:?} -> {out:?}");
+            }
+        }
+        let codes16: Vec<u16> = codes8.iter().map(|&v| v as u16 * 256 + 100).collect();
+        let mut out16 = vec![0u16; codes16.len()];
+        t.apply_cmyk16(&codes16, &mut out16, 16);
+        for (px, out) in codes16.chunks_exact(4).zip(out16.chunks_exact(4)) {
+            for ch in 0..4 {
+                assert!((px[ch] as i32 - out[ch] as i32).abs() <= 2, "{px:?} -> {out:?}");
+            }
+        }
         for probe in [
             [0.3, 0.7, 0.1, 0.9],
             [0.0, 1.0, 0.5, 0.25],

@@ -23,6 +23,8 @@ pub struct SeparationTable {
     grid: usize,
     /// CMYK per node as 0..65535, node index (r·N + g)·N + b.
     nodes: Vec<[u16; 4]>,
+    /// The same nodes packed for the pixel kernels (see [`PackedNodes`]).
+    packed: PackedNodes,
     /// Source pure black (all channels 0) prints as black ink only, at the
     /// maximum black (16-bit value), when set.
     pure_black: Option<u16>,
@@ -44,6 +46,157 @@ pub(crate) fn position(value: u32, max: u32, grid: usize) -> Position {
         fraction = WEIGHT_ONE as u64;
     }
     Position { index, fraction: fraction as u32 }
+}
+
+/// Sample types of the pixel buffers the tables apply to: 8- and 16-bit codes.
+pub(crate) trait Sample: Copy + Send + Sync + 'static {
+    /// The largest code (full ink or full channel).
+    const MAX: u32;
+    fn code(self) -> u32;
+    /// A 16-bit table value (0..65535) as this sample type, rounded.
+    fn from_16(v: u32) -> Self;
+    /// A 16-bit table value as this sample type, rounded down (for values
+    /// that must not exceed a limit, such as the maximum black).
+    fn from_16_down(v: u32) -> Self;
+}
+
+impl Sample for u8 {
+    const MAX: u32 = 255;
+    #[inline(always)]
+    fn code(self) -> u32 {
+        self as u32
+    }
+    #[inline(always)]
+    fn from_16(v: u32) -> u8 {
+        ((v * 255 + 32767) / 65535) as u8
+    }
+    #[inline(always)]
+    fn from_16_down(v: u32) -> u8 {
+        (v * 255 / 65535) as u8
+    }
+}
+
+impl Sample for u16 {
+    const MAX: u32 = 65535;
+    #[inline(always)]
+    fn code(self) -> u32 {
+        self as u32
+    }
+    #[inline(always)]
+    fn from_16(v: u32) -> u16 {
+        v as u16
+    }
+    #[inline(always)]
+    fn from_16_down(v: u32) -> u16 {
+        v as u16
+    }
+}
+
+/// Table nodes packed two channels to a 64-bit word (C | M << 32 and
+/// Y | K << 32), so that one multiply weights two channels at once: a weight
+/// (at most 2^15) times a 16-bit value, summed over vertices whose weights add
+/// up to 2^15, stays below 2^31 in each 32-bit lane, so the lanes never carry
+/// into each other and the result is exactly the per-channel sum.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct PackedNodes(Vec<[u64; 2]>);
+
+impl PackedNodes {
+    pub(crate) fn new(nodes: &[[u16; 4]]) -> PackedNodes {
+        PackedNodes(nodes.iter().map(|v| [v[0] as u64 | (v[1] as u64) << 32, v[2] as u64 | (v[3] as u64) << 32]).collect())
+    }
+
+    /// The weighted sum of the nodes at `at` (weights summing to
+    /// `WEIGHT_ONE`), rounded to 16 bits per channel.
+    #[inline(always)]
+    pub(crate) fn blend<const V: usize>(&self, at: [u32; V], w: [u32; V]) -> [u32; 4] {
+        const HALF: u64 = (WEIGHT_ONE as u64 >> 1) | ((WEIGHT_ONE as u64 >> 1) << 32);
+        let (mut lo, mut hi) = (HALF, HALF);
+        for i in 0..V {
+            let node = &self.0[at[i] as usize];
+            lo += w[i] as u64 * node[0];
+            hi += w[i] as u64 * node[1];
+        }
+        let lane = |v: u64| ((v & 0xFFFF_FFFF) >> WEIGHT_BITS) as u32;
+        [lane(lo), lane(lo >> 32), lane(hi), lane(hi >> 32)]
+    }
+}
+
+/// Where one code value of one axis falls on the grid: the node offset of
+/// its cell (index × the axis's node stride) and the sort key of the axis in
+/// that cell (fraction << 32 | node stride).
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct AxisStep {
+    pub(crate) offset: u32,
+    pub(crate) key: u64,
+}
+
+impl AxisStep {
+    #[inline(always)]
+    pub(crate) fn new(p: Position, stride: u32) -> AxisStep {
+        AxisStep { offset: p.index * stride, key: ((p.fraction as u64) << 32) | stride as u64 }
+    }
+}
+
+/// Per-axis steps of every code of a sample type, when there are few codes
+/// (8 bits: 256 per axis); empty for 16 bits, whose steps are computed.
+pub(crate) fn step_table<S: Sample, const A: usize>(grid: usize, strides: [u32; A]) -> Vec<[AxisStep; A]> {
+    if S::MAX > 255 {
+        return Vec::new();
+    }
+    (0..=S::MAX).map(|v| {
+        let p = position(v, S::MAX, grid);
+        strides.map(|s| AxisStep::new(p, s))
+    }).collect()
+}
+
+/// The steps of one pixel: from the table for 8 bits, computed for 16 bits.
+#[inline(always)]
+pub(crate) fn steps<S: Sample, const A: usize>(table: &[[AxisStep; A]], px: &[S], grid: usize, strides: [u32; A]) -> [AxisStep; A] {
+    if S::MAX <= 255 {
+        std::array::from_fn(|a| table[px[a].code() as usize][a])
+    } else {
+        std::array::from_fn(|a| AxisStep::new(position(px[a].code(), S::MAX, grid), strides[a]))
+    }
+}
+
+/// Simplex (tetrahedral for 3 axes) interpolation in the cell at the
+/// pixel's steps: the axes in order of decreasing fraction by a sorting
+/// network of compare-exchanges (min/max, no branches), then the walk from
+/// the cell's base node along the axes in that order. Ties take either
+/// order; their weight is zero, so the result is the same.
+#[inline(always)]
+pub(crate) fn simplex<const A: usize, const V: usize>(nodes: &PackedNodes, steps: [AxisStep; A]) -> [u32; 4] {
+    let mut k = steps.map(|s| s.key);
+    let base: u32 = steps.iter().map(|s| s.offset).sum();
+    let cx = |k: &mut [u64; A], a: usize, b: usize| {
+        let (hi, lo) = (k[a].max(k[b]), k[a].min(k[b]));
+        k[a] = hi;
+        k[b] = lo;
+    };
+    match A {
+        3 => {
+            cx(&mut k, 0, 1);
+            cx(&mut k, 1, 2);
+            cx(&mut k, 0, 1);
+        }
+        4 => {
+            cx(&mut k, 0, 1);
+            cx(&mut k, 2, 3);
+            cx(&mut k, 0, 2);
+            cx(&mut k, 1, 3);
+            cx(&mut k, 1, 2);
+        }
+        _ => k.sort_unstable_by(|a, b| b.cmp(a)),
+    }
+    let fraction = |i: usize| (k[i] >> 32) as u32;
+    let mut at = [base; V];
+    let mut w = [0u32; V];
+    w[0] = WEIGHT_ONE - fraction(0);
+    for i in 0..A {
+        at[i + 1] = at[i] + k[i] as u32;
+        w[i + 1] = if i + 1 < A { fraction(i) - fraction(i + 1) } else { fraction(i) };
+    }
+    nodes.blend(at, w)
 }
 
 /// Lightness range above the black point over which the table is smoothed.
@@ -149,9 +302,11 @@ impl SeparationTable {
             smooth_shadows(&mut inks, &lightness, n, 3, separator.black_point().0.l);
         }
         let (tac, k_max) = (separator.settings().tac, separator.settings().black.black_max);
+        let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, tac, k_max)).collect();
         SeparationTable {
             grid: n,
-            nodes: inks.into_iter().map(|x| quantize(x, tac, k_max)).collect(),
+            packed: PackedNodes::new(&nodes),
+            nodes,
             pure_black: separator.settings().keep_pure_black.then(|| (k_max * 65535.0 + 1e-6).floor() as u16),
         }
     }
@@ -205,35 +360,35 @@ impl SeparationTable {
     /// interleaved 8-bit CMYK (`cmyk.len() = 4·pixels`), in parallel over rows
     /// of `row_pixels`.
     pub fn apply_rgb8(&self, rgb: &[u8], cmyk: &mut [u8], row_pixels: usize) {
-        let lut: Vec<Position> = (0..256).map(|v| position(v, 255, self.grid)).collect();
-        let row_pixels = row_pixels.max(1);
-        rgb.par_chunks(3 * row_pixels).zip(cmyk.par_chunks_mut(4 * row_pixels)).for_each(|(src, dst)| {
-            for (px, out) in src.chunks_exact(3).zip(dst.chunks_exact_mut(4)) {
-                if let (Some(k), [0, 0, 0]) = (self.pure_black, px) {
-                    out.copy_from_slice(&[0, 0, 0, (k as u32 * 255 / 65535) as u8]);
-                    continue;
-                }
-                let v = self.interpolate([lut[px[0] as usize], lut[px[1] as usize], lut[px[2] as usize]]);
-                for ch in 0..4 {
-                    out[ch] = ((v[ch] * 255 + 32767) / 65535) as u8;
-                }
-            }
-        });
+        self.apply(rgb, cmyk, row_pixels)
     }
 
     /// Separates interleaved 16-bit RGB into interleaved 16-bit CMYK.
     pub fn apply_rgb16(&self, rgb: &[u16], cmyk: &mut [u16], row_pixels: usize) {
+        self.apply(rgb, cmyk, row_pixels)
+    }
+
+    /// The pixel kernel for either sample type: the same interpolation as
+    /// [`SeparationTable::lookup`] at the pixel's code values (tetrahedral,
+    /// 15-bit weights, 16-bit nodes), rounded to the sample type.
+    fn apply<S: Sample>(&self, rgb: &[S], cmyk: &mut [S], row_pixels: usize) {
+        let n = self.grid as u32;
+        let strides = [n * n, n, 1];
+        let table = step_table::<S, 3>(self.grid, strides);
+        let black = self.pure_black.map(|k| S::from_16_down(k as u32));
+        let zero = S::from_16(0);
         let row_pixels = row_pixels.max(1);
         rgb.par_chunks(3 * row_pixels).zip(cmyk.par_chunks_mut(4 * row_pixels)).for_each(|(src, dst)| {
             for (px, out) in src.chunks_exact(3).zip(dst.chunks_exact_mut(4)) {
-                if let (Some(k), [0, 0, 0]) = (self.pure_black, px) {
-                    out.copy_from_slice(&[0, 0, 0, k]);
+                if let Some(k) = black
+                    && px[0].code() | px[1].code() | px[2].code() == 0
+                {
+                    out.copy_from_slice(&[zero, zero, zero, k]);
                     continue;
                 }
-                let p = [px[0], px[1], px[2]].map(|v| position(v as u32, 65535, self.grid));
-                let v = self.interpolate(p);
+                let v = simplex::<3, 4>(&self.packed, steps(&table, px, self.grid, strides));
                 for ch in 0..4 {
-                    out[ch] = v[ch] as u16;
+                    out[ch] = S::from_16(v[ch]);
                 }
             }
         });
@@ -243,6 +398,50 @@ impl SeparationTable {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// splitmix64 (Steele, Lea & Flood, OOPSLA 2014), for reproducible inputs.
+    fn splitmix(state: &mut u64) -> u64 {
+        *state = state.wrapping_add(0x9E3779B97F4A7C15);
+        let mut z = *state;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58476D1CE4E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D049BB133111EB);
+        z ^ (z >> 31)
+    }
+
+    /// The packed, branch-free kernel gives exactly what the plain
+    /// tetrahedral interpolation (Kasson et al. 1995, the case table of
+    /// `SeparationTable::interpolate`) gives, on random nodes and on codes
+    /// that tie fractions (equal channels, grid nodes, the ends).
+    #[test]
+    fn pixel_kernel_matches_plain_tetrahedral_interpolation() {
+        let mut state = 7u64;
+        for grid in [5usize, 17, 33] {
+            let nodes: Vec<[u16; 4]> = (0..grid.pow(3)).map(|_| std::array::from_fn(|_| splitmix(&mut state) as u16)).collect();
+            let table = SeparationTable { grid, packed: PackedNodes::new(&nodes), nodes, pure_black: None };
+            let mut rgb8: Vec<u8> = (0..3 * 4096).map(|_| splitmix(&mut state) as u8).collect();
+            for v in [0u8, 1, 8, 64, 127, 128, 254, 255] {
+                rgb8.extend([v, v, v, v, v, 0, 255, v, v, v, 3, v]);
+            }
+            let mut rgb16: Vec<u16> = (0..3 * 4096).map(|_| splitmix(&mut state) as u16).collect();
+            for v in [0u16, 1, 2048, 32767, 32768, 65534, 65535] {
+                rgb16.extend([v, v, v, v, v, 0, 65535, v, v, v, 3, v]);
+            }
+            let mut out8 = vec![0u8; rgb8.len() / 3 * 4];
+            let mut out16 = vec![0u16; rgb16.len() / 3 * 4];
+            table.apply_rgb8(&rgb8, &mut out8, 64);
+            table.apply_rgb16(&rgb16, &mut out16, 64);
+            for (px, out) in rgb8.chunks_exact(3).zip(out8.chunks_exact(4)) {
+                let v = table.interpolate([0, 1, 2].map(|a| position(px[a] as u32, 255, grid)));
+                let want: Vec<u8> = v.iter().map(|&v| ((v * 255 + 32767) / 65535) as u8).collect();
+                assert_eq!(out, &want[..], "grid {grid}, pixel {px:?}");
+            }
+            for (px, out) in rgb16.chunks_exact(3).zip(out16.chunks_exact(4)) {
+                let v = table.interpolate([0, 1, 2].map(|a| position(px[a] as u32, 65535, grid)));
+                let want: Vec<u16> = v.iter().map(|&v| v as u16).collect();
+                assert_eq!(out, &want[..], "grid {grid}, pixel {px:?}");
+            }
+        }
+    }
 
     #[test]
     fn positions_cover_the_grid() {
