@@ -59,7 +59,7 @@ pub fn patches_from_cgats(file: &CgatsFile, path: &Path) -> Result<Vec<Patch>> {
             if !(-0.5..=100.5).contains(&v) {
                 return Err(Error::input(
                     path,
-                    format!("line {line}: field {}: {v} is out of range; allowed 0–100 %", table.fields[col]),
+                    format!("line {line}: field {}: {} is out of range; allowed 0–100 %", table.fields[col], show_number(v)),
                 ));
             }
             *slot = v.clamp(0.0, 100.0) / 100.0;
@@ -71,7 +71,7 @@ pub fn patches_from_cgats(file: &CgatsFile, path: &Path) -> Result<Vec<Patch>> {
             if !(0.0..=100.5).contains(&l) {
                 return Err(Error::input(
                     path,
-                    format!("line {line}: field LAB_L: {l} is out of range; allowed 0–100"),
+                    format!("line {line}: field LAB_L: {} is out of range; allowed 0–100", show_number(l)),
                 ));
             }
             Lab::new(l, a, b)
@@ -376,4 +376,10 @@ pub fn fit_model(patches: &[Patch], start: &ModelParams, max_iterations: usize) 
         iterations,
         rms_delta_e76: (cost / patches.len().max(1) as f64).sqrt(),
     }
+}
+
+/// A number as a message shows it: huge values in exponent form (1e300, not
+/// three hundred digits).
+fn show_number(v: f64) -> String {
+    if v.abs() >= 1e6 { format!("{v:e}") } else { format!("{v}") }
 }
