@@ -330,3 +330,19 @@ fn table_agrees_with_direct_separation_on_every_builtin_condition() {
         assert!(near_white.total() < 0.15, "{name}: sRGB (255, 255, 240) separates to {near_white:?}");
     }
 }
+
+/// Colours just off neutral take the black of the neutral beside them: the
+/// black range is found on the curve of exact solutions, whose end near
+/// neutral lies where two inks reach zero together (L* 27.1, a* −0.25 once
+/// printed with no black at all).
+#[test]
+fn near_neutral_colours_keep_the_neutral_black() {
+    let sep = relative();
+    for l in (20..=80).map(|v| v as f64 + 0.1) {
+        let k_neutral = sep.invert(Lab::new(l, 0.0, 0.0), None).x[3];
+        for (a, b) in [(-0.25, 0.0), (0.25, 0.0), (0.0, -0.25), (0.0, 0.25), (-0.5, 0.3), (0.4, -0.4)] {
+            let s = sep.invert(Lab::new(l, a, b), None);
+            assert!((s.x[3] - k_neutral).abs() < 0.05, "L* {l} a* {a} b* {b}: black {:.3} beside the neutral's {k_neutral:.3}", s.x[3]);
+        }
+    }
+}
