@@ -58,22 +58,10 @@ impl RgbSource {
     pub fn node_labs(&self, n: usize) -> Vec<Lab> {
         let coord = |i: usize| i as f64 / (n - 1) as f64;
         let rgb: Vec<[f64; 3]> = (0..n * n * n).map(|i| [coord(i / (n * n)), coord((i / n) % n), coord(i % n)]).collect();
-        match self {
-            RgbSource::Named(space) => {
-                let conv = space.converter();
-                rgb.iter().map(|&v| conv.to_lab(EncodedRgb(v))).collect()
-            }
-            RgbSource::Icc(p) => {
-                // lcms2's floating-point RGB is 0..1, its Lab_DBL is plain L*a*b*.
-                let mut out = vec![[0.0; 3]; rgb.len()];
-                p.to_lab.transform_pixels(&rgb, &mut out);
-                out.into_iter().map(Lab::from_array).collect()
-            }
-        }
+        self.labs_of(&rgb)
     }
 
-    /// CIELAB D50 (PCS) of many encoded RGB values (0..1), in order: the same
-    /// conversion as [`RgbSource::node_labs`], for arbitrary values.
+    /// CIELAB D50 (PCS) of many encoded RGB values (0..1), in order.
     pub fn labs_of(&self, rgb: &[[f64; 3]]) -> Vec<Lab> {
         match self {
             RgbSource::Named(space) => {
@@ -81,6 +69,7 @@ impl RgbSource {
                 rgb.iter().map(|&v| conv.to_lab(EncodedRgb(v))).collect()
             }
             RgbSource::Icc(p) => {
+                // lcms2's floating-point RGB is 0..1, its Lab_DBL is plain L*a*b*.
                 let mut out = vec![[0.0; 3]; rgb.len()];
                 p.to_lab.transform_pixels(rgb, &mut out);
                 out.into_iter().map(Lab::from_array).collect()

@@ -1,7 +1,7 @@
 //! `platesmith inspect INPUT...`: how an RGB file will print, whether a CMYK
 //! file is safe to plate; a text summary, JSON, or a report folder.
 
-use super::options::ModelArgs;
+use super::options::{InputArgs, ModelArgs};
 use crate::error::{Error, Result};
 use crate::inspect::{InspectOptions, InspectReport, Inspection, rules};
 use crate::job::{JobOptions, PlateFormat, Workshop};
@@ -59,15 +59,8 @@ pub struct InspectArgs {
     /// Replace report files that already exist.
     #[arg(long)]
     pub force: bool,
-    /// When an embedded profile is unusable, assume --source-space instead of failing.
-    #[arg(long)]
-    pub ignore_bad_profile: bool,
-    /// Largest width or height accepted, pixels. Default: 40000.
-    #[arg(long, value_name = "PIXELS")]
-    pub max_side: Option<u32>,
-    /// Largest decoded image accepted, MiB. Default: 4096.
-    #[arg(long, value_name = "MIB")]
-    pub max_memory: Option<u64>,
+    #[command(flatten)]
+    pub input: InputArgs,
 }
 
 fn positive(name: &str, v: f64) -> Result<f64> {
@@ -220,9 +213,9 @@ pub fn run(args: InspectArgs) -> Result<i32> {
         plates: PlateFormat::None,
         compression: Compression::None,
         overwrite: args.force,
-        limits: super::separate::read_limits(args.max_side, args.max_memory, t)?,
+        limits: args.input.limits(t)?,
         gray: super::separate::gray_mode(None, t),
-        ignore_bad_profile: args.ignore_bad_profile,
+        ignore_bad_profile: args.input.ignore_bad_profile,
         source_space: setup.source_space,
         source_condition: setup.condition.clone(),
         keep_pure_black_cmyk: true,

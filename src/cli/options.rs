@@ -3,6 +3,7 @@
 use crate::colour::RgbSpace;
 use crate::error::{Error, Result};
 use crate::press::PrintingCondition;
+use crate::raster::Limits;
 use crate::separation::{Intent, SeparationSettings};
 use crate::ticket::Ticket;
 use clap::{Args, ValueEnum};
@@ -189,5 +190,41 @@ impl ModelArgs {
         }
         settings.validate()?;
         Ok(ModelSetup { condition, condition_spec, settings, source_space, ticket })
+    }
+}
+
+/// How input images are read: shared by the commands that read them.
+#[derive(Debug, Clone, Default, Args)]
+pub struct InputArgs {
+    /// When an embedded profile is unusable, assume --source-space instead of failing.
+    #[arg(long)]
+    pub ignore_bad_profile: bool,
+    /// Largest width or height accepted, pixels. Default: 40000.
+    #[arg(long, value_name = "PIXELS")]
+    pub max_side: Option<u32>,
+    /// Largest decoded image accepted, MiB. Default: 4096.
+    #[arg(long, value_name = "MIB")]
+    pub max_memory: Option<u64>,
+}
+
+impl InputArgs {
+    /// Reading limits: the flags, else the ticket's, else the defaults. A zero
+    /// side and a zero or overflowing memory budget are refused.
+    pub fn limits(&self, t: &Ticket) -> Result<Limits> {
+        let mut limits = Limits::default();
+        if let Some(side) = self.max_side.or(t.limits.max_side) {
+            if side == 0 {
+                return Err(Error::usage("--max-side is 0; give the largest image side to accept, in pixels (at least 1)"));
+            }
+            limits.max_width = side;
+            limits.max_height = side;
+        }
+        if let Some(mib) = self.max_memory.or(t.limits.max_memory_mib) {
+            limits.max_bytes = match mib.checked_mul(1 << 20) {
+                Some(bytes) if mib > 0 => bytes,
+                _ => return Err(Error::usage(format!("--max-memory is {mib} MiB; give 1 to {} MiB", u64::MAX >> 20))),
+            };
+        }
+        Ok(limits)
     }
 }

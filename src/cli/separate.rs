@@ -1,7 +1,7 @@
 //! `platesmith separate INPUT...`: rasters in, composite CMYK TIFF, plates
 //! and a summary out.
 
-use super::options::{ModelArgs, ModelSetup};
+use super::options::{InputArgs, ModelArgs, ModelSetup};
 use crate::error::{Error, Result};
 use crate::job::{GrayMode, JobOptions, PlateFormat, Workshop};
 use crate::raster::{Compression, Limits};
@@ -50,15 +50,8 @@ pub struct SeparateArgs {
     /// Replace outputs that already exist.
     #[arg(long)]
     pub force: bool,
-    /// When an embedded profile is unusable, assume --source-space instead of failing.
-    #[arg(long)]
-    pub ignore_bad_profile: bool,
-    /// Largest width or height accepted, pixels. Default: 40000.
-    #[arg(long, value_name = "PIXELS")]
-    pub max_side: Option<u32>,
-    /// Largest decoded image accepted, MiB. Default: 4096.
-    #[arg(long, value_name = "MIB")]
-    pub max_memory: Option<u64>,
+    #[command(flatten)]
+    pub input: InputArgs,
     /// Print the effective ticket (all settings of this job) and exit.
     #[arg(long)]
     pub print_ticket: bool,
@@ -92,26 +85,6 @@ pub(crate) fn gray_mode(flag: Option<GrayMode>, t: &Ticket) -> GrayMode {
     })
 }
 
-/// Reading limits: the flags, else the ticket's, else the defaults. A zero
-/// side and a zero or overflowing memory budget are refused.
-pub(crate) fn read_limits(max_side: Option<u32>, max_memory: Option<u64>, t: &Ticket) -> Result<Limits> {
-    let mut limits = Limits::default();
-    if let Some(side) = max_side.or(t.limits.max_side) {
-        if side == 0 {
-            return Err(Error::usage("--max-side is 0; give the largest image side to accept, in pixels (at least 1)"));
-        }
-        limits.max_width = side;
-        limits.max_height = side;
-    }
-    if let Some(mib) = max_memory.or(t.limits.max_memory_mib) {
-        limits.max_bytes = match mib.checked_mul(1 << 20) {
-            Some(bytes) if mib > 0 => bytes,
-            _ => return Err(Error::usage(format!("--max-memory is {mib} MiB; give 1 to {} MiB", u64::MAX >> 20))),
-        };
-    }
-    Ok(limits)
-}
-
 fn resolve(args: &SeparateArgs) -> Result<Resolved> {
     let setup = args.model.resolve()?;
     let t = &setup.ticket;
@@ -136,7 +109,7 @@ fn resolve(args: &SeparateArgs) -> Result<Resolved> {
         },
     };
     let gray = gray_mode(args.gray, t);
-    let limits = read_limits(args.max_side, args.max_memory, t)?;
+    let limits = args.input.limits(t)?;
     Ok(Resolved { setup, out_dir, bits, plates, compression, gray, limits })
 }
 
@@ -155,9 +128,7 @@ pub fn ticket_workshop(ticket: Option<&Path>) -> Result<(Workshop, Ticket)> {
         source_condition: None,
         reseparate_pure_black: false,
         force: false,
-        ignore_bad_profile: false,
-        max_side: None,
-        max_memory: None,
+        input: InputArgs::default(),
         print_ticket: false,
     };
     let resolved = resolve(&args)?;
@@ -182,7 +153,7 @@ fn build_workshop(args: &SeparateArgs, r: Resolved) -> Result<Workshop> {
         overwrite: args.force,
         limits,
         gray,
-        ignore_bad_profile: args.ignore_bad_profile,
+        ignore_bad_profile: args.input.ignore_bad_profile,
         source_space: setup.source_space,
         source_condition,
         keep_pure_black_cmyk: !args.reseparate_pure_black,

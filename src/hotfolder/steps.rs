@@ -11,9 +11,8 @@
 use crate::error::{Error, Result};
 use crate::cli::inspect::write_report_dir;
 use crate::inspect::rules::parse_all;
-use crate::inspect::{InspectOptions, inspect_file};
+use crate::inspect::{InspectOptions, inspect_separated};
 use crate::job::{OutputPlace, SeparatedFile, Workshop};
-use crate::raster::Layout;
 use crate::ticket::Ticket;
 use std::path::Path;
 use std::sync::Arc;
@@ -83,10 +82,9 @@ pub fn pipeline(workshop: Arc<Workshop>, ticket: &Ticket) -> Result<Vec<Box<dyn 
 /// over the ink limit); a failed rule gives [`Verdict::Fail`] naming it, so the
 /// input goes to `failed/` with the rule in its `.error.txt`.
 ///
-/// RGB and gray input are inspected from the file (the same separation the
-/// separate step wrote, with the ΔE of every pixel); CMYK input is re-separated
-/// by the separate step, so the composite it wrote is what gets plated and is
-/// what is checked.
+/// It checks the separation the separate step made and wrote (`job.separated`,
+/// not read or separated again): RGB and gray input with the ΔE of every
+/// pixel; CMYK input as re-separated, since that is what gets plated.
 pub struct InspectStep {
     pub workshop: Arc<Workshop>,
     pub options: InspectOptions,
@@ -98,14 +96,9 @@ impl Step for InspectStep {
     }
 
     fn run(&self, job: &mut JobFile) -> Result<Verdict> {
-        let stem = job.input.file_stem().and_then(|s| s.to_str()).unwrap_or("image").to_string();
-        let cmyk_input = job.separated.as_ref().is_some_and(|s| s.raster.layout == Layout::Cmyk);
-        let checked = if cmyk_input { job.staging.join(format!("{stem}.cmyk.tif")) } else { job.input.to_path_buf() };
-        let mut inspection = inspect_file(&self.workshop, &checked, &self.options)?;
+        let separated = job.separated.as_ref().ok_or_else(|| Error::Internal("the inspect step runs after the separate step".into()))?;
+        let mut inspection = inspect_separated(&self.workshop, job.input, separated, &self.options, Instant::now())?;
         inspection.report.file = job.name.to_string();
-        if cmyk_input {
-            inspection.report.notes.push(format!("checked: the re-separated composite {stem}.cmyk.tif"));
-        }
         write_report_dir(job.staging, false, job.input, &inspection, &self.workshop.separator)?;
         let failed: Vec<String> = inspection
             .report

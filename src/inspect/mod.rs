@@ -25,7 +25,7 @@ pub mod rules;
 use crate::colour::{Lab, RgbSpace, ciede2000};
 use crate::error::Result;
 use crate::ink::{Cmyk, Ink};
-use crate::job::{InkStats, TacSummary, Workshop};
+use crate::job::{InkStats, SeparatedFile, TacSummary, Workshop};
 use crate::raster::{Layout, Raster, Resolution, Samples};
 use crate::report::{SettingsReport, round_to};
 use crate::separation::{Intent, Separator};
@@ -619,35 +619,77 @@ fn hist_quantile(hist: &[u64], q: f64, bin: f64) -> f64 {
     (hist.len().saturating_sub(1)) as f64 * bin
 }
 
-/// Inspects one file.
+/// Inspects one file: RGB and gray as `separate` separates them, CMYK as it
+/// would be plated (not re-separated).
 pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> Result<Inspection> {
     let started = Instant::now();
     let t = Instant::now();
     let raster = crate::raster::read_raster(path, &workshop.options.limits)?;
     let read_ms = ms(t);
+    if raster.layout == Layout::Cmyk {
+        let notes = vec![format!("the file's own CMYK is checked for {}, as it would be plated (not re-separated)", workshop.separator.condition().name)];
+        // Ink statistics are gathered in the analysis pass.
+        let subject = Subject { raster: &raster, cmyk: &raster.samples, stats: None, rgb: None, source: None, notes, source_description: "CMYK".into(), read_ms, separate_ms: 0.0 };
+        analyse(workshop, path, subject, opts, started)
+    } else {
+        let separated = workshop.separate_raster(path, raster, read_ms)?;
+        inspect_separated(workshop, path, &separated, opts, started)
+    }
+}
+
+/// Inspects a file already separated in memory ([`Workshop::separate_file`]),
+/// exactly the CMYK that was (or will be) written: for RGB and gray input with
+/// the ΔE of every pixel; for CMYK input, the re-separated CMYK.
+pub fn inspect_separated(workshop: &Workshop, path: &Path, s: &SeparatedFile, opts: &InspectOptions, started: Instant) -> Result<Inspection> {
+    let separate_ms = s.table_ms + s.separate_ms;
+    if s.raster.layout == Layout::Cmyk {
+        let mut notes = s.notes.clone();
+        notes.push("checked: the re-separated CMYK".into());
+        let subject = Subject { raster: &s.raster, cmyk: &s.image.samples, stats: Some(s.stats.clone()), rgb: None, source: None, notes, source_description: s.source_description.clone(), read_ms: s.read_ms, separate_ms };
+        return analyse(workshop, path, subject, opts, started);
+    }
+    let rgb = crate::job::to_rgb(&s.raster, &mut Vec::new());
+    let fallback_source = RgbSource::Named(workshop.options.source_space);
+    let source = s.rgb_source.as_ref().unwrap_or(&fallback_source);
+    let mut notes = s.notes.clone();
+    if s.rgb_source.is_none() {
+        notes.push(format!("ΔE measured against {} gray", workshop.options.source_space.name()));
+    }
+    let subject = Subject {
+        raster: &s.raster,
+        cmyk: &s.image.samples,
+        stats: Some(s.stats.clone()),
+        rgb: rgb.as_deref(),
+        source: Some(source),
+        notes,
+        source_description: s.source_description.clone(),
+        read_ms: s.read_ms,
+        separate_ms,
+    };
+    analyse(workshop, path, subject, opts, started)
+}
+
+/// What one inspection looks at.
+struct Subject<'a> {
+    /// The file as read (size, resolution, layout).
+    raster: &'a Raster,
+    /// The CMYK checked.
+    cmyk: &'a Samples,
+    /// Its ink statistics when already known.
+    stats: Option<InkStats>,
+    /// The source RGB and its colour space, for the ΔE (RGB and gray input).
+    rgb: Option<&'a Samples>,
+    source: Option<&'a RgbSource>,
+    notes: Vec<String>,
+    source_description: String,
+    read_ms: f64,
+    separate_ms: f64,
+}
+
+fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOptions, started: Instant) -> Result<Inspection> {
+    let Subject { raster, cmyk, stats, rgb, source, notes, source_description, read_ms, separate_ms } = subject;
     let separator = &workshop.separator;
     let tac_limit = separator.settings().tac;
-    let owned_raster: Raster;
-    let separated;
-    let fallback_source = RgbSource::Named(workshop.options.source_space);
-    let rgb_cow;
-    let (raster, cmyk, stats, rgb, source, notes, source_description, separate_ms) = if raster.layout == Layout::Cmyk {
-        owned_raster = raster;
-        // Ink statistics are gathered in the pass below.
-        let stats = None;
-        let notes = vec![format!("the file's own CMYK is checked for {}, as it would be plated (not re-separated)", separator.condition().name)];
-        (&owned_raster, &owned_raster.samples, stats, None, None, notes, "CMYK".to_string(), 0.0)
-    } else {
-        separated = workshop.separate_raster(path, raster, read_ms)?;
-        let s = &separated;
-        rgb_cow = crate::job::to_rgb(&s.raster, &mut Vec::new());
-        let source = s.rgb_source.as_ref().unwrap_or(&fallback_source);
-        let mut notes = s.notes.clone();
-        if s.rgb_source.is_none() {
-            notes.push(format!("ΔE measured against {} gray", workshop.options.source_space.name()));
-        }
-        (&s.raster, &s.image.samples, Some(s.stats.clone()), rgb_cow.as_deref(), Some(source), notes, s.source_description.clone(), s.table_ms + s.separate_ms)
-    };
     let t = Instant::now();
     let (w, h) = (raster.width as usize, raster.height as usize);
     let res = raster.resolution.unwrap_or(Resolution::DEFAULT);

@@ -447,13 +447,6 @@ impl Separator {
             .unwrap_or(low)
     }
 
-    /// True for the intents that map the source black onto the press black
-    /// point and so reproduce the whole shadow range (perceptual, relative
-    /// with black point compensation).
-    pub fn maps_source_black_to_black_point(&self) -> bool {
-        matches!(self.settings.intent, Intent::Perceptual) || (self.settings.intent == Intent::Relative && self.settings.bpc)
-    }
-
     /// True where the table smooths the deepest shadows in ink space:
     /// relative colorimetric with black point compensation, which carries the
     /// whole shadow range onto the press black point by a fixed scaling (ISO
