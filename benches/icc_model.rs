@@ -41,6 +41,7 @@ fn spec<'a>(
         gamut,
         a2b_grid: 17,
         b2a_grid: 33,
+        float_b2d: None,
     }
 }
 

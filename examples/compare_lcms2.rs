@@ -129,6 +129,7 @@ fn stand_in_profile(sep: &Separator) -> Result<Vec<u8>, String> {
         gamut: &gamut,
         a2b_grid: 17,
         b2a_grid: 33,
+        float_b2d: None,
     };
     build_output_profile(&spec).map_err(|e| e.to_string())
 }

@@ -60,7 +60,8 @@ pub struct JobOptions {
 /// embedded in composites. A reader shows the file through the AToB tables,
 /// which keep their full size; the BToA side only serves converting other
 /// colours into the condition, for which `platesmith profile` writes the full
-/// 33³ tables. 17³ builds in a seventh of the time.
+/// 33³ tables and the floating-point BToD tables, which the embedded profile
+/// leaves out. 17³ builds in a seventh of the time.
 pub const EMBEDDED_B2A_GRID: u32 = 17;
 
 /// Nodes per axis of the 4-D re-separation table.
@@ -269,7 +270,11 @@ impl Workshop {
     pub fn output_profile(&self) -> Result<&[u8]> {
         self.profile
             .get_or_init(|| {
-                let options = crate::icc::ProfileOptions { b2a_grid: EMBEDDED_B2A_GRID, ..crate::icc::ProfileOptions::default() };
+                let options = crate::icc::ProfileOptions {
+                    b2a_grid: EMBEDDED_B2A_GRID,
+                    float_tables: false,
+                    ..crate::icc::ProfileOptions::default()
+                };
                 crate::icc::profile_for_separator(&self.separator, &options).map_err(|e| e.to_string())
             })
             .as_deref()

@@ -12,14 +12,17 @@ fn platesmith() -> Command {
 #[test]
 fn writes_a_v4_profile_and_a_v2_profile_on_request() {
     let dir = tempfile::tempdir().unwrap();
-    for (flag, version, name) in [(None, 4.4, "press.icc"), (Some("2"), 2.4, "press-v2.icc")] {
+    let cases: [(&[&str], f64, &str, bool); 3] = [
+        (&[], 4.4, "press.icc", true),
+        (&["--no-float-tables"], 4.4, "press-16.icc", false),
+        (&["--icc-version", "2"], 2.4, "press-v2.icc", false),
+    ];
+    for (flags, version, name, float_tables) in cases {
         let path = dir.path().join(name);
         let mut cmd = platesmith();
-        cmd.args(["profile", "--out"]).arg(&path).args(["--condition", "newsprint", "--tac", "230", "--gcr", "70"]);
-        if let Some(v) = flag {
-            cmd.args(["--icc-version", v]);
-        }
-        cmd.assert().success().stderr(predicates::str::contains("prediction"));
+        cmd.args(["profile", "--out"]).arg(&path).args(["--condition", "newsprint", "--tac", "230", "--gcr", "70"]).args(flags);
+        let out = cmd.assert().success().stderr(predicates::str::contains("prediction")).get_output().stderr.clone();
+        assert_eq!(String::from_utf8_lossy(&out).contains("floating-point"), float_tables);
         let bytes = std::fs::read(&path).unwrap();
         // ICC.1:2022 §7.2.2: the size field is the file's size; 'acsp' at byte 36.
         assert_eq!(u32::from_be_bytes(bytes[0..4].try_into().unwrap()) as usize, bytes.len());
@@ -28,6 +31,10 @@ fn writes_a_v4_profile_and_a_v2_profile_on_request() {
         assert_eq!(p.device_class(), ProfileClassSignature::OutputClass);
         assert_eq!((p.color_space(), p.pcs()), (ColorSpaceSignature::CmykData, ColorSpaceSignature::LabData));
         assert!((p.version() - version).abs() < 1e-9, "{}", p.version());
+        // The floating-point BToD tables (multiProcessElementsType) unless left out.
+        for tag in [lcms2::TagSignature::BToD0Tag, lcms2::TagSignature::BToD1Tag, lcms2::TagSignature::BToD2Tag] {
+            assert_eq!(p.has_tag(tag), float_tables, "{name}: {tag:?}");
+        }
         let d = p.info(lcms2::InfoType::Description, Locale::none()).unwrap();
         assert!(d.contains("newsprint") && d.contains("TAC 230 %") && d.contains("GCR 70 %"), "{d}");
         // lcms2 finds the ink limit in the BToA table (cmsDetectTAC).

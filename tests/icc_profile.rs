@@ -122,6 +122,7 @@ fn profile_bytes(f: &Fixture, version: IccVersion, a2b_grid: u32, b2a_grid: u32)
         gamut: &gamut,
         a2b_grid,
         b2a_grid,
+        float_b2d: None,
     };
     build_output_profile(&spec).expect("profile builds")
 }
@@ -530,65 +531,178 @@ mod separation_profile {
         }
     }
 
+    /// platesmith's own separation of sRGB for an intent: the table `separate` builds.
+    fn separation_table(intent: SepIntent) -> SeparationTable {
+        let sep = Separator::new(coated_offset(), settings(intent)).unwrap();
+        let source = RgbSource::Named(platesmith::colour::RgbSpace::Srgb);
+        let gamut = source.gamut();
+        let mapping = sep.source_mapping(gamut.as_ref());
+        let conv = platesmith::colour::RgbSpace::Srgb.converter();
+        SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(platesmith::colour::EncodedRgb(rgb)))
+    }
+
+    /// Share within 1 % ink, 99th percentile, mean and worst (with where) of
+    /// the largest per-channel difference (percent ink).
+    struct Agreement {
+        share: f64,
+        p99: f64,
+        mean: f64,
+        worst: (f64, [f64; 3]),
+    }
+
+    fn agreement(rgb: &[[f64; 3]], theirs: &[[f64; 4]], table: &SeparationTable) -> Agreement {
+        let mut worst = (0.0f64, [0.0; 3]);
+        let mut diffs: Vec<f64> = rgb
+            .iter()
+            .zip(theirs)
+            .map(|(v, lc)| {
+                let ours = table.lookup(*v).to_percent();
+                let d = (0..4).map(|i| (ours[i] - lc[i]).abs()).fold(0.0, f64::max);
+                if d > worst.0 {
+                    worst = (d, *v);
+                }
+                d
+            })
+            .collect();
+        let share = diffs.iter().filter(|&&d| d <= 1.0).count() as f64 / diffs.len() as f64;
+        let (mean, _) = stats(&diffs);
+        diffs.sort_by(f64::total_cmp);
+        let p99 = diffs[(diffs.len() as f64 * 0.99) as usize];
+        Agreement { share, p99, mean, worst }
+    }
+
+    fn srgb_grid(n: usize) -> Vec<[f64; 3]> {
+        (0..n.pow(3)).map(|i| [i / (n * n), i / n % n, i % n].map(|v| v as f64 / (n - 1) as f64)).collect()
+    }
+
     #[test]
     fn srgb_through_lcms2_agrees_with_the_separation() {
         // The issue's check: lcms2's sRGB → profile transform against
-        // platesmith's own separation (the table `separate` builds, at its
-        // nodes) on a 17³ grid of sRGB: within 1 % ink per channel on ≥ 99 %.
-        let n = 17usize;
-        for version in VERSIONS {
-            let p = Profile::new_icc(profile(version)).unwrap();
-            for intent in [SepIntent::Relative, SepIntent::Perceptual] {
-                let sep = Separator::new(coated_offset(), settings(intent)).unwrap();
-                let source = RgbSource::Named(platesmith::colour::RgbSpace::Srgb);
-                let gamut = source.gamut();
-                let mapping = sep.source_mapping(gamut.as_ref());
-                let conv = platesmith::colour::RgbSpace::Srgb.converter();
-                let table = SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(platesmith::colour::EncodedRgb(rgb)));
-                let t = srgb_to_cmyk(&p, lcms_intent(intent));
-                let rgb: Vec<[f64; 3]> = (0..n.pow(3)).map(|i| [i / (n * n), i / n % n, i % n].map(|v| v as f64 / (n - 1) as f64)).collect();
+        // platesmith's own separation (the table `separate` builds) on a 17³
+        // grid of sRGB: within 1 % ink per channel on ≥ 99 %.
+        let rgb = srgb_grid(17);
+        for intent in [SepIntent::Relative, SepIntent::Perceptual] {
+            let table = separation_table(intent);
+            for version in VERSIONS {
+                let p = Profile::new_icc(profile(version)).unwrap();
                 let mut theirs = vec![[0.0; 4]; rgb.len()];
-                t.transform_pixels(&rgb, &mut theirs);
-                let mut worst = (0.0f64, [0.0; 3]);
-                let mut within = 0usize;
-                let mut diffs = Vec::with_capacity(rgb.len());
-                for (v, lc) in rgb.iter().zip(&theirs) {
-                    let ours = table.lookup(*v).to_percent();
-                    let d = (0..4).map(|i| (ours[i] - lc[i]).abs()).fold(0.0, f64::max);
-                    diffs.push(d);
-                    if d <= 1.0 {
-                        within += 1;
+                srgb_to_cmyk(&p, lcms_intent(intent)).transform_pixels(&rgb, &mut theirs);
+                let a = agreement(&rgb, &theirs, &table);
+                println!(
+                    "{version:?} {intent:?}: sRGB 17³ through lcms2 vs separation table: {:.2} % within 1 % ink, 99th percentile {:.2} %, mean {:.3} %, worst {:.2} % at RGB {:?}",
+                    a.share * 100.0,
+                    a.p99,
+                    a.mean,
+                    a.worst.0,
+                    a.worst.1.map(|x| (x * 255.0).round())
+                );
+                match version {
+                    // lcms2 reads the floating-point BToD tables, whose CLUT
+                    // has the separation table's nodes among its own.
+                    IccVersion::V4 => {
+                        assert!(a.share >= 0.99, "{version:?} {intent:?}: only {:.2} % within 1 % ink", a.share * 100.0);
+                        assert!(a.worst.0 <= 0.5 && a.mean <= 0.05, "{version:?} {intent:?}: worst {:.2} %, mean {:.3} %", a.worst.0, a.mean);
                     }
-                    if d > worst.0 {
-                        worst = (d, *v);
+                    // Version 2 has only the 16-bit BToA tables: a 33³ CIELAB
+                    // grid interpolates across the creases of the separation
+                    // (where an ink reaches 0 or 100 % the others change
+                    // slope), which run through much of the gamut. What they
+                    // achieve is held here, so a regression fails; the
+                    // perceptual map curves more and interpolates less well.
+                    IccVersion::V2 => {
+                        let (min_share, max_p99, max_mean) = match intent {
+                            SepIntent::Relative => (0.80, 6.5, 0.7),
+                            _ => (0.48, 11.5, 1.8),
+                        };
+                        assert!(a.share >= min_share, "{version:?} {intent:?}: only {:.2} % within 1 % ink", a.share * 100.0);
+                        assert!(a.p99 <= max_p99 && a.mean <= max_mean, "{version:?} {intent:?}: 99th percentile {:.2} %, mean {:.3} %", a.p99, a.mean);
                     }
                 }
-                let share = within as f64 / rgb.len() as f64;
-                let (mean, _) = stats(&diffs);
-                diffs.sort_by(f64::total_cmp);
-                let p99 = diffs[(diffs.len() as f64 * 0.99) as usize];
-                println!(
-                    "{version:?} {intent:?}: sRGB 17³ through lcms2 vs separation table: {:.2} % within 1 % ink, 99th percentile {p99:.2} %, mean {mean:.3} %, worst {:.2} % at RGB {:?}",
-                    share * 100.0,
-                    worst.0,
-                    worst.1.map(|x| (x * 255.0).round())
-                );
-                // The issue asks for ≥ 99 % within 1 % ink. A 33³ PCS table
-                // interpolates across the creases of the separation (where an
-                // ink reaches 0 or 100 % the others change slope), and those
-                // creases run through much of the gamut, so that is not met
-                // (figures in docs/REFERENCES.md). What the default tables
-                // achieve is held here, so a regression fails.
-                // The perceptual map curves more (knee compression toward the
-                // boundary), so its table interpolates less well.
-                let (min_share, max_p99, max_mean) = match intent {
-                    SepIntent::Relative => (0.80, 6.5, 0.7),
-                    _ => (0.48, 11.5, 1.8),
-                };
-                assert!(share >= min_share, "{version:?} {intent:?}: only {:.2} % within 1 % ink", share * 100.0);
-                assert!(p99 <= max_p99 && mean <= max_mean, "{version:?} {intent:?}: 99th percentile {p99:.2} %, mean {mean:.3} %");
             }
         }
+    }
+
+    #[test]
+    fn float_tables_separate_srgb_as_platesmith_does_between_nodes_too() {
+        // Off the grid, lcms2's float transform and platesmith's table both
+        // interpolate tetrahedrally over the same nodes; and an application
+        // using lcms2 on 8-bit pixels (its default precalculated device link,
+        // 33³ for RGB input, cmsxform.c/cmsopt.c) gets the same plates as
+        // `separate` to within rounding.
+        let p = Profile::new_icc(profile(IccVersion::V4)).unwrap();
+        let mut rng = Rng(0x9e37_79b9_7f4a_7c15);
+        let rgb: Vec<[f64; 3]> = (0..20_000).map(|_| [rng.unit(), rng.unit(), rng.unit()]).collect();
+        let pixels: Vec<[u8; 3]> = (0..20_000).map(|_| [rng.unit(), rng.unit(), rng.unit()].map(|v| (v * 255.0).round() as u8)).collect();
+        for intent in [SepIntent::Relative, SepIntent::Perceptual] {
+            let table = separation_table(intent);
+            let mut theirs = vec![[0.0; 4]; rgb.len()];
+            srgb_to_cmyk(&p, lcms_intent(intent)).transform_pixels(&rgb, &mut theirs);
+            let a = agreement(&rgb, &theirs, &table);
+            println!("{intent:?}: 20 000 random sRGB colours: {:.2} % within 1 % ink, worst {:.3} %, mean {:.4} %", a.share * 100.0, a.worst.0, a.mean);
+            assert!(a.share >= 0.999 && a.worst.0 <= 1.0, "{intent:?}: {:.2} %, worst {:.3} %", a.share * 100.0, a.worst.0);
+
+            let eight: Transform<[u8; 3], [u8; 4], GlobalContext, lcms2::DisallowCache> = Transform::new_flags_context(
+                GlobalContext::new(),
+                &Profile::new_srgb_context(GlobalContext::new()),
+                PixelFormat::RGB_8,
+                &p,
+                PixelFormat::CMYK_8,
+                lcms_intent(intent),
+                Flags::NO_CACHE,
+            )
+            .unwrap();
+            let mut lcms_out = vec![[0u8; 4]; pixels.len()];
+            eight.transform_pixels(&pixels, &mut lcms_out);
+            let flat: Vec<u8> = pixels.iter().flatten().copied().collect();
+            let mut ours = vec![0u8; pixels.len() * 4];
+            table.apply_rgb8(&flat, &mut ours, pixels.len());
+            let diffs: Vec<i32> = ours.iter().zip(lcms_out.iter().flatten()).map(|(&a, &b)| (a as i32 - b as i32).abs()).collect();
+            let within = diffs.iter().filter(|&&d| d <= 1).count() as f64 / diffs.len() as f64;
+            let max = diffs.iter().copied().max().unwrap();
+            println!("{intent:?}: 8-bit through lcms2's device link vs separate: {:.3} % of channels within 1 code, largest {max} codes", within * 100.0);
+            assert!(within >= 0.995 && max <= 3, "{intent:?}: {:.3} % within 1 code, largest {max}", within * 100.0);
+        }
+    }
+
+    /// The type signature of a tag in a profile's tag table (ICC.1:2022 §7.3).
+    fn tag_type(bytes: &[u8], sig: &[u8; 4]) -> Option<[u8; 4]> {
+        let word = |at: usize| u32::from_be_bytes(bytes[at..at + 4].try_into().unwrap()) as usize;
+        (0..word(128)).map(|i| 132 + 12 * i).find(|&e| &bytes[e..e + 4] == sig).map(|e| bytes[word(e + 4)..word(e + 4) + 4].try_into().unwrap())
+    }
+
+    #[test]
+    fn float_tables_are_written_in_v4_only_and_the_16_bit_tables_stay() {
+        let v4 = profile(IccVersion::V4);
+        for sig in [b"B2D0", b"B2D1", b"B2D2"] {
+            assert_eq!(tag_type(v4, sig), Some(*b"mpet"), "{}", String::from_utf8_lossy(sig));
+        }
+        for sig in [b"B2A0", b"B2A1", b"B2A2"] {
+            assert_eq!(tag_type(v4, sig), Some(*b"mBA "), "{}", String::from_utf8_lossy(sig));
+            assert_eq!(tag_type(profile(IccVersion::V2), sig), Some(*b"mft2"));
+        }
+        // D2Bx would take precedence over AToB in lcms2; none is written.
+        assert_eq!(tag_type(v4, b"D2B0"), None);
+        assert_eq!(tag_type(profile(IccVersion::V2), b"B2D1"), None);
+
+        // What a CMM without float support gets from the v4 profile: its
+        // 16-bit BToA1 table, evaluated directly, against the separation
+        // (sRGB → CIELAB by IEC 61966-2-1, checked against lcms2 in
+        // tests/colour_lcms2.rs). Held at its measured level.
+        let p = Profile::new_icc(v4).unwrap();
+        let Tag::Pipeline(b2a1) = p.read_tag(TagSignature::BToA1Tag) else { panic!("no B2A1") };
+        let conv = platesmith::colour::RgbSpace::Srgb.converter();
+        let rgb = srgb_grid(17);
+        let theirs: Vec<[f64; 4]> = rgb
+            .iter()
+            .map(|&v| {
+                let mut out = [0u16; 4];
+                b2a1.eval(&encode_lab(conv.to_lab(platesmith::colour::EncodedRgb(v)), IccVersion::V4), &mut out);
+                out.map(|c| c as f64 / 655.35)
+            })
+            .collect();
+        let a = agreement(&rgb, &theirs, &separation_table(SepIntent::Relative));
+        println!("V4 16-bit BToA1: {:.2} % within 1 % ink, 99th percentile {:.2} %, mean {:.3} %", a.share * 100.0, a.p99, a.mean);
+        assert!(a.share >= 0.80 && a.p99 <= 6.5 && a.mean <= 0.7, "{:.2} % {:.2} {:.3}", a.share * 100.0, a.p99, a.mean);
     }
 
     #[test]

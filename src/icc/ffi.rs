@@ -49,7 +49,12 @@ pub(super) fn clut_pipeline(inputs: u32, outputs: u32, grid: u32, table: &[u16],
         stages.push(Stage::new_tone_curves(&vec![&*identity; outputs as usize]).map_err(|_| lcms("output curves"))?);
     }
 
-    let pipeline = Pipeline::new(inputs as usize, outputs as usize).map_err(|_| lcms("a pipeline"))?;
+    chain(inputs, outputs, stages)
+}
+
+/// A pipeline `inputs → outputs` of the given stages, in order.
+pub(super) fn chain(inputs: u32, outputs: u32, stages: Vec<Stage>) -> Result<Pipeline> {
+    let pipeline = Pipeline::new(inputs as usize, outputs as usize).map_err(|_| Error::Internal("lcms2 could not allocate a pipeline".into()))?;
     for stage in stages {
         // SAFETY: `pipeline.as_ptr()` is a live cmsPipeline owned by `pipeline`;
         // `stage.into_ptr()` hands over a live cmsStage that we no longer own.
@@ -62,6 +67,52 @@ pub(super) fn clut_pipeline(inputs: u32, outputs: u32, grid: u32, table: &[u16],
         }
     }
     Ok(pipeline)
+}
+
+/// One piece of a segmented curve: y = (a·x + b)^gamma + c for x in (x0, x1]
+/// (the formula segment of ICC.1:2022 §10.2.2, function type 0; lcms2's
+/// parametric type 6). For gamma ≠ 1 lcms2 gives y = c where a·x + b < 0, so
+/// callers keep a·x + b positive over the segment.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(super) struct FormulaSegment {
+    pub x0: f32,
+    pub x1: f32,
+    pub gamma: f64,
+    pub a: f64,
+    pub b: f64,
+    pub c: f64,
+}
+
+/// lcms2's bounds for "minus and plus infinity" in segmented curves (cmsgamma.c).
+pub(super) const CURVE_MINUS_INF: f32 = -1e22;
+pub(super) const CURVE_PLUS_INF: f32 = 1e22;
+
+/// A segmented tone curve (the only curve a multiProcessElementsType curve
+/// set can hold) from formula segments that tile the real line in order.
+pub(super) fn segmented_curve(segments: &[FormulaSegment]) -> Result<ToneCurve> {
+    let tiles = segments.first().is_some_and(|s| s.x0 == CURVE_MINUS_INF)
+        && segments.last().is_some_and(|s| s.x1 == CURVE_PLUS_INF)
+        && segments.windows(2).all(|w| w[0].x1 == w[1].x0 && w[0].x0 < w[0].x1);
+    if !tiles {
+        return Err(Error::Internal("curve segments must tile the real line in order".into()));
+    }
+    let raw: Vec<sys::CurveSegment> = segments
+        .iter()
+        .map(|s| {
+            let mut params = [0.0; 10];
+            params[..4].copy_from_slice(&[s.gamma, s.a, s.b, s.c]);
+            sys::CurveSegment { x0: s.x0, x1: s.x1, Type: 6, Params: params, nGridPoints: 0, SampledPoints: std::ptr::null_mut() }
+        })
+        .collect();
+    // SAFETY: `raw` holds `raw.len()` initialised segments and outlives the
+    // call; formula segments carry no sample pointer. lcms2 copies the
+    // segments into the curve it returns (or returns null), and
+    // `ToneCurve::from_ptr` takes ownership of that curve, freeing it on drop.
+    let curve = unsafe { sys::cmsBuildSegmentedToneCurve(std::ptr::null_mut(), raw.len() as u32, raw.as_ptr()) };
+    if curve.is_null() {
+        return Err(Error::Internal("lcms2 could not build a segmented curve".into()));
+    }
+    Ok(unsafe { ToneCurve::from_ptr(curve) })
 }
 
 #[cfg(test)]

@@ -13,13 +13,15 @@
 
 mod encoding;
 mod ffi;
+mod float_tables;
 mod separation_profile;
 mod writer;
 
 pub use encoding::{decode_lab, encode_lab, encode_unit, grid_lab};
+pub use float_tables::{FloatIntent, FloatTables, LINEAR_RANGE, SrgbFrame, XyzScaling};
 pub use separation_profile::{
     PERCEPTUAL_REFERENCE_BLACK, ProfileOptions, perceptual_pcs_black, profile_description, profile_for, profile_for_separator,
-    scale_black,
+    black_scaling, scale_black,
 };
 pub use writer::{
     DEFAULT_A2B_GRID, DEFAULT_B2A_GRID, DEFAULT_COPYRIGHT, OutputProfileSpec, build_output_profile, default_description,

@@ -38,6 +38,7 @@
 //! The BToA grids are solved line by line along b* with warm starts, in
 //! parallel over lines, as the separation table is.
 
+use super::float_tables::{FloatIntent, FloatTables, SrgbFrame, XyzScaling};
 use super::{IccVersion, OutputProfileSpec, build_output_profile, default_description, grid_lab};
 use super::{DEFAULT_A2B_GRID, DEFAULT_B2A_GRID, DEFAULT_COPYRIGHT};
 use crate::colour::{D50, Lab, RgbSpace, Xyz, ciede2000};
@@ -63,11 +64,15 @@ pub struct ProfileOptions {
     pub description: Option<String>,
     /// Copyright text (`cprt`); `None` writes [`DEFAULT_COPYRIGHT`].
     pub copyright: Option<String>,
+    /// Also write the floating-point BToD0/1/2 tables in sRGB coordinates
+    /// (version 4 only; see [`super::float_tables`]): 1.5 MB per intent,
+    /// worth it wherever the profile separates artwork.
+    pub float_tables: bool,
 }
 
 impl Default for ProfileOptions {
     fn default() -> ProfileOptions {
-        ProfileOptions { version: IccVersion::V4, a2b_grid: DEFAULT_A2B_GRID, b2a_grid: DEFAULT_B2A_GRID, description: None, copyright: None }
+        ProfileOptions { version: IccVersion::V4, a2b_grid: DEFAULT_A2B_GRID, b2a_grid: DEFAULT_B2A_GRID, description: None, copyright: None, float_tables: true }
     }
 }
 
@@ -84,15 +89,19 @@ pub fn perceptual_pcs_black(version: IccVersion) -> Xyz {
 /// tristimulus channel in the form lcms2 computes it
 /// (`ComputeBlackPointCompensation`, cmscnvrt.c).
 pub fn scale_black(lab: Lab, from: Xyz, to: Xyz) -> Lab {
+    let s = black_scaling(from, to);
+    let v = lab.to_xyz().to_array();
+    Lab::from_xyz(Xyz::from_array(std::array::from_fn(|i| s.scale[i] * v[i] + s.offset[i])))
+}
+
+/// The coefficients of [`scale_black`]: X' = scale·X + offset per channel.
+pub fn black_scaling(from: Xyz, to: Xyz) -> XyzScaling {
     let w = D50.xyz.to_array();
     let (f, t) = (from.to_array(), to.to_array());
-    let v = lab.to_xyz().to_array();
-    let out: [f64; 3] = std::array::from_fn(|i| {
-        let a = (t[i] - w[i]) / (f[i] - w[i]);
-        let b = -w[i] * (t[i] - f[i]) / (f[i] - w[i]);
-        a * v[i] + b
-    });
-    Lab::from_xyz(Xyz::from_array(out))
+    XyzScaling {
+        scale: std::array::from_fn(|i| (t[i] - w[i]) / (f[i] - w[i])),
+        offset: std::array::from_fn(|i| -w[i] * (t[i] - f[i]) / (f[i] - w[i])),
+    }
 }
 
 /// The default description of a profile: the condition and the settings that
@@ -131,30 +140,10 @@ pub fn profile_for_separator(separator: &Separator, options: &ProfileOptions) ->
 
     // The three BToA intents and the gamut measure, solved once per node.
     let n = options.b2a_grid.clamp(2, 255) as usize;
-    let lines: Vec<Vec<Node>> = (0..n * n)
-        .into_par_iter()
-        .map(|line| {
-            let (li, ai) = ((line / n) as u32, (line % n) as u32);
-            let mut starts: [Option<[f64; 4]>; 3] = [None; 3];
-            (0..n as u32)
-                .map(|bi| {
-                    let lab = grid_lab([li, ai, bi], n as u32, version);
-                    let targets = [
-                        perceptual.intent_target(scale_black(lab, pcs_black, zero), &mapping),
-                        lab,
-                        scale_black(lab, pcs_black, press_black),
-                    ];
-                    let ink: [[f64; 4]; 3] = std::array::from_fn(|i| {
-                        let s = colorimetric.invert(targets[i], starts[i]);
-                        starts[i] = Some(s.x);
-                        s.x
-                    });
-                    Node { ink, targets, gamut: 0.0 }
-                })
-                .collect()
-        })
-        .collect();
-    let mut nodes: Vec<Node> = lines.into_iter().flatten().collect();
+    let mut nodes = solve_grid(&colorimetric, n, &|[li, ai, bi]| {
+        let lab = grid_lab([li, ai, bi].map(|i| i as u32), n as u32, version);
+        [perceptual.intent_target(scale_black(lab, pcs_black, zero), &mapping), lab, scale_black(lab, pcs_black, press_black)]
+    });
     repair_black_outliers(&colorimetric, &mut nodes, n);
     nodes.par_iter_mut().enumerate().for_each(|(i, node)| {
         let lab = grid_lab([(i / (n * n)) as u32, (i / n % n) as u32, (i % n) as u32], n as u32, version);
@@ -186,6 +175,27 @@ pub fn profile_for_separator(separator: &Separator, options: &ProfileOptions) ->
         Some(node) => node.gamut,
         None => ciede2000(lab, colorimetric.printed_relative(b2a1(lab))),
     };
+    // The same intents on a grid in sRGB coordinates, for the floating-point
+    // tables: the PCS colour of a node is that of its sRGB value, seen
+    // through each intent's black scaling (none for relative colorimetry).
+    let float_b2d = match (options.float_tables, version) {
+        (true, IccVersion::V4) => {
+            let frame = SrgbFrame::new(separator.settings().table_grid)?;
+            let float_nodes = solve_grid(&colorimetric, frame.grid(), &|index| {
+                let source = Lab::from_xyz(frame.node_xyz(index));
+                [perceptual.intent_target(source, &mapping), source, scale_black(source, zero, press_black)]
+            });
+            let to_zero = black_scaling(pcs_black, zero);
+            let intents = [to_zero, XyzScaling::IDENTITY, to_zero].into_iter().enumerate().map(|(i, scaling)| FloatIntent {
+                scaling,
+                table: float_nodes.iter().flat_map(|node| node.ink[i].map(|v| v as f32)).collect(),
+            });
+            let intents: Vec<FloatIntent> = intents.collect();
+            let intents: [FloatIntent; 3] = intents.try_into().expect("three intents");
+            Some(FloatTables { frame, intents })
+        }
+        _ => None,
+    };
     let a2b = |ink: Cmyk| colorimetric.printed_relative(ink);
     let a2b_perceptual = |ink: Cmyk| scale_black(colorimetric.printed_relative(ink), press_black, pcs_black);
     let spec = OutputProfileSpec {
@@ -199,11 +209,38 @@ pub fn profile_for_separator(separator: &Separator, options: &ProfileOptions) ->
         gamut: &gamut,
         a2b_grid: options.a2b_grid,
         b2a_grid: options.b2a_grid,
+        float_b2d: float_b2d.as_ref(),
     };
     build_output_profile(&spec)
 }
 
-/// One node of the PCS grid: ink per BToA intent (perceptual, relative,
+/// Solves the three intents at every node of an n³ grid from the working-frame
+/// targets `targets_of` gives per node (perceptual, relative, saturation).
+/// Lines along the last axis are solved in order with warm starts, so
+/// neighbouring nodes take the same branch of the inversion and the result
+/// does not depend on threads; lines run in parallel.
+fn solve_grid(separator: &Separator, n: usize, targets_of: &(dyn Fn([usize; 3]) -> [Lab; 3] + Sync)) -> Vec<Node> {
+    let lines: Vec<Vec<Node>> = (0..n * n)
+        .into_par_iter()
+        .map(|line| {
+            let mut starts: [Option<[f64; 4]>; 3] = [None; 3];
+            (0..n)
+                .map(|last| {
+                    let targets = targets_of([line / n, line % n, last]);
+                    let ink: [[f64; 4]; 3] = std::array::from_fn(|i| {
+                        let s = separator.invert(targets[i], starts[i]);
+                        starts[i] = Some(s.x);
+                        s.x
+                    });
+                    Node { ink, targets, gamut: 0.0 }
+                })
+                .collect()
+        })
+        .collect();
+    lines.into_iter().flatten().collect()
+}
+
+/// One node of a grid: ink per BToA intent (perceptual, relative,
 /// saturation), the working-frame targets they were solved for, and the
 /// gamut measure.
 struct Node {

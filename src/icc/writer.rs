@@ -3,6 +3,7 @@
 use super::IccVersion;
 use super::encoding::{encode_lab, encode_unit, grid_lab};
 use super::ffi::{Framing, clut_pipeline};
+use super::float_tables::{self, FloatTables};
 use crate::colour::{Lab, Xyz};
 use crate::ink::Cmyk;
 use crate::{Error, Result};
@@ -61,6 +62,9 @@ pub struct OutputProfileSpec<'a> {
     pub a2b_grid: u32,
     /// Points per L*, a*, b* axis of the BToA and gamut tables (2..=255).
     pub b2a_grid: u32,
+    /// Floating-point BToD0/1/2 tables (version 4 only; ignored for version 2,
+    /// which has no `multiProcessElementsType`).
+    pub float_b2d: Option<&'a FloatTables>,
 }
 
 /// Builds the profile and returns its bytes.
@@ -160,6 +164,21 @@ pub fn build_output_profile(spec: &OutputProfileSpec) -> Result<Vec<u8>> {
     }
     let gamut = pipe(spec.b2a_grid, 3, 1, &gamut)?;
     write(&mut profile, TagSignature::GamutTag, Tag::Pipeline(&gamut))?;
+    if let (Some(tables), IccVersion::V4) = (spec.float_b2d, version) {
+        let b2d_tags = [TagSignature::BToD0Tag, TagSignature::BToD1Tag, TagSignature::BToD2Tag];
+        for i in 0..3 {
+            match (0..i).find(|&j| tables.intents[j] == tables.intents[i]) {
+                Some(j) => link(&mut profile, b2d_tags[i], b2d_tags[j])?,
+                None => {
+                    if let Some(bad) = tables.intents[i].table.iter().position(|v| !v.is_finite()) {
+                        return Err(Error::Internal(format!("{}: node {} is not a number", names[i].replace("BToA", "BToD"), bad / 4)));
+                    }
+                    let p = float_tables::pipeline(&tables.frame, &tables.intents[i])?;
+                    write(&mut profile, b2d_tags[i], Tag::Pipeline(&p))?;
+                }
+            }
+        }
+    }
 
     let serialise = |p: &Profile| p.icc().map_err(|e| Error::Internal(format!("lcms2 could not serialise the profile: {e}")));
     let mut bytes = serialise(&profile)?;
