@@ -142,5 +142,11 @@ fn bad_input_is_an_error_naming_the_file() {
     platesmith().arg("proof").arg(&input).arg("--out").arg(&out).arg("--display-profile").arg(&display).assert().code(2).stderr(predicates::str::contains("display.icc"));
     // CMYK without an embedded profile has no original to show.
     platesmith().arg("proof").arg(&input).arg("--out").arg(&out).arg("--side-by-side").assert().code(2).stderr(predicates::str::contains("no embedded profile"));
+    // The reading limits apply, from the flags and from the ticket.
+    platesmith().arg("proof").arg(&input).arg("--out").arg(&out).args(["--max-side", "80"]).assert().code(2).stderr(predicates::str::contains("builds.tif"));
+    let ticket = dir.path().join("job.toml");
+    std::fs::write(&ticket, "[limits]\nmax_side = 80\n").unwrap();
+    platesmith().arg("proof").arg(&input).arg("--out").arg(&out).arg("--ticket").arg(&ticket).assert().code(2).stderr(predicates::str::contains("builds.tif"));
     assert!(!out.exists());
+    platesmith().arg("proof").arg(&input).arg("--out").arg(&out).args(["--max-side", "81"]).assert().success();
 }

@@ -4,13 +4,12 @@
 //! CMYK input is taken as it is; either is shown through the condition's
 //! output profile (see `crate::proof`).
 
-use super::options::ModelArgs;
+use super::options::{InputArgs, ModelArgs};
 use super::profile::output_place;
 use crate::error::{Error, Result};
-use crate::icc::{ProfileOptions, profile_for_separator};
-use crate::job::{GrayMode, JobOptions, PlateFormat, Workshop};
+use crate::job::{JobOptions, PlateFormat, Workshop};
 use crate::proof::{PROGRESSIVES, Proofer, side_by_side, write_png};
-use crate::raster::{Compression, Layout, Limits, OutputSet};
+use crate::raster::{Compression, Layout, OutputSet};
 use crate::report::SettingsReport;
 use crate::separation::Separator;
 use clap::Args;
@@ -37,6 +36,8 @@ pub struct ProofArgs {
     /// Also write the progressive proofs C, C+M, C+M+Y and C+M+Y+K beside the proof (NAME.1-c.png …).
     #[arg(long)]
     pub progressives: bool,
+    #[command(flatten)]
+    pub input_args: InputArgs,
     /// Replace files that exist.
     #[arg(long)]
     pub force: bool,
@@ -44,6 +45,8 @@ pub struct ProofArgs {
 
 pub fn run(args: ProofArgs) -> Result<i32> {
     let setup = args.model.resolve()?;
+    let t = &setup.ticket;
+    let limits = args.input_args.limits(t)?;
     let (dir, name) = output_place(&args.out)?;
     let stem = name.strip_suffix(".png").unwrap_or(&name).to_string();
     let mut out = OutputSet::new(&dir, args.force)?;
@@ -66,15 +69,15 @@ pub fn run(args: ProofArgs) -> Result<i32> {
         plates: PlateFormat::None,
         compression: Compression::None,
         overwrite: args.force,
-        limits: Limits::default(),
-        gray: GrayMode::Neutral,
-        ignore_bad_profile: false,
+        limits,
+        gray: super::separate::gray_mode(None, t),
+        ignore_bad_profile: args.input_args.ignore_bad_profile,
         source_space: setup.source_space,
         source_condition: setup.condition.clone(),
         keep_pure_black_cmyk: true,
     };
     let workshop = Workshop::new(separator, SettingsReport::new(&setup.condition, &setup.settings, setup.source_space), options);
-    let raster = crate::raster::read_raster(&args.input, &Limits::default())?;
+    let raster = crate::raster::read_raster(&args.input, &limits)?;
     // CMYK is proofed as it is; other input is separated as `separate` would.
     let (raster, cmyk) = if raster.layout == Layout::Cmyk {
         let samples = raster.samples.clone();
@@ -83,8 +86,9 @@ pub fn run(args: ProofArgs) -> Result<i32> {
         let separated = workshop.separate_file(&args.input)?;
         (separated.raster, separated.image.samples)
     };
-    let profile = profile_for_separator(&workshop.separator, &ProfileOptions::default())?;
-    let proofer = Proofer::new(&profile, display, args.paper_white)?;
+    // The proof shows CMYK through the AToB tables, which the profile that
+    // `separate` embeds holds in full.
+    let proofer = Proofer::new(workshop.output_profile()?, display, args.paper_white)?;
     let (w, h) = (raster.width as usize, raster.height);
     let proof = proofer.proof(&cmyk, w, [true; 4]);
     let icc = proofer.display_profile();
