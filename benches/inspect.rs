@@ -23,17 +23,9 @@ use std::time::Duration;
 const WIDTH: u32 = 8660;
 const HEIGHT: u32 = 5774;
 
-/// splitmix64: the same pictures every run.
-struct Rng(u64);
-impl Rng {
-    fn next(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E3779B97F4A7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58476D1CE4E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D049BB133111EB);
-        z ^ (z >> 31)
-    }
-}
+#[path = "../tests/support/rng.rs"]
+mod rng;
+use rng::SplitMix64 as Rng;
 
 fn picture(channels: usize) -> Vec<u8> {
     let mut rng = Rng(0x1A5E_7700_0000_0050);
@@ -42,7 +34,7 @@ fn picture(channels: usize) -> Vec<u8> {
     for y in 0..h {
         for x in 0..w {
             let (fx, fy) = (x as f64 / w as f64, y as f64 / h as f64);
-            let noise = (rng.next() % 7) as f64 - 3.0;
+            let noise = (rng.next_u64() % 7) as f64 - 3.0;
             let base = [255.0 * fx, 255.0 * (1.0 - fx) * (0.3 + 0.7 * fy), 255.0 * (0.5 + 0.5 * (fx * 9.0 + fy * 4.0).sin()) * (1.0 - 0.6 * fy), 255.0 * fy * fy];
             let i = (y * w + x) * channels;
             for c in 0..channels {

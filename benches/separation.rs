@@ -12,17 +12,9 @@ use platesmith::separation::{Intent, RgbGamut, SeparationSettings, SeparationTab
 use std::hint::black_box;
 use std::time::Duration;
 
-/// splitmix64: deterministic inputs for every run.
-struct Rng(u64);
-impl Rng {
-    fn next(&mut self) -> f64 {
-        self.0 = self.0.wrapping_add(0x9E3779B97F4A7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58476D1CE4E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D049BB133111EB);
-        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
+#[path = "../tests/support/rng.rs"]
+mod rng;
+use rng::SplitMix64 as Rng;
 
 fn settings(intent: Intent, grid: usize) -> SeparationSettings {
     let mut s = SeparationSettings::for_condition(&coated_offset());
@@ -40,7 +32,7 @@ fn forward_model(c: &mut Criterion) {
     let model = coated_offset().model;
     let mut rng = Rng(11);
     let builds: Vec<Cmyk> = (0..4096)
-        .map(|_| Cmyk::new(rng.next(), rng.next(), rng.next(), rng.next()))
+        .map(|_| Cmyk::new(rng.next_f64(), rng.next_f64(), rng.next_f64(), rng.next_f64()))
         .collect();
     let mut group = c.benchmark_group("forward_model");
     group.throughput(Throughput::Elements(builds.len() as u64));
@@ -97,7 +89,7 @@ fn invert(c: &mut Criterion) {
     let mut rng = Rng(12);
     let inside: Vec<Lab> = (0..64)
         .map(|_| {
-            let mut x = Cmyk::new(rng.next(), rng.next(), rng.next(), rng.next() * kmax);
+            let mut x = Cmyk::new(rng.next_f64(), rng.next_f64(), rng.next_f64(), rng.next_f64() * kmax);
             if x.total() > tac {
                 let s = tac / x.total();
                 x = Cmyk::new(x.c * s, x.m * s, x.y * s, x.k * s);
@@ -108,7 +100,7 @@ fn invert(c: &mut Criterion) {
     let outside: Vec<Lab> = (0..64)
         .map(|i| {
             let h = i as f64 / 64.0 * std::f64::consts::TAU;
-            let l = 30.0 + 50.0 * rng.next();
+            let l = 30.0 + 50.0 * rng.next_f64();
             Lab::new(l, 110.0 * h.cos(), 110.0 * h.sin())
         })
         .collect();

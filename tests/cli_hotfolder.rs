@@ -22,20 +22,9 @@ const DELAY_ENV: &str = "PLATESMITH_HOTFOLDER_JOB_DELAY_MS";
 /// A deadline long enough for a loaded 2-core machine; only a hang reaches it.
 const DEADLINE: Duration = Duration::from_secs(120);
 
-/// splitmix64 (Steele, Lea, Flood 2014), so failures reproduce.
-struct Rng(u64);
-impl Rng {
-    fn next(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    fn bytes(&mut self, n: usize) -> Vec<u8> {
-        (0..n).map(|_| self.next() as u8).collect()
-    }
-}
+#[path = "support/rng.rs"]
+mod rng;
+use rng::SplitMix64 as Rng;
 
 /// An 8-bit RGB PNG of a colour ramp (ISO/IEC 15948 through the `png` encoder).
 fn png_bytes(width: u32, height: u32, seed: u64) -> Vec<u8> {

@@ -15,23 +15,9 @@ const RGB_TOLERANCE: f64 = 0.05;
 /// Largest difference accepted between our CIEDE2000 and lcms2's.
 const DE2000_TOLERANCE: f64 = 1e-4;
 
-/// splitmix64: a tiny deterministic generator for reproducible samples.
-struct SplitMix64(u64);
-
-impl SplitMix64 {
-    fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-
-    /// Uniform in [0, 1).
-    fn next_f64(&mut self) -> f64 {
-        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
+#[path = "support/rng.rs"]
+mod rng;
+use rng::SplitMix64;
 
 fn lab_d50_profile() -> Profile {
     Profile::new_lab4_context(GlobalContext::new(), CIExyY::d50()).expect("lcms2 builds a Lab D50 profile")

@@ -100,18 +100,9 @@ fn lab_from_xyz_matches_colour_science_including_near_black() {
     );
 }
 
-/// splitmix64: a tiny deterministic generator for reproducible samples.
-struct SplitMix64(u64);
-
-impl SplitMix64 {
-    fn next_f64(&mut self) -> f64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
+#[path = "support/rng.rs"]
+mod rng;
+use rng::SplitMix64;
 
 #[test]
 fn rgb_lab_rgb_round_trips_in_float_in_every_space() {

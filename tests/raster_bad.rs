@@ -9,17 +9,9 @@ use std::path::{Path, PathBuf};
 use platesmith::Error;
 use platesmith::raster::{Limits, Raster, read_raster};
 
-struct SplitMix64(u64);
-
-impl SplitMix64 {
-    fn next(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-}
+#[path = "support/rng.rs"]
+mod rng;
+use rng::SplitMix64;
 
 fn save(dir: &Path, name: &str, bytes: &[u8]) -> PathBuf {
     let p = dir.join(name);
@@ -163,9 +155,9 @@ fn corrupted_bytes_never_panic() {
     for (name, bytes) in files {
         for round in 0..150 {
             let mut b = bytes.clone();
-            for _ in 0..1 + rng.next() % 4 {
-                let i = (rng.next() as usize) % b.len();
-                b[i] = rng.next() as u8;
+            for _ in 0..1 + rng.next_u64() % 4 {
+                let i = (rng.next_u64() as usize) % b.len();
+                b[i] = rng.next_u64() as u8;
             }
             let p = save(dir.path(), name, &b);
             let limits = Limits {

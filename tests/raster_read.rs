@@ -8,26 +8,18 @@ use std::path::{Path, PathBuf};
 
 use platesmith::raster::{Format, Layout, Limits, Raster, Resolution, Samples, read_raster};
 
-struct SplitMix64(u64);
-
-impl SplitMix64 {
-    fn next(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-}
+#[path = "support/rng.rs"]
+mod rng;
+use rng::SplitMix64;
 
 fn random_u8(n: usize, seed: u64) -> Vec<u8> {
     let mut r = SplitMix64(seed);
-    (0..n).map(|_| r.next() as u8).collect()
+    (0..n).map(|_| r.next_u64() as u8).collect()
 }
 
 fn random_u16(n: usize, seed: u64) -> Vec<u16> {
     let mut r = SplitMix64(seed);
-    (0..n).map(|_| r.next() as u16).collect()
+    (0..n).map(|_| r.next_u64() as u16).collect()
 }
 
 fn save(dir: &Path, name: &str, bytes: &[u8]) -> PathBuf {
@@ -346,7 +338,7 @@ fn tiff_resolution_in_centimetres_and_icc_profile() {
 fn blocks(w: usize, h: usize, channels: usize, seed: u64) -> Vec<u8> {
     let mut r = SplitMix64(seed);
     let colours: Vec<u8> = (0..(w / 16 + 1) * (h / 16 + 1) * channels)
-        .map(|_| r.next() as u8)
+        .map(|_| r.next_u64() as u8)
         .collect();
     let mut out = Vec::with_capacity(w * h * channels);
     for y in 0..h {

@@ -12,17 +12,9 @@ use platesmith::raster::{
     write_plate_png, write_plate_tiff,
 };
 
-struct SplitMix64(u64);
-
-impl SplitMix64 {
-    fn next(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-}
+#[path = "support/rng.rs"]
+mod rng;
+use rng::SplitMix64;
 
 /// A CMYK image whose samples mix smooth ramps (which the predictor helps) with noise.
 fn cmyk(width: u32, height: u32, bits: u8, seed: u64) -> CmykImage {
@@ -35,7 +27,7 @@ fn cmyk(width: u32, height: u32, bits: u8, seed: u64) -> CmykImage {
                     if i % 3 == 0 {
                         (i / 4 % 256) as u8
                     } else {
-                        rng.next() as u8
+                        rng.next_u64() as u8
                     }
                 })
                 .collect(),
@@ -47,7 +39,7 @@ fn cmyk(width: u32, height: u32, bits: u8, seed: u64) -> CmykImage {
                     if i % 3 == 0 {
                         (i * 37 % 65536) as u16
                     } else {
-                        rng.next() as u16
+                        rng.next_u64() as u16
                     }
                 })
                 .collect(),
@@ -59,7 +51,7 @@ fn cmyk(width: u32, height: u32, bits: u8, seed: u64) -> CmykImage {
 fn fake_profile(len: usize) -> Vec<u8> {
     // Content is irrelevant to the container: the tag must carry these exact bytes.
     let mut rng = SplitMix64(7);
-    (0..len).map(|_| rng.next() as u8).collect()
+    (0..len).map(|_| rng.next_u64() as u8).collect()
 }
 
 /// One IFD entry as stored: tag, field type, count and the value bytes (inline or pointed to).

@@ -10,17 +10,9 @@ use platesmith::press::builtin::coated_offset;
 use platesmith::separation::{BlackGeneration, Intent, RgbGamut, SeparationSettings, SeparationTable, Separator};
 use std::sync::OnceLock;
 
-/// splitmix64: deterministic test randomness.
-struct Rng(u64);
-impl Rng {
-    fn next(&mut self) -> f64 {
-        self.0 = self.0.wrapping_add(0x9E3779B97F4A7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58476D1CE4E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D049BB133111EB);
-        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
+#[path = "support/rng.rs"]
+mod rng;
+use rng::SplitMix64 as Rng;
 
 fn separator(intent: Intent) -> Separator {
     let c = coated_offset();
@@ -59,7 +51,7 @@ fn in_gamut_targets_are_reproduced() {
     let mut rng = Rng(1);
     let mut errors = Vec::new();
     while errors.len() < 2000 {
-        let mut x = Cmyk::new(rng.next(), rng.next(), rng.next(), rng.next() * kmax);
+        let mut x = Cmyk::new(rng.next_f64(), rng.next_f64(), rng.next_f64(), rng.next_f64() * kmax);
         if x.total() > tac {
             let s = tac / x.total();
             x = Cmyk::new(x.c * s, x.m * s, x.y * s, x.k * s);
@@ -94,7 +86,7 @@ fn table_agrees(sep: &Separator, table: &SeparationTable, label: &str) -> (f64, 
     let mut rng = Rng(2);
     let mut errors = Vec::new();
     for _ in 0..10_000 {
-        let rgb = [rng.next(), rng.next(), rng.next()];
+        let rgb = [rng.next_f64(), rng.next_f64(), rng.next_f64()];
         let direct = sep.invert(sep.intent_target(conv.to_lab(EncodedRgb(rgb)), &mapping), None);
         let via_table = table.lookup(rgb);
         errors.push(ciede2000(sep.printed_relative(Cmyk::from_array(direct.x)), sep.printed_relative(via_table)));
@@ -127,13 +119,13 @@ fn limits_hold_for_every_node_and_pixel() {
         let mut s = SeparationSettings::for_condition(&c);
         s.intent = [Intent::Perceptual, Intent::Relative, Intent::Absolute, Intent::Relative][round];
         s.bpc = round == 3;
-        s.tac = 2.2 + rng.next() * 1.6;
+        s.tac = 2.2 + rng.next_f64() * 1.6;
         s.black = BlackGeneration {
-            gcr: rng.next(),
-            black_start: rng.next() * 0.6,
-            black_max: 0.6 + rng.next() * 0.4,
-            shape: 0.5 + rng.next() * 2.5,
-            uca: rng.next() * 0.5,
+            gcr: rng.next_f64(),
+            black_start: rng.next_f64() * 0.6,
+            black_max: 0.6 + rng.next_f64() * 0.4,
+            shape: 0.5 + rng.next_f64() * 2.5,
+            uca: rng.next_f64() * 0.5,
         };
         s.table_grid = if round == 0 { 65 } else { 17 };
         let sep = Separator::new(c, s.clone()).unwrap();
@@ -144,7 +136,7 @@ fn limits_hold_for_every_node_and_pixel() {
             let rgb = [(i / (n * n)) as f64, ((i / n) % n) as f64, (i % n) as f64].map(|v| v / (n - 1) as f64);
             check_limits(table.lookup(rgb), s.tac, s.black.black_max, &format!("node {rgb:?} with {s:?}"));
         }
-        let pixels: Vec<u8> = (0..25_000 * 3).map(|_| (rng.next() * 256.0) as u8).collect();
+        let pixels: Vec<u8> = (0..25_000 * 3).map(|_| (rng.next_f64() * 256.0) as u8).collect();
         let mut out = vec![0u8; 25_000 * 4];
         table.apply_rgb8(&pixels, &mut out, 1000);
         for px in out.chunks_exact(4) {

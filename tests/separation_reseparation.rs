@@ -12,17 +12,9 @@ use platesmith::press::{MediaWhite, NeugebauerModel, NeugebauerParams, PrintingC
 use platesmith::separation::{Intent, ReseparationTable, SeparationSettings, Separator};
 use std::sync::{Arc, OnceLock};
 
-/// splitmix64: deterministic test randomness.
-struct Rng(u64);
-impl Rng {
-    fn next(&mut self) -> f64 {
-        self.0 = self.0.wrapping_add(0x9E3779B97F4A7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58476D1CE4E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D049BB133111EB);
-        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
+#[path = "support/rng.rs"]
+mod rng;
+use rng::SplitMix64 as Rng;
 
 fn separator(intent: Intent, tac: Option<f64>, black_max: Option<f64>) -> Separator {
     let c = coated_offset();
@@ -81,7 +73,7 @@ fn coated_with_tvi(tvi50: f64) -> PrintingCondition {
 fn in_limit_builds(rng: &mut Rng, count: usize, tac: f64, black_max: f64) -> Vec<Cmyk> {
     let mut out = Vec::with_capacity(count);
     while out.len() < count {
-        let x = Cmyk::new(rng.next(), rng.next(), rng.next(), rng.next() * black_max);
+        let x = Cmyk::new(rng.next_f64(), rng.next_f64(), rng.next_f64(), rng.next_f64() * black_max);
         if x.total() <= tac {
             out.push(x);
         }
@@ -226,13 +218,13 @@ fn target_limits_hold_for_every_node_and_pixel() {
         let count = if intent == Intent::Perceptual { 100_000 } else { 20_000 };
         let input: Vec<u8> = (0..count)
             .flat_map(|_| {
-                let pure_black = rng.next() < 0.1;
+                let pure_black = rng.next_f64() < 0.1;
                 let mut px = [0u8; 4];
                 for (ch, v) in px.iter_mut().enumerate() {
                     *v = if pure_black && ch < 3 {
                         0
                     } else {
-                        (rng.next() * 256.0) as u8
+                        (rng.next_f64() * 256.0) as u8
                     };
                 }
                 px
@@ -347,7 +339,7 @@ fn grid_outside_the_allowed_range_is_refused() {
 fn sixteen_bit_path_agrees_with_lookup() {
     let table = identity_table();
     let mut rng = Rng(13);
-    let input: Vec<u16> = (0..4000 * 4).map(|_| (rng.next() * 65536.0) as u16).collect();
+    let input: Vec<u16> = (0..4000 * 4).map(|_| (rng.next_f64() * 65536.0) as u16).collect();
     let mut out = vec![0u16; input.len()];
     table.apply_cmyk16(&input, &mut out, 64);
     for (px, got) in input.chunks_exact(4).zip(out.chunks_exact(4)) {
@@ -372,10 +364,10 @@ fn near_pure_black_builds_keep_their_colour() {
     let errors: Vec<f64> = (0..5000)
         .map(|_| {
             let x = Cmyk::new(
-                rng.next() * 0.06,
-                rng.next() * 0.06,
-                rng.next() * 0.06,
-                rng.next() * 0.95,
+                rng.next_f64() * 0.06,
+                rng.next_f64() * 0.06,
+                rng.next_f64() * 0.06,
+                rng.next_f64() * 0.95,
             );
             ciede2000(printed(&condition, x), sep.printed_relative(table.lookup(x)))
         })
