@@ -3,9 +3,11 @@
 //!
 //! The `lcms2` crate can allocate pipelines, CLUT stages and curve stages and
 //! write a pipeline as a tag, but it has no call that puts a stage into a
-//! pipeline. This module adds exactly that (`cmsPipelineInsertStage` from
-//! lcms2-sys) behind a safe function that builds the pipelines the ICC table
-//! types need. Everything else in `icc` uses the safe crate.
+//! pipeline and none that builds a segmented curve (the only curve a
+//! `multiProcessElementsType` table can hold). This module adds exactly those
+//! (`cmsPipelineInsertStage` and `cmsBuildSegmentedToneCurve` from
+//! lcms2-sys) behind safe functions. Everything else in `icc` uses the safe
+//! crate.
 
 use crate::{Error, Result};
 use foreign_types::ForeignType;

@@ -8,8 +8,10 @@
 //! output profile needs). Version 4.4 (ICC.1:2022) stores the tables as
 //! `lutAtoBType` / `lutBtoAType` with the 16-bit PCSLAB encoding of §6.3.4.2;
 //! version 2.4 (ICC.1:2001-04) stores them as `lut16Type` with the legacy
-//! 16-bit encoding (L* 100 → 0xFF00). lcms2 serialises the profile; the small
-//! unsafe layer it needs lives in `ffi`.
+//! 16-bit encoding (L* 100 → 0xFF00). Version 4 profiles from `platesmith
+//! profile` also carry floating-point BToD0/1/2 tables (`float_tables`).
+//! lcms2 serialises the profile; the small unsafe layer it needs lives in
+//! `ffi`.
 
 mod encoding;
 mod ffi;

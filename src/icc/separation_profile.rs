@@ -35,8 +35,13 @@
 //!   business graphics, where saturation matters more than gradation).
 //! - gamut: CIEDE2000 between the PCS colour and what BToA1 prints for it.
 //!
-//! The BToA grids are solved line by line along b* with warm starts, in
-//! parallel over lines, as the separation table is.
+//! - BToD0/1/2 (version 4, unless left out): the same three intents on a
+//!   grid in sRGB coordinates ([`super::float_tables`]), whose nodes include
+//!   those of the separation table, so a CMM that reads them separates sRGB
+//!   node for node as `separate` does.
+//!
+//! The grids are solved line by line along their last axis with warm
+//! starts, in parallel over lines, as the separation table is.
 
 use super::float_tables::{FloatIntent, FloatTables, SrgbFrame, XyzScaling};
 use super::{IccVersion, OutputProfileSpec, build_output_profile, default_description, grid_lab};
