@@ -93,6 +93,9 @@ echo "load average after: $load_after"
 python3 - "$crit" "$doc" "$meta" <<'PY'
 import json, os, sys
 
+sys.path.insert(0, "scripts")
+from record_block import record_block
+
 crit, doc, meta_path = sys.argv[1:4]
 meta = dict(line.rstrip("\n").split("=", 1) for line in open(meta_path) if "=" in line)
 
@@ -187,8 +190,7 @@ loaded = float(meta["load_before"].split()[0]) >= 0.5
 status = ("**Recorded on a loaded machine** (1-minute load average before the run ≥ 0.5): "
           "the figures are pessimistic and vary between runs."
           if loaded else "Recorded on an idle machine (1-minute load average before the run < 0.5).")
-block = "\n".join([
-    "<!-- figures:begin -->",
+record_block(doc, "figures", [
     f"Machine: {meta['model']}, {meta['cores']} cores; {meta['rustc']}; commit {meta['commit']}; {meta['date']}.",
     f"Load average (1, 5, 15 min): {meta['load_before']} before the run, {meta['load_after']} after.",
     "",
@@ -197,15 +199,5 @@ block = "\n".join([
     "| stage | mean (95 % interval) or rate | target | |",
     "| --- | --- | --- | --- |",
     *rows,
-    "<!-- figures:end -->",
 ])
-
-text = open(doc).read()
-begin, end = "<!-- figures:begin -->", "<!-- figures:end -->"
-if begin not in text or end not in text:
-    sys.exit(f"{doc}: the markers {begin} and {end} are missing")
-head, rest = text.split(begin, 1)
-_, tail = rest.split(end, 1)
-open(doc, "w").write(head + block + tail)
-print(block)
 PY

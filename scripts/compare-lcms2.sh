@@ -53,6 +53,9 @@ LOAD_BEFORE="$load_before" LOAD_AFTER="$load_after" STAND_IN="$stand_in" WALL="$
 COMMIT="$(git rev-parse --short HEAD)" DATE="$(date -u '+%Y-%m-%d %H:%M UTC')" \
 python3 - "$doc" "$tmp/figures" <<'PY'
 import os, sys
+
+sys.path.insert(0, "scripts")
+from record_block import record_block
 doc, figures = sys.argv[1:3]
 f = dict(line.rstrip("\n").split("=", 1) for line in open(figures) if "=" in line)
 t = f["threads"]
@@ -81,8 +84,7 @@ rows = [
     f"| whole run (picture, table, profile, all measurements) | wall {env['WALL']}, peak memory {int(env['PEAK_KB']) / 1024:.0f} MiB | |",
 ]
 model = open("/proc/cpuinfo").read().split("model name")[1].split(":", 1)[1].split("\n", 1)[0].strip()
-block = "\n".join([
-    "<!-- lcms2:begin -->",
+record_block(doc, "lcms2", [
     f"Machine: {model}, {t} threads; commit {env['COMMIT']}; {env['DATE']}; {f['pixels']} pixels.",
     f"Load average (1, 5, 15 min): {env['LOAD_BEFORE']} before the run, {env['LOAD_AFTER']} after.",
     f"Profile: {f['profile']}." + (" **Stand-in profile: a trial, not the figure for the record.**" if stand_in else ""),
@@ -92,14 +94,5 @@ block = "\n".join([
     "| measurement | figure | target |",
     "| --- | --- | --- |",
     *rows,
-    "<!-- lcms2:end -->",
 ])
-text = open(doc).read()
-begin, end = "<!-- lcms2:begin -->", "<!-- lcms2:end -->"
-if begin not in text or end not in text:
-    sys.exit(f"{doc}: the markers {begin} and {end} are missing")
-head, rest = text.split(begin, 1)
-_, tail = rest.split(end, 1)
-open(doc, "w").write(head + block + tail)
-print(block)
 PY
