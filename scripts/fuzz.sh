@@ -12,7 +12,7 @@
 # each run works in fuzz/target/corpus-work/<target>/ so the kept corpus only
 # grows when KEEP=1 merges inputs that add coverage. A crash stops the run and
 # leaves its input in fuzz/artifacts/<target>/: turn it into a regression test
-# in the normal test suite (tests/bad_inputs.rs) before fixing it.
+# in the normal test suite (tests/suite/bad_inputs.rs) before fixing it.
 set -eu
 cd "$(dirname "$0")/../fuzz"
 

@@ -132,7 +132,7 @@ impl RgbSpace {
                 primaries: [(0.7347, 0.2653), (0.1596, 0.8404), (0.0366, 0.0001)],
                 // ROMM RGB is referred to the ICC PCS white itself (X 0.9642, Y 1, Z 0.8249), not
                 // to the rounded chromaticity 0.3457, 0.3585: its published 4-decimal matrix
-                // (ISO 22028-2; checked in tests/colour_standards.rs) has rows summing to exactly
+                // (ISO 22028-2; checked in tests/suite/colour_standards.rs) has rows summing to exactly
                 // that white, and only this white reproduces it. So ROMM needs no adaptation.
                 white: ROMM_WHITE,
                 transfer: Transfer::Romm,

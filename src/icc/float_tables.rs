@@ -6,7 +6,7 @@
 //! ink reaches 0 or 100 % the others change slope) that run through much of
 //! the gamut, and a table interpolates straight across them: for sRGB
 //! artwork lcms2 then separates several percent away from platesmith
-//! (measured in tests/icc_profile.rs). A `multiProcessElementsType` table can
+//! (measured in tests/suite/icc_profile.rs). A `multiProcessElementsType` table can
 //! chain matrices, curves and a CLUT freely, so these tables first carry the
 //! PCS colour into encoded sRGB, exactly as IEC 61966-2-1 defines it:
 //!

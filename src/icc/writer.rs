@@ -11,7 +11,7 @@ use lcms2::{CIEXYZ, ColorSpaceSignature, Intent, Locale, MLU, Profile, ProfileCl
 use rayon::prelude::*;
 
 /// Default grid of the AToB tables (points per CMYK axis): 17⁴ = 83 521 nodes,
-/// 0.5 MB per table. The accuracy this gives is measured in tests/icc_profile.rs.
+/// 0.5 MB per table. The accuracy this gives is measured in tests/suite/icc_profile.rs.
 pub const DEFAULT_A2B_GRID: u32 = 17;
 /// Default grid of the BToA and gamut tables (points per L*, a*, b* axis): 33³ nodes.
 pub const DEFAULT_B2A_GRID: u32 = 33;

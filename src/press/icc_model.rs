@@ -28,7 +28,7 @@ use std::sync::Arc;
 /// Default points per CMYK axis of the sampled grid: 21⁴ = 194 481 nodes, 2.3 MB.
 ///
 /// Measured against lcms2 evaluating the profile directly on 5000 random builds
-/// (tests/icc_profile.rs, `sampled_grid_error_against_lcms2`), ΔE2000 mean / max:
+/// (tests/suite/icc_profile.rs, `sampled_grid_error_against_lcms2`), ΔE2000 mean / max:
 /// profile 11⁴ — grid 17: 0.059 / 0.40, grid 21: 0.013 / 0.18; profile 17⁴ —
 /// grid 17: 0.020 / 0.25, grid 21: 0.032 / 0.22; grid 33 (14 MB, several
 /// times slower to load) reaches 0.006 / 0.12. 21 keeps the worst case near

@@ -407,7 +407,7 @@ pub const SHADOW_TAPER_FLOOR: f64 = 0.2;
 ///    down smoothly to [`SHADOW_TAPER_FLOOR`] of its value at the black
 ///    point, where the gamut ends in a point. Without it, 8-bit ramps into
 ///    the darkest shadows step by more than 3 % of a plate per code value
-///    (measured on the built-in coated condition, see tests/separation_engine.rs).
+///    (measured on the built-in coated condition, see tests/suite/separation_engine.rs).
 pub struct PerceptualMap<'a> {
     dest: &'a GamutBoundary,
     hues: Option<HueAlignment>,

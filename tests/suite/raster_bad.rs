@@ -9,9 +9,7 @@ use std::path::{Path, PathBuf};
 use platesmith::Error;
 use platesmith::raster::{Limits, Raster, read_raster};
 
-#[path = "support/rng.rs"]
-mod rng;
-use rng::SplitMix64;
+use crate::rng::SplitMix64;
 
 fn save(dir: &Path, name: &str, bytes: &[u8]) -> PathBuf {
     let p = dir.join(name);

@@ -15,9 +15,7 @@ const RGB_TOLERANCE: f64 = 0.05;
 /// Largest difference accepted between our CIEDE2000 and lcms2's.
 const DE2000_TOLERANCE: f64 = 1e-4;
 
-#[path = "support/rng.rs"]
-mod rng;
-use rng::SplitMix64;
+use crate::rng::SplitMix64;
 
 fn lab_d50_profile() -> Profile {
     Profile::new_lab4_context(GlobalContext::new(), CIExyY::d50()).expect("lcms2 builds a Lab D50 profile")

@@ -12,9 +12,7 @@ use platesmith::press::{MediaWhite, NeugebauerModel, NeugebauerParams, PrintingC
 use platesmith::separation::{Intent, ReseparationTable, SeparationSettings, Separator};
 use std::sync::{Arc, OnceLock};
 
-#[path = "support/rng.rs"]
-mod rng;
-use rng::SplitMix64 as Rng;
+use crate::rng::SplitMix64 as Rng;
 
 fn separator(intent: Intent, tac: Option<f64>, black_max: Option<f64>) -> Separator {
     let c = coated_offset();

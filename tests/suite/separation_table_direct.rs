@@ -1,12 +1,12 @@
 //! The separation table against the direct path under random valid settings:
 //! every pixel interpolated from the table prints (by the press model) within
 //! a small CIEDE2000 of the colour the exact per-colour separation prints.
-//! tests/separation_engine.rs measures the same at the condition's defaults;
+//! tests/suite/separation_engine.rs measures the same at the condition's defaults;
 //! this extends it to the settings space (TAC, GCR, black start, maximum
 //! black, shape, UCA, intent, BPC).
 //!
 //! Outside reference: CIEDE2000 (CIE 142-2001; the implementation is checked
-//! against Sharma, Wu & Dalal 2005 in tests/colour_difference.rs). Tolerances
+//! against Sharma, Wu & Dalal 2005 in tests/suite/colour_difference.rs). Tolerances
 //! are this project's requirement for a 17-node table: mean ΔE2000 ≤ 1 and the
 //! 95th percentile ≤ 3 (tetrahedral interpolation between nodes 1/16 apart;
 //! common practice puts table errors below 1 ΔE on average).

@@ -100,9 +100,7 @@ fn lab_from_xyz_matches_colour_science_including_near_black() {
     );
 }
 
-#[path = "support/rng.rs"]
-mod rng;
-use rng::SplitMix64;
+use crate::rng::SplitMix64;
 
 #[test]
 fn rgb_lab_rgb_round_trips_in_float_in_every_space() {

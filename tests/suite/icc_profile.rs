@@ -687,7 +687,7 @@ mod separation_profile {
         // What a CMM without float support gets from the v4 profile: its
         // 16-bit BToA1 table, evaluated directly, against the separation
         // (sRGB → CIELAB by IEC 61966-2-1, checked against lcms2 in
-        // tests/colour_lcms2.rs). Held at its measured level.
+        // tests/suite/colour_lcms2.rs). Held at its measured level.
         let p = Profile::new_icc(v4).unwrap();
         let Tag::Pipeline(b2a1) = p.read_tag(TagSignature::BToA1Tag) else { panic!("no B2A1") };
         let conv = platesmith::colour::RgbSpace::Srgb.converter();

@@ -12,9 +12,7 @@ use platesmith::raster::{
     write_plate_png, write_plate_tiff,
 };
 
-#[path = "support/rng.rs"]
-mod rng;
-use rng::SplitMix64;
+use crate::rng::SplitMix64;
 
 /// A CMYK image whose samples mix smooth ramps (which the predictor helps) with noise.
 fn cmyk(width: u32, height: u32, bits: u8, seed: u64) -> CmykImage {

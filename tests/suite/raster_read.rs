@@ -8,9 +8,7 @@ use std::path::{Path, PathBuf};
 
 use platesmith::raster::{Format, Layout, Limits, Raster, Resolution, Samples, read_raster};
 
-#[path = "support/rng.rs"]
-mod rng;
-use rng::SplitMix64;
+use crate::rng::SplitMix64;
 
 fn random_u8(n: usize, seed: u64) -> Vec<u8> {
     let mut r = SplitMix64(seed);

@@ -10,9 +10,7 @@ use platesmith::press::builtin::coated_offset;
 use platesmith::separation::{BlackGeneration, Intent, RgbGamut, SeparationSettings, SeparationTable, Separator};
 use std::sync::OnceLock;
 
-#[path = "support/rng.rs"]
-mod rng;
-use rng::SplitMix64 as Rng;
+use crate::rng::SplitMix64 as Rng;
 
 fn separator(intent: Intent) -> Separator {
     let c = coated_offset();

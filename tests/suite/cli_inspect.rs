@@ -135,7 +135,7 @@ fn out_of_gamut_patches_are_found_where_they_are_with_the_delta_e_of_a_direct_co
             src.cie2000_delta_e(&CIELab { L: p.l, a: p.a, b: p.b }, 1.0, 1.0, 1.0)
         })
         .collect();
-    // Our sRGB and lcms2's agree to a few hundredths of ΔE (tests/colour_lcms2.rs).
+    // Our sRGB and lcms2's agree to a few hundredths of ΔE (tests/suite/colour_lcms2.rs).
     const TOL: f64 = 0.03;
     let g = &r["gamut"];
     let mean = de.iter().sum::<f64>() / de.len() as f64;

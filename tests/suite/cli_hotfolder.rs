@@ -22,9 +22,7 @@ const DELAY_ENV: &str = "PLATESMITH_HOTFOLDER_JOB_DELAY_MS";
 /// A deadline long enough for a loaded 2-core machine; only a hang reaches it.
 const DEADLINE: Duration = Duration::from_secs(120);
 
-#[path = "support/rng.rs"]
-mod rng;
-use rng::SplitMix64 as Rng;
+use crate::rng::SplitMix64 as Rng;
 
 /// An 8-bit RGB PNG of a colour ramp (ISO/IEC 15948 through the `png` encoder).
 fn png_bytes(width: u32, height: u32, seed: u64) -> Vec<u8> {

@@ -1,0 +1,33 @@
+//! The integration tests, gathered into one test binary so that the suite compiles and
+//! links once instead of once per file (the CI budget is dominated by build time).
+//! Each module is one area of the program; run one with `cargo test --test suite cli_proof::`.
+//! Tests that change process-wide state (environment variables) live in binaries of their
+//! own beside this folder (`tests/raster_fail_env.rs`).
+
+#[path = "../support/rng.rs"]
+mod rng;
+
+mod bad_inputs;
+mod cli_conditions;
+mod cli_determinism;
+mod cli_hotfolder;
+mod cli_inspect;
+mod cli_profile;
+mod cli_proof;
+mod cli_separate;
+mod colour_difference;
+mod colour_lcms2;
+mod colour_reference;
+mod colour_standards;
+mod icc_profile;
+mod press_builtin;
+mod press_condition_file;
+mod press_fit;
+mod raster_bad;
+mod raster_output;
+mod raster_read;
+mod raster_write;
+mod separation_engine;
+mod separation_properties;
+mod separation_reseparation;
+mod separation_table_direct;
