@@ -13,6 +13,7 @@
 //! notes), ICC.1:2022 §7.2.6 (the header's data colour space field), TOML 1.0
 //! and CGATS.17 (ISO 28178) syntax.
 
+use crate::jpeg::without_app14;
 use assert_cmd::Command;
 use platesmith::raster::{Limits, Samples, read_raster};
 use std::path::{Path, PathBuf};
@@ -94,19 +95,6 @@ fn jpeg(w: u16, h: u16, data: &[u8], ct: jpeg_encoder::ColorType) -> Vec<u8> {
     enc.set_sampling_factor(jpeg_encoder::SamplingFactor::R_4_4_4);
     enc.encode(data, w, h, ct).unwrap();
     out
-}
-
-/// Removes the Adobe APP14 segment (marker FF EE) from a JPEG stream (ISO/IEC 10918-1 B.1.1.4).
-fn without_app14(jpeg: &[u8]) -> Vec<u8> {
-    let mut i = 2;
-    while jpeg[i] == 0xFF && jpeg[i + 1] != 0xDA {
-        let len = u16::from_be_bytes([jpeg[i + 2], jpeg[i + 3]]) as usize;
-        if jpeg[i + 1] == 0xEE {
-            return [&jpeg[..i], &jpeg[i + 2 + len..]].concat();
-        }
-        i += 2 + len;
-    }
-    panic!("no APP14 segment");
 }
 
 /// A PNG whose IHDR claims 100 000 × 100 000 RGB (28 GiB decoded) and holds no image data.

@@ -6,6 +6,7 @@
 
 #[path = "../support/rng.rs"]
 mod rng;
+mod jpeg;
 
 mod bad_inputs;
 mod cli_conditions;

@@ -8,6 +8,7 @@ use std::path::{Path, PathBuf};
 
 use platesmith::raster::{Format, Layout, Limits, Raster, Resolution, Samples, read_raster};
 
+use crate::jpeg::without_app14;
 use crate::rng::SplitMix64;
 
 fn random_u8(n: usize, seed: u64) -> Vec<u8> {
@@ -370,19 +371,6 @@ fn assert_close(got: &Samples, want: &[u8], tol: u8, what: &str) {
     assert_eq!(got.len(), want.len(), "{what}");
     let worst = got.iter().zip(want).map(|(a, b)| a.abs_diff(*b)).max().unwrap_or(0);
     assert!(worst <= tol, "{what}: samples differ by up to {worst}");
-}
-
-/// Removes the Adobe APP14 segment (marker FF EE) from a JPEG stream.
-fn without_app14(jpeg: &[u8]) -> Vec<u8> {
-    let mut i = 2;
-    while jpeg[i] == 0xFF && jpeg[i + 1] != 0xDA {
-        let len = u16::from_be_bytes([jpeg[i + 2], jpeg[i + 3]]) as usize;
-        if jpeg[i + 1] == 0xEE {
-            return [&jpeg[..i], &jpeg[i + 2 + len..]].concat();
-        }
-        i += 2 + len;
-    }
-    panic!("no APP14 segment");
 }
 
 #[test]
