@@ -252,23 +252,46 @@ pub fn move_unique(src: &Path, dir: &Path, name: &OsStr) -> io::Result<PathBuf> 
 
 /// Moves `src` to `target` unless `target` exists; `false` when it does.
 pub fn place(src: &Path, target: &Path) -> io::Result<bool> {
-    if fs::symlink_metadata(target).is_ok() {
-        return Ok(false);
-    }
-    match fs::hard_link(src, target) {
-        Ok(()) => {
+    match put(src, target)? {
+        Put::Taken => Ok(false),
+        Put::Renamed => Ok(true),
+        Put::Linked => {
             fs::remove_file(src)?;
             Ok(true)
         }
-        Err(e) if e.kind() == io::ErrorKind::AlreadyExists => Ok(false),
+    }
+}
+
+/// How [`put`] placed a file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Put {
+    /// `target` was there already; nothing changed.
+    Taken,
+    /// `target` is a second link to `src`, which is still in place: the caller
+    /// removes `src` once the rest of its move is done.
+    Linked,
+    /// No hard links on this file system: `src` was renamed to `target`.
+    Renamed,
+}
+
+/// Puts `src` at `target` unless `target` exists, never replacing a file: a
+/// hard link (atomic, and `src` stays), or where the file system has no hard
+/// links a rename after checking that the name is free.
+pub fn put(src: &Path, target: &Path) -> io::Result<Put> {
+    if fs::symlink_metadata(target).is_ok() {
+        return Ok(Put::Taken);
+    }
+    match fs::hard_link(src, target) {
+        Ok(()) => Ok(Put::Linked),
+        Err(e) if e.kind() == io::ErrorKind::AlreadyExists => Ok(Put::Taken),
         Err(e) if e.kind() == io::ErrorKind::NotFound => Err(e),
         Err(_) => {
             // No hard links here (some network file systems): a checked rename.
             if fs::symlink_metadata(target).is_ok() {
-                return Ok(false);
+                return Ok(Put::Taken);
             }
             fs::rename(src, target)?;
-            Ok(true)
+            Ok(Put::Renamed)
         }
     }
 }
@@ -301,6 +324,29 @@ pub fn link_count(path: &Path) -> u64 {
 #[cfg(not(unix))]
 pub fn link_count(_path: &Path) -> u64 {
     1
+}
+
+/// Another name in `dir` for the file at `path` (the same device and inode),
+/// if there is one.
+#[cfg(unix)]
+pub fn other_link_in(dir: &Path, path: &Path) -> Option<PathBuf> {
+    use std::os::unix::fs::MetadataExt;
+    let meta = fs::symlink_metadata(path).ok()?;
+    fs::read_dir(dir).ok()?.filter_map(|e| e.ok()).map(|e| e.path()).find(|p| {
+        p != path && fs::symlink_metadata(p).is_ok_and(|m| m.is_file() && m.dev() == meta.dev() && m.ino() == meta.ino())
+    })
+}
+
+#[cfg(not(unix))]
+pub fn other_link_in(_dir: &Path, _path: &Path) -> Option<PathBuf> {
+    None
+}
+
+/// The name of the text that says why `failed/NAME` failed: `NAME.error.txt`.
+pub fn error_text_name(name: &OsStr) -> OsString {
+    let mut n = name.to_os_string();
+    n.push(".error.txt");
+    n
 }
 
 #[cfg(test)]

@@ -35,9 +35,10 @@
 //!    `<stem>-N/`: a folder is renamed only onto a free name, and a rename onto
 //!    a folder with files fails, so two runs never mix). That rename is the
 //!    moment the results exist: `out/` never shows half-written results.
-//! 4. **Input.** The input is then hard-linked into `done/` (or `failed/`,
-//!    after its `.error.txt` was written there) under a free name, and unlinked
-//!    from `work/`. Nothing is ever replaced; a second `a.png` becomes
+//! 4. **Input.** The input is then hard-linked into `done/` under a free name
+//!    and unlinked from `work/`; or hard-linked into `failed/` under a free
+//!    name, its `<name>.error.txt` written beside it, and unlinked from
+//!    `work/`. Nothing is ever replaced; a second `a.png` becomes
 //!    `done/a-2.png`.
 //! 5. **Crash recovery.** The kernel releases an instance's lock when its
 //!    process dies, by kill -9 or otherwise (power loss: at reboot). Every
@@ -46,8 +47,11 @@
 //!    while taking the folder over, so one instance takes over each folder. It
 //!    removes the gone instance's staging folder (unfinished results only),
 //!    then per file: a file with two links was already moved (step 4 was
-//!    interrupted after the link) and is unlinked; a file whose results were
-//!    committed (a `hotfolder.json` in `out/` names its job) is moved to
+//!    interrupted after the link) and is unlinked, unless its other link is
+//!    in `failed/` without an error text (interrupted before the text): then
+//!    that link is removed and the file goes on as one not moved; a file
+//!    whose results were committed (a `hotfolder.json` in `out/` names its
+//!    job) is moved to
 //!    `done/` or `failed/` as that file says; any other file is claimed into
 //!    the taker's own work folder and processed again from the start.
 //! 6. **Stopping.** The first SIGINT or SIGTERM stops claiming; the files in
@@ -58,10 +62,8 @@
 //! Locks need a file system that supports them (local file systems do, and
 //! NFS through its lock manager); hard links are used where the file system
 //! has them, a checked rename otherwise (then the small window of step 4
-//! cannot be recognised after a crash, and such a file is processed again).
-//! One window remains: a crash after a failure's `.error.txt` was written and
-//! before the input was linked beside it leaves that text without its input;
-//! the input is processed again and fails under the next free name.
+//! cannot be recognised after a crash, and such a file is processed again;
+//! a file renamed into `failed/` just before a crash keeps no error text).
 //!
 //! # Testing
 //! Debug and test builds read [`JOB_DELAY_ENV`] (milliseconds): every job
@@ -388,10 +390,26 @@ fn take_orphan_file(shared: &Shared, instance: &Instance, held: &[Orphan], summa
             }
             let shown = name.to_string_lossy().to_string();
             if folders::link_count(&src) > 1 {
-                if std::fs::remove_file(&src).is_ok() {
-                    shared.log.event("recovered", &shown, "had been moved to done/ or failed/ before the crash", None);
+                // Linked into done/ or failed/ before the crash. A link in
+                // failed/ without its error text was made by a move that
+                // died before writing the text: undo it, and finish the file
+                // below as if it had not been moved.
+                let unexplained = folders::other_link_in(&shared.folders.failed, &src).filter(|other| {
+                    let text = other.file_name().map(folders::error_text_name).map(|n| shared.folders.failed.join(n));
+                    text.is_some_and(|t| std::fs::symlink_metadata(t).is_err())
+                });
+                match unexplained {
+                    Some(other) if std::fs::remove_file(&other).is_ok() => {
+                        shared.log.event("recovered", &shown, "had been linked into failed/ without its error text before the crash; finished again", None);
+                    }
+                    Some(_) => continue,
+                    None => {
+                        if std::fs::remove_file(&src).is_ok() {
+                            shared.log.event("recovered", &shown, "had been moved to done/ or failed/ before the crash", None);
+                        }
+                        continue;
+                    }
                 }
-                continue;
             }
             let job = format!("{}/{}", orphan.id, shown);
             if let Some((out_dir, record)) = find_record(&shared.folders.out, &job) {
@@ -552,8 +570,11 @@ fn finish_done(shared: &Shared, claimed: &Claimed, out: &str, started: Instant) 
     }
 }
 
-/// Moves the input to `failed/` with its `.error.txt` (written first, under a
-/// free name, through an [`OutputSet`]).
+/// Moves the input to `failed/` under a free name, with its `.error.txt`: the
+/// input is linked there first (which takes the name), then the text is
+/// written through an [`OutputSet`], then the claim in `work/` is unlinked. A
+/// crash before the text leaves a file with two links and no text, which
+/// recovery recognises ([`take_orphan_file`]).
 fn fail(shared: &Shared, claimed: &Claimed, reasons: &[String], out: Option<&str>, started: Instant) -> Outcome {
     let shown = claimed.name.to_string_lossy().to_string();
     let failed = &shared.folders.failed;
@@ -569,36 +590,42 @@ fn fail(shared: &Shared, claimed: &Claimed, reasons: &[String], out: Option<&str
     for n in 1..=100_000 {
         let candidate = folders::numbered(&claimed.name, n);
         let target = failed.join(&candidate);
-        let error_name = format!("{}.error.txt", candidate.to_string_lossy());
+        let error_name = folders::error_text_name(&candidate);
         let error_path = failed.join(&error_name);
-        if std::fs::symlink_metadata(&target).is_ok() || std::fs::symlink_metadata(&error_path).is_ok() {
+        if std::fs::symlink_metadata(&error_path).is_ok() {
             continue;
         }
-        let written = OutputSet::new(failed, false).and_then(|mut set| {
-            set.stage(&error_name, |w| std::io::Write::write_all(w, text.as_bytes()))?;
-            set.commit()
-        });
-        if let Err(e) = written {
-            if std::fs::symlink_metadata(&error_path).is_ok() {
-                continue;
-            }
-            shared.log.event("error", &shown, &format!("cannot write {}: {e}; the input stays in {}", error_path.display(), claimed.path.display()), Some(started.elapsed()));
-            return Outcome::Stuck;
-        }
-        match folders::place(&claimed.path, &target) {
-            Ok(true) => {
-                shared.log.event("failed", &shown, &reasons.join("; "), Some(started.elapsed()));
-                return Outcome::Failed;
-            }
-            Ok(false) => {
-                let _ = std::fs::remove_file(&error_path);
-            }
+        let put = match folders::put(&claimed.path, &target) {
+            Ok(folders::Put::Taken) => continue,
+            Ok(put) => put,
             Err(e) => {
-                let _ = std::fs::remove_file(&error_path);
                 shared.log.event("error", &shown, &format!("cannot move the input to failed/: {e}; it stays in {}", claimed.path.display()), Some(started.elapsed()));
                 return Outcome::Stuck;
             }
+        };
+        let written = OutputSet::new(failed, false).and_then(|mut set| {
+            set.stage(&error_name.to_string_lossy(), |w| std::io::Write::write_all(w, text.as_bytes()))?;
+            set.commit()
+        });
+        if let Err(e) = written {
+            // Give the name back: the input returns to its claim untouched.
+            let undone = match put {
+                folders::Put::Renamed => std::fs::rename(&target, &claimed.path),
+                _ => std::fs::remove_file(&target),
+            };
+            let stays = if undone.is_ok() { claimed.path.display().to_string() } else { target.display().to_string() };
+            shared.log.event("error", &shown, &format!("cannot write {}: {e}; the input stays in {stays}", error_path.display()), Some(started.elapsed()));
+            return Outcome::Stuck;
         }
+        if put == folders::Put::Linked
+            && let Err(e) = std::fs::remove_file(&claimed.path)
+        {
+            // Moved and explained; the second name in work/ is what a crash
+            // here would leave, and recovery removes it the same way.
+            shared.log.event("error", &shown, &format!("failed, but {} cannot be removed: {e}", claimed.path.display()), Some(started.elapsed()));
+        }
+        shared.log.event("failed", &shown, &reasons.join("; "), Some(started.elapsed()));
+        return Outcome::Failed;
     }
     Outcome::Stuck
 }

@@ -530,6 +530,36 @@ fn a_crash_between_link_and_unlink_leaves_the_file_moved_once() {
 }
 
 #[test]
+fn a_crash_while_moving_to_failed_leaves_one_failed_file_with_its_reason() {
+    // A failure's move links the input into failed/, writes its error text,
+    // then unlinks the claim. Killed after the link: no text yet, so the link
+    // is undone and the file fails again, once, with its real reason.
+    let hot = Hot::new();
+    let bytes = b"this is not an image".to_vec();
+    let left = dead_instance(&hot, "gone-4444-aaa", "scrap.png", &bytes);
+    fs::hard_link(&left, hot.path("failed/scrap.png")).unwrap();
+    // Killed after the text: the move is complete but for the unlink.
+    let left2 = dead_instance(&hot, "gone-4545-bbb", "torn.png", &bytes);
+    fs::hard_link(&left2, hot.path("failed/torn.png")).unwrap();
+    fs::write(hot.path("failed/torn.png.error.txt"), "torn.png failed: written before the crash\n").unwrap();
+    let (status, stderr) = hot.once(&[]);
+    assert_eq!(status.code(), Some(1), "a file failed, so --once exits 1; stderr:\n{stderr}");
+    assert!(!left.exists() && !left2.exists());
+    let expected: BTreeSet<String> = ["scrap.png", "scrap.png.error.txt", "torn.png", "torn.png.error.txt"].map(String::from).into();
+    assert_eq!(hot.visible("failed"), expected, "each input once in failed/, each with its text, none renumbered");
+    assert_eq!(fs::read(hot.path("failed/scrap.png")).unwrap(), bytes, "the input is unchanged");
+    let why = fs::read_to_string(hot.path("failed/scrap.png.error.txt")).unwrap();
+    assert!(why.starts_with("scrap.png failed") && why.contains("Nothing was written to out/"), "{why}");
+    assert_eq!(fs::read_to_string(hot.path("failed/torn.png.error.txt")).unwrap(), "torn.png failed: written before the crash\n", "a complete move is not redone");
+    assert!(hot.visible("out").is_empty());
+    assert_clean(&hot);
+    let log = hot.log_lines();
+    assert!(log.iter().any(|l| l[1] == "recovered" && l[2] == "scrap.png" && l[3].contains("without its error text")), "{}", hot.log());
+    assert!(log.iter().any(|l| l[1] == "failed" && l[2] == "scrap.png"), "{}", hot.log());
+    assert!(!log.iter().any(|l| l[1] == "failed" && l[2] == "torn.png"), "{}", hot.log());
+}
+
+#[test]
 fn a_folder_of_a_live_instance_is_left_alone() {
     let hot = Hot::new();
     let bytes = png_bytes(8, 8, 10);
