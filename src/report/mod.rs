@@ -1,5 +1,6 @@
 //! Reports for people and scripts.
 
+pub mod font;
 pub mod html;
 pub mod maps;
 pub mod region_table;
