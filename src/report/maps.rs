@@ -142,9 +142,12 @@ fn frame(maps: &MapData) -> (Canvas, usize, i64) {
 }
 
 /// Outlines and numbers regions given as (number, bbox in image pixels).
+/// Tags go where they overlap no tag already drawn ([`place_tag`]), so the
+/// numbers of neighbouring regions stay readable.
 fn draw_regions(c: &mut Canvas, maps: &MapData, pad: usize, s: i64, regions: &[(usize, [u32; 4])]) {
     let f = maps.factor as f64;
-    for &(n, [x, y, w, h]) in regions {
+    let mut boxes = Vec::with_capacity(regions.len());
+    for &(_, [x, y, w, h]) in regions {
         let rx = pad as i64 + (x as f64 / f).floor() as i64;
         let ry = pad as i64 + (y as f64 / f).floor() as i64;
         let rw = (((x + w) as f64 / f).ceil() as i64 - (x as f64 / f).floor() as i64).max(1);
@@ -152,13 +155,46 @@ fn draw_regions(c: &mut Canvas, maps: &MapData, pad: usize, s: i64, regions: &[(
         c.outline(rx, ry, rw, rh, 2, [255; 3]);
         c.outline(rx - 2, ry - 2, rw + 4, rh + 4, 1, OUTLINE);
         c.outline(rx, ry, rw, rh, 1, OUTLINE);
-        let tag = format!("{n}");
-        let tw = text_width(&tag, s) + 3 * s;
-        let th = 11 * s;
-        let ty = if ry >= th + 3 { ry - th - 2 } else { ry + rh + 3 };
-        c.fill(rx - 2, ty, tw, th, OUTLINE);
-        c.text(rx - 2 + 2 * s, ty + 2 * s, s, &tag, [255; 3]);
+        boxes.push([rx, ry, rw, rh]);
     }
+    // Tags after all outlines, so no outline cuts through a number.
+    let area = [0, 0, c.w as i64, (maps.height as usize + 2 * pad) as i64];
+    let mut placed: Vec<[i64; 4]> = Vec::with_capacity(regions.len());
+    for (&(n, _), &region) in regions.iter().zip(&boxes) {
+        let tag = format!("{n}");
+        let size = [text_width(&tag, s) + 3 * s, 11 * s];
+        let [tx, ty] = place_tag(region, size, area, &placed);
+        c.fill(tx, ty, size[0], size[1], OUTLINE);
+        c.text(tx + 2 * s, ty + 2 * s, s, &tag, [255; 3]);
+        placed.push([tx, ty, size[0], size[1]]);
+    }
+}
+
+/// Where the number tag of `region` ([x, y, w, h]) of `size` [w, h] goes:
+/// the first spot, in order of nearness, that lies inside `area` and keeps
+/// a pixel clear of every tag in `placed`. Spots: above the box at its left
+/// edge, below it, at its right edge above and below, then rows stacked
+/// further up and down. Where all are taken (a crowd of tiny regions), the
+/// first spot inside `area`.
+fn place_tag(region: [i64; 4], size: [i64; 2], area: [i64; 4], placed: &[[i64; 4]]) -> [i64; 2] {
+    let [rx, ry, rw, rh] = region;
+    let [tw, th] = size;
+    let (left, right) = (rx - 2, rx + rw + 2 - tw);
+    let (above, below) = (ry - th - 2, ry + rh + 3);
+    let mut spots = vec![[left, above], [left, below], [right, above], [right, below]];
+    for k in 1..=4 {
+        for y in [above - k * (th + 1), below + k * (th + 1)] {
+            spots.extend([[left, y], [right, y]]);
+        }
+    }
+    let inside = |&[x, y]: &[i64; 2]| x >= area[0] && y >= area[1] && x + tw <= area[0] + area[2] && y + th <= area[1] + area[3];
+    let clear = |&[x, y]: &[i64; 2]| placed.iter().all(|p| x + tw < p[0] || p[0] + p[2] < x || y + th < p[1] || p[1] + p[3] < y);
+    spots
+        .iter()
+        .find(|spot| inside(spot) && clear(spot))
+        .or_else(|| spots.iter().find(|spot| inside(spot)))
+        .copied()
+        .unwrap_or([left.clamp(area[0], (area[0] + area[2] - tw).max(area[0])), below.clamp(area[1], (area[1] + area[3] - th).max(area[1]))])
 }
 
 /// The ΔE2000 map (RGB input), as PNG bytes.
@@ -268,6 +304,28 @@ mod tests {
             let info = reader.info();
             assert_eq!((info.width, info.height), (640, 2 + 24 + 92));
         }
+    }
+
+    /// Boxes side by side, narrower than their tags (letters of a title):
+    /// every tag finds a spot of its own, inside the map.
+    #[test]
+    fn tags_of_neighbouring_regions_do_not_overlap() {
+        let area = [0, 0, 400, 200];
+        let mut placed: Vec<[i64; 4]> = Vec::new();
+        for i in 0..8 {
+            let region = [20 + i * 14, 80, 12, 20];
+            let [x, y] = place_tag(region, [30, 22], area, &placed);
+            assert!(x >= 0 && y >= 0 && x + 30 <= 400 && y + 22 <= 200, "tag {i} at ({x}, {y}) leaves the map");
+            for p in &placed {
+                let apart = x + 30 < p[0] || p[0] + p[2] < x || y + 22 < p[1] || p[1] + p[3] < y;
+                assert!(apart, "tag {i} at ({x}, {y}) overlaps {p:?}");
+            }
+            placed.push([x, y, 30, 22]);
+        }
+        // A lone region keeps the first spot: above its box, at its left edge.
+        assert_eq!(place_tag([50, 80, 12, 20], [30, 22], area, &[]), [48, 56]);
+        // At the top edge the tag goes below the box.
+        assert_eq!(place_tag([50, 5, 12, 20], [30, 22], area, &[]), [48, 28]);
     }
 
     #[test]
