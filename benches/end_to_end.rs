@@ -30,7 +30,10 @@ fn end_to_end(c: &mut Criterion) {
     std::fs::create_dir_all(&out_dir).expect("the output folder");
 
     let mut group = c.benchmark_group("end_to_end");
-    group.sample_size(10).measurement_time(Duration::from_secs(40)).warm_up_time(Duration::from_secs(3));
+    group
+        .sample_size(10)
+        .measurement_time(Duration::from_secs(40))
+        .warm_up_time(Duration::from_secs(3));
     group.throughput(Throughput::Elements((photo::WIDTH * photo::HEIGHT) as u64));
     group.bench_function("separate_50mp_rgb8", |b| {
         b.iter(|| {

@@ -15,13 +15,7 @@ use std::path::Path;
 /// axes), so the profile benchmark measures the writer, not an inversion.
 fn cheap_b2a(lab: Lab) -> Cmyk {
     let d = 1.0 - lab.l / 100.0;
-    Cmyk::new(
-        d - lab.a / 400.0,
-        d + lab.a / 400.0 - lab.b / 800.0,
-        d + lab.b / 300.0,
-        0.0,
-    )
-    .clamped()
+    Cmyk::new(d - lab.a / 400.0, d + lab.a / 400.0 - lab.b / 800.0, d + lab.b / 300.0, 0.0).clamped()
 }
 
 fn spec<'a>(
@@ -59,9 +53,7 @@ fn benches(c: &mut Criterion) {
         b.iter(|| build_output_profile(black_box(&s)).unwrap())
     });
     group.bench_function("load as IccPressModel, 21^4 grid", |b| {
-        b.iter(|| {
-            IccPressModel::from_bytes(black_box(&bytes), Path::new("bench.icc"), IccModelOptions::default()).unwrap()
-        })
+        b.iter(|| IccPressModel::from_bytes(black_box(&bytes), Path::new("bench.icc"), IccModelOptions::default()).unwrap())
     });
     group.finish();
 

@@ -35,7 +35,12 @@ fn picture(channels: usize) -> Vec<u8> {
         for x in 0..w {
             let (fx, fy) = (x as f64 / w as f64, y as f64 / h as f64);
             let noise = (rng.next_u64() % 7) as f64 - 3.0;
-            let base = [255.0 * fx, 255.0 * (1.0 - fx) * (0.3 + 0.7 * fy), 255.0 * (0.5 + 0.5 * (fx * 9.0 + fy * 4.0).sin()) * (1.0 - 0.6 * fy), 255.0 * fy * fy];
+            let base = [
+                255.0 * fx,
+                255.0 * (1.0 - fx) * (0.3 + 0.7 * fy),
+                255.0 * (0.5 + 0.5 * (fx * 9.0 + fy * 4.0).sin()) * (1.0 - 0.6 * fy),
+                255.0 * fy * fy,
+            ];
             let i = (y * w + x) * channels;
             for c in 0..channels {
                 v[i + c] = (base[c] + noise).clamp(0.0, 255.0) as u8;
@@ -60,7 +65,14 @@ fn write_rgb_png(path: &Path, data: &[u8]) {
 fn write_cmyk(path: &Path, data: Vec<u8>) {
     let image = CmykImage::new(WIDTH, HEIGHT, Samples::U8(data)).expect("CMYK image");
     let mut file = std::fs::File::create(path).expect("bench file");
-    let opts = TiffOptions { compression: Compression::None, resolution: Some(Resolution { x_ppi: 300.0, y_ppi: 300.0 }), icc_profile: None };
+    let opts = TiffOptions {
+        compression: Compression::None,
+        resolution: Some(Resolution {
+            x_ppi: 300.0,
+            y_ppi: 300.0,
+        }),
+        icc_profile: None,
+    };
     write_cmyk_tiff(&mut file, &image, &opts).expect("CMYK TIFF");
 }
 
@@ -97,19 +109,37 @@ fn inspect(c: &mut Criterion) {
     // One run of each, with the report's own phase timings (for reading the figures).
     for path in [&rgb, &cmyk] {
         let t = inspect_file(&workshop(&separator), path, &opts).expect("inspect").report.timings;
-        eprintln!("{}: read {} ms, separate {} ms, analyse {} ms, total {} ms", path.display(), t.read_ms, t.separate_ms, t.analyse_ms, t.total_ms);
+        eprintln!(
+            "{}: read {} ms, separate {} ms, analyse {} ms, total {} ms",
+            path.display(),
+            t.read_ms,
+            t.separate_ms,
+            t.analyse_ms,
+            t.total_ms
+        );
     }
     if std::env::var_os("INSPECT_BENCH_PHASES_ONLY").is_some() {
         return;
     }
     let mut group = c.benchmark_group("inspect");
-    group.sample_size(10).measurement_time(Duration::from_secs(30)).warm_up_time(Duration::from_secs(1));
+    group
+        .sample_size(10)
+        .measurement_time(Duration::from_secs(30))
+        .warm_up_time(Duration::from_secs(1));
     // A fresh workshop each time: the separation table is built as in a new run.
     group.bench_function("rgb_50mp", |b| {
-        b.iter_batched(|| workshop(&separator), |w| inspect_file(&w, &rgb, &opts).expect("inspect").report.regions_total, BatchSize::PerIteration)
+        b.iter_batched(
+            || workshop(&separator),
+            |w| inspect_file(&w, &rgb, &opts).expect("inspect").report.regions_total,
+            BatchSize::PerIteration,
+        )
     });
     group.bench_function("cmyk_50mp", |b| {
-        b.iter_batched(|| workshop(&separator), |w| inspect_file(&w, &cmyk, &opts).expect("inspect").report.regions_total, BatchSize::PerIteration)
+        b.iter_batched(
+            || workshop(&separator),
+            |w| inspect_file(&w, &cmyk, &opts).expect("inspect").report.regions_total,
+            BatchSize::PerIteration,
+        )
     });
     group.finish();
 }

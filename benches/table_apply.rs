@@ -52,10 +52,7 @@ fn apply(c: &mut Criterion) {
     group.throughput(Throughput::Elements(PIXELS as u64));
     // One thread: a pool of its own. All threads: the global pool, as the
     // program runs.
-    let one = rayon::ThreadPoolBuilder::new()
-        .num_threads(1)
-        .build()
-        .expect("a one-thread pool");
+    let one = rayon::ThreadPoolBuilder::new().num_threads(1).build().expect("a one-thread pool");
     let all = format!("{}_threads", rayon::current_num_threads());
     group.bench_function(BenchmarkId::new("rgb8", "1_thread"), |b| {
         b.iter(|| one.install(|| table.apply_rgb8(&rgb8, &mut cmyk8, WIDTH)))

@@ -52,7 +52,11 @@ struct Args {
 }
 
 fn parse_args() -> Result<Args, String> {
-    let mut args = Args { profile: None, write_tiff: None, repeat: 5 };
+    let mut args = Args {
+        profile: None,
+        write_tiff: None,
+        repeat: 5,
+    };
     let mut it = std::env::args().skip(1);
     while let Some(a) = it.next() {
         let mut value = |name: &str| it.next().ok_or(format!("{name} needs a value"));
@@ -60,12 +64,18 @@ fn parse_args() -> Result<Args, String> {
             "--profile" => args.profile = Some(value("--profile")?.into()),
             "--write-tiff" => args.write_tiff = Some(value("--write-tiff")?.into()),
             "--repeat" => {
-                args.repeat = value("--repeat")?.parse().map_err(|_| "--repeat needs a whole number".to_string())?;
+                args.repeat = value("--repeat")?
+                    .parse()
+                    .map_err(|_| "--repeat needs a whole number".to_string())?;
                 if args.repeat == 0 {
                     return Err("--repeat must be at least 1".into());
                 }
             }
-            other => return Err(format!("unknown argument {other:?}; use --profile FILE, --write-tiff FILE, --repeat N")),
+            other => {
+                return Err(format!(
+                    "unknown argument {other:?}; use --profile FILE, --write-tiff FILE, --repeat N"
+                ));
+            }
         }
     }
     Ok(args)
@@ -169,8 +179,14 @@ fn run() -> Result<(), String> {
     let table_cpu_s = cpu0.zip(process_cpu_seconds()).map(|(a, b)| b - a);
 
     let (profile_bytes, profile_note) = match &args.profile {
-        Some(p) => (std::fs::read(p).map_err(|e| format!("{}: {e}", p.display()))?, format!("{}", p.display())),
-        None => (stand_in_profile(&sep)?, "stand-in built with platesmith::icc::build_output_profile (not the exported profile)".to_string()),
+        Some(p) => (
+            std::fs::read(p).map_err(|e| format!("{}: {e}", p.display()))?,
+            format!("{}", p.display()),
+        ),
+        None => (
+            stand_in_profile(&sep)?,
+            "stand-in built with platesmith::icc::build_output_profile (not the exported profile)".to_string(),
+        ),
     };
     let srgb = Profile::new_srgb();
     let press = Profile::new_icc(&profile_bytes).map_err(|e| format!("lcms2 cannot open the profile: {e}"))?;
@@ -187,21 +203,41 @@ fn run() -> Result<(), String> {
 
     // (b) lcms2
     let t = Instant::now();
-    let cached: Transform<u8, u8> = Transform::new_flags(&srgb, PixelFormat::RGB_8, &press, PixelFormat::CMYK_8, Intent::Perceptual, Flags::default())
-        .map_err(|e| format!("lcms2 transform: {e}"))?;
+    let cached: Transform<u8, u8> = Transform::new_flags(
+        &srgb,
+        PixelFormat::RGB_8,
+        &press,
+        PixelFormat::CMYK_8,
+        Intent::Perceptual,
+        Flags::default(),
+    )
+    .map_err(|e| format!("lcms2 transform: {e}"))?;
     let lcms_setup_default = t.elapsed().as_secs_f64();
     let t = Instant::now();
-    let shared: Transform<u8, u8, lcms2::GlobalContext, lcms2::DisallowCache> =
-        Transform::new_flags_context(lcms2::GlobalContext::new(), &srgb, PixelFormat::RGB_8, &press, PixelFormat::CMYK_8, Intent::Perceptual, Flags::NO_CACHE)
-            .map_err(|e| format!("lcms2 transform: {e}"))?;
+    let shared: Transform<u8, u8, lcms2::GlobalContext, lcms2::DisallowCache> = Transform::new_flags_context(
+        lcms2::GlobalContext::new(),
+        &srgb,
+        PixelFormat::RGB_8,
+        &press,
+        PixelFormat::CMYK_8,
+        Intent::Perceptual,
+        Flags::NO_CACHE,
+    )
+    .map_err(|e| format!("lcms2 transform: {e}"))?;
     let lcms_setup_nocache = t.elapsed().as_secs_f64();
     let mut theirs = vec![0u8; pixels * 4];
     let b_default = best_of(n, || cached.transform_pixels(&rgb, &mut theirs));
     let b_nocache = best_of(n, || shared.transform_pixels(&rgb, &mut theirs));
     let bn = best_of(n, || {
-        rgb.par_chunks(3 * row).zip(theirs.par_chunks_mut(4 * row)).for_each(|(s, d)| shared.transform_pixels(s, d))
+        rgb.par_chunks(3 * row)
+            .zip(theirs.par_chunks_mut(4 * row))
+            .for_each(|(s, d)| shared.transform_pixels(s, d))
     });
-    let (b1, b_flags) = if b_default <= b_nocache { (b_default, "default") } else { (b_nocache, "NO_CACHE") };
+    let (b1, b_flags) = if b_default <= b_nocache {
+        (b_default, "default")
+    } else {
+        (b_nocache, "NO_CACHE")
+    };
     // The same one-thread runs timed on the CPU (platesmith on the one-thread
     // pool's thread, lcms2 on this one).
     let a1_cpu = one.install(|| best_cpu_of(n, || table.apply_rgb8(&rgb, &mut ours, row)));
@@ -222,15 +258,19 @@ fn run() -> Result<(), String> {
 
     // How far the two separations of the same picture lie apart (percent ink).
     let diff: [f64; 4] = {
-        let sums = ours.par_chunks(4 * 4096).zip(theirs.par_chunks(4 * 4096)).map(|(a, b)| {
-            let mut s = [0u64; 4];
-            for (p, q) in a.chunks_exact(4).zip(b.chunks_exact(4)) {
-                for ch in 0..4 {
-                    s[ch] += (p[ch] as i32 - q[ch] as i32).unsigned_abs() as u64;
+        let sums = ours
+            .par_chunks(4 * 4096)
+            .zip(theirs.par_chunks(4 * 4096))
+            .map(|(a, b)| {
+                let mut s = [0u64; 4];
+                for (p, q) in a.chunks_exact(4).zip(b.chunks_exact(4)) {
+                    for ch in 0..4 {
+                        s[ch] += (p[ch] as i32 - q[ch] as i32).unsigned_abs() as u64;
+                    }
                 }
-            }
-            s
-        }).reduce(|| [0; 4], |a, b| std::array::from_fn(|i| a[i] + b[i]));
+                s
+            })
+            .reduce(|| [0; 4], |a, b| std::array::from_fn(|i| a[i] + b[i]));
         sums.map(|s| s as f64 / pixels as f64 / 255.0 * 100.0)
     };
 
@@ -264,6 +304,9 @@ fn run() -> Result<(), String> {
         }
         _ => println!("cpu_time=unavailable"),
     }
-    println!("mean_abs_difference_percent_cmyk={:.2},{:.2},{:.2},{:.2}", diff[0], diff[1], diff[2], diff[3]);
+    println!(
+        "mean_abs_difference_percent_cmyk={:.2},{:.2},{:.2},{:.2}",
+        diff[0], diff[1], diff[2], diff[3]
+    );
     Ok(())
 }

@@ -53,11 +53,7 @@ impl Canvas {
 }
 
 fn mix(a: Rgb, b: Rgb, t: f64) -> Rgb {
-    [
-        a[0] + (b[0] - a[0]) * t,
-        a[1] + (b[1] - a[1]) * t,
-        a[2] + (b[2] - a[2]) * t,
-    ]
+    [a[0] + (b[0] - a[0]) * t, a[1] + (b[1] - a[1]) * t, a[2] + (b[2] - a[2]) * t]
 }
 
 fn rgb(r: u8, g: u8, b: u8) -> Rgb {
@@ -142,10 +138,7 @@ fn sea(c: &mut Canvas) {
     let top = HORIZON as usize;
     for y in top..SCENE_H {
         let depth = (y as f64 - HORIZON) / (SCENE_H as f64 - HORIZON);
-        let base = ramp(
-            &[(0.0, rgb(150, 78, 92)), (0.12, rgb(52, 48, 96)), (1.0, rgb(8, 22, 48))],
-            depth,
-        );
+        let base = ramp(&[(0.0, rgb(150, 78, 92)), (0.12, rgb(52, 48, 96)), (1.0, rgb(8, 22, 48))], depth);
         // Perspective: waves are finer and flatter near the horizon.
         let scale = 0.02 + depth * 0.25;
         for x in 0..W {
@@ -211,32 +204,17 @@ fn boat(c: &mut Canvas) {
     // Hull, mast, two sails, a cabin and a lantern at the bow.
     polygon(
         c,
-        &[
-            (430.0, wl - 22.0),
-            (800.0, wl - 26.0),
-            (770.0, wl + 14.0),
-            (470.0, wl + 14.0),
-        ],
+        &[(430.0, wl - 22.0), (800.0, wl - 26.0), (770.0, wl + 14.0), (470.0, wl + 14.0)],
         ink,
     );
     polygon(
         c,
-        &[
-            (560.0, wl - 22.0),
-            (560.0, wl - 50.0),
-            (640.0, wl - 50.0),
-            (648.0, wl - 23.0),
-        ],
+        &[(560.0, wl - 22.0), (560.0, wl - 50.0), (640.0, wl - 50.0), (648.0, wl - 23.0)],
         ink,
     );
     polygon(
         c,
-        &[
-            (612.0, wl - 24.0),
-            (612.0, wl - 300.0),
-            (618.0, wl - 300.0),
-            (618.0, wl - 24.0),
-        ],
+        &[(612.0, wl - 24.0), (612.0, wl - 300.0), (618.0, wl - 300.0), (618.0, wl - 24.0)],
         ink,
     );
     polygon(c, &[(622.0, wl - 290.0), (622.0, wl - 40.0), (760.0, wl - 44.0)], ink);
@@ -403,9 +381,7 @@ fn panel(c: &mut Canvas) {
 }
 
 fn main() -> std::io::Result<()> {
-    let mut c = Canvas {
-        px: vec![[0.0; 3]; W * H],
-    };
+    let mut c = Canvas { px: vec![[0.0; 3]; W * H] };
     sky(&mut c);
     sea(&mut c);
     lanterns(&mut c);

@@ -41,7 +41,10 @@ impl CgatsTable {
 
     /// A keyword's value (case-insensitive name).
     pub fn keyword(&self, name: &str) -> Option<&str> {
-        self.keywords.iter().find(|(k, _)| k.eq_ignore_ascii_case(name)).map(|(_, v)| v.as_str())
+        self.keywords
+            .iter()
+            .find(|(k, _)| k.eq_ignore_ascii_case(name))
+            .map(|(_, v)| v.as_str())
     }
 
     /// The number in row `row`, column `col`, with an error naming file, line and field.
@@ -109,8 +112,14 @@ fn is(token: &Token, word: &str) -> bool {
 
 enum State {
     Header,
-    Format { start: usize },
-    Data { start: usize, pending: Vec<(usize, String)>, line_mode: Option<bool> },
+    Format {
+        start: usize,
+    },
+    Data {
+        start: usize,
+        pending: Vec<(usize, String)>,
+        line_mode: Option<bool>,
+    },
 }
 
 /// Parses CGATS.17 text; `path` names the file in errors.
@@ -161,7 +170,11 @@ pub fn parse(text: &str, path: &Path) -> Result<CgatsFile> {
                     }
                     let pending: Vec<(usize, String)> = tokens[1..].iter().map(|t| (line_no, t.text.clone())).collect();
                     let line_mode = if pending.is_empty() { None } else { Some(false) };
-                    state = State::Data { start: line_no, pending, line_mode };
+                    state = State::Data {
+                        start: line_no,
+                        pending,
+                        line_mode,
+                    };
                 } else if is(key, "NUMBER_OF_FIELDS") {
                     declared_fields = Some((int_value("NUMBER_OF_FIELDS")?, line_no));
                 } else if is(key, "NUMBER_OF_SETS") {
@@ -188,10 +201,7 @@ pub fn parse(text: &str, path: &Path) -> Result<CgatsFile> {
                         {
                             return Err(err(
                                 at,
-                                format!(
-                                    "NUMBER_OF_FIELDS is {n} but the data format block names {}",
-                                    table.fields.len()
-                                ),
+                                format!("NUMBER_OF_FIELDS is {n} but the data format block names {}", table.fields.len()),
                             ));
                         }
                         state = State::Header;
@@ -234,9 +244,7 @@ pub fn parse(text: &str, path: &Path) -> Result<CgatsFile> {
                     if *line_mode == Some(true) && on_line != width {
                         return Err(err(
                             line_no,
-                            format!(
-                                "{on_line} values in this data set, but the data format block names {width} fields"
-                            ),
+                            format!("{on_line} values in this data set, but the data format block names {width} fields"),
                         ));
                     }
                 }
@@ -282,7 +290,10 @@ pub fn parse(text: &str, path: &Path) -> Result<CgatsFile> {
         return Err(Error::input(path, "empty file: no CGATS identifier line"));
     }
     if file.tables.is_empty() {
-        return Err(Error::input(path, "no data table (BEGIN_DATA_FORMAT … END_DATA_FORMAT, BEGIN_DATA … END_DATA)"));
+        return Err(Error::input(
+            path,
+            "no data table (BEGIN_DATA_FORMAT … END_DATA_FORMAT, BEGIN_DATA … END_DATA)",
+        ));
     }
     Ok(file)
 }

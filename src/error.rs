@@ -27,11 +27,17 @@ impl Error {
     }
 
     pub fn input(path: impl Into<PathBuf>, message: impl Into<String>) -> Error {
-        Error::Input { path: path.into(), message: message.into() }
+        Error::Input {
+            path: path.into(),
+            message: message.into(),
+        }
     }
 
     pub fn output(path: impl Into<PathBuf>, message: impl Into<String>) -> Error {
-        Error::Output { path: path.into(), message: message.into() }
+        Error::Output {
+            path: path.into(),
+            message: message.into(),
+        }
     }
 
     /// Exit code per the project convention: 2 usage or input, 3 internal.
@@ -48,7 +54,12 @@ impl Error {
 /// several; its lines are joined with spaces so each error stays one line.
 fn one_line(m: &str) -> std::borrow::Cow<'_, str> {
     if m.contains(['\n', '\r']) {
-        m.split(['\n', '\r']).map(str::trim).filter(|l| !l.is_empty()).collect::<Vec<_>>().join(" ").into()
+        m.split(['\n', '\r'])
+            .map(str::trim)
+            .filter(|l| !l.is_empty())
+            .collect::<Vec<_>>()
+            .join(" ")
+            .into()
     } else {
         m.into()
     }
@@ -60,7 +71,11 @@ impl fmt::Display for Error {
             Error::Usage(m) => write!(f, "{}", one_line(m)),
             Error::Input { path, message } => write!(f, "{}: {}", path.display(), one_line(message)),
             Error::Output { path, message } => write!(f, "{}: cannot write: {}", path.display(), one_line(message)),
-            Error::Internal(m) => write!(f, "internal error: {} (please report this with the input that caused it)", one_line(m)),
+            Error::Internal(m) => write!(
+                f,
+                "internal error: {} (please report this with the input that caused it)",
+                one_line(m)
+            ),
             Error::BrokenPipe => write!(f, "output closed"),
         }
     }
@@ -94,7 +109,10 @@ pub fn write_stdout(text: &str) -> Result<()> {
     match out.write_all(text.as_bytes()).and_then(|_| out.flush()) {
         Ok(()) => Ok(()),
         Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Err(Error::BrokenPipe),
-        Err(e) => Err(Error::Output { path: "standard output".into(), message: e.to_string() }),
+        Err(e) => Err(Error::Output {
+            path: "standard output".into(),
+            message: e.to_string(),
+        }),
     }
 }
 
@@ -104,8 +122,14 @@ mod tests {
 
     #[test]
     fn library_messages_over_several_lines_print_as_one() {
-        let e = Error::input("a.png", "cannot be read (Could not create the object.\nThe reason is not known.\r\n)");
-        assert_eq!(e.to_string(), "a.png: cannot be read (Could not create the object. The reason is not known. )");
+        let e = Error::input(
+            "a.png",
+            "cannot be read (Could not create the object.\nThe reason is not known.\r\n)",
+        );
+        assert_eq!(
+            e.to_string(),
+            "a.png: cannot be read (Could not create the object. The reason is not known. )"
+        );
         assert_eq!(Error::usage("plain").to_string(), "plain");
         assert!(!Error::Internal("x\ny".into()).to_string().contains('\n'));
     }

@@ -53,14 +53,24 @@ impl Ink {
 }
 
 impl Cmyk {
-    pub const ZERO: Cmyk = Cmyk { c: 0.0, m: 0.0, y: 0.0, k: 0.0 };
+    pub const ZERO: Cmyk = Cmyk {
+        c: 0.0,
+        m: 0.0,
+        y: 0.0,
+        k: 0.0,
+    };
 
     pub const fn new(c: f64, m: f64, y: f64, k: f64) -> Cmyk {
         Cmyk { c, m, y, k }
     }
 
     pub fn from_array(v: [f64; 4]) -> Cmyk {
-        Cmyk { c: v[0], m: v[1], y: v[2], k: v[3] }
+        Cmyk {
+            c: v[0],
+            m: v[1],
+            y: v[2],
+            k: v[3],
+        }
     }
 
     pub fn to_array(self) -> [f64; 4] {

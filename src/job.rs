@@ -2,7 +2,6 @@
 //! and a JSON summary out, written as a set (all files or none).
 
 use crate::colour::RgbSpace;
-use std::borrow::Cow;
 use crate::error::{Error, Result};
 use crate::ink::{Cmyk, Ink};
 use crate::raster::{CmykImage, Compression, Layout, Limits, OutputSet, Raster, Resolution, Samples, TiffOptions};
@@ -11,6 +10,7 @@ use crate::separation::{SeparationTable, Separator};
 use crate::source::RgbSource;
 use rayon::prelude::*;
 use serde::Serialize;
+use std::borrow::Cow;
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::sync::{Arc, Mutex};
@@ -262,7 +262,14 @@ fn ms(t: Instant) -> f64 {
 
 impl Workshop {
     pub fn new(separator: Separator, settings_report: SettingsReport, options: JobOptions) -> Workshop {
-        Workshop { separator, settings_report, options, tables: Mutex::new(HashMap::new()), cmyk_table: std::sync::OnceLock::new(), profile: std::sync::OnceLock::new() }
+        Workshop {
+            separator,
+            settings_report,
+            options,
+            tables: Mutex::new(HashMap::new()),
+            cmyk_table: std::sync::OnceLock::new(),
+            profile: std::sync::OnceLock::new(),
+        }
     }
 
     /// The ICC output profile of this run's condition and settings (v4, default
@@ -311,7 +318,14 @@ impl Workshop {
                     notes.push(format!("{e}; ignored, {} assumed", self.options.source_space.name()));
                     Ok((Vec::new(), assumed))
                 }
-                Err(e) => Err(Error::input(path, format!("{}; give --ignore-bad-profile to assume {} instead", strip_path(&e, path), self.options.source_space.name()))),
+                Err(e) => Err(Error::input(
+                    path,
+                    format!(
+                        "{}; give --ignore-bad-profile to assume {} instead",
+                        strip_path(&e, path),
+                        self.options.source_space.name()
+                    ),
+                )),
             },
             Some(_) => {
                 notes.push(format!("gray profile not used; {} gray assumed", self.options.source_space.name()));
@@ -375,7 +389,13 @@ impl Workshop {
                 let table = self
                     .cmyk_table
                     .get_or_init(|| {
-                        crate::separation::ReseparationTable::build(&self.separator, &self.options.source_condition, self.options.keep_pure_black_cmyk, CMYK_TABLE_GRID).map(Arc::new)
+                        crate::separation::ReseparationTable::build(
+                            &self.separator,
+                            &self.options.source_condition,
+                            self.options.keep_pure_black_cmyk,
+                            CMYK_TABLE_GRID,
+                        )
+                        .map(Arc::new)
                     })
                     .as_ref()
                     .map_err(|e| Error::usage(e.to_string()))?
@@ -385,7 +405,11 @@ impl Workshop {
                     "CMYK re-separated from {} to {}{}",
                     self.options.source_condition.name,
                     self.separator.condition().name,
-                    if self.options.keep_pure_black_cmyk { "; pure black kept black only" } else { "" }
+                    if self.options.keep_pure_black_cmyk {
+                        "; pure black kept black only"
+                    } else {
+                        ""
+                    }
                 ));
                 if raster.icc_profile.is_some() {
                     notes.push("embedded CMYK profile not used; the source condition describes the input".into());
@@ -423,7 +447,17 @@ impl Workshop {
         } else {
             "embedded ICC profile".into()
         };
-        Ok(SeparatedFile { raster, image, rgb_source, source_description, notes, stats, read_ms, table_ms, separate_ms })
+        Ok(SeparatedFile {
+            raster,
+            image,
+            rgb_source,
+            source_description,
+            notes,
+            stats,
+            read_ms,
+            table_ms,
+            separate_ms,
+        })
     }
 
     /// Writes the composite, the plates and the summary of a separated file as
@@ -433,8 +467,18 @@ impl Workshop {
     /// run whose inputs all fail leaves no empty folder behind.
     pub fn write_outputs(&self, path: &Path, separated: &SeparatedFile, started: Instant) -> Result<JobSummary> {
         let dir = &self.options.out_dir;
-        std::fs::create_dir_all(dir).map_err(|e| Error::output(dir, format!("cannot create the output folder: {}", crate::error::io_reason(&e))))?;
-        self.write_outputs_in(path, separated, started, &OutputPlace { dir: &self.options.out_dir, listed_dir: &self.options.out_dir, input_shown: path })
+        std::fs::create_dir_all(dir)
+            .map_err(|e| Error::output(dir, format!("cannot create the output folder: {}", crate::error::io_reason(&e))))?;
+        self.write_outputs_in(
+            path,
+            separated,
+            started,
+            &OutputPlace {
+                dir: &self.options.out_dir,
+                listed_dir: &self.options.out_dir,
+                input_shown: path,
+            },
+        )
     }
 
     /// [`Workshop::write_outputs`] into another folder than the job's `out_dir`,
@@ -448,14 +492,27 @@ impl Workshop {
         let mut out = OutputSet::new(place.dir, self.options.overwrite)?;
         out.protect([path]);
         let icc = self.output_profile()?;
-        let tiff = TiffOptions { compression: self.options.compression, resolution: raster.resolution, icc_profile: Some(icc) };
+        let tiff = TiffOptions {
+            compression: self.options.compression,
+            resolution: raster.resolution,
+            icc_profile: Some(icc),
+        };
         // The composite and the plates are written at the same time, one file per thread.
-        let mut files: Vec<(String, crate::raster::StageFn)> = vec![(format!("{stem}.cmyk.tif"), Box::new(|w| crate::raster::write_cmyk_tiff(w, image, &tiff)))];
+        let mut files: Vec<(String, crate::raster::StageFn)> = vec![(
+            format!("{stem}.cmyk.tif"),
+            Box::new(|w| crate::raster::write_cmyk_tiff(w, image, &tiff)),
+        )];
         for ink in Ink::ALL {
             let tiff = &tiff;
             match self.options.plates {
-                PlateFormat::Tiff => files.push((format!("{stem}.{}.tif", ink.letter()), Box::new(move |w| crate::raster::write_plate_tiff(w, image, ink, tiff)))),
-                PlateFormat::Png => files.push((format!("{stem}.{}.png", ink.letter()), Box::new(move |w| crate::raster::write_plate_png(w, image, ink, raster.resolution)))),
+                PlateFormat::Tiff => files.push((
+                    format!("{stem}.{}.tif", ink.letter()),
+                    Box::new(move |w| crate::raster::write_plate_tiff(w, image, ink, tiff)),
+                )),
+                PlateFormat::Png => files.push((
+                    format!("{stem}.{}.png", ink.letter()),
+                    Box::new(move |w| crate::raster::write_plate_png(w, image, ink, raster.resolution)),
+                )),
                 PlateFormat::None => {}
             }
         }
@@ -492,7 +549,13 @@ impl Workshop {
                 mean: round_to(stats.tac_sum / px * 100.0, 1),
                 over_fraction: stats.over as f64 / px,
             },
-            timings: Timings { read_ms: separated.read_ms, table_ms: separated.table_ms, separate_ms: separated.separate_ms, write_ms: 0.0, total_ms: 0.0 },
+            timings: Timings {
+                read_ms: separated.read_ms,
+                table_ms: separated.table_ms,
+                separate_ms: separated.separate_ms,
+                write_ms: 0.0,
+                total_ms: 0.0,
+            },
             note: crate::report::PREDICTION_NOTE,
         };
         summary.timings.write_ms = ms(t);
@@ -556,8 +619,14 @@ impl Workshop {
         let pure = sep.settings().keep_pure_black;
         let k_code = |k: f64| if bits == 8 { k * 255.0 } else { k * 65535.0 };
         let gray: Vec<f64> = match &raster.samples {
-            Samples::U8(v) => v.chunks_exact(channels).map(|p| flatten_gray(p[0] as f64, p.get(1).map(|&a| a as f64), max_in)).collect(),
-            Samples::U16(v) => v.chunks_exact(channels).map(|p| flatten_gray(p[0] as f64, p.get(1).map(|&a| a as f64), max_in)).collect(),
+            Samples::U8(v) => v
+                .chunks_exact(channels)
+                .map(|p| flatten_gray(p[0] as f64, p.get(1).map(|&a| a as f64), max_in))
+                .collect(),
+            Samples::U16(v) => v
+                .chunks_exact(channels)
+                .map(|p| flatten_gray(p[0] as f64, p.get(1).map(|&a| a as f64), max_in))
+                .collect(),
         };
         let k: Vec<f64> = gray.par_iter().map(|&g| if pure && g == 0.0 { k_max } else { k_at(g) }).collect();
         if bits == 8 {

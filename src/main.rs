@@ -9,7 +9,10 @@ fn main() -> ExitCode {
         if platesmith::raster::decoder_panic_is_caught() {
             return;
         }
-        let place = info.location().map(|l| format!(" at {}:{}", l.file(), l.line())).unwrap_or_default();
+        let place = info
+            .location()
+            .map(|l| format!(" at {}:{}", l.file(), l.line()))
+            .unwrap_or_default();
         eprintln!("platesmith: internal error{place}: please report this with the input that caused it");
     }));
     let cli = platesmith::cli::Cli::parse();

@@ -23,7 +23,11 @@ type LabToRgb = Transform<[f64; 3], [u8; 3], GlobalContext, DisallowCache>;
 enum Display {
     Srgb(RgbConverter),
     /// A display profile: transforms for relative and for absolute colorimetry, and its bytes.
-    Profile { relative: LabToRgb, absolute: LabToRgb, bytes: Vec<u8> },
+    Profile {
+        relative: LabToRgb,
+        absolute: LabToRgb,
+        bytes: Vec<u8>,
+    },
 }
 
 /// Turns CMYK into display RGB for one printing condition.
@@ -34,8 +38,12 @@ pub struct Proofer {
 }
 
 /// Ink channels shown in a progressive: C, C+M, C+M+Y, C+M+Y+K.
-pub const PROGRESSIVES: [(&str, [bool; 4]); 4] =
-    [("1-c", [true, false, false, false]), ("2-cm", [true, true, false, false]), ("3-cmy", [true, true, true, false]), ("4-cmyk", [true; 4])];
+pub const PROGRESSIVES: [(&str, [bool; 4]); 4] = [
+    ("1-c", [true, false, false, false]),
+    ("2-cm", [true, true, false, false]),
+    ("3-cmy", [true, true, true, false]),
+    ("4-cmyk", [true; 4]),
+];
 
 fn lab_profile() -> Result<Profile> {
     Profile::new_lab4_context(GlobalContext::new(), CIExyY::d50()).map_err(|e| Error::Internal(format!("lcms2 Lab profile: {e}")))
@@ -46,26 +54,58 @@ impl Proofer {
     /// display profile (file name for errors, bytes), or `None` for sRGB;
     /// `paper_white`: simulate the paper (absolute colorimetric).
     pub fn new(output_profile: &[u8], display: Option<(&Path, Vec<u8>)>, paper_white: bool) -> Result<Proofer> {
-        let press = Profile::new_icc(output_profile).map_err(|e| Error::Internal(format!("the output profile cannot be read by lcms2: {e}")))?;
-        let intent = if paper_white { Intent::AbsoluteColorimetric } else { Intent::RelativeColorimetric };
+        let press =
+            Profile::new_icc(output_profile).map_err(|e| Error::Internal(format!("the output profile cannot be read by lcms2: {e}")))?;
+        let intent = if paper_white {
+            Intent::AbsoluteColorimetric
+        } else {
+            Intent::RelativeColorimetric
+        };
         let lab = lab_profile()?;
-        let to_lab = Transform::new_flags_context(GlobalContext::new(), &press, PixelFormat::CMYK_16, &lab, PixelFormat::Lab_DBL, intent, Flags::NO_CACHE | Flags::NO_OPTIMIZE)
-            .map_err(|e| Error::Internal(format!("lcms2 cannot proof through the output profile: {e}")))?;
+        let to_lab = Transform::new_flags_context(
+            GlobalContext::new(),
+            &press,
+            PixelFormat::CMYK_16,
+            &lab,
+            PixelFormat::Lab_DBL,
+            intent,
+            Flags::NO_CACHE | Flags::NO_OPTIMIZE,
+        )
+        .map_err(|e| Error::Internal(format!("lcms2 cannot proof through the output profile: {e}")))?;
         let display = match display {
             None => Display::Srgb(RgbSpace::Srgb.converter()),
             Some((path, bytes)) => {
                 let p = Profile::new_icc(&bytes).map_err(|e| Error::input(path, format!("is not a readable ICC profile ({e})")))?;
                 if p.color_space() != ColorSpaceSignature::RgbData {
-                    return Err(Error::input(path, format!("describes {:?} data; a display profile must be RGB", p.color_space())));
+                    return Err(Error::input(
+                        path,
+                        format!("describes {:?} data; a display profile must be RGB", p.color_space()),
+                    ));
                 }
                 let make = |intent| -> Result<LabToRgb> {
-                    Transform::new_flags_context(GlobalContext::new(), &lab, PixelFormat::Lab_DBL, &p, PixelFormat::RGB_8, intent, Flags::NO_CACHE)
-                        .map_err(|e| Error::input(path, format!("cannot be used as a display profile ({e})")))
+                    Transform::new_flags_context(
+                        GlobalContext::new(),
+                        &lab,
+                        PixelFormat::Lab_DBL,
+                        &p,
+                        PixelFormat::RGB_8,
+                        intent,
+                        Flags::NO_CACHE,
+                    )
+                    .map_err(|e| Error::input(path, format!("cannot be used as a display profile ({e})")))
                 };
-                Display::Profile { relative: make(Intent::RelativeColorimetric)?, absolute: make(Intent::AbsoluteColorimetric)?, bytes }
+                Display::Profile {
+                    relative: make(Intent::RelativeColorimetric)?,
+                    absolute: make(Intent::AbsoluteColorimetric)?,
+                    bytes,
+                }
             }
         };
-        Ok(Proofer { to_lab, display, paper_white })
+        Ok(Proofer {
+            to_lab,
+            display,
+            paper_white,
+        })
     }
 
     /// The display profile's bytes (to embed in the PNG), `None` for sRGB.
@@ -90,7 +130,9 @@ impl Proofer {
                     }
                 }
             }
-            Display::Profile { relative, absolute: abs, .. } => {
+            Display::Profile {
+                relative, absolute: abs, ..
+            } => {
                 let t = if absolute { abs } else { relative };
                 let mut rgb = vec![[0u8; 3]; labs.len()];
                 t.transform_pixels(labs, &mut rgb);
@@ -146,15 +188,25 @@ impl Proofer {
         let lab = lab_profile()?;
         let labs: Vec<[f64; 3]> = if raster.layout == Layout::Cmyk {
             let bytes = raster.icc_profile.as_ref().ok_or_else(|| {
-                Error::input(path, "CMYK input has no embedded profile to show as the original; --side-by-side needs one")
+                Error::input(
+                    path,
+                    "CMYK input has no embedded profile to show as the original; --side-by-side needs one",
+                )
             })?;
             let p = Profile::new_icc(bytes).map_err(|e| Error::input(path, format!("embedded ICC profile cannot be read ({e})")))?;
             if p.color_space() != ColorSpaceSignature::CmykData {
                 return Err(Error::input(path, "embedded ICC profile does not describe CMYK"));
             }
-            let t: Transform<[f64; 4], [f64; 3], GlobalContext, DisallowCache> =
-                Transform::new_flags_context(GlobalContext::new(), &p, PixelFormat::CMYK_DBL, &lab, PixelFormat::Lab_DBL, Intent::RelativeColorimetric, Flags::NO_CACHE)
-                    .map_err(|e| Error::input(path, format!("embedded ICC profile cannot convert to CIELAB ({e})")))?;
+            let t: Transform<[f64; 4], [f64; 3], GlobalContext, DisallowCache> = Transform::new_flags_context(
+                GlobalContext::new(),
+                &p,
+                PixelFormat::CMYK_DBL,
+                &lab,
+                PixelFormat::Lab_DBL,
+                Intent::RelativeColorimetric,
+                Flags::NO_CACHE,
+            )
+            .map_err(|e| Error::input(path, format!("embedded ICC profile cannot convert to CIELAB ({e})")))?;
             let cmyk: Vec<[f64; 4]> = (0..pixels).map(|p| std::array::from_fn(|c| value(4 * p + c) * 100.0)).collect();
             let mut out = vec![[0.0; 3]; pixels];
             t.transform_pixels(&cmyk, &mut out);
@@ -173,14 +225,23 @@ impl Proofer {
                 })
                 .collect();
             let profile = match (&raster.icc_profile, raster.layout) {
-                (Some(bytes), Layout::Rgb | Layout::Rgba) => Profile::new_icc(bytes).ok().filter(|p| p.color_space() == ColorSpaceSignature::RgbData),
+                (Some(bytes), Layout::Rgb | Layout::Rgba) => Profile::new_icc(bytes)
+                    .ok()
+                    .filter(|p| p.color_space() == ColorSpaceSignature::RgbData),
                 _ => None,
             };
             match profile {
                 Some(p) => {
-                    let t: Transform<[f64; 3], [f64; 3], GlobalContext, DisallowCache> =
-                        Transform::new_flags_context(GlobalContext::new(), &p, PixelFormat::RGB_DBL, &lab, PixelFormat::Lab_DBL, Intent::RelativeColorimetric, Flags::NO_CACHE)
-                            .map_err(|e| Error::input(path, format!("embedded ICC profile cannot convert to CIELAB ({e})")))?;
+                    let t: Transform<[f64; 3], [f64; 3], GlobalContext, DisallowCache> = Transform::new_flags_context(
+                        GlobalContext::new(),
+                        &p,
+                        PixelFormat::RGB_DBL,
+                        &lab,
+                        PixelFormat::Lab_DBL,
+                        Intent::RelativeColorimetric,
+                        Flags::NO_CACHE,
+                    )
+                    .map_err(|e| Error::input(path, format!("embedded ICC profile cannot convert to CIELAB ({e})")))?;
                     let mut out = vec![[0.0; 3]; pixels];
                     t.transform_pixels(&rgb, &mut out);
                     out
@@ -192,7 +253,9 @@ impl Proofer {
             }
         };
         let mut out = vec![0u8; pixels * 3];
-        out.par_chunks_mut(3 * 4096).zip(labs.par_chunks(4096)).for_each(|(dst, src)| self.display_rgb(src, false, dst));
+        out.par_chunks_mut(3 * 4096)
+            .zip(labs.par_chunks(4096))
+            .for_each(|(dst, src)| self.display_rgb(src, false, dst));
         Ok(out)
     }
 }

@@ -35,15 +35,35 @@ impl RgbSource {
         }
         let lab = Profile::new_lab4_context(GlobalContext::new(), CIExyY::d50()).map_err(|e| Error::Internal(e.to_string()))?;
         let intent = Intent::RelativeColorimetric;
-        let to_lab = Transform::new_flags_context(GlobalContext::new(), &profile, PixelFormat::RGB_DBL, &lab, PixelFormat::Lab_DBL, intent, Flags::NO_CACHE)
-            .map_err(|e| bad(&format!("cannot convert to CIELAB ({e})")))?;
-        let from_lab = Transform::new_flags_context(GlobalContext::new(), &lab, PixelFormat::Lab_DBL, &profile, PixelFormat::RGB_DBL, intent, Flags::NO_CACHE)
-            .map_err(|e| bad(&format!("cannot convert from CIELAB ({e})")))?;
+        let to_lab = Transform::new_flags_context(
+            GlobalContext::new(),
+            &profile,
+            PixelFormat::RGB_DBL,
+            &lab,
+            PixelFormat::Lab_DBL,
+            intent,
+            Flags::NO_CACHE,
+        )
+        .map_err(|e| bad(&format!("cannot convert to CIELAB ({e})")))?;
+        let from_lab = Transform::new_flags_context(
+            GlobalContext::new(),
+            &lab,
+            PixelFormat::Lab_DBL,
+            &profile,
+            PixelFormat::RGB_DBL,
+            intent,
+            Flags::NO_CACHE,
+        )
+        .map_err(|e| bad(&format!("cannot convert from CIELAB ({e})")))?;
         let description = profile
             .info(lcms2::InfoType::Description, lcms2::Locale::none())
             .filter(|d| !d.trim().is_empty())
             .unwrap_or_else(|| "unnamed".to_string());
-        Ok(RgbSource::Icc(Box::new(IccRgb { description, to_lab, from_lab })))
+        Ok(RgbSource::Icc(Box::new(IccRgb {
+            description,
+            to_lab,
+            from_lab,
+        })))
     }
 
     /// How the summary names the source.
@@ -57,7 +77,9 @@ impl RgbSource {
     /// CIELAB D50 of the nodes of an n³ table, in table order ((r·n + g)·n + b).
     pub fn node_labs(&self, n: usize) -> Vec<Lab> {
         let coord = |i: usize| i as f64 / (n - 1) as f64;
-        let rgb: Vec<[f64; 3]> = (0..n * n * n).map(|i| [coord(i / (n * n)), coord((i / n) % n), coord(i % n)]).collect();
+        let rgb: Vec<[f64; 3]> = (0..n * n * n)
+            .map(|i| [coord(i / (n * n)), coord((i / n) % n), coord(i % n)])
+            .collect();
         self.labs_of(&rgb)
     }
 
@@ -103,14 +125,28 @@ impl SourceGamut for IccGamut<'_> {
     }
 
     fn primaries(&self) -> Option<[Lab; 6]> {
-        let corners = [[1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [0.0, 1.0, 0.0], [0.0, 1.0, 1.0], [0.0, 0.0, 1.0], [1.0, 0.0, 1.0]];
+        let corners = [
+            [1.0, 0.0, 0.0],
+            [1.0, 1.0, 0.0],
+            [0.0, 1.0, 0.0],
+            [0.0, 1.0, 1.0],
+            [0.0, 0.0, 1.0],
+            [1.0, 0.0, 1.0],
+        ];
         let mut out = [[0.0; 3]; 6];
         self.0.to_lab.transform_pixels(&corners, &mut out);
         Some(out.map(Lab::from_array))
     }
 
     fn ridge(&self) -> Option<Vec<Lab>> {
-        let corners = [[1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [0.0, 1.0, 0.0], [0.0, 1.0, 1.0], [0.0, 0.0, 1.0], [1.0, 0.0, 1.0]];
+        let corners = [
+            [1.0, 0.0, 0.0],
+            [1.0, 1.0, 0.0],
+            [0.0, 1.0, 0.0],
+            [0.0, 1.0, 1.0],
+            [0.0, 0.0, 1.0],
+            [1.0, 0.0, 1.0],
+        ];
         let pts = std::cell::RefCell::new(Vec::new());
         crate::separation::gamut::ridge_samples(&corners, &|rgb| {
             pts.borrow_mut().push(rgb);

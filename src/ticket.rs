@@ -131,13 +131,16 @@ pub fn line_of(text: &str, section: &str, key: &str) -> Option<usize> {
 impl Ticket {
     /// Reads and validates a ticket file.
     pub fn load(path: &Path) -> Result<Ticket> {
-        let text = std::fs::read_to_string(path).map_err(|e| Error::input(path, format!("cannot read the ticket: {}", crate::error::io_reason(&e))))?;
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| Error::input(path, format!("cannot read the ticket: {}", crate::error::io_reason(&e))))?;
         Ticket::parse(&text, path)
     }
 
     pub fn parse(text: &str, path: &Path) -> Result<Ticket> {
         let mut ticket: Ticket = toml::from_str(text).map_err(|e| {
-            let line = e.span().map(|s| text.as_bytes()[..s.start.min(text.len())].iter().filter(|&&b| b == b'\n').count() + 1);
+            let line = e
+                .span()
+                .map(|s| text.as_bytes()[..s.start.min(text.len())].iter().filter(|&&b| b == b'\n').count() + 1);
             let msg = e.message().trim().to_string();
             match line {
                 Some(l) => Error::input(path, format!("line {l}: {msg}")),
@@ -230,34 +233,55 @@ mod tests {
 
     #[test]
     fn unknown_keys_name_the_line() {
-        let err = Ticket::parse("[model]\ntac = 300\ncolour = 1\n", Path::new("job.toml")).unwrap_err().to_string();
-        assert!(err.contains("job.toml") && err.contains("line 3") && err.contains("colour"), "{err}");
+        let err = Ticket::parse("[model]\ntac = 300\ncolour = 1\n", Path::new("job.toml"))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            err.contains("job.toml") && err.contains("line 3") && err.contains("colour"),
+            "{err}"
+        );
     }
 
     #[test]
     fn out_of_range_values_name_key_line_and_range() {
-        let err = Ticket::parse("[model]\n\ntac = 450\n", Path::new("job.toml")).unwrap_err().to_string();
-        assert!(err.contains("line 3") && err.contains("model.tac") && err.contains("100–400"), "{err}");
+        let err = Ticket::parse("[model]\n\ntac = 450\n", Path::new("job.toml"))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            err.contains("line 3") && err.contains("model.tac") && err.contains("100–400"),
+            "{err}"
+        );
         let err = Ticket::parse("[model]\ngcr = -5\n", Path::new("job.toml")).unwrap_err().to_string();
         assert!(err.contains("line 2") && err.contains("model.gcr"), "{err}");
     }
 
     #[test]
     fn broken_toml_names_the_line() {
-        let err = Ticket::parse("[model]\ntac = = 3\n", Path::new("job.toml")).unwrap_err().to_string();
+        let err = Ticket::parse("[model]\ntac = = 3\n", Path::new("job.toml"))
+            .unwrap_err()
+            .to_string();
         assert!(err.contains("line 2"), "{err}");
     }
 
     #[test]
     fn a_bad_check_rule_names_the_line_and_the_problem() {
-        let err = Ticket::parse("[checks]\nfail_if = [\"tac>300\", \"ink>3\"]\n", Path::new("job.toml")).unwrap_err().to_string();
-        assert!(err.contains("line 2") && err.contains("checks.fail_if") && err.contains("unknown metric 'ink'"), "{err}");
+        let err = Ticket::parse("[checks]\nfail_if = [\"tac>300\", \"ink>3\"]\n", Path::new("job.toml"))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            err.contains("line 2") && err.contains("checks.fail_if") && err.contains("unknown metric 'ink'"),
+            "{err}"
+        );
         assert!(Ticket::parse("[checks]\nfail_if = [\"tac>300\"]\n", Path::new("job.toml")).is_ok());
     }
 
     #[test]
     fn round_trip() {
-        let t = Ticket::parse("[model]\ntac = 300\nintent = \"relative\"\n[output]\nbits = 16\n", Path::new("a.toml")).unwrap();
+        let t = Ticket::parse(
+            "[model]\ntac = 300\nintent = \"relative\"\n[output]\nbits = 16\n",
+            Path::new("a.toml"),
+        )
+        .unwrap();
         let back = Ticket::parse(&t.to_toml().unwrap(), Path::new("b.toml")).unwrap();
         assert_eq!(back.model, t.model);
         assert_eq!(back.output, t.output);

@@ -40,7 +40,11 @@ fn scene(u: f64, v: f64) -> [f64; 3] {
         let t = (v - horizon) / (1.0 - horizon);
         let wave = (u * 180.0 + (v * 90.0).sin() * 3.0).sin() * (v * 400.0).sin();
         let sparkle = (-((u - 0.62) * 5.0).powi(2)).exp() * (0.5 + 0.5 * wave) * (1.0 - t);
-        mix(mix([0.16, 0.22, 0.40], [0.02, 0.05, 0.12], t.sqrt()), [0.95, 0.70, 0.35], sparkle * 0.7)
+        mix(
+            mix([0.16, 0.22, 0.40], [0.02, 0.05, 0.12], t.sqrt()),
+            [0.95, 0.70, 0.35],
+            sparkle * 0.7,
+        )
     };
     // The quay: a dark band with lit windows.
     if (0.40..0.47).contains(&v) && u < 0.45 {
@@ -58,7 +62,11 @@ fn scene(u: f64, v: f64) -> [f64; 3] {
         }
     }
     // Harbour lights: soft round glows.
-    for (lx, ly, colour) in [(0.10, 0.38, [1.0, 0.9, 0.6]), (0.30, 0.36, [0.6, 0.9, 1.0]), (0.93, 0.42, [1.0, 0.3, 0.2])] {
+    for (lx, ly, colour) in [
+        (0.10, 0.38, [1.0, 0.9, 0.6]),
+        (0.30, 0.36, [0.6, 0.9, 1.0]),
+        (0.93, 0.42, [1.0, 0.3, 0.2]),
+    ] {
         let d2 = (u - lx).powi(2) + ((v - ly) * 1.5).powi(2);
         let g = (-d2 / 0.0004).exp();
         c = mix(c, colour, g);
@@ -92,6 +100,7 @@ pub fn harbour_rgb8_sized(width: usize, height: usize) -> Vec<u8> {
 pub fn write_rgb8_tiff(path: &std::path::Path, rgb: &[u8], width: usize, height: usize) -> std::io::Result<()> {
     let file = std::io::BufWriter::new(std::fs::File::create(path)?);
     let mut enc = tiff::encoder::TiffEncoder::new(file).map_err(std::io::Error::other)?;
-    enc.write_image::<tiff::encoder::colortype::RGB8>(width as u32, height as u32, rgb).map_err(std::io::Error::other)?;
+    enc.write_image::<tiff::encoder::colortype::RGB8>(width as u32, height as u32, rgb)
+        .map_err(std::io::Error::other)?;
     Ok(())
 }

@@ -40,12 +40,16 @@ pub fn run(args: ConditionsArgs) -> Result<i32> {
 }
 
 fn to_json<T: serde::Serialize>(value: &T) -> Result<String> {
-    serde_json::to_string_pretty(value).map(|s| s + "\n").map_err(|e| Error::Internal(format!("JSON output: {e}")))
+    serde_json::to_string_pretty(value)
+        .map(|s| s + "\n")
+        .map_err(|e| Error::Internal(format!("JSON output: {e}")))
 }
 
 fn list(json: bool) -> Result<i32> {
-    let reports: Vec<ConditionReport> =
-        builtin::all().par_iter().map(|c| ConditionReport::new(c, GamutOptions::default())).collect();
+    let reports: Vec<ConditionReport> = builtin::all()
+        .par_iter()
+        .map(|c| ConditionReport::new(c, GamutOptions::default()))
+        .collect();
     if json {
         crate::error::write_stdout(&to_json(&reports)?)?;
         return Ok(0);
@@ -118,14 +122,25 @@ fn show(name: &str, json: bool) -> Result<i32> {
         b.gcr, b.black_start, b.black_max, b.shape, b.uca
     );
     let f = r.ink_film_g_per_m2;
-    let _ = writeln!(s, "  ink film at 100 %    C {:.2}  M {:.2}  Y {:.2}  K {:.2} g/m²", f[0], f[1], f[2], f[3]);
+    let _ = writeln!(
+        s,
+        "  ink film at 100 %    C {:.2}  M {:.2}  Y {:.2}  K {:.2} g/m²",
+        f[0], f[1], f[2], f[3]
+    );
     if let Some(m) = &r.model {
         let t = m.tvi50_percent;
         let _ = writeln!(s, "\nModel: Yule–Nielsen modified Neugebauer, 16 primaries");
         let _ = writeln!(s, "  n-factor             {:.3}", m.yule_nielsen_n);
-        let _ = writeln!(s, "  TVI at 50 %          C {:.1}  M {:.1}  Y {:.1}  K {:.1} %", t[0], t[1], t[2], t[3]);
-        let _ =
-            writeln!(s, "  black overprint      first-surface reflection {:.2} % of paper", m.black_surface_percent);
+        let _ = writeln!(
+            s,
+            "  TVI at 50 %          C {:.1}  M {:.1}  Y {:.1}  K {:.1} %",
+            t[0], t[1], t[2], t[3]
+        );
+        let _ = writeln!(
+            s,
+            "  black overprint      first-surface reflection {:.2} % of paper",
+            m.black_surface_percent
+        );
     }
     if !r.aims.is_empty() {
         let _ = writeln!(s, "\nAims (CIELAB D50) and the model at the same builds");
@@ -135,11 +150,21 @@ fn show(name: &str, json: bool) -> Result<i32> {
             "", "aim L*", "a*", "b*", "model L*", "a*", "b*", "ΔE00"
         );
         for a in &r.aims {
-            let _ = writeln!(s, "  {:<14} {}    {}   {:5.2}", a.name, lab3(a.aim), lab3(a.predicted), a.delta_e2000);
+            let _ = writeln!(
+                s,
+                "  {:<14} {}    {}   {:5.2}",
+                a.name,
+                lab3(a.aim),
+                lab3(a.predicted),
+                a.delta_e2000
+            );
         }
     }
     let _ = writeln!(s, "\nComputed by the model");
-    let _ = writeln!(s, "  predicted TVI        at 25 / 50 / 75 % (Murray–Davies on the tone channel; from Y alone)");
+    let _ = writeln!(
+        s,
+        "  predicted TVI        at 25 / 50 / 75 % (Murray–Davies on the tone channel; from Y alone)"
+    );
     for t in &r.predicted_tvi {
         let (v, y) = (t.tvi_percent, t.tvi_luminance_percent);
         let _ = writeln!(

@@ -37,15 +37,27 @@ pub struct FitArgs {
 pub fn run(args: FitArgs) -> Result<i32> {
     let ext_ok = args.out.extension().is_some_and(|e| e.eq_ignore_ascii_case("toml"));
     if !ext_ok {
-        return Err(Error::usage(format!("--out {}: a condition file must end in .toml", args.out.display())));
+        return Err(Error::usage(format!(
+            "--out {}: a condition file must end in .toml",
+            args.out.display()
+        )));
     }
     if !args.force && args.out.exists() {
-        return Err(Error::output(&args.out, "the file exists; choose another name or add --force to replace it"));
+        return Err(Error::output(
+            &args.out,
+            "the file exists; choose another name or add --force to replace it",
+        ));
     }
     let base = builtin::by_name(&args.base).ok_or_else(|| {
-        Error::usage(format!("--base {}: not a built-in condition ({})", args.base, builtin::names().join(", ")))
+        Error::usage(format!(
+            "--base {}: not a built-in condition ({})",
+            args.base,
+            builtin::names().join(", ")
+        ))
     })?;
-    let base_params = base.params.ok_or_else(|| Error::Internal("built-in condition without parameters".into()))?;
+    let base_params = base
+        .params
+        .ok_or_else(|| Error::Internal("built-in condition without parameters".into()))?;
     let tac = match args.tac {
         Some(t) if (100.0..=400.0).contains(&t) => t / 100.0,
         Some(t) => return Err(Error::usage(format!("--tac {t}: allowed 100–400 %"))),
@@ -59,7 +71,10 @@ pub fn run(args: FitArgs) -> Result<i32> {
     let fit = fit_model(&patches, &start, 200);
 
     let name = args.name.clone().unwrap_or_else(|| {
-        args.out.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "fitted".into())
+        args.out
+            .file_stem()
+            .map(|s| s.to_string_lossy().into_owned())
+            .unwrap_or_else(|| "fitted".into())
     });
     let condition = PrintingCondition::from_params(
         name,
@@ -71,12 +86,18 @@ pub fn run(args: FitArgs) -> Result<i32> {
     )
     .with_ink_film(base.ink_film);
     let header = vec![
-        format!("Printing condition fitted by platesmith to {} measured patches", fit.residuals.count),
+        format!(
+            "Printing condition fitted by platesmith to {} measured patches",
+            fit.residuals.count
+        ),
         format!(
             "ΔE2000 residuals: mean {:.2}, 95th percentile {:.2}, max {:.2}",
             fit.residuals.mean, fit.residuals.p95, fit.residuals.max
         ),
-        format!("Job defaults (ink limit, black generation, smallest dot, ink film) from {}", base.name),
+        format!(
+            "Job defaults (ink limit, black generation, smallest dot, ink film) from {}",
+            base.name
+        ),
     ];
     let text = to_toml(&condition, &header)?;
     // The file must load back exactly as written: check before writing.
@@ -124,8 +145,13 @@ fn text_report(args: &FitArgs, fit: &FitResult) -> String {
     let r = &fit.residuals;
     let p = &fit.params;
     let mut s = String::new();
-    let _ =
-        writeln!(s, "Fitted {} patches from {} ({} iterations)", r.count, args.measurements.display(), fit.iterations);
+    let _ = writeln!(
+        s,
+        "Fitted {} patches from {} ({} iterations)",
+        r.count,
+        args.measurements.display(),
+        fit.iterations
+    );
     let _ = writeln!(s, "  ΔE2000   mean {:.2}   95th percentile {:.2}   max {:.2}", r.mean, r.p95, r.max);
     let t = p.tvi50.map(|v| v * 100.0);
     let _ = writeln!(

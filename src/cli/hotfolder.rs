@@ -58,7 +58,8 @@ pub fn run(args: HotfolderArgs) -> Result<i32> {
     // first signal finds it unarmed and the second armed.
     let stop = Arc::new(AtomicBool::new(false));
     for (signal, code) in [(signal_hook::consts::SIGINT, 130), (signal_hook::consts::SIGTERM, 143)] {
-        signal_hook::flag::register_conditional_shutdown(signal, code, Arc::clone(&stop)).map_err(|e| Error::Internal(format!("cannot handle signals: {e}")))?;
+        signal_hook::flag::register_conditional_shutdown(signal, code, Arc::clone(&stop))
+            .map_err(|e| Error::Internal(format!("cannot handle signals: {e}")))?;
         signal_hook::flag::register(signal, Arc::clone(&stop)).map_err(|e| Error::Internal(format!("cannot handle signals: {e}")))?;
     }
     let summary = crate::hotfolder::run(&settings, &stop)?;

@@ -64,7 +64,11 @@ pub struct InspectArgs {
 }
 
 fn positive(name: &str, v: f64) -> Result<f64> {
-    if v.is_finite() && v > 0.0 { Ok(v) } else { Err(Error::usage(format!("--{name} {v}: must be a positive number"))) }
+    if v.is_finite() && v > 0.0 {
+        Ok(v)
+    } else {
+        Err(Error::usage(format!("--{name} {v}: must be a positive number")))
+    }
 }
 
 /// The sheet size `WxH` in mm.
@@ -123,7 +127,11 @@ pub fn options(args: &InspectArgs, ticket_rules: &[String]) -> Result<InspectOpt
         }
         o.ink_film = Some([f[0], f[1], f[2], f[3]]);
     }
-    let texts: Vec<&str> = ticket_rules.iter().map(String::as_str).chain(args.fail_if.iter().map(String::as_str)).collect();
+    let texts: Vec<&str> = ticket_rules
+        .iter()
+        .map(String::as_str)
+        .chain(args.fail_if.iter().map(String::as_str))
+        .collect();
     o.rules = rules::parse_all(&texts)?;
     o.keep_maps = args.report.is_some();
     Ok(o)
@@ -133,17 +141,39 @@ pub fn options(args: &InspectArgs, ticket_rules: &[String]) -> Result<InspectOpt
 pub fn write_report_dir(dir: &Path, overwrite: bool, input: &Path, inspection: &Inspection, separator: &Separator) -> Result<Vec<PathBuf>> {
     let r = &inspection.report;
     let stem = input.file_stem().and_then(|s| s.to_str()).unwrap_or("image").to_string();
-    let maps = inspection.maps.as_ref().ok_or_else(|| Error::Internal("report folder without maps".into()))?;
+    let maps = inspection
+        .maps
+        .as_ref()
+        .ok_or_else(|| Error::Internal("report folder without maps".into()))?;
     // Regions numbered as in the table; outlined on the map of their kind.
     let numbered: Vec<(usize, &crate::inspect::RegionReport)> = r.regions.iter().enumerate().map(|(i, g)| (i + 1, g)).collect();
     // At most MAP_OUTLINES boxes per map (the largest of each kind first), so the map stays legible.
     const MAP_OUTLINES: usize = 40;
-    let on = |kinds: &[&str]| numbered.iter().filter(|(_, g)| kinds.contains(&g.kind)).take(MAP_OUTLINES).map(|(n, g)| (*n, g.bbox)).collect::<Vec<_>>();
+    let on = |kinds: &[&str]| {
+        numbered
+            .iter()
+            .filter(|(_, g)| kinds.contains(&g.kind))
+            .take(MAP_OUTLINES)
+            .map(|(n, g)| (*n, g.bbox))
+            .collect::<Vec<_>>()
+    };
     let de_png = match maps.de {
-        Some(_) => Some(crate::report::maps::de_map_png(maps, &r.settings.de_thresholds, &on(&[crate::inspect::KIND_OUT_OF_GAMUT]))?),
+        Some(_) => Some(crate::report::maps::de_map_png(
+            maps,
+            &r.settings.de_thresholds,
+            &on(&[crate::inspect::KIND_OUT_OF_GAMUT]),
+        )?),
         None => None,
     };
-    let ink_png = crate::report::maps::ink_map_png(maps, r.tac.limit, &on(&[crate::inspect::KIND_OVER_INK, crate::inspect::KIND_RICH_BLACK, crate::inspect::KIND_SMALL_DOT]))?;
+    let ink_png = crate::report::maps::ink_map_png(
+        maps,
+        r.tac.limit,
+        &on(&[
+            crate::inspect::KIND_OVER_INK,
+            crate::inspect::KIND_RICH_BLACK,
+            crate::inspect::KIND_SMALL_DOT,
+        ]),
+    )?;
     let json = serde_json::to_string_pretty(r).map_err(|e| Error::Internal(e.to_string()))? + "\n";
     let csv = crate::report::region_table::regions_csv(r)?;
     let html = crate::report::html::page(inspection, separator, de_png.as_deref(), &ink_png);
@@ -165,18 +195,71 @@ pub fn write_report_dir(dir: &Path, overwrite: bool, input: &Path, inspection: &
 pub fn text_summary(r: &InspectReport) -> String {
     use std::fmt::Write;
     let mut o = String::new();
-    let _ = writeln!(o, "{}: {} {} × {} px at {} ppi, for {} ({} intent)", r.file, r.kind.to_uppercase(), r.width, r.height, r.resolution_ppi[0], r.condition, r.settings.separation.intent);
+    let _ = writeln!(
+        o,
+        "{}: {} {} × {} px at {} ppi, for {} ({} intent)",
+        r.file,
+        r.kind.to_uppercase(),
+        r.width,
+        r.height,
+        r.resolution_ppi[0],
+        r.condition,
+        r.settings.separation.intent
+    );
     if let Some(g) = &r.gamut {
-        let shares: Vec<String> = g.over.iter().map(|s| format!("{:.2} % over {}", s.fraction * 100.0, s.threshold)).collect();
-        let _ = writeln!(o, "  ΔE2000      mean {:.2}  p95 {:.2}  max {:.2}  ({})", g.mean_de, g.p95_de, g.max_de, shares.join(", "));
+        let shares: Vec<String> = g
+            .over
+            .iter()
+            .map(|s| format!("{:.2} % over {}", s.fraction * 100.0, s.threshold))
+            .collect();
+        let _ = writeln!(
+            o,
+            "  ΔE2000      mean {:.2}  p95 {:.2}  max {:.2}  ({})",
+            g.mean_de,
+            g.p95_de,
+            g.max_de,
+            shares.join(", ")
+        );
     }
-    let _ = writeln!(o, "  total ink   max {:.1} %  p99 {:.1} %  mean {:.1} %  (limit {:.0} %; {:.3} % of the image over)", r.tac.max, r.tac.p99, r.tac.mean, r.tac.limit, r.tac.over_fraction * 100.0);
-    let plates: Vec<String> = r.plates.iter().zip(["C", "M", "Y", "K"]).map(|(p, letter)| format!("{letter} {:.1}", p.mean_percent)).collect();
+    let _ = writeln!(
+        o,
+        "  total ink   max {:.1} %  p99 {:.1} %  mean {:.1} %  (limit {:.0} %; {:.3} % of the image over)",
+        r.tac.max,
+        r.tac.p99,
+        r.tac.mean,
+        r.tac.limit,
+        r.tac.over_fraction * 100.0
+    );
+    let plates: Vec<String> = r
+        .plates
+        .iter()
+        .zip(["C", "M", "Y", "K"])
+        .map(|(p, letter)| format!("{letter} {:.1}", p.mean_percent))
+        .collect();
     let dots = r.plates.iter().map(|p| p.below_min_dot_fraction).fold(0.0, f64::max);
-    let _ = writeln!(o, "  plates      {} % mean; up to {:.2} % of the image with dots below {} %", plates.join("  "), dots * 100.0, r.settings.min_dot_percent);
-    let _ = writeln!(o, "  ink         {:.2} kg for {} copies of a {} × {} mm sheet (estimate)", r.ink_use.run_total_kg, r.ink_use.copies, r.ink_use.sheet_mm[0], r.ink_use.sheet_mm[1]);
-    let counts: Vec<String> = r.regions_by_kind.iter().filter(|(_, n)| **n > 0).map(|(k, n)| format!("{n} {k}")).collect();
-    let _ = writeln!(o, "  regions     {}", if counts.is_empty() { "none".to_string() } else { counts.join(", ") });
+    let _ = writeln!(
+        o,
+        "  plates      {} % mean; up to {:.2} % of the image with dots below {} %",
+        plates.join("  "),
+        dots * 100.0,
+        r.settings.min_dot_percent
+    );
+    let _ = writeln!(
+        o,
+        "  ink         {:.2} kg for {} copies of a {} × {} mm sheet (estimate)",
+        r.ink_use.run_total_kg, r.ink_use.copies, r.ink_use.sheet_mm[0], r.ink_use.sheet_mm[1]
+    );
+    let counts: Vec<String> = r
+        .regions_by_kind
+        .iter()
+        .filter(|(_, n)| **n > 0)
+        .map(|(k, n)| format!("{n} {k}"))
+        .collect();
+    let _ = writeln!(
+        o,
+        "  regions     {}",
+        if counts.is_empty() { "none".to_string() } else { counts.join(", ") }
+    );
     // The three largest of each kind, numbered as in the report.
     let mut shown = std::collections::BTreeMap::new();
     for (i, g) in r.regions.iter().enumerate() {
@@ -185,14 +268,42 @@ pub fn text_summary(r: &InspectReport) -> String {
         if *n > 3 {
             continue;
         }
-        let limits = g.limited_by.as_ref().map(|l| if l.is_empty() { " (in gamut; moved by the intent)".to_string() } else { format!(" (limited by {})", l.join(", ")) }).unwrap_or_default();
-        let _ = writeln!(o, "    #{} {} at {},{} {}×{} px, {:.2} mm², worst {} {}, mean {}{}", i + 1, g.kind, g.bbox[0], g.bbox[1], g.bbox[2], g.bbox[3], g.area_mm2, g.max, g.unit, g.mean, limits);
+        let limits = g
+            .limited_by
+            .as_ref()
+            .map(|l| {
+                if l.is_empty() {
+                    " (in gamut; moved by the intent)".to_string()
+                } else {
+                    format!(" (limited by {})", l.join(", "))
+                }
+            })
+            .unwrap_or_default();
+        let _ = writeln!(
+            o,
+            "    #{} {} at {},{} {}×{} px, {:.2} mm², worst {} {}, mean {}{}",
+            i + 1,
+            g.kind,
+            g.bbox[0],
+            g.bbox[1],
+            g.bbox[2],
+            g.bbox[3],
+            g.area_mm2,
+            g.max,
+            g.unit,
+            g.mean,
+            limits
+        );
     }
     let listed: usize = shown.values().map(|&n| n.min(3)).sum();
     if r.regions_total > listed {
         let _ = writeln!(o, "    … {} more (see --json or --report)", r.regions_total - listed);
     }
-    let verdict: Vec<String> = r.rules.iter().map(|o| format!("{} {}", o.rule, if o.failed { "FAILED" } else { "passed" })).collect();
+    let verdict: Vec<String> = r
+        .rules
+        .iter()
+        .map(|o| format!("{} {}", o.rule, if o.failed { "FAILED" } else { "passed" }))
+        .collect();
     let _ = writeln!(o, "  result      {} ({})", if r.pass { "pass" } else { "fail" }, verdict.join("; "));
     o
 }
@@ -266,7 +377,18 @@ pub fn run(args: InspectArgs) -> Result<i32> {
         crate::error::write_stdout(&format!("{}\n", crate::report::PREDICTION_NOTE))?;
     }
     if args.inputs.len() > 1 {
-        eprintln!("{} inspected, {} failed their rules, {} could not be read", reports.len(), failed, bad);
+        eprintln!(
+            "{} inspected, {} failed their rules, {} could not be read",
+            reports.len(),
+            failed,
+            bad
+        );
     }
-    Ok(if bad > 0 { 2 } else if failed > 0 { 1 } else { 0 })
+    Ok(if bad > 0 {
+        2
+    } else if failed > 0 {
+        1
+    } else {
+        0
+    })
 }

@@ -60,7 +60,6 @@ pub fn run(cli: Cli) -> Result<i32> {
     }
 }
 
-
 #[cfg(test)]
 mod tests {
     use super::*;

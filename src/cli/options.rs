@@ -139,7 +139,8 @@ impl ModelArgs {
         let mut settings = SeparationSettings::for_condition(&condition);
         // The ticket first (its values were range-checked when it was read)…
         if let Some(i) = &t.intent {
-            settings.intent = Intent::from_str(i, true).map_err(|_| ticket.error_at("model", "intent", format!("= \"{i}\" is not an intent")))?;
+            settings.intent =
+                Intent::from_str(i, true).map_err(|_| ticket.error_at("model", "intent", format!("= \"{i}\" is not an intent")))?;
         }
         let pct = |v: f64| v / 100.0;
         settings.bpc = t.bpc.unwrap_or(settings.bpc);
@@ -189,7 +190,13 @@ impl ModelArgs {
             source_space = s.into();
         }
         settings.validate()?;
-        Ok(ModelSetup { condition, condition_spec, settings, source_space, ticket })
+        Ok(ModelSetup {
+            condition,
+            condition_spec,
+            settings,
+            source_space,
+            ticket,
+        })
     }
 }
 
@@ -214,7 +221,9 @@ impl InputArgs {
         let mut limits = Limits::default();
         if let Some(side) = self.max_side.or(t.limits.max_side) {
             if side == 0 {
-                return Err(Error::usage("--max-side is 0; give the largest image side to accept, in pixels (at least 1)"));
+                return Err(Error::usage(
+                    "--max-side is 0; give the largest image side to accept, in pixels (at least 1)",
+                ));
             }
             limits.max_width = side;
             limits.max_height = side;

@@ -58,7 +58,12 @@ pub fn run(args: ProfileArgs) -> Result<i32> {
     out.check(&name)?;
     let started = Instant::now();
     let float_tables = !args.no_float_tables && version == IccVersion::V4;
-    let options = ProfileOptions { version, description: args.description.clone(), float_tables, ..ProfileOptions::default() };
+    let options = ProfileOptions {
+        version,
+        description: args.description.clone(),
+        float_tables,
+        ..ProfileOptions::default()
+    };
     let bytes = profile_for(&setup.condition, &setup.settings, &options)?;
     let path = out.stage(&name, |w| std::io::Write::write_all(w, &bytes))?;
     out.commit()?;

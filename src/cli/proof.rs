@@ -59,7 +59,10 @@ pub fn run(args: ProofArgs) -> Result<i32> {
         out.check(n)?;
     }
     let display = match &args.display_profile {
-        Some(p) => Some((p.as_path(), std::fs::read(p).map_err(|e| Error::input(p, format!("cannot read: {e}")))?)),
+        Some(p) => Some((
+            p.as_path(),
+            std::fs::read(p).map_err(|e| Error::input(p, format!("cannot read: {e}")))?,
+        )),
         None => None,
     };
     let separator = Separator::new(setup.condition.clone(), setup.settings.clone())?;
@@ -76,7 +79,11 @@ pub fn run(args: ProofArgs) -> Result<i32> {
         source_condition: setup.condition.clone(),
         keep_pure_black_cmyk: true,
     };
-    let workshop = Workshop::new(separator, SettingsReport::new(&setup.condition, &setup.settings, setup.source_space), options);
+    let workshop = Workshop::new(
+        separator,
+        SettingsReport::new(&setup.condition, &setup.settings, setup.source_space),
+        options,
+    );
     let raster = crate::raster::read_raster(&args.input, &limits)?;
     // CMYK is proofed as it is; other input is separated as `separate` would.
     let (raster, cmyk) = if raster.layout == Layout::Cmyk {

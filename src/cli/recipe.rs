@@ -38,7 +38,11 @@ fn numbers<const N: usize>(text: &str, what: &str) -> Result<[f64; N]> {
     }
     let mut out = [0.0; N];
     for (slot, p) in out.iter_mut().zip(parts) {
-        *slot = p.parse::<f64>().ok().filter(|v| v.is_finite()).ok_or_else(|| Error::usage(format!("'{p}' in {what} is not a number")))?;
+        *slot = p
+            .parse::<f64>()
+            .ok()
+            .filter(|v| v.is_finite())
+            .ok_or_else(|| Error::usage(format!("'{p}' in {what} is not a number")))?;
     }
     Ok(out)
 }
@@ -113,7 +117,11 @@ pub fn recipe(spec: ColourSpec, separator: &Separator, source_space: RgbSpace) -
             let mut s = separator.separate(lab, &mapping);
             if separator.settings().keep_pure_black && rgb == [0, 0, 0] {
                 let pure = separator.describe_build(Cmyk::new(0.0, 0.0, 0.0, separator.settings().black.black_max));
-                s = Separation { target: s.target, delta_e: crate::colour::ciede2000(s.target, pure.printed), ..pure };
+                s = Separation {
+                    target: s.target,
+                    delta_e: crate::colour::ciede2000(s.target, pure.printed),
+                    ..pure
+                };
             }
             s
         }
@@ -155,7 +163,11 @@ fn text_report(r: &RecipeReport) -> String {
     let mut o = String::new();
     let [c, m, y, k] = r.cmyk;
     let _ = writeln!(o, "colour      {}", r.input);
-    let _ = writeln!(o, "build       C {c:.1}  M {m:.1}  Y {y:.1}  K {k:.1}   (total {:.1} % of {:.0} % allowed)", r.tac, r.tac_limit);
+    let _ = writeln!(
+        o,
+        "build       C {c:.1}  M {m:.1}  Y {y:.1}  K {k:.1}   (total {:.1} % of {:.0} % allowed)",
+        r.tac, r.tac_limit
+    );
     let f = |l: [f64; 3]| format!("L* {:.2}  a* {:.2}  b* {:.2}", l[0], l[1], l[2]);
     let _ = writeln!(o, "asked for   {}", f(r.target_lab));
     let _ = writeln!(o, "prints as   {}   (ΔE2000 {:.2})", f(r.printed_lab), r.delta_e);
@@ -165,7 +177,8 @@ fn text_report(r: &RecipeReport) -> String {
     } else {
         let _ = writeln!(o, "gamut       outside; limited by {}", r.limited_by.join(", "));
     }
-    let _ = writeln!(o, 
+    let _ = writeln!(
+        o,
         "settings    {} · {} intent{} · TAC {:.0} % · GCR {:.0} % · black start {:.0} % · black max {:.0} %",
         r.settings.condition,
         r.settings.intent,
@@ -187,13 +200,28 @@ mod tests {
     fn colour_forms_parse() {
         assert_eq!(ColourSpec::parse("#FF8000").unwrap(), ColourSpec::Rgb([255, 128, 0]));
         assert_eq!(ColourSpec::parse("rgb:1,2,3").unwrap(), ColourSpec::Rgb([1, 2, 3]));
-        assert_eq!(ColourSpec::parse("lab:50,-20,30").unwrap(), ColourSpec::Lab(Lab::new(50.0, -20.0, 30.0)));
-        assert_eq!(ColourSpec::parse("cmyk:100,0,0,0").unwrap(), ColourSpec::Cmyk(Cmyk::new(1.0, 0.0, 0.0, 0.0)));
+        assert_eq!(
+            ColourSpec::parse("lab:50,-20,30").unwrap(),
+            ColourSpec::Lab(Lab::new(50.0, -20.0, 30.0))
+        );
+        assert_eq!(
+            ColourSpec::parse("cmyk:100,0,0,0").unwrap(),
+            ColourSpec::Cmyk(Cmyk::new(1.0, 0.0, 0.0, 0.0))
+        );
     }
 
     #[test]
     fn bad_colours_are_refused() {
-        for bad in ["#12345", "#GG0000", "rgb:1,2", "rgb:256,0,0", "lab:120,0,0", "cmyk:0,0,0,101", "red", "lab:a,b,c"] {
+        for bad in [
+            "#12345",
+            "#GG0000",
+            "rgb:1,2",
+            "rgb:256,0,0",
+            "lab:120,0,0",
+            "cmyk:0,0,0,101",
+            "red",
+            "lab:a,b,c",
+        ] {
             assert!(ColourSpec::parse(bad).is_err(), "{bad}");
         }
     }

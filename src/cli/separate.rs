@@ -88,7 +88,11 @@ pub(crate) fn gray_mode(flag: Option<GrayMode>, t: &Ticket) -> GrayMode {
 fn resolve(args: &SeparateArgs) -> Result<Resolved> {
     let setup = args.model.resolve()?;
     let t = &setup.ticket;
-    let out_dir = args.out_dir.clone().or_else(|| t.output.out_dir.clone()).unwrap_or_else(|| PathBuf::from("separated"));
+    let out_dir = args
+        .out_dir
+        .clone()
+        .or_else(|| t.output.out_dir.clone())
+        .unwrap_or_else(|| PathBuf::from("separated"));
     let bits: u8 = match &args.bits {
         Some(b) => b.parse().map_err(|_| Error::usage("--bits takes 8 or 16"))?,
         None => t.output.bits.unwrap_or(8),
@@ -110,7 +114,15 @@ fn resolve(args: &SeparateArgs) -> Result<Resolved> {
     };
     let gray = gray_mode(args.gray, t);
     let limits = args.input.limits(t)?;
-    Ok(Resolved { setup, out_dir, bits, plates, compression, gray, limits })
+    Ok(Resolved {
+        setup,
+        out_dir,
+        bits,
+        plates,
+        compression,
+        gray,
+        limits,
+    })
 }
 
 /// The [`Workshop`] of `platesmith separate --ticket FILE` (no other flags), or
@@ -120,7 +132,10 @@ pub fn ticket_workshop(ticket: Option<&Path>) -> Result<(Workshop, Ticket)> {
     let args = SeparateArgs {
         inputs: Vec::new(),
         out_dir: None,
-        model: ModelArgs { ticket: ticket.map(Path::to_path_buf), ..ModelArgs::default() },
+        model: ModelArgs {
+            ticket: ticket.map(Path::to_path_buf),
+            ..ModelArgs::default()
+        },
         bits: None,
         plates: None,
         compression: None,
@@ -137,7 +152,15 @@ pub fn ticket_workshop(ticket: Option<&Path>) -> Result<(Workshop, Ticket)> {
 }
 
 fn build_workshop(args: &SeparateArgs, r: Resolved) -> Result<Workshop> {
-    let Resolved { setup, out_dir, bits, plates, compression, gray, limits } = r;
+    let Resolved {
+        setup,
+        out_dir,
+        bits,
+        plates,
+        compression,
+        gray,
+        limits,
+    } = r;
     let t = &setup.ticket;
     let report = SettingsReport::new(&setup.condition, &setup.settings, setup.source_space);
     let separator = Separator::new(setup.condition.clone(), setup.settings.clone())?;
@@ -163,7 +186,8 @@ fn build_workshop(args: &SeparateArgs, r: Resolved) -> Result<Workshop> {
 
 pub fn run(args: SeparateArgs) -> Result<i32> {
     let r = resolve(&args)?;
-    let (setup, out_dir, bits, plates, compression, gray, limits) = (&r.setup, &r.out_dir, r.bits, r.plates, r.compression, r.gray, &r.limits);
+    let (setup, out_dir, bits, plates, compression, gray, limits) =
+        (&r.setup, &r.out_dir, r.bits, r.plates, r.compression, r.gray, &r.limits);
     let t = &setup.ticket;
     if args.print_ticket {
         let mut model = setup.model_section();
@@ -182,7 +206,10 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
                 plates: Some(format!("{plates:?}").to_lowercase()),
                 compression: Some(compression_name(compression).into()),
             },
-            limits: LimitsSection { max_side: Some(limits.max_width), max_memory_mib: Some(limits.max_bytes >> 20) },
+            limits: LimitsSection {
+                max_side: Some(limits.max_width),
+                max_memory_mib: Some(limits.max_bytes >> 20),
+            },
             checks: t.checks.clone(),
             source: None,
         };
@@ -198,16 +225,19 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
             Ok(s) => {
                 done += 1;
                 let [c, m, y, k] = [0, 1, 2, 3].map(|i| s.plates[i].mean_percent);
-                say(&progress, format!(
-                    "{}: {} × {} px → {}  (C {c:.1} M {m:.1} Y {y:.1} K {k:.1} % mean; TAC max {:.1} % of {:.0} %; {:.0} ms)",
-                    input.display(),
-                    s.width,
-                    s.height,
-                    s.outputs.first().map(String::as_str).unwrap_or(""),
-                    s.tac.max,
-                    s.tac.limit,
-                    s.timings.total_ms
-                ));
+                say(
+                    &progress,
+                    format!(
+                        "{}: {} × {} px → {}  (C {c:.1} M {m:.1} Y {y:.1} K {k:.1} % mean; TAC max {:.1} % of {:.0} %; {:.0} ms)",
+                        input.display(),
+                        s.width,
+                        s.height,
+                        s.outputs.first().map(String::as_str).unwrap_or(""),
+                        s.tac.max,
+                        s.tac.limit,
+                        s.timings.total_ms
+                    ),
+                );
             }
             Err(e) => {
                 failed += 1;

@@ -48,7 +48,11 @@ impl Lab {
         let fx = f(xyz.x / white.x);
         let fy = f(xyz.y / white.y);
         let fz = f(xyz.z / white.z);
-        Lab { l: 116.0 * fy - 16.0, a: 500.0 * (fx - fy), b: 200.0 * (fy - fz) }
+        Lab {
+            l: 116.0 * fy - 16.0,
+            a: 500.0 * (fx - fy),
+            b: 200.0 * (fy - fz),
+        }
     }
 
     /// CIELAB relative to the PCS white D50.
@@ -64,7 +68,11 @@ impl Lab {
         let fx = fy + self.a / 500.0;
         let fz = fy - self.b / 200.0;
         let yr = if self.l > KAPPA * EPSILON { fy * fy * fy } else { self.l / KAPPA };
-        Xyz { x: f_inv(fx) * white.x, y: yr * white.y, z: f_inv(fz) * white.z }
+        Xyz {
+            x: f_inv(fx) * white.x,
+            y: yr * white.y,
+            z: f_inv(fz) * white.z,
+        }
     }
 
     /// XYZ relative to the PCS white D50.
@@ -84,7 +92,11 @@ impl Lab {
         if h < 0.0 {
             h += 360.0;
         }
-        Lch { l: self.l, c: self.chroma(), h }
+        Lch {
+            l: self.l,
+            c: self.chroma(),
+            h,
+        }
     }
 
     pub fn to_array(self) -> [f64; 3] {
@@ -108,7 +120,11 @@ impl Lch {
 
     pub fn to_lab(self) -> Lab {
         let h = self.h.to_radians();
-        Lab { l: self.l, a: self.c * h.cos(), b: self.c * h.sin() }
+        Lab {
+            l: self.l,
+            a: self.c * h.cos(),
+            b: self.c * h.sin(),
+        }
     }
 }
 

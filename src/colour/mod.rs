@@ -11,13 +11,8 @@ mod matrix;
 mod rgb;
 mod xyz;
 
-pub use difference::{
-    De2000Terms, De2000Weights, ciede2000, ciede2000_terms, ciede2000_with, delta_e76, delta_e94,
-};
+pub use difference::{De2000Terms, De2000Weights, ciede2000, ciede2000_terms, ciede2000_with, delta_e76, delta_e94};
 pub use lab::{Lab, Lch};
 pub use matrix::Mat3;
-pub use rgb::{
-    EncodedRgb, LinearRgb, RgbConverter, RgbDefinition, RgbSpace, Transfer, from_code, rgb_to_xyz_matrix,
-    to_code,
-};
+pub use rgb::{EncodedRgb, LinearRgb, RgbConverter, RgbDefinition, RgbSpace, Transfer, from_code, rgb_to_xyz_matrix, to_code};
 pub use xyz::{BRADFORD, D50, D65, WhitePoint, Xyy, Xyz, bradford_adaptation};

@@ -15,7 +15,7 @@
 
 use super::lab::Lab;
 use super::matrix::Mat3;
-use super::xyz::{D50, Xyz, Xyy, bradford_adaptation};
+use super::xyz::{D50, Xyy, Xyz, bradford_adaptation};
 
 /// A named RGB colour space known to platesmith.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
@@ -55,11 +55,19 @@ impl Transfer {
         let v = v.abs();
         s * match self {
             Transfer::Srgb => {
-                if v <= 0.04045 { v / 12.92 } else { ((v + 0.055) / 1.055).powf(2.4) }
+                if v <= 0.04045 {
+                    v / 12.92
+                } else {
+                    ((v + 0.055) / 1.055).powf(2.4)
+                }
             }
             Transfer::Power(g) => v.powf(g),
             Transfer::Romm => {
-                if v < 16.0 / 512.0 { v / 16.0 } else { v.powf(1.8) }
+                if v < 16.0 / 512.0 {
+                    v / 16.0
+                } else {
+                    v.powf(1.8)
+                }
             }
         }
     }
@@ -71,11 +79,19 @@ impl Transfer {
         let v = v.abs();
         s * match self {
             Transfer::Srgb => {
-                if v <= 0.0031308 { v * 12.92 } else { 1.055 * v.powf(1.0 / 2.4) - 0.055 }
+                if v <= 0.0031308 {
+                    v * 12.92
+                } else {
+                    1.055 * v.powf(1.0 / 2.4) - 0.055
+                }
             }
             Transfer::Power(g) => v.powf(1.0 / g),
             Transfer::Romm => {
-                if v < 1.0 / 512.0 { v * 16.0 } else { v.powf(1.0 / 1.8) }
+                if v < 1.0 / 512.0 {
+                    v * 16.0
+                } else {
+                    v.powf(1.0 / 1.8)
+                }
             }
         }
     }
@@ -154,7 +170,11 @@ pub fn rgb_to_xyz_matrix(def: &RgbDefinition) -> Mat3 {
         .iter()
         .map(|&(x, y)| Xyy::new(x, y, 1.0).to_xyz().to_array())
         .collect();
-    let m = Mat3([[p[0][0], p[1][0], p[2][0]], [p[0][1], p[1][1], p[2][1]], [p[0][2], p[1][2], p[2][2]]]);
+    let m = Mat3([
+        [p[0][0], p[1][0], p[2][0]],
+        [p[0][1], p[1][1], p[2][1]],
+        [p[0][2], p[1][2], p[2][2]],
+    ]);
     let white = Xyy::new(def.white.0, def.white.1, 1.0).to_xyz();
     let s = m.inverse().expect("primaries are independent").apply(white.to_array());
     m.mul(&Mat3::diagonal(s))
@@ -177,7 +197,11 @@ impl RgbConverter {
         let adapt = bradford_adaptation(white, D50.xyz);
         let to_pcs = adapt.mul(&native);
         let from_pcs = to_pcs.inverse().expect("conversion matrix is invertible");
-        RgbConverter { transfer: def.transfer, to_pcs, from_pcs }
+        RgbConverter {
+            transfer: def.transfer,
+            to_pcs,
+            from_pcs,
+        }
     }
 
     #[inline]

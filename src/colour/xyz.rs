@@ -42,7 +42,11 @@ impl Xyz {
         if sum.abs() < 1e-15 {
             return None;
         }
-        Some(Xyy { x: self.x / sum, y: self.y / sum, big_y: self.y })
+        Some(Xyy {
+            x: self.x / sum,
+            y: self.y / sum,
+            big_y: self.y,
+        })
     }
 }
 
@@ -54,7 +58,11 @@ impl Xyy {
     /// XYZ from chromaticity (CIE 15:2004, eq. 7.3).
     pub fn to_xyz(self) -> Xyz {
         let scale = self.big_y / self.y;
-        Xyz { x: self.x * scale, y: self.big_y, z: (1.0 - self.x - self.y) * scale }
+        Xyz {
+            x: self.x * scale,
+            y: self.big_y,
+            z: (1.0 - self.x - self.y) * scale,
+        }
     }
 }
 
@@ -67,7 +75,10 @@ pub struct WhitePoint {
 
 /// The ICC profile connection space illuminant (ICC.1:2022 §7.2.16): D50 as
 /// X 0.9642, Y 1.0, Z 0.8249. All CIELAB in platesmith is relative to this white.
-pub const D50: WhitePoint = WhitePoint { name: "D50", xyz: Xyz::new(0.9642, 1.0, 0.8249) };
+pub const D50: WhitePoint = WhitePoint {
+    name: "D50",
+    xyz: Xyz::new(0.9642, 1.0, 0.8249),
+};
 
 /// CIE D65 from its chromaticity x 0.3127, y 0.3290 (IEC 61966-2-1, the sRGB white).
 pub const D65: WhitePoint = WhitePoint {
@@ -77,11 +88,7 @@ pub const D65: WhitePoint = WhitePoint {
 };
 
 /// Bradford cone response matrix (Lam 1985; ICC.1:2022 Annex E).
-pub const BRADFORD: Mat3 = Mat3([
-    [0.8951, 0.2664, -0.1614],
-    [-0.7502, 1.7135, 0.0367],
-    [0.0389, -0.0685, 1.0296],
-]);
+pub const BRADFORD: Mat3 = Mat3([[0.8951, 0.2664, -0.1614], [-0.7502, 1.7135, 0.0367], [0.0389, -0.0685, 1.0296]]);
 
 /// Bradford (linearised, as in ICC.1 Annex E) chromatic adaptation matrix from
 /// `source` white to `destination` white: `XYZ_dst = M × XYZ_src`.

@@ -29,7 +29,12 @@ impl Folders {
         match fs::metadata(root) {
             Ok(m) if m.is_dir() => {}
             Ok(_) => return Err(Error::input(root, "is not a folder")),
-            Err(e) if e.kind() == io::ErrorKind::NotFound => return Err(Error::input(root, "no such folder; create it (the hot folder makes in/, work/, out/, done/ and failed/ inside)")),
+            Err(e) if e.kind() == io::ErrorKind::NotFound => {
+                return Err(Error::input(
+                    root,
+                    "no such folder; create it (the hot folder makes in/, work/, out/, done/ and failed/ inside)",
+                ));
+            }
             Err(e) => return Err(Error::input(root, e.to_string())),
         }
         let f = Folders {
@@ -64,10 +69,26 @@ impl Folders {
 /// This process's identity: `<host>-<pid>-<start time>`, unique across
 /// machines sharing the folder and across restarts.
 pub fn instance_id() -> String {
-    let host = fs::read_to_string("/proc/sys/kernel/hostname").ok().or_else(|| std::env::var("HOSTNAME").ok()).unwrap_or_default();
-    let host: String = host.trim().chars().map(|c| if c.is_ascii_alphanumeric() || c == '.' || c == '_' { c } else { '_' }).collect();
+    let host = fs::read_to_string("/proc/sys/kernel/hostname")
+        .ok()
+        .or_else(|| std::env::var("HOSTNAME").ok())
+        .unwrap_or_default();
+    let host: String = host
+        .trim()
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '.' || c == '_' {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect();
     let host = if host.is_empty() { "host".to_string() } else { host };
-    let nanos = std::time::SystemTime::now().duration_since(std::time::UNIX_EPOCH).map(|d| d.as_nanos()).unwrap_or(0);
+    let nanos = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .map(|d| d.as_nanos())
+        .unwrap_or(0);
     format!("{host}-{}-{nanos:x}", std::process::id())
 }
 
@@ -86,10 +107,16 @@ impl Instance {
     /// Publishes a locked lock file, then makes the work folder.
     pub fn register(folders: &Folders, id: &str) -> Result<Instance> {
         let lock_path = folders.work.join(format!("{id}.lock"));
-        let lock = publish_locked(&folders.work, &lock_path, id)?.ok_or_else(|| Error::output(&lock_path, "already exists (an instance of the same identity)"))?;
+        let lock = publish_locked(&folders.work, &lock_path, id)?
+            .ok_or_else(|| Error::output(&lock_path, "already exists (an instance of the same identity)"))?;
         let dir = folders.work.join(id);
         fs::create_dir(&dir).map_err(|e| Error::output(&dir, format!("cannot create the work folder: {e}")))?;
-        Ok(Instance { id: id.to_string(), dir, lock_path, _lock: lock })
+        Ok(Instance {
+            id: id.to_string(),
+            dir,
+            lock_path,
+            _lock: lock,
+        })
     }
 
     /// Removes the work folder and the lock file when nothing is left in the folder.
@@ -106,14 +133,23 @@ impl Instance {
 /// visible unlocked while its owner lives. `None` when `path` exists.
 fn publish_locked(work: &Path, path: &Path, owner: &str) -> Result<Option<File>> {
     let temp = work.join(format!(".lock-{}.tmp", instance_id()));
-    let mut file = OpenOptions::new().read(true).write(true).create_new(true).open(&temp).map_err(|e| Error::output(&temp, format!("cannot create a lock file: {e}")))?;
+    let mut file = OpenOptions::new()
+        .read(true)
+        .write(true)
+        .create_new(true)
+        .open(&temp)
+        .map_err(|e| Error::output(&temp, format!("cannot create a lock file: {e}")))?;
     let result = (|| {
-        file.lock().map_err(|e| Error::output(&temp, format!("cannot lock: {e} (the file system must support file locks)")))?;
+        file.lock()
+            .map_err(|e| Error::output(&temp, format!("cannot lock: {e} (the file system must support file locks)")))?;
         let _ = io::Write::write_all(&mut file, format!("{owner}\n").as_bytes());
         match fs::hard_link(&temp, path) {
             Ok(()) => Ok(Some(())),
             Err(e) if e.kind() == io::ErrorKind::AlreadyExists => Ok(None),
-            Err(e) => Err(Error::output(path, format!("cannot create the lock file: {e} (the file system must support hard links)"))),
+            Err(e) => Err(Error::output(
+                path,
+                format!("cannot create the lock file: {e} (the file system must support hard links)"),
+            )),
         }
     })();
     let _ = fs::remove_file(&temp);
@@ -134,7 +170,12 @@ impl Orphan {
     /// The files left in the folder (not hidden), sorted by name.
     pub fn files(&self) -> Vec<OsString> {
         let mut names: Vec<OsString> = fs::read_dir(&self.dir)
-            .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.file_name()).filter(|n| !n.to_string_lossy().starts_with('.')).collect())
+            .map(|rd| {
+                rd.filter_map(|e| e.ok())
+                    .map(|e| e.file_name())
+                    .filter(|n| !n.to_string_lossy().starts_with('.'))
+                    .collect()
+            })
             .unwrap_or_default();
         names.sort();
         names
@@ -161,7 +202,11 @@ impl Orphan {
 pub fn find_orphans(folders: &Folders, own: &str, held: &[String]) -> Vec<Orphan> {
     let mut found = Vec::new();
     let Ok(entries) = fs::read_dir(&folders.work) else { return found };
-    let mut names: Vec<String> = entries.filter_map(|e| e.ok()).filter(|e| e.path().is_dir()).filter_map(|e| e.file_name().to_str().map(str::to_string)).collect();
+    let mut names: Vec<String> = entries
+        .filter_map(|e| e.ok())
+        .filter(|e| e.path().is_dir())
+        .filter_map(|e| e.file_name().to_str().map(str::to_string))
+        .collect();
     names.sort();
     for id in names {
         if id.starts_with('.') || id == own || held.contains(&id) {
@@ -188,7 +233,12 @@ pub fn find_orphans(folders: &Folders, own: &str, held: &[String]) -> Vec<Orphan
             continue;
         }
         let _ = fs::remove_dir_all(folders.staging.join(&id));
-        found.push(Orphan { id, dir, lock_path, _lock: lock });
+        found.push(Orphan {
+            id,
+            dir,
+            lock_path,
+            _lock: lock,
+        });
     }
     // Lock files of gone instances that never made their folder.
     if let Ok(entries) = fs::read_dir(&folders.work) {
@@ -247,7 +297,10 @@ pub fn move_unique(src: &Path, dir: &Path, name: &OsStr) -> io::Result<PathBuf> 
             false => continue,
         }
     }
-    Err(io::Error::new(io::ErrorKind::AlreadyExists, format!("{}: no free name", dir.join(name).display())))
+    Err(io::Error::new(
+        io::ErrorKind::AlreadyExists,
+        format!("{}: no free name", dir.join(name).display()),
+    ))
 }
 
 /// Moves `src` to `target` unless `target` exists; `false` when it does.
@@ -311,7 +364,10 @@ pub fn commit_folder(src: &Path, out: &Path, stem: &str) -> io::Result<PathBuf> 
             Err(e) => return Err(e),
         }
     }
-    Err(io::Error::new(io::ErrorKind::AlreadyExists, format!("{}: no free name", out.join(stem).display())))
+    Err(io::Error::new(
+        io::ErrorKind::AlreadyExists,
+        format!("{}: no free name", out.join(stem).display()),
+    ))
 }
 
 /// How many names point at a file (2 or more: a move was interrupted after its link).
@@ -332,9 +388,11 @@ pub fn link_count(_path: &Path) -> u64 {
 pub fn other_link_in(dir: &Path, path: &Path) -> Option<PathBuf> {
     use std::os::unix::fs::MetadataExt;
     let meta = fs::symlink_metadata(path).ok()?;
-    fs::read_dir(dir).ok()?.filter_map(|e| e.ok()).map(|e| e.path()).find(|p| {
-        p != path && fs::symlink_metadata(p).is_ok_and(|m| m.is_file() && m.dev() == meta.dev() && m.ino() == meta.ino())
-    })
+    fs::read_dir(dir)
+        .ok()?
+        .filter_map(|e| e.ok())
+        .map(|e| e.path())
+        .find(|p| p != path && fs::symlink_metadata(p).is_ok_and(|m| m.is_file() && m.dev() == meta.dev() && m.ino() == meta.ino()))
 }
 
 #[cfg(not(unix))]

@@ -29,8 +29,18 @@ pub struct EventLog {
 impl EventLog {
     /// Opens (creating) the log file for appending.
     pub fn open(path: &Path, instance: &str, to_stderr: bool) -> Result<EventLog> {
-        let file = OpenOptions::new().create(true).append(true).open(path).map_err(|e| Error::output(path, format!("cannot open the log: {e}")))?;
-        Ok(EventLog { path: path.to_path_buf(), file: Mutex::new(file), instance: instance.to_string(), to_stderr, write_failed: AtomicBool::new(false) })
+        let file = OpenOptions::new()
+            .create(true)
+            .append(true)
+            .open(path)
+            .map_err(|e| Error::output(path, format!("cannot open the log: {e}")))?;
+        Ok(EventLog {
+            path: path.to_path_buf(),
+            file: Mutex::new(file),
+            instance: instance.to_string(),
+            to_stderr,
+            write_failed: AtomicBool::new(false),
+        })
     }
 
     /// Records one event. A log file that cannot be written is reported once on
@@ -59,7 +69,15 @@ pub fn format_line(time: SystemTime, event: &str, file: &str, result: &str, dura
         Some(d) => format!("{:.2}s", d.as_secs_f64()),
         None => "-".to_string(),
     };
-    format!("{}\t{}\t{}\t{}\t{}\t{}\n", rfc3339(time), clean(event), clean(file), clean(result), duration, clean(instance))
+    format!(
+        "{}\t{}\t{}\t{}\t{}\t{}\n",
+        rfc3339(time),
+        clean(event),
+        clean(file),
+        clean(result),
+        duration,
+        clean(instance)
+    )
 }
 
 /// A time as RFC 3339 in UTC with milliseconds, e.g. `2009-02-13T23:31:30.000Z`.
@@ -68,7 +86,13 @@ pub fn rfc3339(time: SystemTime) -> String {
     let secs = since.as_secs() as i64;
     let (days, rem) = (secs.div_euclid(86_400), secs.rem_euclid(86_400));
     let (y, m, d) = civil_from_days(days);
-    format!("{y:04}-{m:02}-{d:02}T{:02}:{:02}:{:02}.{:03}Z", rem / 3600, rem % 3600 / 60, rem % 60, since.subsec_millis())
+    format!(
+        "{y:04}-{m:02}-{d:02}T{:02}:{:02}:{:02}.{:03}Z",
+        rem / 3600,
+        rem % 3600 / 60,
+        rem % 60,
+        since.subsec_millis()
+    )
 }
 
 /// Proleptic Gregorian date of a day count since 1970-01-01, after H. Hinnant,
@@ -103,7 +127,8 @@ mod tests {
         // POSIX "seconds since the epoch" formula, 4.16: a leap day and a century.
         let posix = |y: i64, yday: i64, h: i64, m: i64, s: i64| {
             let y = y - 1900;
-            (s + m * 60 + h * 3600 + yday * 86400 + (y - 70) * 31_536_000 + ((y - 69) / 4) * 86400 - ((y - 1) / 100) * 86400 + ((y + 299) / 400) * 86400) as u64
+            (s + m * 60 + h * 3600 + yday * 86400 + (y - 70) * 31_536_000 + ((y - 69) / 4) * 86400 - ((y - 1) / 100) * 86400
+                + ((y + 299) / 400) * 86400) as u64
         };
         // 2000-02-29 is day 59 of the year (0-based); 2100-03-01 is day 59 (2100 is not a leap year).
         assert_eq!(rfc3339(at(posix(2000, 59, 12, 0, 0), 0)), "2000-02-29T12:00:00.000Z");
@@ -116,7 +141,10 @@ mod tests {
         // GNU coreutils `date -u` as an independent reference, where installed.
         let stamps = [86_399u64, 951_782_400, 1_700_000_000, 4_102_444_800];
         for s in stamps {
-            let Ok(out) = std::process::Command::new("date").args(["-u", "-d", &format!("@{s}"), "+%Y-%m-%dT%H:%M:%S.000Z"]).output() else {
+            let Ok(out) = std::process::Command::new("date")
+                .args(["-u", "-d", &format!("@{s}"), "+%Y-%m-%dT%H:%M:%S.000Z"])
+                .output()
+            else {
                 eprintln!("date not available; skipped");
                 return;
             };
@@ -130,10 +158,20 @@ mod tests {
 
     #[test]
     fn a_line_is_one_line_of_six_fields() {
-        let line = format_line(at(0, 0), "failed", "a\tb.png", "bad\nthing", Some(Duration::from_millis(1500)), "host-1");
+        let line = format_line(
+            at(0, 0),
+            "failed",
+            "a\tb.png",
+            "bad\nthing",
+            Some(Duration::from_millis(1500)),
+            "host-1",
+        );
         assert!(line.ends_with('\n'));
         assert_eq!(line.matches('\n').count(), 1);
         let fields: Vec<&str> = line.trim_end().split('\t').collect();
-        assert_eq!(fields, ["1970-01-01T00:00:00.000Z", "failed", "a b.png", "bad thing", "1.50s", "host-1"]);
+        assert_eq!(
+            fields,
+            ["1970-01-01T00:00:00.000Z", "failed", "a b.png", "bad thing", "1.50s", "host-1"]
+        );
     }
 }

@@ -167,14 +167,24 @@ pub fn run(settings: &Settings, stop: &AtomicBool) -> Result<RunSummary> {
         return Err(Error::usage("--jobs must be at least 1"));
     }
     let folders = Folders::at(&settings.dir)?;
-    let ticket_path = settings.ticket.clone().or_else(|| Some(folders.root.join("ticket.toml")).filter(|p| p.is_file()));
+    let ticket_path = settings
+        .ticket
+        .clone()
+        .or_else(|| Some(folders.root.join("ticket.toml")).filter(|p| p.is_file()));
     let (workshop, ticket) = crate::cli::separate::ticket_workshop(ticket_path.as_deref())?;
     let steps = steps::pipeline(Arc::new(workshop), &ticket)?;
     folders.create()?;
     let id = folders::instance_id();
     let log = EventLog::open(&folders.log, &id, settings.log_to_stderr)?;
     let instance = Instance::register(&folders, &id)?;
-    let delay = if cfg!(debug_assertions) { std::env::var(JOB_DELAY_ENV).ok().and_then(|v| v.trim().parse().ok()).map(Duration::from_millis) } else { None };
+    let delay = if cfg!(debug_assertions) {
+        std::env::var(JOB_DELAY_ENV)
+            .ok()
+            .and_then(|v| v.trim().parse().ok())
+            .map(Duration::from_millis)
+    } else {
+        None
+    };
     log.event(
         "start",
         &folders.incoming.display().to_string(),
@@ -182,14 +192,28 @@ pub fn run(settings: &Settings, stop: &AtomicBool) -> Result<RunSummary> {
             "{} job(s), settle {:.2} s, ticket {}{}",
             settings.jobs,
             settings.settle.as_secs_f64(),
-            ticket_path.as_ref().map(|p| p.display().to_string()).unwrap_or_else(|| "none (defaults)".into()),
+            ticket_path
+                .as_ref()
+                .map(|p| p.display().to_string())
+                .unwrap_or_else(|| "none (defaults)".into()),
             if settings.once { ", once" } else { "" }
         ),
         None,
     );
-    let shared = Shared { folders: &folders, instance: &id, steps: &steps, log: &log, delay, seq: AtomicU64::new(1) };
+    let shared = Shared {
+        folders: &folders,
+        instance: &id,
+        steps: &steps,
+        log: &log,
+        delay,
+        seq: AtomicU64::new(1),
+    };
     let (tx, rx) = mpsc::channel::<Msg>();
-    let watcher = if settings.once { None } else { start_watch(&folders.incoming, tx.clone(), &log, settings.rescan) };
+    let watcher = if settings.once {
+        None
+    } else {
+        start_watch(&folders.incoming, tx.clone(), &log, settings.rescan)
+    };
     let summary = std::thread::scope(|scope| {
         let (job_tx, job_rx) = mpsc::channel::<Claimed>();
         let job_rx = Arc::new(Mutex::new(job_rx));
@@ -217,7 +241,12 @@ fn start_watch(dir: &Path, tx: Sender<Msg>, log: &EventLog, rescan: Duration) ->
     match made {
         Ok(w) => Some(w),
         Err(e) => {
-            log.event("watch", &dir.display().to_string(), &format!("no file system events ({e}); looking every {:.1} s", rescan.as_secs_f64()), None);
+            log.event(
+                "watch",
+                &dir.display().to_string(),
+                &format!("no file system events ({e}); looking every {:.1} s", rescan.as_secs_f64()),
+                None,
+            );
             None
         }
     }
@@ -235,7 +264,13 @@ fn worker(shared: &Shared, jobs: &Mutex<Receiver<Claimed>>, tx: &Sender<Msg>) {
             Ok(o) => o,
             Err(_) => {
                 let started = Instant::now();
-                fail(shared, &claimed, &["internal error (please report this with the input that caused it)".to_string()], None, started)
+                fail(
+                    shared,
+                    &claimed,
+                    &["internal error (please report this with the input that caused it)".to_string()],
+                    None,
+                    started,
+                )
             }
         };
         if tx.send(Msg::Finished(outcome)).is_err() {
@@ -246,7 +281,14 @@ fn worker(shared: &Shared, jobs: &Mutex<Receiver<Claimed>>, tx: &Sender<Msg>) {
 
 /// The scheduler: looks at the folders, claims files while jobs are free, and
 /// stops when asked (or, with `once`, when nothing is left).
-fn schedule(settings: &Settings, stop: &AtomicBool, shared: &Shared, instance: &Instance, rx: &Receiver<Msg>, job_tx: &Sender<Claimed>) -> RunSummary {
+fn schedule(
+    settings: &Settings,
+    stop: &AtomicBool,
+    shared: &Shared,
+    instance: &Instance,
+    rx: &Receiver<Msg>,
+    job_tx: &Sender<Claimed>,
+) -> RunSummary {
     let folders = shared.folders;
     let log = shared.log;
     let tick = (settings.settle / 4).clamp(Duration::from_millis(20), Duration::from_millis(250));
@@ -266,20 +308,32 @@ fn schedule(settings: &Settings, stop: &AtomicBool, shared: &Shared, instance: &
         let now = Instant::now();
         if !stopping && stop.load(Ordering::SeqCst) {
             stopping = true;
-            log.event("stopping", "-", &format!("{in_flight} file(s) in progress are finished first; a second signal stops at once"), None);
+            log.event(
+                "stopping",
+                "-",
+                &format!("{in_flight} file(s) in progress are finished first; a second signal stops at once"),
+                None,
+            );
         }
         if !stopping {
             if last_sweep.is_none_or(|t| now.duration_since(t) >= settings.rescan) {
                 last_sweep = Some(now);
                 let ids: Vec<String> = held.iter().map(|o| o.id.clone()).collect();
                 for o in folders::find_orphans(folders, &instance.id, &ids) {
-                    log.event("recover", &o.dir.display().to_string(), &format!("instance {} is gone; its files are taken over", o.id), None);
+                    log.event(
+                        "recover",
+                        &o.dir.display().to_string(),
+                        &format!("instance {} is gone; its files are taken over", o.id),
+                        None,
+                    );
                     held.push(o);
                 }
             }
             // Files left by gone instances first: they arrived earlier.
             while in_flight < settings.jobs {
-                let Some(claimed) = take_orphan_file(shared, instance, &held, &mut summary, &mut skipped) else { break };
+                let Some(claimed) = take_orphan_file(shared, instance, &held, &mut summary, &mut skipped) else {
+                    break;
+                };
                 if job_tx.send(claimed).is_ok() {
                     in_flight += 1;
                 }
@@ -297,7 +351,12 @@ fn schedule(settings: &Settings, stop: &AtomicBool, shared: &Shared, instance: &
                     }
                     Err(e) => {
                         if !scan_failed {
-                            log.event("error", &folders.incoming.display().to_string(), &format!("cannot list the folder: {e}"), None);
+                            log.event(
+                                "error",
+                                &folders.incoming.display().to_string(),
+                                &format!("cannot list the folder: {e}"),
+                                None,
+                            );
                         }
                         scan_failed = true;
                     }
@@ -319,12 +378,22 @@ fn schedule(settings: &Settings, stop: &AtomicBool, shared: &Shared, instance: &
                     Claim::Later if in_flight > 0 => {}
                     Claim::Later => {
                         tracker.forget(&name);
-                        log.event("refused", &name.to_string_lossy(), &format!("a file of the same name is stuck in {}; it stays in in/", instance.dir.display()), None);
+                        log.event(
+                            "refused",
+                            &name.to_string_lossy(),
+                            &format!("a file of the same name is stuck in {}; it stays in in/", instance.dir.display()),
+                            None,
+                        );
                         refused.insert(name);
                     }
                     Claim::Refused(reason) => {
                         tracker.forget(&name);
-                        log.event("refused", &name.to_string_lossy(), &format!("cannot take the file: {reason}; it stays in in/"), None);
+                        log.event(
+                            "refused",
+                            &name.to_string_lossy(),
+                            &format!("cannot take the file: {reason}; it stays in in/"),
+                            None,
+                        );
                         refused.insert(name);
                     }
                 }
@@ -373,7 +442,10 @@ fn claim(shared: &Shared, instance: &Instance, name: &OsStr) -> Claim {
         return Claim::Later;
     }
     match std::fs::rename(shared.folders.incoming.join(name), &target) {
-        Ok(()) => Claim::Taken(Claimed { name: name.to_os_string(), path: target }),
+        Ok(()) => Claim::Taken(Claimed {
+            name: name.to_os_string(),
+            path: target,
+        }),
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => Claim::Gone,
         Err(e) => Claim::Refused(e.to_string()),
     }
@@ -381,7 +453,13 @@ fn claim(shared: &Shared, instance: &Instance, name: &OsStr) -> Claim {
 
 /// The next file of a gone instance to process again, finishing on the way
 /// those whose results were already committed.
-fn take_orphan_file(shared: &Shared, instance: &Instance, held: &[Orphan], summary: &mut RunSummary, skipped: &mut HashSet<PathBuf>) -> Option<Claimed> {
+fn take_orphan_file(
+    shared: &Shared,
+    instance: &Instance,
+    held: &[Orphan],
+    summary: &mut RunSummary,
+    skipped: &mut HashSet<PathBuf>,
+) -> Option<Claimed> {
     for orphan in held {
         for name in orphan.files() {
             let src = orphan.dir.join(&name);
@@ -395,17 +473,27 @@ fn take_orphan_file(shared: &Shared, instance: &Instance, held: &[Orphan], summa
                 // died before writing the text: undo it, and finish the file
                 // below as if it had not been moved.
                 let unexplained = folders::other_link_in(&shared.folders.failed, &src).filter(|other| {
-                    let text = other.file_name().map(folders::error_text_name).map(|n| shared.folders.failed.join(n));
+                    let text = other
+                        .file_name()
+                        .map(folders::error_text_name)
+                        .map(|n| shared.folders.failed.join(n));
                     text.is_some_and(|t| std::fs::symlink_metadata(t).is_err())
                 });
                 match unexplained {
                     Some(other) if std::fs::remove_file(&other).is_ok() => {
-                        shared.log.event("recovered", &shown, "had been linked into failed/ without its error text before the crash; finished again", None);
+                        shared.log.event(
+                            "recovered",
+                            &shown,
+                            "had been linked into failed/ without its error text before the crash; finished again",
+                            None,
+                        );
                     }
                     Some(_) => continue,
                     None => {
                         if std::fs::remove_file(&src).is_ok() {
-                            shared.log.event("recovered", &shown, "had been moved to done/ or failed/ before the crash", None);
+                            shared
+                                .log
+                                .event("recovered", &shown, "had been moved to done/ or failed/ before the crash", None);
                         }
                         continue;
                     }
@@ -413,7 +501,10 @@ fn take_orphan_file(shared: &Shared, instance: &Instance, held: &[Orphan], summa
             }
             let job = format!("{}/{}", orphan.id, shown);
             if let Some((out_dir, record)) = find_record(&shared.folders.out, &job) {
-                let claimed = Claimed { name: name.clone(), path: src };
+                let claimed = Claimed {
+                    name: name.clone(),
+                    path: src,
+                };
                 let started = Instant::now();
                 let out_name = out_name(shared, &out_dir);
                 let outcome = match record.result.as_str() {
@@ -432,12 +523,19 @@ fn take_orphan_file(shared: &Shared, instance: &Instance, held: &[Orphan], summa
             }
             match std::fs::rename(&src, &target) {
                 Ok(()) => {
-                    shared.log.event("take", &shown, &format!("left unfinished by {}; processed again", orphan.id), None);
+                    shared
+                        .log
+                        .event("take", &shown, &format!("left unfinished by {}; processed again", orphan.id), None);
                     return Some(Claimed { name, path: target });
                 }
                 Err(e) if e.kind() == std::io::ErrorKind::NotFound => continue,
                 Err(e) => {
-                    shared.log.event("error", &shown, &format!("cannot take over {}: {e}; it stays there", src.display()), None);
+                    shared.log.event(
+                        "error",
+                        &shown,
+                        &format!("cannot take over {}: {e}; it stays there", src.display()),
+                        None,
+                    );
                     skipped.insert(src);
                 }
             }
@@ -473,7 +571,9 @@ fn find_record(out: &Path, job: &str) -> Option<(PathBuf, JobRecord)> {
         if entry.file_name().to_string_lossy().starts_with('.') {
             continue;
         }
-        let Ok(text) = std::fs::read_to_string(entry.path().join(RECORD_NAME)) else { continue };
+        let Ok(text) = std::fs::read_to_string(entry.path().join(RECORD_NAME)) else {
+            continue;
+        };
         if let Ok(record) = serde_json::from_str::<JobRecord>(&text)
             && record.job == job
         {
@@ -493,8 +593,16 @@ fn process(shared: &Shared, claimed: &Claimed) -> Outcome {
     let started = Instant::now();
     let taken = log::rfc3339(SystemTime::now());
     let name = claimed.name.to_string_lossy().to_string();
-    let stem = Path::new(&claimed.name).file_stem().map(|s| s.to_string_lossy().to_string()).filter(|s| !s.is_empty()).unwrap_or_else(|| name.clone());
-    let staging = shared.folders.staging.join(shared.instance).join(format!("{}-{stem}", shared.seq.fetch_add(1, Ordering::Relaxed)));
+    let stem = Path::new(&claimed.name)
+        .file_stem()
+        .map(|s| s.to_string_lossy().to_string())
+        .filter(|s| !s.is_empty())
+        .unwrap_or_else(|| name.clone());
+    let staging = shared
+        .folders
+        .staging
+        .join(shared.instance)
+        .join(format!("{}-{stem}", shared.seq.fetch_add(1, Ordering::Relaxed)));
     let work_shown = claimed.path.display().to_string();
     let describe = |step: &str, e: &Error| format!("{step}: {}", e.to_string().replace(&work_shown, &name));
     let result: std::result::Result<Vec<String>, String> = (|| {
@@ -503,7 +611,13 @@ fn process(shared: &Shared, claimed: &Claimed) -> Outcome {
         if size == 0 {
             return Err("empty file (0 bytes) after the settle time; nothing to separate".to_string());
         }
-        let mut job = JobFile { input: &claimed.path, name: &name, staging: &staging, started, separated: None };
+        let mut job = JobFile {
+            input: &claimed.path,
+            name: &name,
+            staging: &staging,
+            started,
+            separated: None,
+        };
         let mut reasons = Vec::new();
         for step in shared.steps {
             match step.run(&mut job).map_err(|e| describe(step.name(), &e))? {
@@ -524,16 +638,21 @@ fn process(shared: &Shared, claimed: &Claimed) -> Outcome {
         }
     };
     let job = format!("{}/{}", shared.instance, name);
-    let committed = commit_results(shared, &staging, &stem, JobRecord {
-        job,
-        input: name.clone(),
-        result: if reasons.is_empty() { "done" } else { "failed" }.into(),
-        reasons: reasons.clone(),
-        taken,
-        finished: log::rfc3339(SystemTime::now()),
-        outputs: Vec::new(),
-        note: crate::report::PREDICTION_NOTE.into(),
-    });
+    let committed = commit_results(
+        shared,
+        &staging,
+        &stem,
+        JobRecord {
+            job,
+            input: name.clone(),
+            result: if reasons.is_empty() { "done" } else { "failed" }.into(),
+            reasons: reasons.clone(),
+            taken,
+            finished: log::rfc3339(SystemTime::now()),
+            outputs: Vec::new(),
+            note: crate::report::PREDICTION_NOTE.into(),
+        },
+    );
     match committed {
         Err(reason) => {
             let _ = std::fs::remove_dir_all(&staging);
@@ -546,14 +665,21 @@ fn process(shared: &Shared, claimed: &Claimed) -> Outcome {
 
 /// Writes the record into the staging folder and renames it into `out/`.
 fn commit_results(shared: &Shared, staging: &Path, stem: &str, mut record: JobRecord) -> std::result::Result<PathBuf, String> {
-    let mut outputs: Vec<String> = std::fs::read_dir(staging).map_err(|e| e.to_string())?.filter_map(|e| e.ok()).map(|e| e.file_name().to_string_lossy().to_string()).filter(|n| !n.starts_with('.')).collect();
+    let mut outputs: Vec<String> = std::fs::read_dir(staging)
+        .map_err(|e| e.to_string())?
+        .filter_map(|e| e.ok())
+        .map(|e| e.file_name().to_string_lossy().to_string())
+        .filter(|n| !n.starts_with('.'))
+        .collect();
     outputs.sort();
     record.outputs = outputs;
     let json = serde_json::to_string_pretty(&record).map_err(|e| e.to_string())?;
     let mut set = OutputSet::new(staging, false).map_err(|e| e.to_string())?;
-    set.stage(RECORD_NAME, |w| std::io::Write::write_all(w, json.as_bytes())).map_err(|e| e.to_string())?;
+    set.stage(RECORD_NAME, |w| std::io::Write::write_all(w, json.as_bytes()))
+        .map_err(|e| e.to_string())?;
     set.commit().map_err(|e| e.to_string())?;
-    folders::commit_folder(staging, &shared.folders.out, stem).map_err(|e| format!("cannot move the results into {}: {e}", shared.folders.out.display()))
+    folders::commit_folder(staging, &shared.folders.out, stem)
+        .map_err(|e| format!("cannot move the results into {}: {e}", shared.folders.out.display()))
 }
 
 fn finish_done(shared: &Shared, claimed: &Claimed, out: &str, started: Instant) -> Outcome {
@@ -564,7 +690,15 @@ fn finish_done(shared: &Shared, claimed: &Claimed, out: &str, started: Instant) 
             Outcome::Done
         }
         Err(e) => {
-            shared.log.event("error", &shown, &format!("results in {out}, but the input cannot be moved to done/: {e}; it stays in {}", claimed.path.display()), Some(started.elapsed()));
+            shared.log.event(
+                "error",
+                &shown,
+                &format!(
+                    "results in {out}, but the input cannot be moved to done/: {e}; it stays in {}",
+                    claimed.path.display()
+                ),
+                Some(started.elapsed()),
+            );
             Outcome::Stuck
         }
     }
@@ -599,7 +733,12 @@ fn fail(shared: &Shared, claimed: &Claimed, reasons: &[String], out: Option<&str
             Ok(folders::Put::Taken) => continue,
             Ok(put) => put,
             Err(e) => {
-                shared.log.event("error", &shown, &format!("cannot move the input to failed/: {e}; it stays in {}", claimed.path.display()), Some(started.elapsed()));
+                shared.log.event(
+                    "error",
+                    &shown,
+                    &format!("cannot move the input to failed/: {e}; it stays in {}", claimed.path.display()),
+                    Some(started.elapsed()),
+                );
                 return Outcome::Stuck;
             }
         };
@@ -613,8 +752,17 @@ fn fail(shared: &Shared, claimed: &Claimed, reasons: &[String], out: Option<&str
                 folders::Put::Renamed => std::fs::rename(&target, &claimed.path),
                 _ => std::fs::remove_file(&target),
             };
-            let stays = if undone.is_ok() { claimed.path.display().to_string() } else { target.display().to_string() };
-            shared.log.event("error", &shown, &format!("cannot write {}: {e}; the input stays in {stays}", error_path.display()), Some(started.elapsed()));
+            let stays = if undone.is_ok() {
+                claimed.path.display().to_string()
+            } else {
+                target.display().to_string()
+            };
+            shared.log.event(
+                "error",
+                &shown,
+                &format!("cannot write {}: {e}; the input stays in {stays}", error_path.display()),
+                Some(started.elapsed()),
+            );
             return Outcome::Stuck;
         }
         if put == folders::Put::Linked
@@ -622,7 +770,12 @@ fn fail(shared: &Shared, claimed: &Claimed, reasons: &[String], out: Option<&str
         {
             // Moved and explained; the second name in work/ is what a crash
             // here would leave, and recovery removes it the same way.
-            shared.log.event("error", &shown, &format!("failed, but {} cannot be removed: {e}", claimed.path.display()), Some(started.elapsed()));
+            shared.log.event(
+                "error",
+                &shown,
+                &format!("failed, but {} cannot be removed: {e}", claimed.path.display()),
+                Some(started.elapsed()),
+            );
         }
         shared.log.event("failed", &shown, &reasons.join("; "), Some(started.elapsed()));
         return Outcome::Failed;

@@ -8,8 +8,8 @@
 //! failed: the outputs (with the check's report) are kept in `out/<stem>/` and
 //! the input goes to `failed/` with the reasons in its `.error.txt`.
 
-use crate::error::{Error, Result};
 use crate::cli::inspect::write_report_dir;
+use crate::error::{Error, Result};
 use crate::inspect::rules::parse_all;
 use crate::inspect::{InspectOptions, inspect_separated};
 use crate::job::{OutputPlace, SeparatedFile, Workshop};
@@ -61,7 +61,11 @@ impl Step for SeparateStep {
 
     fn run(&self, job: &mut JobFile) -> Result<Verdict> {
         let separated = self.workshop.separate_file(job.input)?;
-        let place = OutputPlace { dir: job.staging, listed_dir: Path::new(""), input_shown: Path::new(job.name) };
+        let place = OutputPlace {
+            dir: job.staging,
+            listed_dir: Path::new(""),
+            input_shown: Path::new(job.name),
+        };
         self.workshop.write_outputs_in(job.input, &separated, job.started, &place)?;
         job.separated = Some(separated);
         Ok(Verdict::Pass)
@@ -70,7 +74,9 @@ impl Step for SeparateStep {
 
 /// The steps for a ticket: separate, then the inspect step where there is one.
 pub fn pipeline(workshop: Arc<Workshop>, ticket: &Ticket) -> Result<Vec<Box<dyn Step>>> {
-    let mut steps: Vec<Box<dyn Step>> = vec![Box::new(SeparateStep { workshop: workshop.clone() })];
+    let mut steps: Vec<Box<dyn Step>> = vec![Box::new(SeparateStep {
+        workshop: workshop.clone(),
+    })];
     steps.extend(inspect_step(&workshop, ticket)?);
     Ok(steps)
 }
@@ -96,7 +102,10 @@ impl Step for InspectStep {
     }
 
     fn run(&self, job: &mut JobFile) -> Result<Verdict> {
-        let separated = job.separated.as_ref().ok_or_else(|| Error::Internal("the inspect step runs after the separate step".into()))?;
+        let separated = job
+            .separated
+            .as_ref()
+            .ok_or_else(|| Error::Internal("the inspect step runs after the separate step".into()))?;
         let mut inspection = inspect_separated(&self.workshop, job.input, separated, &self.options, Instant::now())?;
         inspection.report.file = job.name.to_string();
         write_report_dir(job.staging, false, job.input, &inspection, &self.workshop.separator)?;
@@ -121,6 +130,13 @@ pub fn inspect_step(workshop: &Arc<Workshop>, ticket: &Ticket) -> Result<Option<
         Some((path, _)) => Error::input(path, e.to_string()),
         None => e,
     })?;
-    let options = InspectOptions { rules, keep_maps: true, ..InspectOptions::default() };
-    Ok(Some(Box::new(InspectStep { workshop: workshop.clone(), options })))
+    let options = InspectOptions {
+        rules,
+        keep_maps: true,
+        ..InspectOptions::default()
+    };
+    Ok(Some(Box::new(InspectStep {
+        workshop: workshop.clone(),
+        options,
+    })))
 }

@@ -14,7 +14,18 @@ use std::time::{Duration, Instant, SystemTime};
 /// Suffixes of names that copy and transfer tools commonly give a file while
 /// it is still being written (compared without case). Such files, and names
 /// starting with a dot, are never taken.
-pub const TEMPORARY_SUFFIXES: &[&str] = &[".part", ".partial", ".tmp", ".temp", ".download", ".upload", ".incomplete", ".filepart", ".swp", "~"];
+pub const TEMPORARY_SUFFIXES: &[&str] = &[
+    ".part",
+    ".partial",
+    ".tmp",
+    ".temp",
+    ".download",
+    ".upload",
+    ".incomplete",
+    ".filepart",
+    ".swp",
+    "~",
+];
 
 /// Whether a name in `in/` is skipped (hidden or temporary).
 pub fn is_ignored(name: &OsStr) -> bool {
@@ -45,7 +56,10 @@ pub struct Tracker {
 
 impl Tracker {
     pub fn new(settle: Duration) -> Tracker {
-        Tracker { settle, pending: HashMap::new() }
+        Tracker {
+            settle,
+            pending: HashMap::new(),
+        }
     }
 
     /// Takes a fresh listing of the folder made at `now`: new files start
@@ -64,7 +78,11 @@ impl Tracker {
 
     /// Files unchanged for the settle time at `now`, longest waiting first.
     pub fn ready(&self, now: Instant) -> Vec<(OsString, Seen)> {
-        let mut out: Vec<(&OsString, &Pending)> = self.pending.iter().filter(|(_, p)| now.duration_since(p.since) >= self.settle).collect();
+        let mut out: Vec<(&OsString, &Pending)> = self
+            .pending
+            .iter()
+            .filter(|(_, p)| now.duration_since(p.since) >= self.settle)
+            .collect();
         out.sort_by(|a, b| a.1.since.cmp(&b.1.since).then_with(|| a.0.cmp(b.0)));
         out.into_iter().map(|(n, p)| (n.clone(), p.seen)).collect()
     }
@@ -99,7 +117,13 @@ pub fn list_incoming(dir: &Path) -> std::io::Result<Vec<(OsString, Seen)>> {
         if !meta.is_file() {
             continue;
         }
-        out.push((name, Seen { size: meta.len(), modified: meta.modified().ok() }));
+        out.push((
+            name,
+            Seen {
+                size: meta.len(),
+                modified: meta.modified().ok(),
+            },
+        ));
     }
     Ok(out)
 }
@@ -109,7 +133,10 @@ mod tests {
     use super::*;
 
     fn seen(size: u64, secs: u64) -> Seen {
-        Seen { size, modified: Some(SystemTime::UNIX_EPOCH + Duration::from_secs(secs)) }
+        Seen {
+            size,
+            modified: Some(SystemTime::UNIX_EPOCH + Duration::from_secs(secs)),
+        }
     }
 
     #[test]
@@ -150,7 +177,10 @@ mod tests {
         let t0 = Instant::now();
         let mut tr = Tracker::new(Duration::ZERO);
         tr.update([(OsString::from("b"), seen(1, 1))], t0);
-        tr.update([(OsString::from("b"), seen(1, 1)), (OsString::from("a"), seen(1, 1))], t0 + Duration::from_millis(5));
+        tr.update(
+            [(OsString::from("b"), seen(1, 1)), (OsString::from("a"), seen(1, 1))],
+            t0 + Duration::from_millis(5),
+        );
         let names: Vec<OsString> = tr.ready(t0 + Duration::from_millis(10)).into_iter().map(|(n, _)| n).collect();
         assert_eq!(names, [OsString::from("b"), OsString::from("a")]);
     }

@@ -51,11 +51,7 @@ pub fn encode_lab(lab: Lab, version: IccVersion) -> [u16; 3] {
 /// 16-bit codes of `version` → PCS CIELAB.
 pub fn decode_lab(code: [u16; 3], version: IccVersion) -> Lab {
     let (sl, sab) = scales(version);
-    Lab::new(
-        code[0] as f64 / sl,
-        code[1] as f64 / sab - 128.0,
-        code[2] as f64 / sab - 128.0,
-    )
+    Lab::new(code[0] as f64 / sl, code[1] as f64 / sab - 128.0, code[2] as f64 / sab - 128.0)
 }
 
 /// A device value 0..1 → its 16-bit code (0 ↦ 0x0000, 1 ↦ 0xFFFF), clamped.
@@ -84,20 +80,14 @@ mod tests {
     // ICC.1:2022 §6.3.4.2: L* 100 ↦ 0xFFFF, a* 0 ↦ 0x8080, a* 127 ↦ 0xFFFF, a* −128 ↦ 0.
     #[test]
     fn v4_reference_codes() {
-        assert_eq!(
-            encode_lab(Lab::new(100.0, 0.0, 127.0), IccVersion::V4),
-            [0xFFFF, 0x8080, 0xFFFF]
-        );
+        assert_eq!(encode_lab(Lab::new(100.0, 0.0, 127.0), IccVersion::V4), [0xFFFF, 0x8080, 0xFFFF]);
         assert_eq!(encode_lab(Lab::new(0.0, -128.0, 0.0), IccVersion::V4), [0, 0, 0x8080]);
     }
 
     // ICC.1:2001-04 §6.5.5 (legacy encoding): L* 100 ↦ 0xFF00, a* 0 ↦ 0x8000.
     #[test]
     fn v2_reference_codes() {
-        assert_eq!(
-            encode_lab(Lab::new(100.0, 0.0, -128.0), IccVersion::V2),
-            [0xFF00, 0x8000, 0]
-        );
+        assert_eq!(encode_lab(Lab::new(100.0, 0.0, -128.0), IccVersion::V2), [0xFF00, 0x8000, 0]);
     }
 
     #[test]

@@ -56,7 +56,8 @@ pub(super) fn clut_pipeline(inputs: u32, outputs: u32, grid: u32, table: &[u16],
 
 /// A pipeline `inputs → outputs` of the given stages, in order.
 pub(super) fn chain(inputs: u32, outputs: u32, stages: Vec<Stage>) -> Result<Pipeline> {
-    let pipeline = Pipeline::new(inputs as usize, outputs as usize).map_err(|_| Error::Internal("lcms2 could not allocate a pipeline".into()))?;
+    let pipeline =
+        Pipeline::new(inputs as usize, outputs as usize).map_err(|_| Error::Internal("lcms2 could not allocate a pipeline".into()))?;
     for stage in stages {
         // SAFETY: `pipeline.as_ptr()` is a live cmsPipeline owned by `pipeline`;
         // `stage.into_ptr()` hands over a live cmsStage that we no longer own.
@@ -103,7 +104,14 @@ pub(super) fn segmented_curve(segments: &[FormulaSegment]) -> Result<ToneCurve> 
         .map(|s| {
             let mut params = [0.0; 10];
             params[..4].copy_from_slice(&[s.gamma, s.a, s.b, s.c]);
-            sys::CurveSegment { x0: s.x0, x1: s.x1, Type: 6, Params: params, nGridPoints: 0, SampledPoints: std::ptr::null_mut() }
+            sys::CurveSegment {
+                x0: s.x0,
+                x1: s.x1,
+                Type: 6,
+                Params: params,
+                nGridPoints: 0,
+                SampledPoints: std::ptr::null_mut(),
+            }
         })
         .collect();
     // SAFETY: `raw` holds `raw.len()` initialised segments and outlives the
@@ -173,11 +181,7 @@ mod tests {
                     lcms2_encode(lab, version),
                     "{lab:?} {version:?}"
                 );
-                let code = [
-                    (next() * 65535.0) as u16,
-                    (next() * 65535.0) as u16,
-                    (next() * 65535.0) as u16,
-                ];
+                let code = [(next() * 65535.0) as u16, (next() * 65535.0) as u16, (next() * 65535.0) as u16];
                 let (ours, theirs) = (encoding::decode_lab(code, version), lcms2_decode(code, version));
                 assert!((ours.l - theirs.l).abs() < 1e-12 && (ours.a - theirs.a).abs() < 1e-12);
                 assert!((ours.b - theirs.b).abs() < 1e-12);
@@ -189,10 +193,7 @@ mod tests {
     fn pipeline_has_the_stage_pattern_of_each_table_type() {
         let table = vec![0u16; 2usize.pow(4) * 3];
         let framed = clut_pipeline(4, 3, 2, &table, Framing::CurvesAroundClut).unwrap();
-        assert_eq!(
-            (framed.stage_count(), framed.input_channels(), framed.output_channels()),
-            (3, 4, 3)
-        );
+        assert_eq!((framed.stage_count(), framed.input_channels(), framed.output_channels()), (3, 4, 3));
         let bare = clut_pipeline(4, 3, 2, &table, Framing::ClutOnly).unwrap();
         assert_eq!(bare.stage_count(), 1);
         assert!(clut_pipeline(4, 3, 3, &table, Framing::ClutOnly).is_err());

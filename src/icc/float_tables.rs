@@ -112,9 +112,23 @@ impl SrgbFrame {
         let line = |x0: f64, x1: f64, u0: f64, u1: f64| {
             let slope = (u1 - u0) / (x1 - x0);
             let b = 1.0 + slope.abs() * x0.abs().max(x1.abs());
-            FormulaSegment { x0: x0 as f32, x1: x1 as f32, gamma: 1.0, a: slope, b, c: u0 - slope * x0 - b }
+            FormulaSegment {
+                x0: x0 as f32,
+                x1: x1 as f32,
+                gamma: 1.0,
+                a: slope,
+                b,
+                c: u0 - slope * x0 - b,
+            }
         };
-        let flat = |x0: f32, x1: f32, u: f64| FormulaSegment { x0, x1, gamma: 1.0, a: 0.0, b: 1.0, c: u - 1.0 };
+        let flat = |x0: f32, x1: f32, u: f64| FormulaSegment {
+            x0,
+            x1,
+            gamma: 1.0,
+            a: 0.0,
+            b: 1.0,
+            c: u - 1.0,
+        };
         out.push(flat(CURVE_MINUS_INF, self.linear[0] as f32, 0.0));
         for i in 0..self.zero {
             out.push(line(self.linear[i], self.linear[i + 1], self.coordinate(i), self.coordinate(i + 1)));
@@ -123,8 +137,22 @@ impl SrgbFrame {
         let (u0, u1) = (self.coordinate(self.zero), self.coordinate(self.zero + self.inner - 1));
         let span = u1 - u0;
         let knee = 0.003_130_8_f32;
-        out.push(FormulaSegment { x0: 0.0, x1: knee, gamma: 1.0, a: 12.92 * span, b: 1.0, c: u0 - 1.0 });
-        out.push(FormulaSegment { x0: knee, x1: 1.0, gamma: 1.0 / 2.4, a: (1.055 * span).powf(2.4), b: 0.0, c: u0 - 0.055 * span });
+        out.push(FormulaSegment {
+            x0: 0.0,
+            x1: knee,
+            gamma: 1.0,
+            a: 12.92 * span,
+            b: 1.0,
+            c: u0 - 1.0,
+        });
+        out.push(FormulaSegment {
+            x0: knee,
+            x1: 1.0,
+            gamma: 1.0 / 2.4,
+            a: (1.055 * span).powf(2.4),
+            b: 0.0,
+            c: u0 - 0.055 * span,
+        });
         let last_inner = self.zero + self.inner - 1;
         for i in last_inner..n - 1 {
             out.push(line(self.linear[i], self.linear[i + 1], self.coordinate(i), self.coordinate(i + 1)));
@@ -142,7 +170,10 @@ pub struct XyzScaling {
 }
 
 impl XyzScaling {
-    pub const IDENTITY: XyzScaling = XyzScaling { scale: [1.0; 3], offset: [0.0; 3] };
+    pub const IDENTITY: XyzScaling = XyzScaling {
+        scale: [1.0; 3],
+        offset: [0.0; 3],
+    };
 }
 
 /// One intent's floating-point table.
@@ -168,7 +199,11 @@ const DELTA: f64 = 6.0 / 29.0;
 pub(super) fn pipeline(frame: &SrgbFrame, intent: &FloatIntent) -> Result<Pipeline> {
     let n = frame.grid();
     if intent.table.len() != n.pow(3) * 4 {
-        return Err(Error::Internal(format!("float table has {} values, {} needed", intent.table.len(), n.pow(3) * 4)));
+        return Err(Error::Internal(format!(
+            "float table has {} values, {} needed",
+            intent.table.len(),
+            n.pow(3) * 4
+        )));
     }
     let lcms = |what: &str| Error::Internal(format!("lcms2 could not allocate {what}"));
     let (l, a, b) = (1.0 / 116.0, 1.0 / 500.0, 1.0 / 200.0);
@@ -180,12 +215,30 @@ pub(super) fn pipeline(frame: &SrgbFrame, intent: &FloatIntent) -> Result<Pipeli
         .map(|&w| {
             let slope = w * 3.0 * DELTA * DELTA;
             segmented_curve(&[
-                FormulaSegment { x0: CURVE_MINUS_INF, x1: DELTA as f32, gamma: 1.0, a: slope, b: 1.0, c: -1.0 - slope * 4.0 / 29.0 },
-                FormulaSegment { x0: DELTA as f32, x1: CURVE_PLUS_INF, gamma: 3.0, a: w.cbrt(), b: 0.0, c: 0.0 },
+                FormulaSegment {
+                    x0: CURVE_MINUS_INF,
+                    x1: DELTA as f32,
+                    gamma: 1.0,
+                    a: slope,
+                    b: 1.0,
+                    c: -1.0 - slope * 4.0 / 29.0,
+                },
+                FormulaSegment {
+                    x0: DELTA as f32,
+                    x1: CURVE_PLUS_INF,
+                    gamma: 3.0,
+                    a: w.cbrt(),
+                    b: 0.0,
+                    c: 0.0,
+                },
             ])
         })
         .collect::<Result<_>>()?;
-    let from_pcs = RgbSpace::Srgb.converter().to_pcs_matrix().inverse().expect("sRGB matrix is invertible");
+    let from_pcs = RgbSpace::Srgb
+        .converter()
+        .to_pcs_matrix()
+        .inverse()
+        .expect("sRGB matrix is invertible");
     let s = intent.scaling;
     let to_rgb = from_pcs.mul(&Mat3([[s.scale[0], 0.0, 0.0], [0.0, s.scale[1], 0.0], [0.0, 0.0, s.scale[2]]]));
     let rgb_offset = from_pcs.apply(s.offset);
@@ -222,7 +275,10 @@ mod tests {
                 }
             }
         }
-        assert!(lo.iter().all(|&v| v >= LINEAR_RANGE.0) && hi.iter().all(|&v| v <= LINEAR_RANGE.1), "{lo:?} {hi:?}");
+        assert!(
+            lo.iter().all(|&v| v >= LINEAR_RANGE.0) && hi.iter().all(|&v| v <= LINEAR_RANGE.1),
+            "{lo:?} {hi:?}"
+        );
         // ...and the range is not much wider than needed.
         assert!(lo[0] < LINEAR_RANGE.0 + 0.1 && hi[2] > LINEAR_RANGE.1 - 0.1, "{lo:?} {hi:?}");
     }

@@ -22,12 +22,10 @@ mod writer;
 pub use encoding::{decode_lab, encode_lab, encode_unit, grid_lab};
 pub use float_tables::{FloatIntent, FloatTables, LINEAR_RANGE, SrgbFrame, XyzScaling};
 pub use separation_profile::{
-    PERCEPTUAL_REFERENCE_BLACK, ProfileOptions, perceptual_pcs_black, profile_description, profile_for, profile_for_separator,
-    black_scaling, scale_black,
+    PERCEPTUAL_REFERENCE_BLACK, ProfileOptions, black_scaling, perceptual_pcs_black, profile_description, profile_for,
+    profile_for_separator, scale_black,
 };
-pub use writer::{
-    DEFAULT_A2B_GRID, DEFAULT_B2A_GRID, DEFAULT_COPYRIGHT, OutputProfileSpec, build_output_profile, default_description,
-};
+pub use writer::{DEFAULT_A2B_GRID, DEFAULT_B2A_GRID, DEFAULT_COPYRIGHT, OutputProfileSpec, build_output_profile, default_description};
 
 /// The ICC specification version a profile is written for.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]

@@ -44,8 +44,8 @@
 //! starts, in parallel over lines, as the separation table is.
 
 use super::float_tables::{FloatIntent, FloatTables, SrgbFrame, XyzScaling};
-use super::{IccVersion, OutputProfileSpec, build_output_profile, default_description, grid_lab};
 use super::{DEFAULT_A2B_GRID, DEFAULT_B2A_GRID, DEFAULT_COPYRIGHT};
+use super::{IccVersion, OutputProfileSpec, build_output_profile, default_description, grid_lab};
 use crate::colour::{D50, Lab, RgbSpace, Xyz, ciede2000};
 use crate::error::Result;
 use crate::ink::Cmyk;
@@ -55,7 +55,11 @@ use rayon::prelude::*;
 
 /// Black of the perceptual reference medium in PCSXYZ (ICC.1:2022 §6.2.4.3;
 /// the values lcms2 uses, `cmsPERCEPTUAL_BLACK_X/Y/Z`).
-pub const PERCEPTUAL_REFERENCE_BLACK: Xyz = Xyz { x: 0.00336, y: 0.0034731, z: 0.00287 };
+pub const PERCEPTUAL_REFERENCE_BLACK: Xyz = Xyz {
+    x: 0.00336,
+    y: 0.0034731,
+    z: 0.00287,
+};
 
 /// How a profile is written.
 #[derive(Debug, Clone, PartialEq)]
@@ -77,7 +81,14 @@ pub struct ProfileOptions {
 
 impl Default for ProfileOptions {
     fn default() -> ProfileOptions {
-        ProfileOptions { version: IccVersion::V4, a2b_grid: DEFAULT_A2B_GRID, b2a_grid: DEFAULT_B2A_GRID, description: None, copyright: None, float_tables: true }
+        ProfileOptions {
+            version: IccVersion::V4,
+            a2b_grid: DEFAULT_A2B_GRID,
+            b2a_grid: DEFAULT_B2A_GRID,
+            description: None,
+            copyright: None,
+            float_tables: true,
+        }
     }
 }
 
@@ -147,7 +158,11 @@ pub fn profile_for_separator(separator: &Separator, options: &ProfileOptions) ->
     let n = options.b2a_grid.clamp(2, 255) as usize;
     let mut nodes = solve_grid(&colorimetric, n, &|[li, ai, bi]| {
         let lab = grid_lab([li, ai, bi].map(|i| i as u32), n as u32, version);
-        [perceptual.intent_target(scale_black(lab, pcs_black, zero), &mapping), lab, scale_black(lab, pcs_black, press_black)]
+        [
+            perceptual.intent_target(scale_black(lab, pcs_black, zero), &mapping),
+            lab,
+            scale_black(lab, pcs_black, press_black),
+        ]
     });
     repair_black_outliers(&colorimetric, &mut nodes, n);
     nodes.par_iter_mut().enumerate().for_each(|(i, node)| {
@@ -188,13 +203,20 @@ pub fn profile_for_separator(separator: &Separator, options: &ProfileOptions) ->
             let frame = SrgbFrame::new(separator.settings().table_grid)?;
             let float_nodes = solve_grid(&colorimetric, frame.grid(), &|index| {
                 let source = Lab::from_xyz(frame.node_xyz(index));
-                [perceptual.intent_target(source, &mapping), source, scale_black(source, zero, press_black)]
+                [
+                    perceptual.intent_target(source, &mapping),
+                    source,
+                    scale_black(source, zero, press_black),
+                ]
             });
             let to_zero = black_scaling(pcs_black, zero);
-            let intents = [to_zero, XyzScaling::IDENTITY, to_zero].into_iter().enumerate().map(|(i, scaling)| FloatIntent {
-                scaling,
-                table: float_nodes.iter().flat_map(|node| node.ink[i].map(|v| v as f32)).collect(),
-            });
+            let intents = [to_zero, XyzScaling::IDENTITY, to_zero]
+                .into_iter()
+                .enumerate()
+                .map(|(i, scaling)| FloatIntent {
+                    scaling,
+                    table: float_nodes.iter().flat_map(|node| node.ink[i].map(|v| v as f32)).collect(),
+                });
             let intents: Vec<FloatIntent> = intents.collect();
             let intents: [FloatIntent; 3] = intents.try_into().expect("three intents");
             Some(FloatTables { frame, intents })
@@ -301,7 +323,11 @@ fn repair_black_outliers(separator: &Separator, nodes: &mut [Node], n: usize) {
                 for intent in 0..3 {
                     let mut k: Vec<f64> = around.iter().map(|&j| nodes[j].ink[intent][3]).collect();
                     k.sort_by(f64::total_cmp);
-                    let median = if k.len() % 2 == 1 { k[k.len() / 2] } else { 0.5 * (k[k.len() / 2 - 1] + k[k.len() / 2]) };
+                    let median = if k.len() % 2 == 1 {
+                        k[k.len() / 2]
+                    } else {
+                        0.5 * (k[k.len() / 2 - 1] + k[k.len() / 2])
+                    };
                     let own = nodes[i].ink[intent];
                     if (own[3] - median).abs() <= BLACK_OUTLIER {
                         continue;
@@ -312,8 +338,11 @@ fn repair_black_outliers(separator: &Separator, nodes: &mut [Node], n: usize) {
                     if own_error > EXACT {
                         continue;
                     }
-                    let agreeing: Vec<[f64; 4]> =
-                        around.iter().map(|&j| nodes[j].ink[intent]).filter(|x| (x[3] - median).abs() <= BLACK_OUTLIER).collect();
+                    let agreeing: Vec<[f64; 4]> = around
+                        .iter()
+                        .map(|&j| nodes[j].ink[intent])
+                        .filter(|x| (x[3] - median).abs() <= BLACK_OUTLIER)
+                        .collect();
                     if agreeing.len() < 2 {
                         continue;
                     }
@@ -339,7 +368,11 @@ fn grid_index(lab: Lab, grid: u32, version: IccVersion) -> Option<[u32; 3]> {
     let corner = grid_lab([grid - 1; 3], grid, version);
     let origin = grid_lab([0; 3], grid, version);
     let pos = |v: f64, lo: f64, hi: f64| ((v - lo) / (hi - lo) * (grid - 1) as f64).round();
-    let index = [pos(lab.l, origin.l, corner.l), pos(lab.a, origin.a, corner.a), pos(lab.b, origin.b, corner.b)];
+    let index = [
+        pos(lab.l, origin.l, corner.l),
+        pos(lab.a, origin.a, corner.a),
+        pos(lab.b, origin.b, corner.b),
+    ];
     if !index.iter().all(|&j| (0.0..grid as f64).contains(&j)) {
         return None;
     }
@@ -356,7 +389,14 @@ mod tests {
     fn perceptual_black_matches_lcms2() {
         // lcms2's constants for the perceptual reference medium black.
         let p = PERCEPTUAL_REFERENCE_BLACK;
-        assert_eq!([p.x, p.y, p.z], [lcms2_sys::PERCEPTUAL_BLACK_X, lcms2_sys::PERCEPTUAL_BLACK_Y, lcms2_sys::PERCEPTUAL_BLACK_Z]);
+        assert_eq!(
+            [p.x, p.y, p.z],
+            [
+                lcms2_sys::PERCEPTUAL_BLACK_X,
+                lcms2_sys::PERCEPTUAL_BLACK_Y,
+                lcms2_sys::PERCEPTUAL_BLACK_Z
+            ]
+        );
         // ICC.1:2022 §6.2.4.3 gives the reference medium black as L* 3.1373.
         assert!((Lab::from_xyz(p).l - 3.1373).abs() < 2e-3, "{:?}", Lab::from_xyz(p));
     }

@@ -16,8 +16,7 @@ pub const DEFAULT_A2B_GRID: u32 = 17;
 /// Default grid of the BToA and gamut tables (points per L*, a*, b* axis): 33³ nodes.
 pub const DEFAULT_B2A_GRID: u32 = 33;
 /// Copyright text written when the caller has nothing more specific.
-pub const DEFAULT_COPYRIGHT: &str =
-    "Made with platesmith from a model of the printing condition; free to use and share.";
+pub const DEFAULT_COPYRIGHT: &str = "Made with platesmith from a model of the printing condition; free to use and share.";
 
 /// Largest table accepted, in 16-bit values (48 MiB of table data, e.g. 63⁴ × 3):
 /// far beyond any useful grid, small enough to never exhaust memory.
@@ -127,11 +126,7 @@ pub fn build_output_profile(spec: &OutputProfileSpec) -> Result<Vec<u8>> {
             "profile description and copyright must be text without NUL characters",
         ));
     }
-    write(
-        &mut profile,
-        TagSignature::ProfileDescriptionTag,
-        Tag::MLU(&description),
-    )?;
+    write(&mut profile, TagSignature::ProfileDescriptionTag, Tag::MLU(&description))?;
     write(&mut profile, TagSignature::CopyrightTag, Tag::MLU(&copyright))?;
     let white = CIEXYZ { X: w.x, Y: w.y, Z: w.z };
     write(&mut profile, TagSignature::MediaWhitePointTag, Tag::CIEXYZ(&white))?;
@@ -171,7 +166,11 @@ pub fn build_output_profile(spec: &OutputProfileSpec) -> Result<Vec<u8>> {
                 Some(j) => link(&mut profile, b2d_tags[i], b2d_tags[j])?,
                 None => {
                     if let Some(bad) = tables.intents[i].table.iter().position(|v| !v.is_finite()) {
-                        return Err(Error::Internal(format!("{}: node {} is not a number", names[i].replace("BToA", "BToD"), bad / 4)));
+                        return Err(Error::Internal(format!(
+                            "{}: node {} is not a number",
+                            names[i].replace("BToA", "BToD"),
+                            bad / 4
+                        )));
                     }
                     let p = float_tables::pipeline(&tables.frame, &tables.intents[i])?;
                     write(&mut profile, b2d_tags[i], Tag::Pipeline(&p))?;
@@ -180,7 +179,10 @@ pub fn build_output_profile(spec: &OutputProfileSpec) -> Result<Vec<u8>> {
         }
     }
 
-    let serialise = |p: &Profile| p.icc().map_err(|e| Error::Internal(format!("lcms2 could not serialise the profile: {e}")));
+    let serialise = |p: &Profile| {
+        p.icc()
+            .map_err(|e| Error::Internal(format!("lcms2 could not serialise the profile: {e}")))
+    };
     let mut bytes = serialise(&profile)?;
     stamp_creation_date(&mut bytes, creation_epoch());
     if version == IccVersion::V4 {
@@ -201,7 +203,11 @@ const FIXED_CREATION_EPOCH: i64 = 1_767_225_600;
 /// 1970, the reproducible-builds convention) when set, else a fixed date, so
 /// that the same settings give byte-identical profiles and composites.
 fn creation_epoch() -> i64 {
-    std::env::var("SOURCE_DATE_EPOCH").ok().and_then(|v| v.trim().parse::<i64>().ok()).filter(|&v| v >= 0).unwrap_or(FIXED_CREATION_EPOCH)
+    std::env::var("SOURCE_DATE_EPOCH")
+        .ok()
+        .and_then(|v| v.trim().parse::<i64>().ok())
+        .filter(|&v| v >= 0)
+        .unwrap_or(FIXED_CREATION_EPOCH)
 }
 
 /// Writes the header's creation date (ICC.1:2022 §7.2.8, a dateTimeNumber at
@@ -212,7 +218,14 @@ fn stamp_creation_date(bytes: &mut [u8], epoch: i64) {
     }
     let (days, secs) = (epoch.div_euclid(86_400), epoch.rem_euclid(86_400));
     let (year, month, day) = crate::hotfolder::log::civil_from_days(days);
-    let fields = [year as u16, month as u16, day as u16, (secs / 3600) as u16, (secs / 60 % 60) as u16, (secs % 60) as u16];
+    let fields = [
+        year as u16,
+        month as u16,
+        day as u16,
+        (secs / 3600) as u16,
+        (secs / 60 % 60) as u16,
+        (secs % 60) as u16,
+    ];
     for (i, v) in fields.iter().enumerate() {
         bytes[24 + 2 * i..26 + 2 * i].copy_from_slice(&v.to_be_bytes());
     }
@@ -220,9 +233,7 @@ fn stamp_creation_date(bytes: &mut [u8], epoch: i64) {
 
 fn check_grid(what: &str, grid: u32, inputs: u32, outputs: usize) -> Result<()> {
     if !(2..=255).contains(&grid) {
-        return Err(Error::usage(format!(
-            "{what} grid must have 2 to 255 points per axis, got {grid}"
-        )));
+        return Err(Error::usage(format!("{what} grid must have 2 to 255 points per axis, got {grid}")));
     }
     if (grid as usize).pow(inputs) * outputs > MAX_TABLE_VALUES {
         return Err(Error::usage(format!(
@@ -244,9 +255,7 @@ fn link(profile: &mut Profile, sig: TagSignature, to: TagSignature) -> Result<()
     if profile.link_tag(sig, to) {
         Ok(())
     } else {
-        Err(Error::Internal(format!(
-            "lcms2 could not link the {sig:?} tag to {to:?}"
-        )))
+        Err(Error::Internal(format!("lcms2 could not link the {sig:?} tag to {to:?}")))
     }
 }
 

@@ -386,7 +386,16 @@ impl Pass {
         let to_percent = 100.0 / self.max as f32;
         let y0 = band_index * factor;
         let y1 = (y0 + factor).min(self.h);
-        let mut band = Band { index: band_index, runs: Default::default(), cells: if self.keep_maps { vec![Cell::default(); self.map_w] } else { Vec::new() }, samples: Vec::new() };
+        let mut band = Band {
+            index: band_index,
+            runs: Default::default(),
+            cells: if self.keep_maps {
+                vec![Cell::default(); self.map_w]
+            } else {
+                Vec::new()
+            },
+            samples: Vec::new(),
+        };
         let mut plate_sum = [0u64; 4];
         for y in y0..y1 {
             let mut rows: [RowRuns; 4] = Default::default();
@@ -511,7 +520,14 @@ struct DeModel<'a> {
 impl<'a> DeModel<'a> {
     fn new(separator: &'a Separator, source: &'a RgbSource, rgb: &'a Samples, cmyk: &'a Samples) -> DeModel<'a> {
         let pixels = rgb.len() / 3;
-        let mut model = DeModel { separator, source, rgb, cmyk, dense: None, distinct: 0 };
+        let mut model = DeModel {
+            separator,
+            source,
+            rgb,
+            cmyk,
+            dense: None,
+            distinct: 0,
+        };
         let Samples::U8(v) = rgb else { return model };
         if pixels >= u32::MAX as usize {
             return model;
@@ -553,7 +569,16 @@ impl<'a> DeModel<'a> {
         starts.push(items.len());
         starts.par_windows(2).for_each(|span| {
             let group = &items[span[0]..span[1]];
-            let rgb: Vec<[f64; 3]> = group.iter().map(|&(_, key)| [(key >> 16) as f64 / 255.0, ((key >> 8) & 255) as f64 / 255.0, (key & 255) as f64 / 255.0]).collect();
+            let rgb: Vec<[f64; 3]> = group
+                .iter()
+                .map(|&(_, key)| {
+                    [
+                        (key >> 16) as f64 / 255.0,
+                        ((key >> 8) & 255) as f64 / 255.0,
+                        (key & 255) as f64 / 255.0,
+                    ]
+                })
+                .collect();
             let labs = source.labs_of(&rgb);
             let mut printed = (u64::MAX, Lab::default());
             for (&(ink, key), lab) in group.iter().zip(labs) {
@@ -627,9 +652,22 @@ pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> 
     let raster = crate::raster::read_raster(path, &workshop.options.limits)?;
     let read_ms = ms(t);
     if raster.layout == Layout::Cmyk {
-        let notes = vec![format!("the file's own CMYK is checked for {}, as it would be plated (not re-separated)", workshop.separator.condition().name)];
+        let notes = vec![format!(
+            "the file's own CMYK is checked for {}, as it would be plated (not re-separated)",
+            workshop.separator.condition().name
+        )];
         // Ink statistics are gathered in the analysis pass.
-        let subject = Subject { raster: &raster, cmyk: &raster.samples, stats: None, rgb: None, source: None, notes, source_description: "CMYK".into(), read_ms, separate_ms: 0.0 };
+        let subject = Subject {
+            raster: &raster,
+            cmyk: &raster.samples,
+            stats: None,
+            rgb: None,
+            source: None,
+            notes,
+            source_description: "CMYK".into(),
+            read_ms,
+            separate_ms: 0.0,
+        };
         analyse(workshop, path, subject, opts, started)
     } else {
         let separated = workshop.separate_raster(path, raster, read_ms)?;
@@ -640,12 +678,28 @@ pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> 
 /// Inspects a file already separated in memory ([`Workshop::separate_file`]),
 /// exactly the CMYK that was (or will be) written: for RGB and gray input with
 /// the ΔE of every pixel; for CMYK input, the re-separated CMYK.
-pub fn inspect_separated(workshop: &Workshop, path: &Path, s: &SeparatedFile, opts: &InspectOptions, started: Instant) -> Result<Inspection> {
+pub fn inspect_separated(
+    workshop: &Workshop,
+    path: &Path,
+    s: &SeparatedFile,
+    opts: &InspectOptions,
+    started: Instant,
+) -> Result<Inspection> {
     let separate_ms = s.table_ms + s.separate_ms;
     if s.raster.layout == Layout::Cmyk {
         let mut notes = s.notes.clone();
         notes.push("checked: the re-separated CMYK".into());
-        let subject = Subject { raster: &s.raster, cmyk: &s.image.samples, stats: Some(s.stats.clone()), rgb: None, source: None, notes, source_description: s.source_description.clone(), read_ms: s.read_ms, separate_ms };
+        let subject = Subject {
+            raster: &s.raster,
+            cmyk: &s.image.samples,
+            stats: Some(s.stats.clone()),
+            rgb: None,
+            source: None,
+            notes,
+            source_description: s.source_description.clone(),
+            read_ms: s.read_ms,
+            separate_ms,
+        };
         return analyse(workshop, path, subject, opts, started);
     }
     let rgb = crate::job::to_rgb(&s.raster, &mut Vec::new());
@@ -687,7 +741,17 @@ struct Subject<'a> {
 }
 
 fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOptions, started: Instant) -> Result<Inspection> {
-    let Subject { raster, cmyk, stats, rgb, source, notes, source_description, read_ms, separate_ms } = subject;
+    let Subject {
+        raster,
+        cmyk,
+        stats,
+        rgb,
+        source,
+        notes,
+        source_description,
+        read_ms,
+        separate_ms,
+    } = subject;
     let separator = &workshop.separator;
     let tac_limit = separator.settings().tac;
     let t = Instant::now();
@@ -726,7 +790,10 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
     let tally = (0..map_h)
         .into_par_iter()
         .fold(Tally::default, |mut tally, band_index| {
-            let mut lookup = de_model.as_ref().map(|m| DeLookup { model: m, memo: HashMap::new() });
+            let mut lookup = de_model.as_ref().map(|m| DeLookup {
+                model: m,
+                memo: HashMap::new(),
+            });
             match cmyk {
                 Samples::U8(v) => ctx.band(v, lookup.as_mut(), band_index, &mut tally),
                 Samples::U16(v) => ctx.band(v, lookup.as_mut(), band_index, &mut tally),
@@ -754,7 +821,11 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
     let mut found: Vec<(usize, Region)> = Vec::new();
     for (k, rows) in kind_rows.iter().enumerate() {
         let regions = regions::label(rows, min_pixels);
-        let regions: Vec<Region> = if k == 2 { regions.into_par_iter().filter(|r| regions::is_fine_detail(r, side)).collect() } else { regions };
+        let regions: Vec<Region> = if k == 2 {
+            regions.into_par_iter().filter(|r| regions::is_fine_detail(r, side)).collect()
+        } else {
+            regions
+        };
         *regions_by_kind.entry(KINDS[k]).or_insert(0) += regions.len();
         regions_total += regions.len();
         found.extend(regions.into_iter().take(opts.max_regions).map(|r| (k, r)));
@@ -790,13 +861,24 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
             RegionReport {
                 kind: KINDS[*k],
                 bbox: [r.x, r.y, r.w, r.h],
-                bbox_mm: [round_to(r.x as f64 * mm_x, 2), round_to(r.y as f64 * mm_y, 2), round_to(r.w as f64 * mm_x, 2), round_to(r.h as f64 * mm_y, 2)],
+                bbox_mm: [
+                    round_to(r.x as f64 * mm_x, 2),
+                    round_to(r.y as f64 * mm_y, 2),
+                    round_to(r.w as f64 * mm_x, 2),
+                    round_to(r.h as f64 * mm_y, 2),
+                ],
                 pixels: r.pixels,
                 area_mm2: round_to(r.pixels as f64 * px_mm2, 3),
                 max: round_to(max, 2),
                 mean: round_to(mean, 2),
                 unit: if *k == 0 { "ΔE2000" } else { "%" },
-                colour: RegionColour { at: [x, y], source: source_value, lab: lab3(lab), printed_lab: lab3(printed), cmyk: ink.to_percent().map(|v| round_to(v, 1)) },
+                colour: RegionColour {
+                    at: [x, y],
+                    source: source_value,
+                    lab: lab3(lab),
+                    printed_lab: lab3(printed),
+                    cmyk: ink.to_percent().map(|v| round_to(v, 1)),
+                },
                 in_gamut,
                 limited_by,
             }
@@ -811,7 +893,15 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
         max_de: round_to(tally.de_max as f64, 2),
         over_fraction: frac(tally.region_over),
         threshold: opts.region_de,
-        over: opts.de_thresholds.iter().zip(&tally.de_over).map(|(&t, &n)| ThresholdShare { threshold: t, fraction: frac(n) }).collect(),
+        over: opts
+            .de_thresholds
+            .iter()
+            .zip(&tally.de_over)
+            .map(|(&t, &n)| ThresholdShare {
+                threshold: t,
+                fraction: frac(n),
+            })
+            .collect(),
         distinct_values: if m.dense.is_some() { m.distinct } else { 0 },
     });
     let tac = TacSummary {
@@ -886,7 +976,11 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
                 detail_mm: opts.rich_black_detail_mm,
                 basis: "common practice",
             },
-            fail_if: if rule_texts.is_empty() { vec![rules::DEFAULT_RULE.to_string()] } else { rule_texts },
+            fail_if: if rule_texts.is_empty() {
+                vec![rules::DEFAULT_RULE.to_string()]
+            } else {
+                rule_texts
+            },
         },
         tac,
         gamut,
@@ -897,7 +991,12 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
         regions_by_kind,
         rules: Vec::new(),
         pass: true,
-        timings: InspectTimings { read_ms, separate_ms, analyse_ms: ms(t), total_ms: ms(started) },
+        timings: InspectTimings {
+            read_ms,
+            separate_ms,
+            analyse_ms: ms(t),
+            total_ms: ms(started),
+        },
         note: crate::report::PREDICTION_NOTE,
     };
     let default_rule;
@@ -931,7 +1030,11 @@ fn ink_use(stats: &InkStats, separator: &Separator, opts: &InspectOptions) -> In
     let run_kg: [f64; 4] = per_copy.map(|g| g * opts.copies as f64 / 1000.0);
     InkUse {
         sheet_mm: opts.sheet_mm,
-        sheet_basis: if opts.sheet_given { "given" } else { "common practice (B1-class sheetfed sheet)" },
+        sheet_basis: if opts.sheet_given {
+            "given"
+        } else {
+            "common practice (B1-class sheetfed sheet)"
+        },
         copies: opts.copies,
         copies_basis: if opts.copies_given { "given" } else { "common practice default" },
         film_g_per_m2: film,
@@ -972,7 +1075,18 @@ mod tests {
         let pixels = 3000;
         // Few distinct RGB values (so most repeat), each with its own CMYK;
         // some CMYK shared between RGB values.
-        let palette: Vec<([u8; 3], [u8; 4])> = (0..200).map(|k| ([next(), next(), next()], if k % 3 == 0 { [10, 20, 30, 40] } else { [next(), next(), next(), next()] })).collect();
+        let palette: Vec<([u8; 3], [u8; 4])> = (0..200)
+            .map(|k| {
+                (
+                    [next(), next(), next()],
+                    if k % 3 == 0 {
+                        [10, 20, 30, 40]
+                    } else {
+                        [next(), next(), next(), next()]
+                    },
+                )
+            })
+            .collect();
         let (mut rgb, mut cmyk) = (Vec::new(), Vec::new());
         for _ in 0..pixels {
             let (r, c) = palette[next() as usize % palette.len()];
@@ -982,7 +1096,10 @@ mod tests {
         let (rgb, cmyk) = (Samples::U8(rgb), Samples::U8(cmyk));
         let model = DeModel::new(&separator, &source, &rgb, &cmyk);
         assert!(model.dense.is_some());
-        let mut lookup = DeLookup { model: &model, memo: HashMap::new() };
+        let mut lookup = DeLookup {
+            model: &model,
+            memo: HashMap::new(),
+        };
         for i in 0..pixels {
             assert_eq!(lookup.get(i).to_bits(), model.compute(i).to_bits(), "pixel {i}");
         }

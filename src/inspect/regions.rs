@@ -39,7 +39,13 @@ impl RowRuns {
             }
             self.runs.push(*r);
         }
-        self.open = Some(Run { x0: x, x1: x + 1, sum: value as f64, max: value, max_x: x });
+        self.open = Some(Run {
+            x0: x,
+            x1: x + 1,
+            sum: value as f64,
+            max: value,
+            max_x: x,
+        });
     }
 
     /// The row's runs, in order.
@@ -123,7 +129,17 @@ pub fn label(rows: &[Vec<Run>], min_pixels: u64) -> Vec<Region> {
             let y = y as u32;
             if slot[root] == u32::MAX {
                 slot[root] = regions.len() as u32;
-                regions.push(Region { x: run.x0, y, w: 0, h: 0, pixels: 0, sum: 0.0, max: f32::NEG_INFINITY, max_at: (run.max_x, y), spans: Vec::new() });
+                regions.push(Region {
+                    x: run.x0,
+                    y,
+                    w: 0,
+                    h: 0,
+                    pixels: 0,
+                    sum: 0.0,
+                    max: f32::NEG_INFINITY,
+                    max_at: (run.max_x, y),
+                    spans: Vec::new(),
+                });
             }
             let r = &mut regions[slot[root] as usize];
             // Stored as inclusive ends until the end.
@@ -231,7 +247,10 @@ mod tests {
         // The diagonal (3 pixels), the vertical pair, and two lone pixels
         // in the last row (one column apart, not touching).
         assert_eq!(regions.len(), 4, "{regions:?}");
-        assert_eq!((regions[0].x, regions[0].y, regions[0].w, regions[0].h, regions[0].pixels), (0, 0, 3, 3, 3));
+        assert_eq!(
+            (regions[0].x, regions[0].y, regions[0].w, regions[0].h, regions[0].pixels),
+            (0, 0, 3, 3, 3)
+        );
         assert_eq!((regions[1].x, regions[1].y, regions[1].w, regions[1].h), (4, 0, 1, 2));
     }
 

@@ -52,11 +52,27 @@ const NAMES: &[(&[&str], Metric, Unit)] = &[
     (&["gamut.max_de", "max_de"], Metric::MaxDe, Unit::Plain),
     (&["gamut.over_fraction", "de_over_fraction"], Metric::DeOver, Unit::Fraction),
     (&["regions"], Metric::Regions(None), Unit::Plain),
-    (&["regions.out-of-gamut"], Metric::Regions(Some(super::KIND_OUT_OF_GAMUT)), Unit::Plain),
+    (
+        &["regions.out-of-gamut"],
+        Metric::Regions(Some(super::KIND_OUT_OF_GAMUT)),
+        Unit::Plain,
+    ),
     (&["regions.over-ink"], Metric::Regions(Some(super::KIND_OVER_INK)), Unit::Plain),
-    (&["regions.rich-black-detail"], Metric::Regions(Some(super::KIND_RICH_BLACK)), Unit::Plain),
-    (&["regions.below-min-dot"], Metric::Regions(Some(super::KIND_SMALL_DOT)), Unit::Plain),
-    (&["plates.below_min_dot_fraction", "below_min_dot_fraction"], Metric::SmallDots, Unit::Fraction),
+    (
+        &["regions.rich-black-detail"],
+        Metric::Regions(Some(super::KIND_RICH_BLACK)),
+        Unit::Plain,
+    ),
+    (
+        &["regions.below-min-dot"],
+        Metric::Regions(Some(super::KIND_SMALL_DOT)),
+        Unit::Plain,
+    ),
+    (
+        &["plates.below_min_dot_fraction", "below_min_dot_fraction"],
+        Metric::SmallDots,
+        Unit::Fraction,
+    ),
 ];
 
 /// One parsed rule.
@@ -97,7 +113,9 @@ impl Rule {
     pub fn parse_plain(text: &str) -> std::result::Result<Rule, String> {
         let t: String = text.chars().filter(|c| !c.is_whitespace()).collect();
         let bad = |why: String| why;
-        let at = t.find(['<', '>']).ok_or_else(|| bad("expected METRIC>VALUE, METRIC>=VALUE, METRIC<VALUE or METRIC<=VALUE".into()))?;
+        let at = t
+            .find(['<', '>'])
+            .ok_or_else(|| bad("expected METRIC>VALUE, METRIC>=VALUE, METRIC<VALUE or METRIC<=VALUE".into()))?;
         let (name, rest) = t.split_at(at);
         let (op, number) = match rest {
             r if r.starts_with(">=") => (Op::Ge, &r[2..]),
@@ -114,7 +132,11 @@ impl Rule {
             Some(d) => (d, true),
             None => (number, false),
         };
-        let value: f64 = digits.parse().ok().filter(|v: &f64| v.is_finite()).ok_or_else(|| bad(format!("'{number}' is not a number")))?;
+        let value: f64 = digits
+            .parse()
+            .ok()
+            .filter(|v: &f64| v.is_finite())
+            .ok_or_else(|| bad(format!("'{number}' is not a number")))?;
         let value = match (unit, percent) {
             (Unit::Plain, true) => return Err(bad(format!("'{name}' is not a share; write the value without %"))),
             (Unit::Fraction, true) => value / 100.0,
@@ -123,7 +145,12 @@ impl Rule {
         if unit == Unit::Fraction && !(0.0..=1.0).contains(&value) {
             return Err(bad(format!("'{name}' is a share of the image, 0–1 (or 0–100 %)")));
         }
-        Ok(Rule { text: t, metric, op, value })
+        Ok(Rule {
+            text: t,
+            metric,
+            op,
+            value,
+        })
     }
 
     fn measure(&self, r: &InspectReport) -> Option<f64> {
@@ -151,7 +178,11 @@ impl Rule {
             Op::Lt => v < self.value,
             Op::Le => v <= self.value,
         });
-        RuleOutcome { rule: self.text.clone(), value, failed }
+        RuleOutcome {
+            rule: self.text.clone(),
+            value,
+            failed,
+        }
     }
 }
 

@@ -76,7 +76,13 @@ pub fn coated_offset() -> PrintingCondition {
     // Common practice: TAC 330 % for sheetfed on premium coated stock; medium
     // GCR; 2 % smallest dot held on plate and press; about 1.1 g/m² per process
     // colour and a slightly heavier black.
-    let black = BlackGeneration { gcr: 0.5, black_start: 0.2, black_max: 0.95, shape: 2.0, uca: 0.0 };
+    let black = BlackGeneration {
+        gcr: 0.5,
+        black_start: 0.2,
+        black_max: 0.95,
+        shape: 2.0,
+        uca: 0.0,
+    };
     PrintingCondition::from_params("coated-offset", "premium coated paper, sheetfed offset", params, 3.3, black, 0.02)
         .with_ink_film([1.1, 1.1, 1.1, 1.2])
 }
@@ -104,7 +110,13 @@ pub fn uncoated_offset() -> PrintingCondition {
     };
     // Common practice: TAC 280 % on uncoated stock; stronger GCR to keep
     // neutrals stable and ink low; 3 % smallest dot; heavier ink films.
-    let black = BlackGeneration { gcr: 0.6, black_start: 0.15, black_max: 0.95, shape: 2.0, uca: 0.0 };
+    let black = BlackGeneration {
+        gcr: 0.6,
+        black_start: 0.15,
+        black_max: 0.95,
+        shape: 2.0,
+        uca: 0.0,
+    };
     PrintingCondition::from_params(
         "uncoated-offset",
         "wood-free uncoated white paper, offset",
@@ -139,7 +151,13 @@ pub fn newsprint() -> PrintingCondition {
     };
     // Common practice: TAC 240 % on newsprint; heavy GCR with black from 10 %;
     // 4 % smallest dot; coldset ink films around 1.8–2 g/m².
-    let black = BlackGeneration { gcr: 0.8, black_start: 0.1, black_max: 0.9, shape: 1.5, uca: 0.0 };
+    let black = BlackGeneration {
+        gcr: 0.8,
+        black_start: 0.1,
+        black_max: 0.9,
+        shape: 1.5,
+        uca: 0.0,
+    };
     PrintingCondition::from_params("newsprint", "standard newsprint, coldset web offset", params, 2.4, black, 0.04)
         .with_ink_film([1.8, 1.8, 1.8, 2.0])
 }

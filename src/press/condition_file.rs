@@ -185,7 +185,17 @@ pub fn parse_condition(text: &str, path: &Path) -> Result<PrintingCondition> {
     };
 
     let a = &file.aims;
-    let spanned = [&a.paper, &a.cyan, &a.magenta, &a.yellow, &a.black, &a.red, &a.green, &a.blue, &a.three_colour];
+    let spanned = [
+        &a.paper,
+        &a.cyan,
+        &a.magenta,
+        &a.yellow,
+        &a.black,
+        &a.red,
+        &a.green,
+        &a.blue,
+        &a.three_colour,
+    ];
     let mut labs = [Lab::default(); 9];
     for (i, v) in spanned.iter().enumerate() {
         labs[i] = ck.lab(v, &format!("aims.{}", AIM_NAMES[i]))?;
@@ -193,8 +203,16 @@ pub fn parse_condition(text: &str, path: &Path) -> Result<PrintingCondition> {
     // Physical order: ink only absorbs, so every solid is darker than the paper
     // and every overprint no lighter than each ink in it. The model's
     // monotonicity (more ink never lightens) rests on this.
-    const CONTAINS: [(usize, &[usize]); 8] =
-        [(1, &[0]), (2, &[0]), (3, &[0]), (4, &[0]), (5, &[2, 3]), (6, &[1, 3]), (7, &[1, 2]), (8, &[5, 6, 7])];
+    const CONTAINS: [(usize, &[usize]); 8] = [
+        (1, &[0]),
+        (2, &[0]),
+        (3, &[0]),
+        (4, &[0]),
+        (5, &[2, 3]),
+        (6, &[1, 3]),
+        (7, &[1, 2]),
+        (8, &[5, 6, 7]),
+    ];
     for (over, parts) in CONTAINS {
         for &p in parts {
             if labs[over].l > labs[p].l || (p == 0 && labs[over].l == labs[p].l) {
@@ -236,10 +254,20 @@ pub fn parse_condition(text: &str, path: &Path) -> Result<PrintingCondition> {
             }
             s.to_string()
         }
-        None => path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "condition".into()),
+        None => path
+            .file_stem()
+            .map(|s| s.to_string_lossy().into_owned())
+            .unwrap_or_else(|| "condition".into()),
     };
-    let description = file.description.unwrap_or_else(|| format!("printing condition from {}", path.display()));
-    let params = ModelParams { aims, tvi50, n, black_surface: surface };
+    let description = file
+        .description
+        .unwrap_or_else(|| format!("printing condition from {}", path.display()));
+    let params = ModelParams {
+        aims,
+        tvi50,
+        n,
+        black_surface: surface,
+    };
     Ok(PrintingCondition::from_params(name, description, params, tac, black, min_dot).with_ink_film(ink_film))
 }
 
@@ -274,13 +302,19 @@ pub fn load_condition(spec: &str) -> Result<PrintingCondition> {
 pub fn write_file_atomically(path: &Path, text: &str, overwrite: bool) -> Result<()> {
     use std::io::Write;
     if !overwrite && path.exists() {
-        return Err(Error::output(path, "the file exists; choose another name or allow overwriting (--force)"));
+        return Err(Error::output(
+            path,
+            "the file exists; choose another name or allow overwriting (--force)",
+        ));
     }
     let dir = match path.parent() {
         Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
         _ => std::path::PathBuf::from("."),
     };
-    let stem = path.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "condition".into());
+    let stem = path
+        .file_name()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "condition".into());
     let temp = dir.join(format!(".{stem}.{}.partial", std::process::id()));
     let result = (|| -> std::io::Result<()> {
         let mut f = std::fs::OpenOptions::new().write(true).create_new(true).open(&temp)?;
@@ -313,7 +347,11 @@ pub fn write_file_atomically(path: &Path, text: &str, overwrite: bool) -> Result
 /// A number for a TOML file: rounded to `decimals`, always with a decimal point.
 fn num(x: f64, decimals: usize) -> String {
     let s = format!("{x:.decimals$}");
-    let s = if s.contains('.') { s.trim_end_matches('0').trim_end_matches('.').to_string() } else { s };
+    let s = if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    };
     let s = if s == "-0" { "0".to_string() } else { s };
     if s.contains('.') { s } else { format!("{s}.0") }
 }
@@ -322,7 +360,10 @@ fn num(x: f64, decimals: usize) -> String {
 /// [`parse_condition`] reads. `header` lines are written as comments first.
 pub fn to_toml(condition: &PrintingCondition, header: &[String]) -> Result<String> {
     let p = condition.params.as_ref().ok_or_else(|| {
-        Error::usage(format!("condition `{}` has no characterization parameters to write as TOML", condition.name))
+        Error::usage(format!(
+            "condition `{}` has no characterization parameters to write as TOML",
+            condition.name
+        ))
     })?;
     let mut s = String::new();
     for h in header {

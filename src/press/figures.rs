@@ -192,8 +192,7 @@ impl ConditionReport {
             name: c.name.clone(),
             description: c.description.clone(),
             default: c.name == builtin::DEFAULT,
-            built_in: builtin::names().contains(&c.name.as_str())
-                && builtin::by_name(&c.name).map(|b| b.params) == Some(c.params),
+            built_in: builtin::names().contains(&c.name.as_str()) && builtin::by_name(&c.name).map(|b| b.params) == Some(c.params),
             tac_percent: c.tac * 100.0,
             min_dot_percent: c.min_dot * 100.0,
             ink_film_g_per_m2: c.ink_film,

@@ -59,7 +59,11 @@ pub fn patches_from_cgats(file: &CgatsFile, path: &Path) -> Result<Vec<Patch>> {
             if !(-0.5..=100.5).contains(&v) {
                 return Err(Error::input(
                     path,
-                    format!("line {line}: field {}: {} is out of range; allowed 0–100 %", table.fields[col], show_number(v)),
+                    format!(
+                        "line {line}: field {}: {} is out of range; allowed 0–100 %",
+                        table.fields[col],
+                        show_number(v)
+                    ),
                 ));
             }
             *slot = v.clamp(0.0, 100.0) / 100.0;
@@ -81,15 +85,18 @@ pub fn patches_from_cgats(file: &CgatsFile, path: &Path) -> Result<Vec<Patch>> {
             if v.iter().any(|&x| !(0.0..=110.0).contains(&x)) {
                 return Err(Error::input(
                     path,
-                    format!(
-                        "line {line}: XYZ values must lie in 0–110 (CGATS scale, Y = 100 for the perfect diffuser)"
-                    ),
+                    format!("line {line}: XYZ values must lie in 0–110 (CGATS scale, Y = 100 for the perfect diffuser)"),
                 ));
             }
             Lab::from_xyz(Xyz::new(v[0] / 100.0, v[1] / 100.0, v[2] / 100.0))
         };
         let id = id_col.map(|c| table.rows[row][c].clone()).unwrap_or_else(|| (row + 1).to_string());
-        patches.push(Patch { id, ink: Cmyk::from_array(ink), lab, line });
+        patches.push(Patch {
+            id,
+            ink: Cmyk::from_array(ink),
+            lab,
+            line,
+        });
     }
     if patches.len() < 40 {
         return Err(Error::input(
@@ -140,7 +147,11 @@ pub fn residuals(model: &dyn PressModel, patches: &[Patch]) -> Residuals {
     let mean = all.iter().map(|a| a.0).sum::<f64>() / count.max(1) as f64;
     let mut ascending: Vec<f64> = all.iter().map(|a| a.0).collect();
     ascending.reverse();
-    let p95 = if count == 0 { 0.0 } else { ascending[((0.95 * count as f64).ceil() as usize).clamp(1, count) - 1] };
+    let p95 = if count == 0 {
+        0.0
+    } else {
+        ascending[((0.95 * count as f64).ceil() as usize).clamp(1, count) - 1]
+    };
     let worst = all
         .iter()
         .take(10)
@@ -153,7 +164,13 @@ pub fn residuals(model: &dyn PressModel, patches: &[Patch]) -> Residuals {
             delta_e2000: de,
         })
         .collect();
-    Residuals { count, mean, p95, max: all.first().map(|a| a.0).unwrap_or(0.0), worst }
+    Residuals {
+        count,
+        mean,
+        p95,
+        max: all.first().map(|a| a.0).unwrap_or(0.0),
+        worst,
+    }
 }
 
 /// The outcome of [`fit_model`].
@@ -189,7 +206,12 @@ fn surface_bound(aims: &Aims) -> f64 {
 fn from_vector(v: &[f64; N_PARAMS]) -> ModelParams {
     let labs: [Lab; 9] = std::array::from_fn(|i| Lab::new(v[3 * i], v[3 * i + 1], v[3 * i + 2]));
     let aims = Aims::from_array(labs);
-    ModelParams { aims, tvi50: [v[27], v[28], v[29], v[30]], n: v[31], black_surface: v[32] * surface_bound(&aims) }
+    ModelParams {
+        aims,
+        tvi50: [v[27], v[28], v[29], v[30]],
+        n: v[31],
+        black_surface: v[32] * surface_bound(&aims),
+    }
 }
 
 fn bounds(i: usize) -> (f64, f64) {

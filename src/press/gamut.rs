@@ -192,7 +192,15 @@ impl SurfaceVoxels {
     fn new(lo: [f64; 3], hi: [f64; 3], voxel: f64, closing: usize) -> SurfaceVoxels {
         let margin = closing + 2;
         let dims: [usize; 3] = std::array::from_fn(|a| ((hi[a] - lo[a]) / voxel).floor() as usize + 1 + 2 * margin);
-        SurfaceVoxels { lo, voxel, margin, marked: Grid { dims, cells: vec![false; dims[0] * dims[1] * dims[2]] } }
+        SurfaceVoxels {
+            lo,
+            voxel,
+            margin,
+            marked: Grid {
+                dims,
+                cells: vec![false; dims[0] * dims[1] * dims[2]],
+            },
+        }
     }
 
     #[inline]
@@ -214,7 +222,10 @@ impl SurfaceVoxels {
         marked.dilate(closing);
 
         // Flood fill of the outside from a corner (the margin is never marked).
-        let mut outside = Grid { dims, cells: vec![false; marked.cells.len()] };
+        let mut outside = Grid {
+            dims,
+            cells: vec![false; marked.cells.len()],
+        };
         let mut stack = vec![0usize];
         outside.cells[0] = true;
         let [dx, dy, dz] = dims;
@@ -322,7 +333,13 @@ pub fn gamut_volume(model: &dyn PressModel, tac: f64, options: GamutOptions) -> 
         .map(|(ink, lab)| (*ink, Lab::from_array(*lab)))
         .unwrap_or((Cmyk::ZERO, Lab::default()));
     let samples = all().count();
-    GamutVolume { volume: grid.volume(closing), voxel, samples, darkest_ink: darkest.0, darkest_lab: darkest.1 }
+    GamutVolume {
+        volume: grid.volume(closing),
+        voxel,
+        samples,
+        darkest_ink: darkest.0,
+        darkest_lab: darkest.1,
+    }
 }
 
 #[cfg(test)]
@@ -345,7 +362,9 @@ mod tests {
         }
         fn lab(&self, ink: Cmyk) -> Lab {
             let v = [ink.c, ink.m, ink.y];
-            Lab::from_array(std::array::from_fn(|r| self.origin[r] + (0..3).map(|j| self.a[r][j] * v[j]).sum::<f64>()))
+            Lab::from_array(std::array::from_fn(|r| {
+                self.origin[r] + (0..3).map(|j| self.a[r][j] * v[j]).sum::<f64>()
+            }))
         }
     }
 
@@ -354,7 +373,10 @@ mod tests {
     }
 
     fn sheared() -> Affine {
-        Affine { origin: [90.0, -3.0, 4.0], a: [[-40.0, -30.0, -10.0], [-35.0, 70.0, -5.0], [-45.0, -10.0, 85.0]] }
+        Affine {
+            origin: [90.0, -3.0, 4.0],
+            a: [[-40.0, -30.0, -10.0], [-35.0, 70.0, -5.0], [-45.0, -10.0, 85.0]],
+        }
     }
 
     #[test]

@@ -18,8 +18,8 @@ use crate::ink::Cmyk;
 use crate::separation::BlackGeneration;
 use crate::{Error, Result};
 use lcms2::{
-    CIExyY, ColorSpaceSignature, Flags, GlobalContext, InfoType, Intent, Locale, PixelFormat, Profile,
-    ProfileClassSignature, Tag, TagSignature, Transform,
+    CIExyY, ColorSpaceSignature, Flags, GlobalContext, InfoType, Intent, Locale, PixelFormat, Profile, ProfileClassSignature, Tag,
+    TagSignature, Transform,
 };
 use rayon::prelude::*;
 use std::path::Path;
@@ -104,8 +104,8 @@ impl IccPressModel {
             )));
         }
         check_header(bytes).map_err(bad)?;
-        let profile = Profile::new_icc(bytes)
-            .map_err(|_| bad("not an ICC profile lcms2 can read (damaged header or tag directory)".into()))?;
+        let profile =
+            Profile::new_icc(bytes).map_err(|_| bad("not an ICC profile lcms2 can read (damaged header or tag directory)".into()))?;
         let class = profile.device_class();
         if class != ProfileClassSignature::OutputClass {
             return Err(bad(format!(
@@ -129,9 +129,7 @@ impl IccPressModel {
         };
         // LCMS_USED_AS_INPUT = 0: the CMYK → PCS direction.
         if !profile.is_intent_supported(intent, 0) {
-            return Err(bad(
-                "has no CMYK → PCS table (AToB0/AToB1) to model the press with".into()
-            ));
+            return Err(bad("has no CMYK → PCS table (AToB0/AToB1) to model the press with".into()));
         }
         let media_white = match profile.read_tag(TagSignature::MediaWhitePointTag) {
             Tag::CIEXYZ(w) => Xyz::new(w.X, w.Y, w.Z),
@@ -197,9 +195,7 @@ impl IccPressModel {
             table,
             media_white,
             tac_percent: (tac.is_finite() && tac > 0.0).then_some(tac),
-            description: profile
-                .info(InfoType::Description, Locale::none())
-                .filter(|d| !d.trim().is_empty()),
+            description: profile.info(InfoType::Description, Locale::none()).filter(|d| !d.trim().is_empty()),
         })
     }
 
@@ -254,11 +250,7 @@ impl IccPressModel {
         let mut index = base;
         let mut node = t[index];
         let mut weight = 1.0 - axes[0].0;
-        let mut out = [
-            node[0] as f64 * weight,
-            node[1] as f64 * weight,
-            node[2] as f64 * weight,
-        ];
+        let mut out = [node[0] as f64 * weight, node[1] as f64 * weight, node[2] as f64 * weight];
         for k in 0..4 {
             index += axes[k].1;
             node = t[index];
@@ -320,7 +312,14 @@ pub fn condition_from_icc(path: &Path) -> Result<PrintingCondition> {
         )
     });
     let tac = model.detected_tac().unwrap_or(FALLBACK_TAC_PERCENT) / 100.0;
-    Ok(PrintingCondition::new(name, description, Arc::new(model), tac, BlackGeneration::default(), 0.02))
+    Ok(PrintingCondition::new(
+        name,
+        description,
+        Arc::new(model),
+        tac,
+        BlackGeneration::default(),
+        0.02,
+    ))
 }
 
 /// Checks what lcms2 tolerates silently: a file shorter than its header says
@@ -410,10 +409,7 @@ mod tests {
     #[test]
     fn coverage_is_clamped_and_nan_does_not_panic() {
         let model = linear_model(3);
-        assert_eq!(
-            model.lab(Cmyk::new(-1.0, 2.0, 0.0, 0.0)),
-            model.lab(Cmyk::new(0.0, 1.0, 0.0, 0.0))
-        );
+        assert_eq!(model.lab(Cmyk::new(-1.0, 2.0, 0.0, 0.0)), model.lab(Cmyk::new(0.0, 1.0, 0.0, 0.0)));
         assert!(!model.lab(Cmyk::new(f64::NAN, 0.0, 0.0, 0.0)).is_finite());
         // Debug output names the settings and leaves the table out.
         assert!(format!("{model:?}").len() < 200);

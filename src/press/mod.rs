@@ -15,8 +15,7 @@ mod params;
 
 pub use condition_file::load_condition;
 pub use neugebauer::{
-    NeugebauerModel, NeugebauerParams, TONE_CHANNEL, ToneCurve, complete_primaries, lab_with_derivative,
-    overprint_black,
+    NeugebauerModel, NeugebauerParams, TONE_CHANNEL, ToneCurve, complete_primaries, lab_with_derivative, overprint_black,
 };
 pub use params::{AIM_INKS, AIM_NAMES, Aims, ModelParams};
 
@@ -91,7 +90,10 @@ pub struct MediaWhite {
 impl MediaWhite {
     pub fn new(white: Xyz) -> MediaWhite {
         let d = D50.xyz;
-        MediaWhite { scale: [d.x / white.x, d.y / white.y, d.z / white.z], white }
+        MediaWhite {
+            scale: [d.x / white.x, d.y / white.y, d.z / white.z],
+            white,
+        }
     }
 
     /// Absolute XYZ → media-relative XYZ (paper maps to the PCS white).

@@ -68,7 +68,11 @@ impl ToneCurve {
                 let a = i as f64 / TONE_STEPS as f64;
                 let tone = (a + 4.0 * tvi50 * a * (1.0 - a)).clamp(0.0, 1.0);
                 let y = paper_y - tone * (paper_y - solid_y);
-                if span.abs() < 1e-12 { tone } else { ((pr - y.max(0.0).powf(1.0 / n)) / span).clamp(0.0, 1.0) }
+                if span.abs() < 1e-12 {
+                    tone
+                } else {
+                    ((pr - y.max(0.0).powf(1.0 / n)) / span).clamp(0.0, 1.0)
+                }
             })
             .collect();
         ToneCurve { table }
@@ -231,21 +235,35 @@ pub fn lab_with_derivative(xyz: Xyz) -> (Lab, [[f64; 3]; 3]) {
     let (fz, dfz) = lab_f_with_derivative(xyz.z / w.z);
     let (gx, gy, gz) = (dfx / w.x, dfy / w.y, dfz / w.z);
     let lab = Lab::new(116.0 * fy - 16.0, 500.0 * (fx - fy), 200.0 * (fy - fz));
-    (lab, [[0.0, 116.0 * gy, 0.0], [500.0 * gx, -500.0 * gy, 0.0], [0.0, 200.0 * gy, -200.0 * gz]])
+    (
+        lab,
+        [
+            [0.0, 116.0 * gy, 0.0],
+            [500.0 * gx, -500.0 * gy, 0.0],
+            [0.0, 200.0 * gy, -200.0 * gz],
+        ],
+    )
 }
 
 impl NeugebauerModel {
     pub fn new(params: NeugebauerParams) -> NeugebauerModel {
         let n = params.n;
         let inv = 1.0 / n;
-        let roots = params.primaries.map(|p| [p.x.max(0.0).powf(inv), p.y.max(0.0).powf(inv), p.z.max(0.0).powf(inv)]);
+        let roots = params
+            .primaries
+            .map(|p| [p.x.max(0.0).powf(inv), p.y.max(0.0).powf(inv), p.z.max(0.0).powf(inv)]);
         let paper = params.primaries[0].to_array();
         let curves = std::array::from_fn(|i| {
             let ch = TONE_CHANNEL[i];
             ToneCurve::new(paper[ch], params.primaries[1 << i].to_array()[ch], n, params.tvi50[i])
         });
         let power = Power::new(n);
-        NeugebauerModel { params, roots, power, curves }
+        NeugebauerModel {
+            params,
+            roots,
+            power,
+            curves,
+        }
     }
 
     pub fn params(&self) -> &NeugebauerParams {
@@ -305,7 +323,12 @@ impl NeugebauerModel {
         let dm2 = [lerp3(dm4[0], dm4[1], ey), lerp3(dm4[2], dm4[3], ey)];
         let dy2 = [sub3(m4[1], m4[0]), sub3(m4[3], m4[2])];
         let s = lerp3(y2[0], y2[1], ek);
-        let ds = [lerp3(dc2[0], dc2[1], ek), lerp3(dm2[0], dm2[1], ek), lerp3(dy2[0], dy2[1], ek), sub3(y2[1], y2[0])];
+        let ds = [
+            lerp3(dc2[0], dc2[1], ek),
+            lerp3(dm2[0], dm2[1], ek),
+            lerp3(dy2[0], dy2[1], ek),
+            sub3(y2[1], y2[0]),
+        ];
         let slopes = [sc, sm, sy, sk];
         let mut jac = [[0.0; 4]; 3];
         let mut out = [0.0; 3];
@@ -355,7 +378,11 @@ pub fn overprint_black(primary: Xyz, black: Xyz, paper: Xyz, surface: f64) -> Xy
         let s = surface * w.min(1.0);
         s + (p - s).max(0.0) * (k - s).max(0.0) / (w - s).max(1e-9)
     };
-    Xyz::new(f(primary.x, black.x, paper.x), f(primary.y, black.y, paper.y), f(primary.z, black.z, paper.z))
+    Xyz::new(
+        f(primary.x, black.x, paper.x),
+        f(primary.y, black.y, paper.y),
+        f(primary.z, black.z, paper.z),
+    )
 }
 
 /// Fills the 8 primaries with black from the 8 without, by [`overprint_black`].
@@ -387,7 +414,11 @@ mod tests {
             Lab::new(23.0, 0.0, 0.0),
         ];
         let primaries = complete_primaries(labs.map(|l| l.to_xyz()), Lab::new(16.0, 0.0, 0.0).to_xyz(), 0.006);
-        NeugebauerModel::new(NeugebauerParams { primaries, n, tvi50: [0.14, 0.15, 0.13, 0.17] })
+        NeugebauerModel::new(NeugebauerParams {
+            primaries,
+            n,
+            tvi50: [0.14, 0.15, 0.13, 0.17],
+        })
     }
 
     /// Demichel (1924) weights written out term by term, the textbook form.

@@ -27,8 +27,17 @@ pub struct Aims {
 }
 
 /// Names of the aims in the order of [`Aims::to_array`], as used in files and reports.
-pub const AIM_NAMES: [&str; 9] =
-    ["paper", "cyan", "magenta", "yellow", "black", "red", "green", "blue", "three_colour"];
+pub const AIM_NAMES: [&str; 9] = [
+    "paper",
+    "cyan",
+    "magenta",
+    "yellow",
+    "black",
+    "red",
+    "green",
+    "blue",
+    "three_colour",
+];
 
 /// Nominal CMYK (fractions) of each aim, in the order of [`Aims::to_array`].
 pub const AIM_INKS: [[f64; 4]; 9] = [
@@ -46,8 +55,17 @@ pub const AIM_INKS: [[f64; 4]; 9] = [
 impl Aims {
     /// Primaries indexed by the bit mask of [`NeugebauerParams::primaries`].
     pub fn primaries_without_black(&self) -> [Xyz; 8] {
-        [self.paper, self.cyan, self.magenta, self.blue, self.yellow, self.green, self.red, self.three_colour]
-            .map(|l| l.to_xyz())
+        [
+            self.paper,
+            self.cyan,
+            self.magenta,
+            self.blue,
+            self.yellow,
+            self.green,
+            self.red,
+            self.three_colour,
+        ]
+        .map(|l| l.to_xyz())
     }
 
     /// paper, cyan, magenta, yellow, black, red, green, blue, three_colour.
@@ -68,7 +86,17 @@ impl Aims {
     /// The inverse of [`Aims::to_array`].
     pub fn from_array(v: [Lab; 9]) -> Aims {
         let [paper, cyan, magenta, yellow, black, red, green, blue, three_colour] = v;
-        Aims { paper, cyan, magenta, yellow, black, red, green, blue, three_colour }
+        Aims {
+            paper,
+            cyan,
+            magenta,
+            yellow,
+            black,
+            red,
+            green,
+            blue,
+            three_colour,
+        }
     }
 
     /// The solid of one ink.
@@ -103,7 +131,11 @@ impl ModelParams {
     }
 
     pub fn neugebauer(&self) -> NeugebauerParams {
-        NeugebauerParams { primaries: self.primaries(), n: self.n, tvi50: self.tvi50 }
+        NeugebauerParams {
+            primaries: self.primaries(),
+            n: self.n,
+            tvi50: self.tvi50,
+        }
     }
 
     pub fn model(&self) -> NeugebauerModel {

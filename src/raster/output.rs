@@ -157,25 +157,17 @@ impl OutputSet {
             || file_name.contains('/')
             || file_name.contains(std::path::MAIN_SEPARATOR);
         if bad_name {
-            return Err(Error::Internal(format!(
-                "output name {file_name:?} is not a plain file name"
-            )));
+            return Err(Error::Internal(format!("output name {file_name:?} is not a plain file name")));
         }
         let target = self.dir.join(file_name);
         if self.is_protected(&target) {
-            return Err(Error::output(
-                &target,
-                "is one of the inputs; an input is never overwritten",
-            ));
+            return Err(Error::output(&target, "is one of the inputs; an input is never overwritten"));
         }
         if self.staged.iter().any(|s| s.target == target) {
             return Err(Error::output(&target, "is produced twice by this job"));
         }
         if fs::symlink_metadata(&target).is_ok() && !self.overwrite {
-            return Err(Error::output(
-                &target,
-                "already exists; allow overwriting (--force) to replace it",
-            ));
+            return Err(Error::output(&target, "already exists; allow overwriting (--force) to replace it"));
         }
         if fs::metadata(&target).is_ok_and(|m| m.is_dir()) {
             return Err(Error::output(&target, "is a folder"));
@@ -254,7 +246,10 @@ impl OutputSet {
         let mut targets = Vec::with_capacity(open.len());
         for (target, temp, writer, _) in open {
             drop(writer);
-            self.staged.push(Staged { temp, target: target.clone() });
+            self.staged.push(Staged {
+                temp,
+                target: target.clone(),
+            });
             targets.push(target);
         }
         Ok(targets)
@@ -270,9 +265,7 @@ impl OutputSet {
             use std::os::unix::fs::PermissionsExt;
             builder.permissions(fs::Permissions::from_mode(0o644));
         }
-        let temp = builder
-            .tempfile_in(&self.dir)
-            .map_err(|e| Error::output(target, describe(&e)))?;
+        let temp = builder.tempfile_in(&self.dir).map_err(|e| Error::output(target, describe(&e)))?;
         let (file, temp) = temp.into_parts();
         let writer = StagedWriter {
             inner: BufWriter::with_capacity(1 << 20, file),
@@ -339,7 +332,10 @@ mod tests {
     use super::*;
 
     fn names(dir: &Path) -> Vec<String> {
-        let mut v: Vec<String> = fs::read_dir(dir).unwrap().map(|e| e.unwrap().file_name().to_string_lossy().into_owned()).collect();
+        let mut v: Vec<String> = fs::read_dir(dir)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
         v.sort();
         v
     }
@@ -348,14 +344,24 @@ mod tests {
     fn parallel_staging_writes_every_file_and_commits_them_together() {
         let dir = tempfile::tempdir().unwrap();
         let mut set = OutputSet::new(dir.path(), false).unwrap();
-        let files: Vec<(String, StageFn)> = (0..5u8).map(|i| (format!("f{i}.bin"), Box::new(move |w: &mut StagedWriter| w.write_all(&vec![i; 200_000 + i as usize])) as StageFn)).collect();
+        let files: Vec<(String, StageFn)> = (0..5u8)
+            .map(|i| {
+                (
+                    format!("f{i}.bin"),
+                    Box::new(move |w: &mut StagedWriter| w.write_all(&vec![i; 200_000 + i as usize])) as StageFn,
+                )
+            })
+            .collect();
         let targets = set.stage_parallel(files).unwrap();
         assert_eq!(targets, (0..5).map(|i| dir.path().join(format!("f{i}.bin"))).collect::<Vec<_>>());
         assert!(names(dir.path()).iter().all(|n| n.starts_with('.') && n.ends_with(".part")));
         set.commit().unwrap();
         assert_eq!(names(dir.path()), ["f0.bin", "f1.bin", "f2.bin", "f3.bin", "f4.bin"]);
         for i in 0..5u8 {
-            assert_eq!(fs::read(dir.path().join(format!("f{i}.bin"))).unwrap(), vec![i; 200_000 + i as usize]);
+            assert_eq!(
+                fs::read(dir.path().join(format!("f{i}.bin"))).unwrap(),
+                vec![i; 200_000 + i as usize]
+            );
         }
     }
 

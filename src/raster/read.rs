@@ -41,20 +41,13 @@ fn read_from<R: BufRead + Seek>(path: &Path, mut reader: R, len: u64, limits: &L
         return Err(Error::input(path, "empty file (0 bytes), not an image"));
     }
     let mut head = [0u8; 8];
-    let n = read_up_to(&mut reader, &mut head)
-        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
+    let n = read_up_to(&mut reader, &mut head).map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
     reader
         .seek(SeekFrom::Start(0))
         .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
     let Some(format) = sniff::detect(&head[..n]) else {
-        let looks_text = head[..n]
-            .iter()
-            .all(|b| b.is_ascii_graphic() || b.is_ascii_whitespace());
-        let what = if looks_text {
-            "a text file"
-        } else {
-            "an unrecognised file"
-        };
+        let looks_text = head[..n].iter().all(|b| b.is_ascii_graphic() || b.is_ascii_whitespace());
+        let what = if looks_text { "a text file" } else { "an unrecognised file" };
         return Err(Error::input(
             path,
             format!("not a PNG, TIFF or JPEG image (the content looks like {what})"),
@@ -111,7 +104,6 @@ fn read_up_to(r: &mut impl Read, buf: &mut [u8]) -> std::io::Result<usize> {
     Ok(n)
 }
 
-
 fn is_truncation(message: &str) -> bool {
     let m = message.to_ascii_lowercase();
     m.contains("eof")
@@ -124,15 +116,9 @@ fn is_truncation(message: &str) -> bool {
 fn decode_error(path: &Path, format: Format, message: String) -> Error {
     let message = message.split_whitespace().collect::<Vec<_>>().join(" ");
     if is_truncation(&message) {
-        Error::input(
-            path,
-            format!("truncated {} file: the data ends early ({message})", format.name()),
-        )
+        Error::input(path, format!("truncated {} file: the data ends early ({message})", format.name()))
     } else {
-        Error::input(
-            path,
-            format!("corrupt or unsupported {} file: {message}", format.name()),
-        )
+        Error::input(path, format!("corrupt or unsupported {} file: {message}", format.name()))
     }
 }
 
@@ -142,8 +128,7 @@ fn read_png<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> R
     // The header's claim is checked before the decoder reads on (it would fail on a file
     // that is only a header, or go on to buffer chunks).
     let mut head = [0u8; 26];
-    let n = read_up_to(&mut reader, &mut head)
-        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
+    let n = read_up_to(&mut reader, &mut head).map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
     if let Some((w, h, channels, bits)) = sniff::png_header(&head[..n]) {
         limits.check(path, w, h, channels, bits)?;
     }
@@ -157,9 +142,7 @@ fn read_png<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> R
         bytes: usize::try_from(limits.max_bytes).unwrap_or(usize::MAX),
     });
     decoder.set_transformations(png::Transformations::EXPAND);
-    let mut reader = decoder
-        .read_info()
-        .map_err(|e| decode_error(path, Format::Png, e.to_string()))?;
+    let mut reader = decoder.read_info().map_err(|e| decode_error(path, Format::Png, e.to_string()))?;
     let (color, depth) = reader.output_color_type();
     let layout = match color {
         png::ColorType::Grayscale => Layout::Gray,
@@ -172,10 +155,7 @@ fn read_png<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> R
         png::BitDepth::Sixteen => 16,
         png::BitDepth::Eight => 8,
         other => {
-            return Err(Error::input(
-                path,
-                format!("unsupported PNG bit depth {other:?} after expansion"),
-            ));
+            return Err(Error::input(path, format!("unsupported PNG bit depth {other:?} after expansion")));
         }
     };
     let (width, height) = (reader.info().width, reader.info().height);
@@ -252,10 +232,7 @@ fn read_tiff<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> 
         T::RGB(b) => (Layout::Rgb, b),
         T::RGBA(b) => (Layout::Rgba, b),
         T::CMYK(b) => (Layout::Cmyk, b),
-        T::Multiband {
-            bit_depth,
-            num_samples: 2,
-        } => (Layout::GrayAlpha, bit_depth),
+        T::Multiband { bit_depth, num_samples: 2 } => (Layout::GrayAlpha, bit_depth),
         other => {
             return Err(Error::input(
                 path,
@@ -264,14 +241,9 @@ fn read_tiff<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> 
         }
     };
     if bits != 8 && bits != 16 {
-        return Err(Error::input(
-            path,
-            format!("unsupported TIFF bit depth {bits}; use 8 or 16 bit"),
-        ));
+        return Err(Error::input(path, format!("unsupported TIFF bit depth {bits}; use 8 or 16 bit")));
     }
-    let tag_u16 = |dec: &mut tiff::decoder::Decoder<R>, tag: Tag| -> Result<Option<u16>> {
-        dec.find_tag_unsigned::<u16>(tag).map_err(err)
-    };
+    let tag_u16 = |dec: &mut tiff::decoder::Decoder<R>, tag: Tag| -> Result<Option<u16>> { dec.find_tag_unsigned::<u16>(tag).map_err(err) };
     if tag_u16(&mut dec, Tag::PlanarConfiguration)? == Some(2) {
         return Err(Error::input(
             path,
@@ -307,10 +279,7 @@ fn read_tiff<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> 
         tiff::decoder::DecodingResult::U8(v) => Samples::U8(v),
         tiff::decoder::DecodingResult::U16(v) => Samples::U16(v),
         _ => {
-            return Err(Error::input(
-                path,
-                "unsupported TIFF sample type; use 8 or 16-bit integer samples",
-            ));
+            return Err(Error::input(path, "unsupported TIFF sample type; use 8 or 16-bit integer samples"));
         }
     };
     let expected = width as usize * height as usize * layout.channels();
@@ -399,11 +368,8 @@ fn read_jpeg<R: BufRead + Seek>(path: &Path, mut reader: R, file_len: u64, limit
         .set_max_width(usize::from(u16::MAX))
         .set_max_height(usize::from(u16::MAX));
     let mut dec = zune_jpeg::JpegDecoder::new_with_options(zune_core::bytestream::ZCursor::new(&data[..]), options);
-    dec.decode_headers()
-        .map_err(|e| decode_error(path, Format::Jpeg, e.to_string()))?;
-    let info = dec
-        .info()
-        .ok_or_else(|| Error::input(path, "JPEG header could not be read"))?;
+    dec.decode_headers().map_err(|e| decode_error(path, Format::Jpeg, e.to_string()))?;
+    let info = dec.info().ok_or_else(|| Error::input(path, "JPEG header could not be read"))?;
     let (width, height) = (u32::from(info.width), u32::from(info.height));
     let input = dec
         .input_colorspace()

@@ -12,11 +12,7 @@ pub(crate) fn detect(head: &[u8]) -> Option<Format> {
     if head.starts_with(PNG) {
         return Some(Format::Png);
     }
-    if head.starts_with(b"II*\0")
-        || head.starts_with(b"MM\0*")
-        || head.starts_with(b"II+\0")
-        || head.starts_with(b"MM\0+")
-    {
+    if head.starts_with(b"II*\0") || head.starts_with(b"MM\0*") || head.starts_with(b"II+\0") || head.starts_with(b"MM\0+") {
         return Some(Format::Tiff);
     }
     if head.len() >= 3 && head[0] == 0xFF && head[1] == 0xD8 && head[2] == 0xFF {
@@ -153,19 +149,11 @@ pub(crate) fn tiff_header<R: std::io::Read + std::io::Seek>(r: &mut R) -> Option
     };
     let u32v = |b: &[u8]| {
         let a = [b[0], b[1], b[2], b[3]];
-        if le {
-            u32::from_le_bytes(a)
-        } else {
-            u32::from_be_bytes(a)
-        }
+        if le { u32::from_le_bytes(a) } else { u32::from_be_bytes(a) }
     };
     let u64v = |b: &[u8]| {
         let a: [u8; 8] = b[..8].try_into().unwrap_or([0; 8]);
-        if le {
-            u64::from_le_bytes(a)
-        } else {
-            u64::from_be_bytes(a)
-        }
+        if le { u64::from_le_bytes(a) } else { u64::from_be_bytes(a) }
     };
     let big = u16v(&head[2..4]) == 43;
     let ifd = if big {
@@ -193,11 +181,7 @@ pub(crate) fn tiff_header<R: std::io::Read + std::io::Seek>(r: &mut R) -> Option
         r.read_exact(&mut entry[..entry_len]).ok()?;
         let tag = u16v(&entry[0..2]);
         let ty = u16v(&entry[2..4]);
-        let n = if big {
-            u64v(&entry[4..12])
-        } else {
-            u64::from(u32v(&entry[4..8]))
-        };
+        let n = if big { u64v(&entry[4..12]) } else { u64::from(u32v(&entry[4..8])) };
         let width_of = match ty {
             3 => 2,
             4 => 4,
@@ -247,19 +231,11 @@ fn exif_resolution(tiff: &[u8]) -> Option<Resolution> {
     };
     let u16_at = |o: usize| -> Option<u16> {
         let b: [u8; 2] = tiff.get(o..o + 2)?.try_into().ok()?;
-        Some(if big {
-            u16::from_be_bytes(b)
-        } else {
-            u16::from_le_bytes(b)
-        })
+        Some(if big { u16::from_be_bytes(b) } else { u16::from_le_bytes(b) })
     };
     let u32_at = |o: usize| -> Option<u32> {
         let b: [u8; 4] = tiff.get(o..o + 4)?.try_into().ok()?;
-        Some(if big {
-            u32::from_be_bytes(b)
-        } else {
-            u32::from_le_bytes(b)
-        })
+        Some(if big { u32::from_be_bytes(b) } else { u32::from_le_bytes(b) })
     };
     let rational_at = |o: usize| -> Option<f64> {
         let (n, d) = (u32_at(o)?, u32_at(o + 4)?);
@@ -342,11 +318,7 @@ mod tests {
         let mut t = b"MM\0*\0\0\0\x08".to_vec();
         t.extend_from_slice(&3u16.to_be_bytes());
         let data_at = 8 + 2 + 3 * 12 + 4;
-        for (tag, ty, val) in [
-            (282u16, 5u16, data_at as u32),
-            (283, 5, data_at as u32 + 8),
-            (296, 3, 2 << 16),
-        ] {
+        for (tag, ty, val) in [(282u16, 5u16, data_at as u32), (283, 5, data_at as u32 + 8), (296, 3, 2 << 16)] {
             t.extend_from_slice(&tag.to_be_bytes());
             t.extend_from_slice(&ty.to_be_bytes());
             t.extend_from_slice(&1u32.to_be_bytes());

@@ -64,34 +64,20 @@ pub fn write_cmyk_tiff<W: Write + Seek>(out: &mut W, image: &CmykImage, options:
 }
 
 /// Writes one ink of `image` as a single-channel WhiteIsZero TIFF (stored sample = ink value).
-pub fn write_plate_tiff<W: Write + Seek>(
-    out: &mut W,
-    image: &CmykImage,
-    ink: Ink,
-    options: &TiffOptions<'_>,
-) -> io::Result<()> {
+pub fn write_plate_tiff<W: Write + Seek>(out: &mut W, image: &CmykImage, ink: Ink, options: &TiffOptions<'_>) -> io::Result<()> {
     write_tiff(out, image, Some(ink), options)
 }
 
 /// Writes one ink as an 8-bit gray PNG preview, ink dark on white (gray = 255 − ink),
 /// with a pHYs chunk carrying the resolution (300 ppi when `None`).
-pub fn write_plate_png<W: Write>(
-    out: &mut W,
-    image: &CmykImage,
-    ink: Ink,
-    resolution: Option<Resolution>,
-) -> io::Result<()> {
+pub fn write_plate_png<W: Write>(out: &mut W, image: &CmykImage, ink: Ink, resolution: Option<Resolution>) -> io::Result<()> {
     let res = resolution.unwrap_or(Resolution::DEFAULT);
     let mut enc = png::Encoder::new(out, image.width, image.height);
     enc.set_color(png::ColorType::Grayscale);
     enc.set_depth(png::BitDepth::Eight);
     enc.set_compression(png::Compression::Fast);
     // pHYs is in pixels per metre (ISO/IEC 15948 §11.3.5.3).
-    let ppm = |ppi: f64| {
-        (ppi / Resolution::INCH_IN_METRES)
-            .round()
-            .clamp(1.0, f64::from(u32::MAX)) as u32
-    };
+    let ppm = |ppi: f64| (ppi / Resolution::INCH_IN_METRES).round().clamp(1.0, f64::from(u32::MAX)) as u32;
     enc.set_pixel_dims(Some(png::PixelDimensions {
         xppu: ppm(res.x_ppi),
         yppu: ppm(res.y_ppi),
@@ -178,12 +164,7 @@ fn gcd(mut a: u64, mut b: u64) -> u64 {
     a
 }
 
-fn write_tiff<W: Write + Seek>(
-    out: &mut W,
-    image: &CmykImage,
-    ink: Option<Ink>,
-    options: &TiffOptions<'_>,
-) -> io::Result<()> {
+fn write_tiff<W: Write + Seek>(out: &mut W, image: &CmykImage, ink: Option<Ink>, options: &TiffOptions<'_>) -> io::Result<()> {
     let spp: u64 = if ink.is_some() { 1 } else { 4 };
     let bytes = u64::from(image.width) * u64::from(image.height) * spp * u64::from(image.bits / 8);
     if bytes > BIGTIFF_THRESHOLD {
@@ -281,12 +262,7 @@ fn write_tiff_kind<W: Write + Seek, K: TiffKind>(
 
 /// One strip as file bytes (native byte order, as the encoder's header declares),
 /// with the horizontal predictor and compression applied when asked for.
-fn encode_strip(
-    image: &CmykImage,
-    ink: Option<Ink>,
-    rows: std::ops::Range<usize>,
-    compression: Compression,
-) -> io::Result<Vec<u8>> {
+fn encode_strip(image: &CmykImage, ink: Option<Ink>, rows: std::ops::Range<usize>, compression: Compression) -> io::Result<Vec<u8>> {
     let width = image.width as usize;
     let range = rows.start * width * 4..rows.end * width * 4;
     let predict = compression != Compression::None;

@@ -72,7 +72,11 @@ pub fn glyph(c: char) -> [u8; 7] {
 pub fn dots(text: &str) -> impl Iterator<Item = (usize, usize)> + '_ {
     text.chars().enumerate().flat_map(|(i, c)| {
         let g = glyph(c);
-        (0..HEIGHT).flat_map(move |row| (0..5).filter(move |col| g[row] & (0x10 >> col) != 0).map(move |col| (i * ADVANCE + col, row)))
+        (0..HEIGHT).flat_map(move |row| {
+            (0..5)
+                .filter(move |col| g[row] & (0x10 >> col) != 0)
+                .map(move |col| (i * ADVANCE + col, row))
+        })
     })
 }
 

@@ -31,7 +31,11 @@ struct Canvas {
 
 impl Canvas {
     fn new(w: usize, h: usize, fill: Rgb) -> Canvas {
-        Canvas { w, h, px: vec![fill; w * h] }
+        Canvas {
+            w,
+            h,
+            px: vec![fill; w * h],
+        }
     }
 
     fn set(&mut self, x: i64, y: i64, c: Rgb) {
@@ -71,7 +75,9 @@ impl Canvas {
             enc.set_depth(png::BitDepth::Eight);
             let mut writer = enc.write_header().map_err(|e| Error::Internal(format!("map PNG: {e}")))?;
             let bytes: Vec<u8> = self.px.iter().flatten().copied().collect();
-            writer.write_image_data(&bytes).map_err(|e| Error::Internal(format!("map PNG: {e}")))?;
+            writer
+                .write_image_data(&bytes)
+                .map_err(|e| Error::Internal(format!("map PNG: {e}")))?;
         }
         Ok(out)
     }
@@ -125,7 +131,11 @@ fn ink_stops(limit: f64) -> [f64; 4] {
 }
 
 fn label(v: f64) -> String {
-    if (v - v.round()).abs() < 1e-9 { format!("{v:.0}") } else { format!("{v:.1}") }
+    if (v - v.round()).abs() < 1e-9 {
+        format!("{v:.0}")
+    } else {
+        format!("{v:.1}")
+    }
 }
 
 /// The page around a map: the map at the top left, a legend strip below
@@ -188,25 +198,39 @@ fn place_tag(region: [i64; 4], size: [i64; 2], area: [i64; 4], placed: &[[i64; 4
         }
     }
     let inside = |&[x, y]: &[i64; 2]| x >= area[0] && y >= area[1] && x + tw <= area[0] + area[2] && y + th <= area[1] + area[3];
-    let clear = |&[x, y]: &[i64; 2]| placed.iter().all(|p| x + tw < p[0] || p[0] + p[2] < x || y + th < p[1] || p[1] + p[3] < y);
+    let clear = |&[x, y]: &[i64; 2]| {
+        placed
+            .iter()
+            .all(|p| x + tw < p[0] || p[0] + p[2] < x || y + th < p[1] || p[1] + p[3] < y)
+    };
     spots
         .iter()
         .find(|spot| inside(spot) && clear(spot))
         .or_else(|| spots.iter().find(|spot| inside(spot)))
         .copied()
-        .unwrap_or([left.clamp(area[0], (area[0] + area[2] - tw).max(area[0])), below.clamp(area[1], (area[1] + area[3] - th).max(area[1]))])
+        .unwrap_or([
+            left.clamp(area[0], (area[0] + area[2] - tw).max(area[0])),
+            below.clamp(area[1], (area[1] + area[3] - th).max(area[1])),
+        ])
 }
 
 /// The ΔE2000 map (RGB input), as PNG bytes.
 pub fn de_map_png(maps: &MapData, thresholds: &[f64], regions: &[(usize, [u32; 4])]) -> Result<Vec<u8>> {
-    let de = maps.de.as_ref().ok_or_else(|| Error::Internal("ΔE map of a file without ΔE".into()))?;
+    let de = maps
+        .de
+        .as_ref()
+        .ok_or_else(|| Error::Internal("ΔE map of a file without ΔE".into()))?;
     let (mut c, pad, s) = frame(maps);
     let lo = thresholds.first().copied().unwrap_or(2.0);
     for y in 0..maps.height as usize {
         for x in 0..maps.width as usize {
             let i = y * maps.width as usize + x;
             let v = de[i] as f64;
-            let colour = if v > lo { mix(muted(maps.base[i]), de_colour(thresholds, v), 0.9) } else { muted(maps.base[i]) };
+            let colour = if v > lo {
+                mix(muted(maps.base[i]), de_colour(thresholds, v), 0.9)
+            } else {
+                muted(maps.base[i])
+            };
             c.set((pad + x) as i64, (pad + y) as i64, colour);
         }
     }
@@ -237,7 +261,13 @@ pub fn de_map_png(maps: &MapData, thresholds: &[f64], regions: &[(usize, [u32; 4
     c.text(note_x, bar_y + 2 * s, s, "BOXES: REGIONS", OUTLINE);
     c.text(note_x, bar_y + 14 * s, s, "(NUMBERS AS IN", OUTLINE);
     c.text(note_x, bar_y + 26 * s, s, "THE TABLE)", OUTLINE);
-    c.text(note_x, bar_y + 42 * s, s, &format!("1 MAP PX = {} X {} PX", maps.factor, maps.factor), TEXT);
+    c.text(
+        note_x,
+        bar_y + 42 * s,
+        s,
+        &format!("1 MAP PX = {} X {} PX", maps.factor, maps.factor),
+        TEXT,
+    );
     c.png()
 }
 
@@ -253,7 +283,11 @@ pub fn ink_map_png(maps: &MapData, limit: f64, regions: &[(usize, [u32; 4])]) ->
         for x in 0..maps.width as usize {
             let v = maps.tac[y * maps.width as usize + x] as f64;
             let (px, py) = ((pad + x) as i64, (pad + y) as i64);
-            let colour = if v > limit + 0.5 { hatch(px, py) } else { ramp(&INK_COLOURS, stops, v) };
+            let colour = if v > limit + 0.5 {
+                hatch(px, py)
+            } else {
+                ramp(&INK_COLOURS, stops, v)
+            };
             c.set(px, py, colour);
         }
     }
@@ -293,12 +327,22 @@ mod tests {
     use super::*;
 
     fn tiny() -> MapData {
-        MapData { width: 4, height: 2, factor: 1, base: vec![[200, 100, 50]; 8], de: Some(vec![0.0, 1.0, 3.0, 30.0, 0.0, 0.0, 0.0, 0.0]), tac: vec![0.0, 100.0, 300.0, 400.0, 0.0, 0.0, 0.0, 0.0] }
+        MapData {
+            width: 4,
+            height: 2,
+            factor: 1,
+            base: vec![[200, 100, 50]; 8],
+            de: Some(vec![0.0, 1.0, 3.0, 30.0, 0.0, 0.0, 0.0, 0.0]),
+            tac: vec![0.0, 100.0, 300.0, 400.0, 0.0, 0.0, 0.0, 0.0],
+        }
     }
 
     #[test]
     fn maps_decode_as_png_of_the_frame_size() {
-        for bytes in [de_map_png(&tiny(), &[2.0, 5.0], &[(1, [3, 0, 1, 1])]).unwrap(), ink_map_png(&tiny(), 300.0, &[]).unwrap()] {
+        for bytes in [
+            de_map_png(&tiny(), &[2.0, 5.0], &[(1, [3, 0, 1, 1])]).unwrap(),
+            ink_map_png(&tiny(), 300.0, &[]).unwrap(),
+        ] {
             let dec = png::Decoder::new(std::io::Cursor::new(bytes));
             let reader = dec.read_info().unwrap();
             let info = reader.info();
@@ -315,7 +359,10 @@ mod tests {
         for i in 0..8 {
             let region = [20 + i * 14, 80, 12, 20];
             let [x, y] = place_tag(region, [30, 22], area, &placed);
-            assert!(x >= 0 && y >= 0 && x + 30 <= 400 && y + 22 <= 200, "tag {i} at ({x}, {y}) leaves the map");
+            assert!(
+                x >= 0 && y >= 0 && x + 30 <= 400 && y + 22 <= 200,
+                "tag {i} at ({x}, {y}) leaves the map"
+            );
             for p in &placed {
                 let apart = x + 30 < p[0] || p[0] + p[2] < x || y + 22 < p[1] || p[1] + p[3] < y;
                 assert!(apart, "tag {i} at ({x}, {y}) overlaps {p:?}");

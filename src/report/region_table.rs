@@ -6,8 +6,30 @@ use crate::inspect::InspectReport;
 
 /// The column names.
 pub const COLUMNS: [&str; 24] = [
-    "number", "kind", "x", "y", "width", "height", "x_mm", "y_mm", "width_mm", "height_mm", "pixels", "area_mm2", "max", "mean", "unit",
-    "at_x", "at_y", "source", "lab_l", "lab_a", "lab_b", "printed_lab", "cmyk_percent", "limited_by",
+    "number",
+    "kind",
+    "x",
+    "y",
+    "width",
+    "height",
+    "x_mm",
+    "y_mm",
+    "width_mm",
+    "height_mm",
+    "pixels",
+    "area_mm2",
+    "max",
+    "mean",
+    "unit",
+    "at_x",
+    "at_y",
+    "source",
+    "lab_l",
+    "lab_a",
+    "lab_b",
+    "printed_lab",
+    "cmyk_percent",
+    "limited_by",
 ];
 
 fn join(v: &[f64]) -> String {

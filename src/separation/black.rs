@@ -27,6 +27,12 @@ pub struct BlackGeneration {
 
 impl Default for BlackGeneration {
     fn default() -> Self {
-        BlackGeneration { gcr: 0.5, black_start: 0.2, black_max: 0.95, shape: 2.0, uca: 0.0 }
+        BlackGeneration {
+            gcr: 0.5,
+            black_start: 0.2,
+            black_max: 0.95,
+            shape: 2.0,
+            uca: 0.0,
+        }
     }
 }

@@ -88,7 +88,12 @@ impl SeparationSettings {
     pub fn validate(&self) -> Result<()> {
         let pct = |name: &str, v: f64, lo: f64, hi: f64| {
             if !(v.is_finite() && v >= lo && v <= hi) {
-                Err(Error::usage(format!("{name} is {:.4}; allowed range is {}–{} %", v * 100.0, lo * 100.0, hi * 100.0)))
+                Err(Error::usage(format!(
+                    "{name} is {:.4}; allowed range is {}–{} %",
+                    v * 100.0,
+                    lo * 100.0,
+                    hi * 100.0
+                )))
             } else {
                 Ok(())
             }
@@ -102,7 +107,10 @@ impl SeparationSettings {
             return Err(Error::usage(format!("black shape is {}; allowed range is 0.2–5", self.black.shape)));
         }
         if !(5..=129).contains(&self.table_grid) {
-            return Err(Error::usage(format!("table grid is {}; allowed range is 5–129 nodes per axis", self.table_grid)));
+            return Err(Error::usage(format!(
+                "table grid is {}; allowed range is 5–129 nodes per axis",
+                self.table_grid
+            )));
         }
         Ok(())
     }
@@ -144,7 +152,9 @@ impl LimitSet {
         self.bits == 0
     }
     pub fn iter(&self) -> impl Iterator<Item = Limit> + '_ {
-        [Limit::InkGamut, Limit::InkLimit, Limit::MaximumBlack].into_iter().filter(|l| self.contains(*l))
+        [Limit::InkGamut, Limit::InkLimit, Limit::MaximumBlack]
+            .into_iter()
+            .filter(|l| self.contains(*l))
     }
 }
 
@@ -166,7 +176,6 @@ const BLACK_AIM_WEIGHT: f64 = 0.05;
 /// Weight of hue error relative to lightness and chroma error when clipping
 /// (hue-preserving minimum-ΔE clipping, after HPMINDE of CIE 156:2004).
 const HUE_WEIGHT: f64 = 3.0;
-
 
 /// A separator for one printing condition and one set of settings, built
 /// once and shared by every thread.
@@ -461,14 +470,28 @@ impl Separator {
     /// The printed red (M+Y), yellow, green (C+Y), cyan, blue (C+M) and
     /// magenta solids, media-relative.
     pub fn process_primaries(&self) -> [Lab; 6] {
-        [[0.0, 1.0, 1.0], [0.0, 0.0, 1.0], [1.0, 0.0, 1.0], [1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [0.0, 1.0, 0.0]]
-            .map(|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)))
+        [
+            [0.0, 1.0, 1.0],
+            [0.0, 0.0, 1.0],
+            [1.0, 0.0, 1.0],
+            [1.0, 0.0, 0.0],
+            [1.0, 1.0, 0.0],
+            [0.0, 1.0, 0.0],
+        ]
+        .map(|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)))
     }
 
     /// Dense samples along the edges of the ink cube (no black) joining the
     /// process colours: the ridge of the printable gamut that holds its cusps.
     pub fn process_ridge(&self) -> Vec<Lab> {
-        let corners = [[0.0, 1.0, 1.0], [0.0, 0.0, 1.0], [1.0, 0.0, 1.0], [1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [0.0, 1.0, 0.0]];
+        let corners = [
+            [0.0, 1.0, 1.0],
+            [0.0, 0.0, 1.0],
+            [1.0, 0.0, 1.0],
+            [1.0, 0.0, 0.0],
+            [1.0, 1.0, 0.0],
+            [0.0, 1.0, 0.0],
+        ];
         super::gamut::ridge_samples(&corners, &|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)))
     }
 
@@ -484,9 +507,7 @@ impl Separator {
     /// colour given as media-relative CIELAB D50 (the ICC PCS).
     pub fn intent_target(&self, source: Lab, mapping: &SourceMapping) -> Lab {
         match self.settings.intent {
-            Intent::Relative if self.settings.bpc => {
-                black_point_compensation(source, 0.0, self.black_point.to_xyz().y)
-            }
+            Intent::Relative if self.settings.bpc => black_point_compensation(source, 0.0, self.black_point.to_xyz().y),
             Intent::Relative => source,
             Intent::Perceptual => match &mapping.perceptual {
                 Some(map) => map.map(source),
@@ -626,12 +647,22 @@ impl Separator {
             for a2 in a1 + 1..4 {
                 for (v1, v2) in [(0.0, 0.0), (0.0, 1.0), (1.0, 0.0), (1.0, 1.0)] {
                     let free: Vec<usize> = (0..4).filter(|&a| a != a1 && a != a2).collect();
-                    jobs.push(Job { fixed: vec![(a1, v1 * upper(a1)), (a2, v2 * upper(a2))], free, solved: None, steps: DENSE });
+                    jobs.push(Job {
+                        fixed: vec![(a1, v1 * upper(a1)), (a2, v2 * upper(a2))],
+                        free,
+                        solved: None,
+                        steps: DENSE,
+                    });
                 }
             }
             for v in [0.0, 1.0] {
                 let free: Vec<usize> = (0..4).filter(|&a| a != a1).collect();
-                jobs.push(Job { fixed: vec![(a1, v * upper(a1))], free, solved: None, steps: COARSE });
+                jobs.push(Job {
+                    fixed: vec![(a1, v * upper(a1))],
+                    free,
+                    solved: None,
+                    steps: COARSE,
+                });
             }
         }
         if b.tac < 3.0 + b.k_max {
@@ -640,13 +671,23 @@ impl Separator {
                     let rest: Vec<usize> = (0..4).filter(|&a| a != bound).collect();
                     for &solved in &rest {
                         let free: Vec<usize> = rest.iter().copied().filter(|&a| a != solved).collect();
-                        jobs.push(Job { fixed: vec![(bound, v * upper(bound))], free, solved: Some(solved), steps: DENSE });
+                        jobs.push(Job {
+                            fixed: vec![(bound, v * upper(bound))],
+                            free,
+                            solved: Some(solved),
+                            steps: DENSE,
+                        });
                     }
                 }
             }
             for solved in 0..4 {
                 let free: Vec<usize> = (0..4).filter(|&a| a != solved).collect();
-                jobs.push(Job { fixed: vec![], free, solved: Some(solved), steps: COARSE });
+                jobs.push(Job {
+                    fixed: vec![],
+                    free,
+                    solved: Some(solved),
+                    steps: COARSE,
+                });
             }
         }
         let mut samples: Vec<Lab> = jobs

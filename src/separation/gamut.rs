@@ -155,7 +155,13 @@ fn fill_circular(row: &mut [f64]) {
             continue;
         }
         let next = known.iter().copied().find(|&k| k > i).unwrap_or(known[0] + n);
-        let prev = known.iter().rev().copied().find(|&k| k < i).map(|k| k as isize).unwrap_or(known[known.len() - 1] as isize - n as isize);
+        let prev = known
+            .iter()
+            .rev()
+            .copied()
+            .find(|&k| k < i)
+            .map(|k| k as isize)
+            .unwrap_or(known[known.len() - 1] as isize - n as isize);
         let t = (i as isize - prev) as f64 / (next as isize - prev) as f64;
         row[i] = original[prev.rem_euclid(n as isize) as usize] * (1.0 - t) + original[next % n] * t;
     }
@@ -211,12 +217,26 @@ impl SourceGamut for RgbGamut {
     }
 
     fn primaries(&self) -> Option<[Lab; 6]> {
-        let corners = [[1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [0.0, 1.0, 0.0], [0.0, 1.0, 1.0], [0.0, 0.0, 1.0], [1.0, 0.0, 1.0]];
+        let corners = [
+            [1.0, 0.0, 0.0],
+            [1.0, 1.0, 0.0],
+            [0.0, 1.0, 0.0],
+            [0.0, 1.0, 1.0],
+            [0.0, 0.0, 1.0],
+            [1.0, 0.0, 1.0],
+        ];
         Some(corners.map(|c| self.0.to_lab(crate::colour::EncodedRgb(c))))
     }
 
     fn ridge(&self) -> Option<Vec<Lab>> {
-        let corners = [[1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [0.0, 1.0, 0.0], [0.0, 1.0, 1.0], [0.0, 0.0, 1.0], [1.0, 0.0, 1.0]];
+        let corners = [
+            [1.0, 0.0, 0.0],
+            [1.0, 1.0, 0.0],
+            [0.0, 1.0, 0.0],
+            [0.0, 1.0, 1.0],
+            [0.0, 0.0, 1.0],
+            [1.0, 0.0, 1.0],
+        ];
         Some(ridge_samples(&corners, &|rgb| self.0.to_lab(crate::colour::EncodedRgb(rgb))))
     }
 }
@@ -247,11 +267,22 @@ impl CuspCurve {
     fn from_points(mut samples: Vec<(f64, f64, f64)>) -> CuspCurve {
         samples.retain(|s| s.0.is_finite() && s.1.is_finite() && s.2.is_finite());
         samples.sort_by(|a, b| a.0.total_cmp(&b.0));
-        CuspCurve { hues: samples.iter().map(|s| s.0).collect(), points: samples.iter().map(|s| (s.1, s.2)).collect() }
+        CuspCurve {
+            hues: samples.iter().map(|s| s.0).collect(),
+            points: samples.iter().map(|s| (s.1, s.2)).collect(),
+        }
     }
 
     fn from_ridge(ridge: &[Lab]) -> CuspCurve {
-        CuspCurve::from_points(ridge.iter().map(|l| { let c = l.to_lch(); (c.h, c.l, c.c) }).collect())
+        CuspCurve::from_points(
+            ridge
+                .iter()
+                .map(|l| {
+                    let c = l.to_lch();
+                    (c.h, c.l, c.c)
+                })
+                .collect(),
+        )
     }
 
     fn from_table(table: &[(f64, f64)]) -> CuspCurve {
@@ -268,7 +299,11 @@ impl CuspCurve {
         let i = self.hues.partition_point(|&x| x <= h);
         let (i0, i1) = (if i == 0 { n - 1 } else { i - 1 }, if i == n { 0 } else { i });
         let span = (self.hues[i1] - self.hues[i0]).rem_euclid(360.0);
-        let t = if span > 0.0 { (h - self.hues[i0]).rem_euclid(360.0) / span } else { 0.0 };
+        let t = if span > 0.0 {
+            (h - self.hues[i0]).rem_euclid(360.0) / span
+        } else {
+            0.0
+        };
         let (a, b) = (self.points[i0], self.points[i1]);
         (a.0 + t * (b.0 - a.0), a.1 + t * (b.1 - a.1))
     }
@@ -381,7 +416,6 @@ fn refine_cusp(lo: f64, hi: f64, chroma: &dyn Fn(f64) -> f64) -> (f64, f64) {
     if c >= best.1 { (l, c) } else { best }
 }
 
-
 /// L* above the printable black over which the perceptual map tapers chroma.
 pub const SHADOW_TAPER_RANGE: f64 = 20.0;
 /// Share of chroma the taper keeps at the black point itself.
@@ -429,14 +463,25 @@ impl<'a> PerceptualMap<'a> {
     ) -> PerceptualMap<'a> {
         let dest_cusps = match dest_ridge {
             Some(r) => CuspCurve::from_ridge(&r),
-            None => CuspCurve::from_table(&(0..CUSP_STEPS).map(|hi| dest.cusp(hi as f64 * 360.0 / CUSP_STEPS as f64)).collect::<Vec<_>>()),
+            None => CuspCurve::from_table(
+                &(0..CUSP_STEPS)
+                    .map(|hi| dest.cusp(hi as f64 * 360.0 / CUSP_STEPS as f64))
+                    .collect::<Vec<_>>(),
+            ),
         };
         let hues = source.primaries().zip(dest_primaries).and_then(|(s, d)| HueAlignment::new(s, d));
         let source_cusps = match source.ridge() {
             Some(r) => CuspCurve::from_ridge(&r),
             None => CuspCurve::from_table(&cusps_of(&|p| source.contains(p))),
         };
-        PerceptualMap { dest, hues, dest_cusps, source, source_cusps, source_black }
+        PerceptualMap {
+            dest,
+            hues,
+            dest_cusps,
+            source,
+            source_cusps,
+            source_black,
+        }
     }
 
     /// Step 1 and 2 are affine in L for a fixed chroma and hue: L' = α·L + β.

@@ -5,12 +5,12 @@
 mod black;
 mod engine;
 pub mod gamut;
-pub mod solve;
 mod reseparation;
+pub mod solve;
 mod table;
 
 pub use black::BlackGeneration;
 pub use engine::{IN_GAMUT_TOLERANCE, Intent, Limit, LimitSet, Separation, SeparationSettings, Separator, SourceMapping};
-pub use table::SeparationTable;
 pub use gamut::{GamutBoundary, PerceptualMap, RgbGamut, SourceGamut};
 pub use reseparation::{BLACK_CURVE_STEPS, CmykSourceGamut, DEFAULT_RESEPARATION_GRID, RESEPARATION_GRID_RANGE, ReseparationTable};
+pub use table::SeparationTable;

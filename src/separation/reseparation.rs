@@ -40,10 +40,12 @@
 //! ink at full coverage (no ink limit is known for an incoming file), where
 //! the RGB path takes L* 0 for the source black.
 
-use super::table::{PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, position, quantize, simplex, smooth_shadows, step_table, steps};
 use super::SeparationSettings;
 use super::engine::{Intent, Separator};
 use super::gamut::{GamutBoundary, PerceptualMap, SourceGamut, black_point_compensation};
+use super::table::{
+    PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, position, quantize, simplex, smooth_shadows, step_table, steps,
+};
 use crate::colour::Lab;
 use crate::error::{Error, Result};
 use crate::ink::Cmyk;
@@ -58,7 +60,6 @@ pub const DEFAULT_RESEPARATION_GRID: usize = 17;
 
 /// Allowed nodes per axis (17⁴ = 83 521 nodes; 33⁴ ≈ 1.2 million).
 pub const RESEPARATION_GRID_RANGE: std::ops::RangeInclusive<usize> = 5..=33;
-
 
 /// The colours a source printing condition can print with any ink amount
 /// (no ink limit, black up to 100 %), for perceptual gamut mapping.
@@ -125,10 +126,7 @@ impl SourceGamut for CmykSourceGamut {
 enum NodeMapping<'a> {
     /// Relative (without BPC) and absolute: the separator's own
     /// `intent_target`, fed media-relative or absolute source colour.
-    Direct {
-        absolute: bool,
-        mapping: super::SourceMapping<'a>,
-    },
+    Direct { absolute: bool, mapping: super::SourceMapping<'a> },
     /// Relative with black point compensation (ISO 18619) from the source's
     /// black point to the target's.
     Bpc { source_black_y: f64, target_black_y: f64 },
@@ -157,12 +155,7 @@ impl ReseparationTable {
     /// `target` under its intent, black generation and limits.
     /// `keep_pure_black`: pixels with no C, M, Y print black only (see the
     /// module notes). `grid`: nodes per axis, 5–33 ([`DEFAULT_RESEPARATION_GRID`] = 17).
-    pub fn build(
-        target: &Separator,
-        source: &PrintingCondition,
-        keep_pure_black: bool,
-        grid: usize,
-    ) -> Result<ReseparationTable> {
+    pub fn build(target: &Separator, source: &PrintingCondition, keep_pure_black: bool, grid: usize) -> Result<ReseparationTable> {
         if !RESEPARATION_GRID_RANGE.contains(&grid) {
             return Err(Error::usage(format!(
                 "re-separation grid is {grid}; allowed range is {}–{} nodes per axis",
@@ -192,14 +185,8 @@ impl ReseparationTable {
         };
         let aim = |ink: Cmyk| -> Lab {
             match &mapping {
-                NodeMapping::Direct {
-                    absolute: true,
-                    mapping,
-                } => target.intent_target(source_gamut.printed_absolute(ink), mapping),
-                NodeMapping::Direct {
-                    absolute: false,
-                    mapping,
-                } => target.intent_target(source_gamut.printed_relative(ink), mapping),
+                NodeMapping::Direct { absolute: true, mapping } => target.intent_target(source_gamut.printed_absolute(ink), mapping),
+                NodeMapping::Direct { absolute: false, mapping } => target.intent_target(source_gamut.printed_relative(ink), mapping),
                 NodeMapping::Bpc {
                     source_black_y,
                     target_black_y,
@@ -262,9 +249,7 @@ impl ReseparationTable {
 
     /// Every node's target build (fractions), in node order.
     pub fn node_builds(&self) -> impl Iterator<Item = Cmyk> + '_ {
-        self.nodes
-            .iter()
-            .map(|q| Cmyk::from_array(q.map(|v| v as f64 / 65535.0)))
+        self.nodes.iter().map(|q| Cmyk::from_array(q.map(|v| v as f64 / 65535.0)))
     }
 
     /// The black-only curve (target black, 0..65535, at source black
@@ -487,7 +472,9 @@ mod tests {
         };
         // Linear precision holds for the pixel kernels too, to within the
         // rounding of the node values and of the output (8 bits: ±1 code).
-        let codes8: Vec<u8> = (0..=255u32).flat_map(|v| [v, (v * 7) % 256, 255 - v, (v * 13 + 5) % 256].map(|c| c as u8)).collect();
+        let codes8: Vec<u8> = (0..=255u32)
+            .flat_map(|v| [v, (v * 7) % 256, 255 - v, (v * 13 + 5) % 256].map(|c| c as u8))
+            .collect();
         let mut out8 = vec![0u8; codes8.len()];
         t.apply_cmyk8(&codes8, &mut out8, 16);
         for (px, out) in codes8.chunks_exact(4).zip(out8.chunks_exact(4)) {

@@ -39,7 +39,11 @@ impl InkBounds {
     /// The same bounds with black held at `k`.
     pub fn with_black(self, k: f64) -> InkBounds {
         let k = k.clamp(0.0, self.k_max);
-        InkBounds { k_min: k, k_max: k, ..self }
+        InkBounds {
+            k_min: k,
+            k_max: k,
+            ..self
+        }
     }
 
     #[inline]
@@ -112,7 +116,8 @@ const BLACK_STRIDE: f64 = 0.12;
 
 impl Problem<'_> {
     fn residual(&self, lab: [f64; 3]) -> [f64; 3] {
-        self.metric.apply([lab[0] - self.target[0], lab[1] - self.target[1], lab[2] - self.target[2]])
+        self.metric
+            .apply([lab[0] - self.target[0], lab[1] - self.target[1], lab[2] - self.target[2]])
     }
 
     fn cost(&self, x: &[f64; 4], lab: [f64; 3]) -> f64 {
@@ -156,7 +161,8 @@ impl Problem<'_> {
             const EDGE: f64 = 1e-9;
             let mut fixed = [false; 4];
             for i in 0..4 {
-                fixed[i] = b.lower(i) == b.upper(i) || (x[i] <= b.lower(i) + EDGE && g[i] > 0.0) || (x[i] >= b.upper(i) - EDGE && g[i] < 0.0);
+                fixed[i] =
+                    b.lower(i) == b.upper(i) || (x[i] <= b.lower(i) + EDGE && g[i] > 0.0) || (x[i] >= b.upper(i) - EDGE && g[i] < 0.0);
             }
             let total: f64 = x.iter().sum();
             let free_descent: f64 = (0..4).filter(|&i| !fixed[i]).map(|i| -g[i]).sum();
@@ -197,7 +203,11 @@ impl Problem<'_> {
 
     fn finish(&self, x: [f64; 4], lab: [f64; 3]) -> Solution {
         let r = self.residual(lab);
-        Solution { x, lab, colour_error: (r[0] * r[0] + r[1] * r[1] + r[2] * r[2]).sqrt() }
+        Solution {
+            x,
+            lab,
+            colour_error: (r[0] * r[0] + r[1] * r[1] + r[2] * r[2]).sqrt(),
+        }
     }
 }
 
@@ -235,7 +245,11 @@ impl Problem<'_> {
             }
             // Predictor–corrector: move along the curve of exact solutions only
             // from a point on it, and by at most `stride` at a time.
-            let black_move = if err > ON_CURVE || black_stuck { 0.0 } else { (self.k_aim - x[3]).clamp(-stride, stride) };
+            let black_move = if err > ON_CURVE || black_stuck {
+                0.0
+            } else {
+                (self.k_aim - x[3]).clamp(-stride, stride)
+            };
             let Some(step) = exact_step(&jac, r, &x, black_move, &fixed, tac_active, b) else {
                 let (px, pf, pt) = on_curve?;
                 (x, fixed, tac_active) = (px, pf, pt);

@@ -8,7 +8,7 @@
 //! interpolated value keeps the linear constraints each node meets: the ink
 //! limit and the maximum black hold exactly between nodes as well.
 
-use super::engine::{SourceMapping, Separator};
+use super::engine::{Separator, SourceMapping};
 use crate::colour::Lab;
 use crate::ink::Cmyk;
 use rayon::prelude::*;
@@ -45,7 +45,10 @@ pub(crate) fn position(value: u32, max: u32, grid: usize) -> Position {
         index = grid as u32 - 2;
         fraction = WEIGHT_ONE as u64;
     }
-    Position { index, fraction: fraction as u32 }
+    Position {
+        index,
+        fraction: fraction as u32,
+    }
 }
 
 /// Sample types of the pixel buffers the tables apply to: 8- and 16-bit codes.
@@ -102,7 +105,12 @@ pub(crate) struct PackedNodes(Vec<[u64; 2]>);
 
 impl PackedNodes {
     pub(crate) fn new(nodes: &[[u16; 4]]) -> PackedNodes {
-        PackedNodes(nodes.iter().map(|v| [v[0] as u64 | (v[1] as u64) << 32, v[2] as u64 | (v[3] as u64) << 32]).collect())
+        PackedNodes(
+            nodes
+                .iter()
+                .map(|v| [v[0] as u64 | (v[1] as u64) << 32, v[2] as u64 | (v[3] as u64) << 32])
+                .collect(),
+        )
     }
 
     /// The weighted sum of the nodes at `at` (weights summing to
@@ -133,7 +141,10 @@ pub(crate) struct AxisStep {
 impl AxisStep {
     #[inline(always)]
     pub(crate) fn new(p: Position, stride: u32) -> AxisStep {
-        AxisStep { offset: p.index * stride, key: ((p.fraction as u64) << 32) | stride as u64 }
+        AxisStep {
+            offset: p.index * stride,
+            key: ((p.fraction as u64) << 32) | stride as u64,
+        }
     }
 }
 
@@ -143,10 +154,12 @@ pub(crate) fn step_table<S: Sample, const A: usize>(grid: usize, strides: [u32; 
     if S::MAX > 255 {
         return Vec::new();
     }
-    (0..=S::MAX).map(|v| {
-        let p = position(v, S::MAX, grid);
-        strides.map(|s| AxisStep::new(p, s))
-    }).collect()
+    (0..=S::MAX)
+        .map(|v| {
+            let p = position(v, S::MAX, grid);
+            strides.map(|s| AxisStep::new(p, s))
+        })
+        .collect()
 }
 
 /// The steps of one pixel: from the table for 8 bits, computed for 16 bits.
@@ -307,7 +320,10 @@ impl SeparationTable {
             grid: n,
             packed: PackedNodes::new(&nodes),
             nodes,
-            pure_black: separator.settings().keep_pure_black.then(|| (k_max * 65535.0 + 1e-6).floor() as u16),
+            pure_black: separator
+                .settings()
+                .keep_pure_black
+                .then(|| (k_max * 65535.0 + 1e-6).floor() as u16),
         }
     }
 
@@ -338,10 +354,14 @@ impl SeparationTable {
             (base + dg, base + dr + dg, [s - fg, fg - fr, fr - fb, fb])
         };
         let c3 = base + dr + dg + db;
-        let v = [&self.nodes[base as usize], &self.nodes[c1 as usize], &self.nodes[c2 as usize], &self.nodes[c3 as usize]];
+        let v = [
+            &self.nodes[base as usize],
+            &self.nodes[c1 as usize],
+            &self.nodes[c2 as usize],
+            &self.nodes[c3 as usize],
+        ];
         std::array::from_fn(|ch| {
-            (w[0] * v[0][ch] as u32 + w[1] * v[1][ch] as u32 + w[2] * v[2][ch] as u32 + w[3] * v[3][ch] as u32
-                + (WEIGHT_ONE >> 1))
+            (w[0] * v[0][ch] as u32 + w[1] * v[1][ch] as u32 + w[2] * v[2][ch] as u32 + w[3] * v[3][ch] as u32 + (WEIGHT_ONE >> 1))
                 >> WEIGHT_BITS
         })
     }
@@ -378,20 +398,22 @@ impl SeparationTable {
         let black = self.pure_black.map(|k| S::from_16_down(k as u32));
         let zero = S::from_16(0);
         let row_pixels = row_pixels.max(1);
-        rgb.par_chunks(3 * row_pixels).zip(cmyk.par_chunks_mut(4 * row_pixels)).for_each(|(src, dst)| {
-            for (px, out) in src.chunks_exact(3).zip(dst.chunks_exact_mut(4)) {
-                if let Some(k) = black
-                    && px[0].code() | px[1].code() | px[2].code() == 0
-                {
-                    out.copy_from_slice(&[zero, zero, zero, k]);
-                    continue;
+        rgb.par_chunks(3 * row_pixels)
+            .zip(cmyk.par_chunks_mut(4 * row_pixels))
+            .for_each(|(src, dst)| {
+                for (px, out) in src.chunks_exact(3).zip(dst.chunks_exact_mut(4)) {
+                    if let Some(k) = black
+                        && px[0].code() | px[1].code() | px[2].code() == 0
+                    {
+                        out.copy_from_slice(&[zero, zero, zero, k]);
+                        continue;
+                    }
+                    let v = simplex::<3, 4>(&self.packed, steps(&table, px, self.grid, strides));
+                    for ch in 0..4 {
+                        out[ch] = S::from_16(v[ch]);
+                    }
                 }
-                let v = simplex::<3, 4>(&self.packed, steps(&table, px, self.grid, strides));
-                for ch in 0..4 {
-                    out[ch] = S::from_16(v[ch]);
-                }
-            }
-        });
+            });
     }
 }
 
@@ -416,8 +438,15 @@ mod tests {
     fn pixel_kernel_matches_plain_tetrahedral_interpolation() {
         let mut state = 7u64;
         for grid in [5usize, 17, 33] {
-            let nodes: Vec<[u16; 4]> = (0..grid.pow(3)).map(|_| std::array::from_fn(|_| splitmix(&mut state) as u16)).collect();
-            let table = SeparationTable { grid, packed: PackedNodes::new(&nodes), nodes, pure_black: None };
+            let nodes: Vec<[u16; 4]> = (0..grid.pow(3))
+                .map(|_| std::array::from_fn(|_| splitmix(&mut state) as u16))
+                .collect();
+            let table = SeparationTable {
+                grid,
+                packed: PackedNodes::new(&nodes),
+                nodes,
+                pure_black: None,
+            };
             let mut rgb8: Vec<u8> = (0..3 * 4096).map(|_| splitmix(&mut state) as u8).collect();
             for v in [0u8, 1, 8, 64, 127, 128, 254, 255] {
                 rgb8.extend([v, v, v, v, v, 0, 255, v, v, v, 3, v]);

@@ -28,7 +28,15 @@ fn platesmith() -> Command {
 
 /// A PNG from raw samples (8-bit unless `sixteen`), with an optional palette
 /// (+ tRNS) and an optional embedded ICC profile.
-fn png(w: u32, h: u32, color: png::ColorType, sixteen: bool, data: &[u8], palette: Option<(&[u8], &[u8])>, icc: Option<Vec<u8>>) -> Vec<u8> {
+fn png(
+    w: u32,
+    h: u32,
+    color: png::ColorType,
+    sixteen: bool,
+    data: &[u8],
+    palette: Option<(&[u8], &[u8])>,
+    icc: Option<Vec<u8>>,
+) -> Vec<u8> {
     let mut info = png::Info::with_size(w, h);
     info.color_type = color;
     info.bit_depth = if sixteen { png::BitDepth::Sixteen } else { png::BitDepth::Eight };
@@ -67,13 +75,19 @@ fn rgb_png(w: u32, h: u32) -> Vec<u8> {
 
 fn cmyk_tiff(w: u32, h: u32, data: &[u8]) -> Vec<u8> {
     let mut c = std::io::Cursor::new(Vec::new());
-    tiff::encoder::TiffEncoder::new(&mut c).unwrap().write_image::<tiff::encoder::colortype::CMYK8>(w, h, data).unwrap();
+    tiff::encoder::TiffEncoder::new(&mut c)
+        .unwrap()
+        .write_image::<tiff::encoder::colortype::CMYK8>(w, h, data)
+        .unwrap();
     c.into_inner()
 }
 
 fn rgb_tiff(w: u32, h: u32) -> Vec<u8> {
     let mut c = std::io::Cursor::new(Vec::new());
-    tiff::encoder::TiffEncoder::new(&mut c).unwrap().write_image::<tiff::encoder::colortype::RGB8>(w, h, &rgb_picture(w, h)).unwrap();
+    tiff::encoder::TiffEncoder::new(&mut c)
+        .unwrap()
+        .write_image::<tiff::encoder::colortype::RGB8>(w, h, &rgb_picture(w, h))
+        .unwrap();
     c.into_inner()
 }
 
@@ -114,23 +128,35 @@ fn huge_tiff() -> Vec<u8> {
     let mut c = std::io::Cursor::new(Vec::new());
     {
         let mut enc = tiff::encoder::TiffEncoder::new(&mut c).unwrap();
-        enc.new_image::<tiff::encoder::colortype::CMYK8>(100_000, 100_000).unwrap().finish().unwrap();
+        enc.new_image::<tiff::encoder::colortype::CMYK8>(100_000, 100_000)
+            .unwrap()
+            .finish()
+            .unwrap();
     }
     c.into_inner()
 }
 
 fn gray_profile() -> Vec<u8> {
-    lcms2::Profile::new_gray(&lcms2::CIExyY::d50(), &lcms2::ToneCurve::new(2.2)).unwrap().icc().unwrap()
+    lcms2::Profile::new_gray(&lcms2::CIExyY::d50(), &lcms2::ToneCurve::new(2.2))
+        .unwrap()
+        .icc()
+        .unwrap()
 }
 
 fn lab_profile() -> Vec<u8> {
-    lcms2::Profile::new_lab4_context(lcms2::GlobalContext::new(), lcms2::CIExyY::d50()).unwrap().icc().unwrap()
+    lcms2::Profile::new_lab4_context(lcms2::GlobalContext::new(), lcms2::CIExyY::d50())
+        .unwrap()
+        .icc()
+        .unwrap()
 }
 
 /// CGATS.17 text with the given data format line and rows (ISO 28178 layout).
 fn cgats(fields: &str, rows: &[&str]) -> String {
     let n = fields.split_whitespace().count();
-    let mut s = format!("CGATS.17\nORIGINATOR \"bad-input matrix\"\nNUMBER_OF_FIELDS {n}\nBEGIN_DATA_FORMAT\n{fields}\nEND_DATA_FORMAT\nNUMBER_OF_SETS {}\nBEGIN_DATA\n", rows.len());
+    let mut s = format!(
+        "CGATS.17\nORIGINATOR \"bad-input matrix\"\nNUMBER_OF_FIELDS {n}\nBEGIN_DATA_FORMAT\n{fields}\nEND_DATA_FORMAT\nNUMBER_OF_SETS {}\nBEGIN_DATA\n",
+        rows.len()
+    );
     for r in rows {
         s.push_str(r);
         s.push('\n');
@@ -161,9 +187,18 @@ fn fixtures() -> Vec<Fixture> {
         f("notes.png", b"Proof notes for the harbour poster: check the cyan.\n".to_vec()),
         f("huge.png", huge_png()),
         f("huge.tif", huge_tiff()),
-        f("garbage-icc.png", png(4, 4, png::ColorType::Rgb, false, &rgb_picture(4, 4), None, Some(vec![7u8; 300]))),
-        f("gray-icc-on-rgb.png", png(4, 4, png::ColorType::Rgb, false, &rgb_picture(4, 4), None, Some(gray_profile()))),
-        f("lab-icc-on-rgb.png", png(4, 4, png::ColorType::Rgb, false, &rgb_picture(4, 4), None, Some(lab_profile()))),
+        f(
+            "garbage-icc.png",
+            png(4, 4, png::ColorType::Rgb, false, &rgb_picture(4, 4), None, Some(vec![7u8; 300])),
+        ),
+        f(
+            "gray-icc-on-rgb.png",
+            png(4, 4, png::ColorType::Rgb, false, &rgb_picture(4, 4), None, Some(gray_profile())),
+        ),
+        f(
+            "lab-icc-on-rgb.png",
+            png(4, 4, png::ColorType::Rgb, false, &rgb_picture(4, 4), None, Some(lab_profile())),
+        ),
         f("broken.toml", b"[model\ntac = 300\n".to_vec()),
         f("unknown-key.toml", b"[model]\ngcr = 50\nshade = 3\n".to_vec()),
         f("unknown-section.toml", b"[model]\ntac = 300\n\n[colour]\nred = 1\n".to_vec()),
@@ -171,17 +206,50 @@ fn fixtures() -> Vec<Fixture> {
         f("gcr-minus-5.toml", b"[model]\n\n\ngcr = -5\n".to_vec()),
         f("not-utf8.toml", b"[model]\ntac = \xff\xfe300\n".to_vec()),
         f("condition-tac-450.toml", condition_text("tac = 320", "tac = 450").into_bytes()),
-        f("condition-unknown-key.toml", condition_text("black_surface = 1.1", "black_surface = 1.1\nblack_surfce = 2.0").into_bytes()),
+        f(
+            "condition-unknown-key.toml",
+            condition_text("black_surface = 1.1", "black_surface = 1.1\nblack_surfce = 2.0").into_bytes(),
+        ),
         f("condition-broken.toml", condition_text("[aims]", "[aims").into_bytes()),
         f("garbage.icc", vec![0x5A; 700]),
         f("rgb-as-condition.icc", lcms2::Profile::new_srgb().icc().unwrap()),
-        f("missing-column.txt", cgats("SAMPLE_ID CMYK_C CMYK_M CMYK_Y LAB_L LAB_A LAB_B", &["1 0 0 0 95 0 -2", "2 100 0 0 55 -37 -50"]).into_bytes()),
-        f("no-colour-columns.txt", cgats("SAMPLE_ID CMYK_C CMYK_M CMYK_Y CMYK_K", &["1 0 0 0 0", "2 100 0 0 0"]).into_bytes()),
-        f("not-a-number.txt", cgats("SAMPLE_ID CMYK_C CMYK_M CMYK_Y CMYK_K LAB_L LAB_A LAB_B", &["1 0 0 0 0 95 0 -2", "2 100 0 zero 0 55 -37 -50"]).into_bytes()),
-        f("short-row.txt", cgats("SAMPLE_ID CMYK_C CMYK_M CMYK_Y CMYK_K LAB_L LAB_A LAB_B", &["1 0 0 0 0 95 0 -2", "2 100 0 0 55 -37 -50"]).into_bytes()),
-        f("no-end-data.txt", b"CGATS.17\nBEGIN_DATA_FORMAT\nSAMPLE_ID CMYK_C\nEND_DATA_FORMAT\nBEGIN_DATA\n1 0\n".to_vec()),
+        f(
+            "missing-column.txt",
+            cgats(
+                "SAMPLE_ID CMYK_C CMYK_M CMYK_Y LAB_L LAB_A LAB_B",
+                &["1 0 0 0 95 0 -2", "2 100 0 0 55 -37 -50"],
+            )
+            .into_bytes(),
+        ),
+        f(
+            "no-colour-columns.txt",
+            cgats("SAMPLE_ID CMYK_C CMYK_M CMYK_Y CMYK_K", &["1 0 0 0 0", "2 100 0 0 0"]).into_bytes(),
+        ),
+        f(
+            "not-a-number.txt",
+            cgats(
+                "SAMPLE_ID CMYK_C CMYK_M CMYK_Y CMYK_K LAB_L LAB_A LAB_B",
+                &["1 0 0 0 0 95 0 -2", "2 100 0 zero 0 55 -37 -50"],
+            )
+            .into_bytes(),
+        ),
+        f(
+            "short-row.txt",
+            cgats(
+                "SAMPLE_ID CMYK_C CMYK_M CMYK_Y CMYK_K LAB_L LAB_A LAB_B",
+                &["1 0 0 0 0 95 0 -2", "2 100 0 0 55 -37 -50"],
+            )
+            .into_bytes(),
+        ),
+        f(
+            "no-end-data.txt",
+            b"CGATS.17\nBEGIN_DATA_FORMAT\nSAMPLE_ID CMYK_C\nEND_DATA_FORMAT\nBEGIN_DATA\n1 0\n".to_vec(),
+        ),
         f("binary.txt", (0..=255u8).cycle().take(600).collect()),
-        f("no-solids.txt", cgats("SAMPLE_ID CMYK_C CMYK_M CMYK_Y CMYK_K LAB_L LAB_A LAB_B", &NO_SOLIDS).into_bytes()),
+        f(
+            "no-solids.txt",
+            cgats("SAMPLE_ID CMYK_C CMYK_M CMYK_Y CMYK_K LAB_L LAB_A LAB_B", &NO_SOLIDS).into_bytes(),
+        ),
     ]
 }
 
@@ -208,7 +276,11 @@ fn condition_text(find: &str, replace: &str) -> String {
 
 /// 1-based line of the first line of `text` containing `needle`.
 fn line_with(text: &[u8], needle: &str) -> usize {
-    String::from_utf8_lossy(text).lines().position(|l| l.contains(needle)).expect("needle in fixture") + 1
+    String::from_utf8_lossy(text)
+        .lines()
+        .position(|l| l.contains(needle))
+        .expect("needle in fixture")
+        + 1
 }
 
 struct Matrix {
@@ -258,7 +330,10 @@ fn refused(cmd: &mut Command, file: &str, fragments: &[&str], inputs: &[&Path], 
     let o = cmd.output().unwrap();
     let stderr = String::from_utf8_lossy(&o.stderr).into_owned();
     assert_eq!(o.status.code(), Some(2), "{file}: exit code; stderr:\n{stderr}");
-    assert!(!stderr.contains("panicked") && !stderr.contains("internal error"), "{file}: {stderr}");
+    assert!(
+        !stderr.contains("panicked") && !stderr.contains("internal error"),
+        "{file}: {stderr}"
+    );
     let errors: Vec<&str> = stderr.lines().filter(|l| l.starts_with("platesmith: ")).collect();
     assert_eq!(errors.len(), 1, "{file}: one error line expected:\n{stderr}");
     for line in stderr.lines() {
@@ -329,7 +404,13 @@ fn bad_images_are_refused_with_one_line_naming_the_file() {
 fn missing_folder_and_unreadable_inputs_are_refused() {
     let m = Matrix::new();
     let out = m.path("out");
-    refused(&mut separate(&m.path("absent.png"), &out), "absent.png", &["no such file"], &[], Some(&out));
+    refused(
+        &mut separate(&m.path("absent.png"), &out),
+        "absent.png",
+        &["no such file"],
+        &[],
+        Some(&out),
+    );
     let folder = m.path("art.png");
     std::fs::create_dir(&folder).unwrap();
     refused(&mut separate(&folder, &out), "art.png", &["is a folder"], &[], Some(&out));
@@ -373,11 +454,28 @@ fn a_separate_run_over_the_matrix_fails_each_file_alone() {
     assert_eq!(o.status.code(), Some(2), "{stderr}");
     assert!(stderr.contains("1 separated, 4 failed"), "{stderr}");
     for n in bad {
-        assert_eq!(stderr.lines().filter(|l| l.starts_with("platesmith: ") && l.contains(n)).count(), 1, "{n}: {stderr}");
+        assert_eq!(
+            stderr.lines().filter(|l| l.starts_with("platesmith: ") && l.contains(n)).count(),
+            1,
+            "{n}: {stderr}"
+        );
     }
-    let mut written: Vec<String> = files_under(&out).iter().map(|p| p.file_name().unwrap().to_string_lossy().into_owned()).collect();
+    let mut written: Vec<String> = files_under(&out)
+        .iter()
+        .map(|p| p.file_name().unwrap().to_string_lossy().into_owned())
+        .collect();
     written.sort();
-    assert_eq!(written, ["good.C.tif", "good.K.tif", "good.M.tif", "good.Y.tif", "good.cmyk.tif", "good.summary.json"]);
+    assert_eq!(
+        written,
+        [
+            "good.C.tif",
+            "good.K.tif",
+            "good.M.tif",
+            "good.Y.tif",
+            "good.cmyk.tif",
+            "good.summary.json"
+        ]
+    );
 }
 
 // ---------------------------------------------------------------- valid but unusual
@@ -396,7 +494,11 @@ fn one_by_one_separates_like_a_larger_flat_image() {
         let a = cmyk_samples(&out.join(format!("one-{i}.cmyk.tif")));
         let b = cmyk_samples(&out.join(format!("flat-{i}.cmyk.tif")));
         assert_eq!(a.len(), 4);
-        assert!(b.chunks_exact(4).all(|p| p == &a[..]), "{px:?}: 1 × 1 gave {a:?}, the flat image {:?}", &b[..4]);
+        assert!(
+            b.chunks_exact(4).all(|p| p == &a[..]),
+            "{px:?}: 1 × 1 gave {a:?}, the flat image {:?}",
+            &b[..4]
+        );
         if *px == [255, 255, 255] {
             assert_eq!(a, [0, 0, 0, 0], "paper white prints no ink");
         }
@@ -411,15 +513,34 @@ fn palette_png_separates_as_the_same_image_in_rgb() {
     let plte: Vec<u8> = [[200u8, 30, 60], [20, 120, 200], [250, 240, 30], [15, 15, 15], [255, 255, 255]].concat();
     let (w, h) = (10u32, 6u32);
     let idx: Vec<u8> = (0..w * h).map(|i| (i * 7 % 5) as u8).collect();
-    let rgb: Vec<u8> = idx.iter().flat_map(|&i| plte[i as usize * 3..i as usize * 3 + 3].to_vec()).collect();
-    std::fs::write(m.path("palette.png"), png(w, h, png::ColorType::Indexed, false, &idx, Some((&plte, &[])), None)).unwrap();
+    let rgb: Vec<u8> = idx
+        .iter()
+        .flat_map(|&i| plte[i as usize * 3..i as usize * 3 + 3].to_vec())
+        .collect();
+    std::fs::write(
+        m.path("palette.png"),
+        png(w, h, png::ColorType::Indexed, false, &idx, Some((&plte, &[])), None),
+    )
+    .unwrap();
     std::fs::write(m.path("rgb.png"), png(w, h, png::ColorType::Rgb, false, &rgb, None, None)).unwrap();
     separate(&m.path("palette.png"), &out).assert().success();
     separate(&m.path("rgb.png"), &out).assert().success();
     assert_eq!(cmyk_samples(&out.join("palette.cmyk.tif")), cmyk_samples(&out.join("rgb.cmyk.tif")));
 
     // With tRNS, transparent entries (alpha 0) print as paper and opaque ones as in RGB.
-    std::fs::write(m.path("palette-trns.png"), png(w, h, png::ColorType::Indexed, false, &idx, Some((&plte, &[255, 0, 255, 255, 255])), None)).unwrap();
+    std::fs::write(
+        m.path("palette-trns.png"),
+        png(
+            w,
+            h,
+            png::ColorType::Indexed,
+            false,
+            &idx,
+            Some((&plte, &[255, 0, 255, 255, 255])),
+            None,
+        ),
+    )
+    .unwrap();
     separate(&m.path("palette-trns.png"), &out).assert().success();
     let t = cmyk_samples(&out.join("palette-trns.cmyk.tif"));
     let r = cmyk_samples(&out.join("rgb.cmyk.tif"));
@@ -446,7 +567,11 @@ fn sixteen_bit_gray_with_alpha_separates_as_gray_composited_on_white() {
         let c = if a == 0 { 65535u16 } else { g };
         flat.extend(c.to_be_bytes());
     }
-    std::fs::write(m.path("graya16.png"), png(w, h, png::ColorType::GrayscaleAlpha, true, &ga, None, None)).unwrap();
+    std::fs::write(
+        m.path("graya16.png"),
+        png(w, h, png::ColorType::GrayscaleAlpha, true, &ga, None, None),
+    )
+    .unwrap();
     std::fs::write(m.path("gray16.png"), png(w, h, png::ColorType::Grayscale, true, &flat, None, None)).unwrap();
     for bits in ["8", "16"] {
         let o = out.join(bits);
@@ -454,7 +579,10 @@ fn sixteen_bit_gray_with_alpha_separates_as_gray_composited_on_white() {
         separate(&m.path("gray16.png"), &o).args(["--bits", bits]).assert().success();
         let a = cmyk_samples(&o.join("graya16.cmyk.tif"));
         assert_eq!(a, cmyk_samples(&o.join("gray16.cmyk.tif")), "{bits}-bit output");
-        assert!(a.chunks_exact(4).step_by(3).all(|p| p == [0, 0, 0, 0]), "transparent pixels print as paper");
+        assert!(
+            a.chunks_exact(4).step_by(3).all(|p| p == [0, 0, 0, 0]),
+            "transparent pixels print as paper"
+        );
         assert!(a.chunks_exact(4).nth(1).unwrap().iter().sum::<u32>() > 0, "dark gray prints ink");
     }
 }
@@ -475,7 +603,10 @@ fn inverted_and_plain_cmyk_jpegs_are_read_the_right_way_round() {
     std::fs::write(m.path("ink.tif"), cmyk_tiff(w.into(), h.into(), &ink)).unwrap();
     std::fs::write(m.path("inverted.tif"), cmyk_tiff(w.into(), h.into(), &inverted)).unwrap();
     for name in ["adobe.jpg", "plain.jpg", "ink.tif", "inverted.tif"] {
-        separate(&m.path(name), &out).args(["--source-condition", "coated-offset"]).assert().success();
+        separate(&m.path(name), &out)
+            .args(["--source-condition", "coated-offset"])
+            .assert()
+            .success();
     }
     let close = |a: &str, b: &str| {
         let (x, y) = (cmyk_samples(&out.join(a)), cmyk_samples(&out.join(b)));
@@ -522,7 +653,13 @@ fn an_output_folder_that_cannot_be_made_is_refused() {
     std::fs::write(&input, rgb_png(4, 4)).unwrap();
     std::fs::write(m.path("plain-file"), b"x").unwrap();
     let out = m.path("plain-file").join("out");
-    refused(&mut separate(&input, &out), "plain-file/out", &["cannot create the output folder"], &[&input, &m.path("plain-file")], None);
+    refused(
+        &mut separate(&input, &out),
+        "plain-file/out",
+        &["cannot create the output folder"],
+        &[&input, &m.path("plain-file")],
+        None,
+    );
     // A folder that does not exist yet is made, nested too.
     let nested = m.path("a").join("b").join("c");
     separate(&input, &nested).assert().success();
@@ -531,7 +668,12 @@ fn an_output_folder_that_cannot_be_made_is_refused() {
 
 /// Runs `mount` with the arguments; false when this machine does not allow it.
 fn mount(args: &[&str]) -> bool {
-    std::process::Command::new("mount").args(args).stderr(std::process::Stdio::null()).status().map(|s| s.success()).unwrap_or(false)
+    std::process::Command::new("mount")
+        .args(args)
+        .stderr(std::process::Stdio::null())
+        .status()
+        .map(|s| s.success())
+        .unwrap_or(false)
 }
 
 fn umount(dir: &Path) {
@@ -586,7 +728,13 @@ fn a_full_disk_leaves_no_partial_file() {
     std::fs::create_dir(&out).unwrap();
     if mount(&["-t", "tmpfs", "-o", "size=64k", "tmpfs", out.to_str().unwrap()]) {
         let mounted = Mounted(&out);
-        let line = refused(separate(&input, &out).args(["--compression", "none"]), "small-disk", &["cannot write"], &[&input], Some(&out));
+        let line = refused(
+            separate(&input, &out).args(["--compression", "none"]),
+            "small-disk",
+            &["cannot write"],
+            &[&input],
+            Some(&out),
+        );
         drop(mounted);
         assert!(line.contains("space") || line.contains("full"), "{line}");
     } else {
@@ -632,8 +780,16 @@ fn bad_tickets_name_file_line_and_problem() {
 
 #[test]
 fn out_of_range_flags_name_the_flag_and_the_range() {
-    for (flag, value, range) in [("--tac", "450", "100–400"), ("--gcr", "-5", "0–100"), ("--black-max", "101", "0–100"), ("--tac", "NaN", "100–400")] {
-        let o = platesmith().args(["recipe", "#336699", &format!("{flag}={value}")]).output().unwrap();
+    for (flag, value, range) in [
+        ("--tac", "450", "100–400"),
+        ("--gcr", "-5", "0–100"),
+        ("--black-max", "101", "0–100"),
+        ("--tac", "NaN", "100–400"),
+    ] {
+        let o = platesmith()
+            .args(["recipe", "#336699", &format!("{flag}={value}")])
+            .output()
+            .unwrap();
         let stderr = String::from_utf8_lossy(&o.stderr);
         assert_eq!(o.status.code(), Some(2), "{flag} {value}: {stderr}");
         let lines: Vec<&str> = stderr.lines().collect();
@@ -709,7 +865,11 @@ fn bad_measurement_files_name_file_line_and_problem() {
 fn the_readme_describes_every_fixture() {
     let readme = std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("testdata/bad/README.md")).unwrap();
     for f in fixtures() {
-        assert!(readme.contains(&format!("`{}`", f.name)), "testdata/bad/README.md does not describe {}", f.name);
+        assert!(
+            readme.contains(&format!("`{}`", f.name)),
+            "testdata/bad/README.md does not describe {}",
+            f.name
+        );
     }
     // Fixtures stay tiny: they are remade by this file on every run, never committed.
     assert!(fixtures().iter().all(|f| f.bytes.len() < 4096));
@@ -724,12 +884,19 @@ fn a_panic_is_one_line_asking_for_the_input_and_exit_3() {
         eprintln!("skipped: release build, the forced-panic hook is off");
         return;
     }
-    let o = platesmith().env("PLATESMITH_FORCE_PANIC", "1").args(["recipe", "#336699"]).output().unwrap();
+    let o = platesmith()
+        .env("PLATESMITH_FORCE_PANIC", "1")
+        .args(["recipe", "#336699"])
+        .output()
+        .unwrap();
     let stderr = String::from_utf8_lossy(&o.stderr);
     assert_eq!(o.status.code(), Some(3), "{stderr}");
     let lines: Vec<&str> = stderr.lines().collect();
     assert_eq!(lines.len(), 1, "{stderr}");
-    assert!(lines[0].starts_with("platesmith: internal error") && lines[0].contains("please report this with the input"), "{stderr}");
+    assert!(
+        lines[0].starts_with("platesmith: internal error") && lines[0].contains("please report this with the input"),
+        "{stderr}"
+    );
     assert!(!stderr.contains("panicked") && !stderr.contains("backtrace"), "{stderr}");
 }
 
@@ -752,11 +919,19 @@ fn decoding_from_memory_matches_reading_the_file() {
         let from_memory = platesmith::raster::read_raster_bytes(&bytes, Path::new(name), &limits).unwrap();
         assert_eq!(from_file, from_memory, "{name}");
     }
-    for f in fixtures().iter().filter(|f| f.name.ends_with(".png") || f.name.ends_with(".tif") || f.name.ends_with(".jpg")) {
+    for f in fixtures()
+        .iter()
+        .filter(|f| f.name.ends_with(".png") || f.name.ends_with(".tif") || f.name.ends_with(".jpg"))
+    {
         let from_file = read_raster(&m.path(f.name), &limits).map(|_| ());
         let from_memory = platesmith::raster::read_raster_bytes(&f.bytes, Path::new(f.name), &limits).map(|_| ());
         match (from_file, from_memory) {
-            (Err(a), Err(b)) => assert_eq!(a.to_string().replace(&format!("{}/", m.dir.path().display()), ""), b.to_string(), "{}", f.name),
+            (Err(a), Err(b)) => assert_eq!(
+                a.to_string().replace(&format!("{}/", m.dir.path().display()), ""),
+                b.to_string(),
+                "{}",
+                f.name
+            ),
             (Ok(()), Ok(())) => {}
             (a, b) => panic!("{}: file {a:?}, memory {b:?}", f.name),
         }
@@ -769,8 +944,17 @@ fn decoding_from_memory_matches_reading_the_file() {
 fn meaningless_limits_are_refused() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("out");
-    for (flag, value, fragment) in [("--max-side", "0", "--max-side is 0"), ("--max-memory", "0", "--max-memory is 0"), ("--max-memory", "18446744073709551615", "--max-memory is 18446744073709551615")] {
-        let o = Command::cargo_bin("platesmith").unwrap().args(["separate", "missing.png", flag, value, "--out-dir"]).arg(&out).output().unwrap();
+    for (flag, value, fragment) in [
+        ("--max-side", "0", "--max-side is 0"),
+        ("--max-memory", "0", "--max-memory is 0"),
+        ("--max-memory", "18446744073709551615", "--max-memory is 18446744073709551615"),
+    ] {
+        let o = Command::cargo_bin("platesmith")
+            .unwrap()
+            .args(["separate", "missing.png", flag, value, "--out-dir"])
+            .arg(&out)
+            .output()
+            .unwrap();
         let stderr = String::from_utf8_lossy(&o.stderr);
         assert_eq!(o.status.code(), Some(2), "{flag} {value}: {stderr}");
         assert!(stderr.contains(fragment), "{flag} {value}: {stderr}");
@@ -783,7 +967,12 @@ fn meaningless_limits_are_refused() {
 fn a_run_that_writes_nothing_makes_no_folder() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("out");
-    let o = Command::cargo_bin("platesmith").unwrap().args(["separate", "missing.png", "--out-dir"]).arg(&out).output().unwrap();
+    let o = Command::cargo_bin("platesmith")
+        .unwrap()
+        .args(["separate", "missing.png", "--out-dir"])
+        .arg(&out)
+        .output()
+        .unwrap();
     assert_eq!(o.status.code(), Some(2));
     assert!(!out.exists(), "the output folder was made");
 }

@@ -53,7 +53,12 @@ fn show_json_reports_parameters_aims_and_computed_figures() {
     let gray = &v["gray_balance"]["cmy_percent"];
     assert!((gray[0].as_f64().unwrap() - 50.0).abs() < 1e-9);
     assert!(v["gamut"]["volume"].as_f64().unwrap() > 0.0);
-    let darkest: f64 = v["darkest_within_tac_percent"].as_array().unwrap().iter().map(|x| x.as_f64().unwrap()).sum();
+    let darkest: f64 = v["darkest_within_tac_percent"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x.as_f64().unwrap())
+        .sum();
     assert!(darkest <= 280.0 + 1e-6);
 }
 
@@ -62,7 +67,14 @@ fn show_text_names_the_sections() {
     let out = run(&["conditions", "show", "coated-offset"]);
     assert!(out.status.success());
     let text = String::from_utf8_lossy(&out.stdout);
-    for s in ["coated-offset (built in, default)", "Aims", "gray balance", "gamut volume", "TVI at 50 %", "ink film"] {
+    for s in [
+        "coated-offset (built in, default)",
+        "Aims",
+        "gray balance",
+        "gamut volume",
+        "TVI at 50 %",
+        "ink film",
+    ] {
         assert!(text.contains(s), "missing {s}: {text}");
     }
 }
@@ -91,5 +103,8 @@ fn invalid_condition_file_error_reaches_the_user() {
     let out = run(&["conditions", "show", path.to_str().unwrap()]);
     assert_eq!(out.status.code(), Some(2));
     let err = String::from_utf8_lossy(&out.stderr);
-    assert!(err.contains("tac-out-of-range.toml") && err.contains("`tac`") && err.contains("line 4"), "{err}");
+    assert!(
+        err.contains("tac-out-of-range.toml") && err.contains("`tac`") && err.contains("line 4"),
+        "{err}"
+    );
 }

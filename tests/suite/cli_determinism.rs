@@ -86,7 +86,10 @@ fn separate_is_identical_across_runs_and_thread_counts() {
     // Taller than one parallel chunk of rows, so threads really split the work.
     noise_png(&input, 61, 150, 7);
     let out = dir.path().join("out");
-    for extra in [&["--table-grid", "17"][..], &["--table-grid", "9", "--bits", "16", "--intent", "relative", "--bpc", "--gcr", "80"]] {
+    for extra in [
+        &["--table-grid", "17"][..],
+        &["--table-grid", "9", "--bits", "16", "--intent", "relative", "--bpc", "--gcr", "80"],
+    ] {
         let first = run_separate(&input, &out, 1, extra);
         assert_eq!(first.len(), 6, "composite, four plates, summary");
         assert_same(&first, &run_separate(&input, &out, 1, extra), "second run, 1 thread");
@@ -111,7 +114,11 @@ fn cmyk_reseparation_is_identical_across_thread_counts() {
 }
 
 fn recipe_json(colour: &str, threads: usize) -> Vec<u8> {
-    let o = platesmith().env("RAYON_NUM_THREADS", threads.to_string()).args(["recipe", colour, "--json", "--gcr", "40"]).output().unwrap();
+    let o = platesmith()
+        .env("RAYON_NUM_THREADS", threads.to_string())
+        .args(["recipe", colour, "--json", "--gcr", "40"])
+        .output()
+        .unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     o.stdout
 }

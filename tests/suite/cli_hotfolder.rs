@@ -32,7 +32,17 @@ fn png_bytes(width: u32, height: u32, seed: u64) -> Vec<u8> {
         enc.set_color(png::ColorType::Rgb);
         enc.set_depth(png::BitDepth::Eight);
         let mut w = enc.write_header().unwrap();
-        let data: Vec<u8> = (0..height).flat_map(|y| (0..width).flat_map(move |x| [(x * 255 / width.max(1)) as u8, (y * 255 / height.max(1)) as u8, (seed * 37 % 256) as u8])).collect();
+        let data: Vec<u8> = (0..height)
+            .flat_map(|y| {
+                (0..width).flat_map(move |x| {
+                    [
+                        (x * 255 / width.max(1)) as u8,
+                        (y * 255 / height.max(1)) as u8,
+                        (seed * 37 % 256) as u8,
+                    ]
+                })
+            })
+            .collect();
         w.write_image_data(&data).unwrap();
     }
     out
@@ -41,8 +51,13 @@ fn png_bytes(width: u32, height: u32, seed: u64) -> Vec<u8> {
 /// An 8-bit RGB TIFF (TIFF 6.0 baseline RGB, through the `tiff` encoder).
 fn tiff_bytes(width: u32, height: u32, seed: u64) -> Vec<u8> {
     let mut out = std::io::Cursor::new(Vec::new());
-    let data: Vec<u8> = (0..width * height).flat_map(|i| [(i * 7 % 256) as u8, (seed * 50 % 256) as u8, (i % 200) as u8]).collect();
-    tiff::encoder::TiffEncoder::new(&mut out).unwrap().write_image::<tiff::encoder::colortype::RGB8>(width, height, &data).unwrap();
+    let data: Vec<u8> = (0..width * height)
+        .flat_map(|i| [(i * 7 % 256) as u8, (seed * 50 % 256) as u8, (i % 200) as u8])
+        .collect();
+    tiff::encoder::TiffEncoder::new(&mut out)
+        .unwrap()
+        .write_image::<tiff::encoder::colortype::RGB8>(width, height, &data)
+        .unwrap();
     out.into_inner()
 }
 
@@ -118,7 +133,11 @@ impl Running {
         self.0.as_ref().unwrap().id()
     }
     fn signal(&self, name: &str) {
-        let ok = Command::new("kill").args(["-s", name, &self.pid().to_string()]).status().unwrap().success();
+        let ok = Command::new("kill")
+            .args(["-s", name, &self.pid().to_string()])
+            .status()
+            .unwrap()
+            .success();
         assert!(ok, "kill -s {name} failed");
     }
     /// Waits for the exit, up to `limit`.
@@ -162,12 +181,21 @@ fn assert_complete_output(hot: &Hot, folder: &str, input: &str, size: (u32, u32)
     let dir = hot.path("out").join(folder);
     // The files inside are named after the input.
     let stem = Path::new(input).file_stem().unwrap().to_str().unwrap();
-    let record: serde_json::Value = serde_json::from_str(&fs::read_to_string(dir.join("hotfolder.json")).unwrap_or_else(|e| panic!("{stem}: no record: {e}"))).unwrap();
+    let record: serde_json::Value =
+        serde_json::from_str(&fs::read_to_string(dir.join("hotfolder.json")).unwrap_or_else(|e| panic!("{stem}: no record: {e}"))).unwrap();
     assert_eq!(record["input"], input);
     assert_eq!(record["result"], "done");
-    let mut listed: BTreeSet<String> = record["outputs"].as_array().unwrap().iter().map(|v| v.as_str().unwrap().to_string()).collect();
+    let mut listed: BTreeSet<String> = record["outputs"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_str().unwrap().to_string())
+        .collect();
     listed.insert("hotfolder.json".into());
-    let present: BTreeSet<String> = fs::read_dir(&dir).unwrap().map(|e| e.unwrap().file_name().to_string_lossy().to_string()).collect();
+    let present: BTreeSet<String> = fs::read_dir(&dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
+        .collect();
     assert_eq!(present, listed, "{stem}: files present vs listed (no temporary or extra files)");
     for ink in ["C", "M", "Y", "K"] {
         assert!(present.contains(&format!("{stem}.{ink}.tif")), "{stem}: plate {ink}");
@@ -183,14 +211,24 @@ fn assert_complete_output(hot: &Hot, folder: &str, input: &str, size: (u32, u32)
     }
     let summary: serde_json::Value = serde_json::from_str(&fs::read_to_string(dir.join(format!("{stem}.summary.json"))).unwrap()).unwrap();
     assert_eq!(summary["file"], input);
-    assert_eq!((summary["width"].as_u64().unwrap() as u32, summary["height"].as_u64().unwrap() as u32), size);
+    assert_eq!(
+        (
+            summary["width"].as_u64().unwrap() as u32,
+            summary["height"].as_u64().unwrap() as u32
+        ),
+        size
+    );
     record
 }
 
 /// No instance folder, lock file or unfinished result is left.
 fn assert_clean(hot: &Hot) {
     assert!(hot.names("work").is_empty(), "work/ holds {:?}", hot.names("work"));
-    assert!(hot.names("out/.staging").is_empty(), "out/.staging holds {:?}", hot.names("out/.staging"));
+    assert!(
+        hot.names("out/.staging").is_empty(),
+        "out/.staging holds {:?}",
+        hot.names("out/.staging")
+    );
 }
 
 #[test]
@@ -213,7 +251,11 @@ fn thirty_files_each_end_once_in_done_or_failed_with_complete_outputs() {
     }
     // Wrong extension: text named .png.
     for i in 0..2 {
-        files.push((format!("notes{i}.png"), format!("delivery notes {i}\nplease print\n").into_bytes(), None));
+        files.push((
+            format!("notes{i}.png"),
+            format!("delivery notes {i}\nplease print\n").into_bytes(),
+            None,
+        ));
     }
     // Corrupt: random bytes under image names.
     for (i, ext) in ["png", "tif", "jpg"].iter().enumerate() {
@@ -253,7 +295,10 @@ fn thirty_files_each_end_once_in_done_or_failed_with_complete_outputs() {
         let growing = growing.clone();
         let inbox = hot.path("in");
         std::thread::spawn(move || {
-            let mut files: Vec<fs::File> = growing.iter().map(|(n, _)| fs::OpenOptions::new().append(true).open(inbox.join(n)).unwrap()).collect();
+            let mut files: Vec<fs::File> = growing
+                .iter()
+                .map(|(n, _)| fs::OpenOptions::new().append(true).open(inbox.join(n)).unwrap())
+                .collect();
             let mut offset = 16;
             let len = growing[0].1.len().max(growing[1].1.len());
             let step = len.div_ceil(30).max(1);
@@ -276,7 +321,11 @@ fn thirty_files_each_end_once_in_done_or_failed_with_complete_outputs() {
 
     let done = hot.visible("done");
     let failed: BTreeSet<String> = hot.visible("failed").into_iter().filter(|n| !n.ends_with(".error.txt")).collect();
-    assert_eq!(hot.names("in"), [".hidden.png", "upload.png.part"].map(String::from).into(), "in/ holds only the hidden and temporary names, untouched");
+    assert_eq!(
+        hot.names("in"),
+        [".hidden.png", "upload.png.part"].map(String::from).into(),
+        "in/ holds only the hidden and temporary names, untouched"
+    );
     assert_clean(&hot);
     let log = hot.log_lines();
     for (name, bytes, expect) in &files {
@@ -289,13 +338,25 @@ fn thirty_files_each_end_once_in_done_or_failed_with_complete_outputs() {
         let stem = Path::new(name).file_stem().unwrap().to_str().unwrap();
         match expect {
             Some(size) => {
-                assert!(in_done, "{name} should be done; error: {:?}", fs::read_to_string(hot.path("failed").join(format!("{name}.error.txt"))));
-                assert_eq!(&fs::read(hot.path("done").join(name)).unwrap(), bytes, "{name}: input moved unchanged");
+                assert!(
+                    in_done,
+                    "{name} should be done; error: {:?}",
+                    fs::read_to_string(hot.path("failed").join(format!("{name}.error.txt")))
+                );
+                assert_eq!(
+                    &fs::read(hot.path("done").join(name)).unwrap(),
+                    bytes,
+                    "{name}: input moved unchanged"
+                );
                 assert_complete_output(&hot, stem, name, *size);
             }
             None => {
                 assert!(in_failed, "{name} should have failed");
-                assert_eq!(&fs::read(hot.path("failed").join(name)).unwrap(), bytes, "{name}: input moved unchanged");
+                assert_eq!(
+                    &fs::read(hot.path("failed").join(name)).unwrap(),
+                    bytes,
+                    "{name}: input moved unchanged"
+                );
                 let why = fs::read_to_string(hot.path("failed").join(format!("{name}.error.txt"))).unwrap();
                 assert!(why.starts_with(&format!("{name} failed")), "{why}");
                 assert!(!why.contains("/work/"), "the reason names the file as it arrived: {why}");
@@ -304,7 +365,12 @@ fn thirty_files_each_end_once_in_done_or_failed_with_complete_outputs() {
         }
     }
     assert_eq!(done.len(), 20);
-    assert_eq!(hot.visible("out").len(), 20, "one output folder per done file: {:?}", hot.visible("out"));
+    assert_eq!(
+        hot.visible("out").len(),
+        20,
+        "one output folder per done file: {:?}",
+        hot.visible("out")
+    );
     let reason = |name: &str| fs::read_to_string(hot.path("failed").join(format!("{name}.error.txt"))).unwrap();
     assert!(reason("empty0.png").contains("empty file (0 bytes)"), "{}", reason("empty0.png"));
     assert!(reason("notes0.png").contains("text file"), "{}", reason("notes0.png"));
@@ -331,10 +397,22 @@ fn outputs_are_those_of_separate_with_the_same_ticket() {
     let input = alone.path().join("poster.png");
     fs::write(&input, &bytes).unwrap();
     let out = alone.path().join("sep");
-    let st = Command::new(BIN).arg("separate").arg(&input).arg("--ticket").arg(hot.path("ticket.toml")).arg("--out-dir").arg(&out).output().unwrap();
+    let st = Command::new(BIN)
+        .arg("separate")
+        .arg(&input)
+        .arg("--ticket")
+        .arg(hot.path("ticket.toml"))
+        .arg("--out-dir")
+        .arg(&out)
+        .output()
+        .unwrap();
     assert!(st.status.success(), "{}", String::from_utf8_lossy(&st.stderr));
     for f in ["poster.cmyk.tif", "poster.C.tif", "poster.K.tif"] {
-        assert_eq!(fs::read(out.join(f)).unwrap(), fs::read(hot.path("out/poster").join(f)).unwrap(), "{f}");
+        assert_eq!(
+            fs::read(out.join(f)).unwrap(),
+            fs::read(hot.path("out/poster").join(f)).unwrap(),
+            "{f}"
+        );
     }
 }
 
@@ -346,7 +424,11 @@ fn a_worker_killed_mid_job_is_finished_after_a_restart() {
     // Each job waits 60 s after its steps, before its results are committed.
     let mut first = hot.spawn(&["--settle", "0.2"], Some(60_000));
     wait_until("the file is taken and its results are being written", || {
-        hot.names("out/.staging").iter().any(|inst| hot.names(&format!("out/.staging/{inst}")).iter().any(|job| hot.names(&format!("out/.staging/{inst}/{job}")).contains("flyer.summary.json")))
+        hot.names("out/.staging").iter().any(|inst| {
+            hot.names(&format!("out/.staging/{inst}"))
+                .iter()
+                .any(|job| hot.names(&format!("out/.staging/{inst}/{job}")).contains("flyer.summary.json"))
+        })
     });
     first.signal("KILL");
     assert!(first.wait(DEADLINE).is_some());
@@ -363,7 +445,11 @@ fn a_worker_killed_mid_job_is_finished_after_a_restart() {
     assert_complete_output(&hot, "flyer", "flyer.png", (12, 9));
     assert_eq!(hot.visible("out").len(), 1);
     assert_clean(&hot);
-    assert!(hot.log_lines().iter().any(|l| l[1] == "recover" && l[3].contains(&instances[0])), "{}", hot.log());
+    assert!(
+        hot.log_lines().iter().any(|l| l[1] == "recover" && l[3].contains(&instances[0])),
+        "{}",
+        hot.log()
+    );
 }
 
 #[test]
@@ -394,7 +480,10 @@ fn two_workers_on_one_folder_never_process_a_file_twice() {
         assert_eq!((takes.len(), dones.len()), (1, 1), "{n}: taken and done once");
         assert_eq!(takes[0][5], dones[0][5], "{n}: done by the instance that took it");
         let record = assert_complete_output(&hot, n.trim_end_matches(".png"), n, (8, 6));
-        assert!(record["job"].as_str().unwrap().starts_with(&format!("{}/", dones[0][5])), "{n}: record of the same claim");
+        assert!(
+            record["job"].as_str().unwrap().starts_with(&format!("{}/", dones[0][5])),
+            "{n}: record of the same claim"
+        );
         *by_instance.entry(dones[0][5].clone()).or_default() += 1;
     }
     assert_eq!(by_instance.len(), 2, "both instances took files: {by_instance:?}");
@@ -407,7 +496,9 @@ fn sigterm_finishes_the_file_in_progress_then_exits_0() {
     let second = png_bytes(11, 10, 2);
     hot.put("a1.png", &first);
     let mut run = hot.spawn(&["--settle", "0.2", "--jobs", "1"], Some(2_000));
-    wait_until("a1.png is taken", || hot.log_lines().iter().any(|l| l[1] == "take" && l[2] == "a1.png"));
+    wait_until("a1.png is taken", || {
+        hot.log_lines().iter().any(|l| l[1] == "take" && l[2] == "a1.png")
+    });
     hot.put("a2.png", &second);
     run.signal("TERM");
     let status = run.wait(DEADLINE).expect("exits after finishing");
@@ -428,7 +519,9 @@ fn a_second_signal_exits_at_once_and_a_restart_finishes_the_work() {
     let bytes = png_bytes(9, 7, 4);
     hot.put("menu.png", &bytes);
     let mut run = hot.spawn(&["--settle", "0.2"], Some(60_000));
-    wait_until("menu.png is taken", || hot.log_lines().iter().any(|l| l[1] == "take" && l[2] == "menu.png"));
+    wait_until("menu.png is taken", || {
+        hot.log_lines().iter().any(|l| l[1] == "take" && l[2] == "menu.png")
+    });
     run.signal("TERM");
     wait_until("the first signal is seen", || hot.log_lines().iter().any(|l| l[1] == "stopping"));
     run.signal("TERM");
@@ -450,8 +543,15 @@ fn bad_settings_exit_2_naming_the_problem_and_create_nothing() {
     fs::write(hot.path("ticket.toml"), "[model]\ntable_grid = 9\nshade = 3\n").unwrap();
     let (status, stderr) = hot.once(&[]);
     assert_eq!(status.code(), Some(2));
-    assert!(stderr.contains("ticket.toml") && stderr.contains("line 3") && stderr.contains("shade"), "{stderr}");
-    assert_eq!(hot.names(""), ["ticket.toml".to_string()].into(), "nothing created for a bad ticket");
+    assert!(
+        stderr.contains("ticket.toml") && stderr.contains("line 3") && stderr.contains("shade"),
+        "{stderr}"
+    );
+    assert_eq!(
+        hot.names(""),
+        ["ticket.toml".to_string()].into(),
+        "nothing created for a bad ticket"
+    );
 
     // A ticket given by flag wins over DIR/ticket.toml; a missing one is named.
     let (status, stderr) = hot.once(&["--ticket", "/nonexistent/job.toml"]);
@@ -459,7 +559,11 @@ fn bad_settings_exit_2_naming_the_problem_and_create_nothing() {
     assert!(stderr.contains("/nonexistent/job.toml"), "{stderr}");
 
     // A rule inspect cannot evaluate is named with the ticket's line.
-    fs::write(hot.path("ticket.toml"), "[model]\ntable_grid = 9\n[checks]\nfail_if = [\"shade > 3\"]\n").unwrap();
+    fs::write(
+        hot.path("ticket.toml"),
+        "[model]\ntable_grid = 9\n[checks]\nfail_if = [\"shade > 3\"]\n",
+    )
+    .unwrap();
     let (status, stderr) = hot.once(&[]);
     assert_eq!(status.code(), Some(2));
     assert!(stderr.contains("ticket.toml") && stderr.contains("shade"), "{stderr}");
@@ -471,7 +575,11 @@ fn bad_settings_exit_2_naming_the_problem_and_create_nothing() {
     let missing = hot.path("no-such-folder");
     let out = Command::new(BIN).arg("hotfolder").arg(&missing).arg("--once").output().unwrap();
     assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("no-such-folder"), "{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        String::from_utf8_lossy(&out.stderr).contains("no-such-folder"),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     assert!(!missing.exists());
 }
 
@@ -526,7 +634,11 @@ fn a_crash_between_link_and_unlink_leaves_the_file_moved_once() {
     assert_eq!(hot.visible("done"), ["badge.png".to_string()].into());
     assert!(hot.visible("out").is_empty(), "not processed again");
     assert_clean(&hot);
-    assert!(hot.log_lines().iter().any(|l| l[1] == "recovered" && l[2] == "badge.png"), "{}", hot.log());
+    assert!(
+        hot.log_lines().iter().any(|l| l[1] == "recovered" && l[2] == "badge.png"),
+        "{}",
+        hot.log()
+    );
 }
 
 #[test]
@@ -545,16 +657,34 @@ fn a_crash_while_moving_to_failed_leaves_one_failed_file_with_its_reason() {
     let (status, stderr) = hot.once(&[]);
     assert_eq!(status.code(), Some(1), "a file failed, so --once exits 1; stderr:\n{stderr}");
     assert!(!left.exists() && !left2.exists());
-    let expected: BTreeSet<String> = ["scrap.png", "scrap.png.error.txt", "torn.png", "torn.png.error.txt"].map(String::from).into();
-    assert_eq!(hot.visible("failed"), expected, "each input once in failed/, each with its text, none renumbered");
+    let expected: BTreeSet<String> = ["scrap.png", "scrap.png.error.txt", "torn.png", "torn.png.error.txt"]
+        .map(String::from)
+        .into();
+    assert_eq!(
+        hot.visible("failed"),
+        expected,
+        "each input once in failed/, each with its text, none renumbered"
+    );
     assert_eq!(fs::read(hot.path("failed/scrap.png")).unwrap(), bytes, "the input is unchanged");
     let why = fs::read_to_string(hot.path("failed/scrap.png.error.txt")).unwrap();
-    assert!(why.starts_with("scrap.png failed") && why.contains("Nothing was written to out/"), "{why}");
-    assert_eq!(fs::read_to_string(hot.path("failed/torn.png.error.txt")).unwrap(), "torn.png failed: written before the crash\n", "a complete move is not redone");
+    assert!(
+        why.starts_with("scrap.png failed") && why.contains("Nothing was written to out/"),
+        "{why}"
+    );
+    assert_eq!(
+        fs::read_to_string(hot.path("failed/torn.png.error.txt")).unwrap(),
+        "torn.png failed: written before the crash\n",
+        "a complete move is not redone"
+    );
     assert!(hot.visible("out").is_empty());
     assert_clean(&hot);
     let log = hot.log_lines();
-    assert!(log.iter().any(|l| l[1] == "recovered" && l[2] == "scrap.png" && l[3].contains("without its error text")), "{}", hot.log());
+    assert!(
+        log.iter()
+            .any(|l| l[1] == "recovered" && l[2] == "scrap.png" && l[3].contains("without its error text")),
+        "{}",
+        hot.log()
+    );
     assert!(log.iter().any(|l| l[1] == "failed" && l[2] == "scrap.png"), "{}", hot.log());
     assert!(!log.iter().any(|l| l[1] == "failed" && l[2] == "torn.png"), "{}", hot.log());
 }
@@ -566,10 +696,15 @@ fn a_folder_of_a_live_instance_is_left_alone() {
     hot.put("tag.png", &bytes);
     // A live instance holds its claim while its job runs (60 s).
     let _live = hot.spawn(&["--settle", "0.2"], Some(60_000));
-    wait_until("tag.png is taken", || hot.log_lines().iter().any(|l| l[1] == "take" && l[2] == "tag.png"));
+    wait_until("tag.png is taken", || {
+        hot.log_lines().iter().any(|l| l[1] == "take" && l[2] == "tag.png")
+    });
     let (status, stderr) = hot.once(&[]);
     assert_eq!(status.code(), Some(0), "{stderr}");
-    assert!(hot.visible("done").is_empty() && hot.visible("out").is_empty(), "the other instance's file was not taken");
+    assert!(
+        hot.visible("done").is_empty() && hot.visible("out").is_empty(),
+        "the other instance's file was not taken"
+    );
     assert_eq!(hot.log_lines().iter().filter(|l| l[1] == "take" && l[2] == "tag.png").count(), 1);
 }
 
@@ -580,15 +715,29 @@ fn a_folder_of_a_live_instance_is_left_alone() {
 fn the_tickets_rules_judge_each_file_and_the_inspection_report_is_kept() {
     let hot = Hot::new();
     // Random pixels always carry some ink: a total of more than 1 % fails.
-    fs::write(hot.path("ticket.toml"), "[model]\ntable_grid = 9\n[checks]\nfail_if = [\"tac>1\"]\n").unwrap();
+    fs::write(
+        hot.path("ticket.toml"),
+        "[model]\ntable_grid = 9\n[checks]\nfail_if = [\"tac>1\"]\n",
+    )
+    .unwrap();
     hot.put("heavy.png", &png_bytes(16, 12, 7));
     let (status, stderr) = hot.once(&[]);
     assert_eq!(status.code(), Some(1), "a failed rule fails the run: {stderr}");
-    assert_eq!(hot.visible("failed"), ["heavy.png".to_string(), "heavy.png.error.txt".to_string()].into());
+    assert_eq!(
+        hot.visible("failed"),
+        ["heavy.png".to_string(), "heavy.png.error.txt".to_string()].into()
+    );
     let why = fs::read_to_string(hot.path("failed/heavy.png.error.txt")).unwrap();
     assert!(why.contains("tac>1"), "the error text names the rule: {why}");
     let kept = hot.visible("out/heavy");
-    for f in ["heavy.cmyk.tif", "heavy.inspect.json", "heavy.inspect.html", "heavy.regions.csv", "heavy.ink-map.png", "heavy.de-map.png"] {
+    for f in [
+        "heavy.cmyk.tif",
+        "heavy.inspect.json",
+        "heavy.inspect.html",
+        "heavy.regions.csv",
+        "heavy.ink-map.png",
+        "heavy.de-map.png",
+    ] {
         assert!(kept.contains(f), "out/heavy holds {kept:?}, not {f}");
     }
     let report: serde_json::Value = serde_json::from_str(&fs::read_to_string(hot.path("out/heavy/heavy.inspect.json")).unwrap()).unwrap();
@@ -596,7 +745,11 @@ fn the_tickets_rules_judge_each_file_and_the_inspection_report_is_kept() {
     assert_eq!(report["pass"], false);
 
     // The same file under a rule it meets goes to done/, with its report.
-    fs::write(hot.path("ticket.toml"), "[model]\ntable_grid = 9\n[checks]\nfail_if = [\"tac>400\"]\n").unwrap();
+    fs::write(
+        hot.path("ticket.toml"),
+        "[model]\ntable_grid = 9\n[checks]\nfail_if = [\"tac>400\"]\n",
+    )
+    .unwrap();
     hot.put("light.png", &png_bytes(16, 12, 7));
     let (status, stderr) = hot.once(&[]);
     assert_eq!(status.code(), Some(0), "{stderr}");

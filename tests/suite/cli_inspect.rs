@@ -39,8 +39,15 @@ fn write_rgb_png(path: &Path, width: u32, height: u32, data: &[u8]) {
     let mut info = png::Info::with_size(width, height);
     info.color_type = png::ColorType::Rgb;
     info.bit_depth = png::BitDepth::Eight;
-    info.pixel_dims = Some(png::PixelDimensions { xppu: 5906, yppu: 5906, unit: png::Unit::Meter });
-    let mut w = png::Encoder::with_info(std::io::BufWriter::new(file), info).unwrap().write_header().unwrap();
+    info.pixel_dims = Some(png::PixelDimensions {
+        xppu: 5906,
+        yppu: 5906,
+        unit: png::Unit::Meter,
+    });
+    let mut w = png::Encoder::with_info(std::io::BufWriter::new(file), info)
+        .unwrap()
+        .write_header()
+        .unwrap();
     w.write_image_data(data).unwrap();
 }
 
@@ -94,10 +101,21 @@ const MODEL: [&str; 4] = ["--intent", "relative", "--table-grid", "17"];
 fn lcms_srgb_lab(rgb: [u8; 3]) -> CIELab {
     let srgb = Profile::new_srgb();
     let lab = Profile::new_lab4_context(GlobalContext::new(), CIExyY::d50()).unwrap();
-    let t: Transform<[u8; 3], [f64; 3]> = Transform::new(&srgb, PixelFormat::RGB_8, &lab, PixelFormat::Lab_DBL, LcmsIntent::RelativeColorimetric).unwrap();
+    let t: Transform<[u8; 3], [f64; 3]> = Transform::new(
+        &srgb,
+        PixelFormat::RGB_8,
+        &lab,
+        PixelFormat::Lab_DBL,
+        LcmsIntent::RelativeColorimetric,
+    )
+    .unwrap();
     let mut out = [[0.0; 3]];
     t.transform_pixels(&[rgb], &mut out);
-    CIELab { L: out[0][0], a: out[0][1], b: out[0][2] }
+    CIELab {
+        L: out[0][0],
+        a: out[0][1],
+        b: out[0][2],
+    }
 }
 
 #[test]
@@ -106,7 +124,12 @@ fn out_of_gamut_patches_are_found_where_they_are_with_the_delta_e_of_a_direct_co
     let input = d.path("scene.png");
     let (w, h) = SCENE;
     write_rgb_png(&input, w, h, &scene());
-    let out = platesmith().arg("inspect").arg(&input).args(MODEL).args(["--json", "--de-thresholds", "1,3,10"]).assert();
+    let out = platesmith()
+        .arg("inspect")
+        .arg(&input)
+        .args(MODEL)
+        .args(["--json", "--de-thresholds", "1,3,10"])
+        .assert();
     let out = out.code(0).get_output().stdout.clone();
     let r = json_of(&out);
     assert_eq!(r["kind"], "rgb");
@@ -116,9 +139,19 @@ fn out_of_gamut_patches_are_found_where_they_are_with_the_delta_e_of_a_direct_co
 
     // The CMYK that `separate` writes with the same settings.
     let sep_dir = d.path("sep");
-    platesmith().arg("separate").arg(&input).arg("--out-dir").arg(&sep_dir).args(MODEL).args(["--plates", "none"]).assert().success();
+    platesmith()
+        .arg("separate")
+        .arg(&input)
+        .arg("--out-dir")
+        .arg(&sep_dir)
+        .args(MODEL)
+        .args(["--plates", "none"])
+        .assert()
+        .success();
     let composite = read_raster(&sep_dir.join("scene.cmyk.tif"), &Limits::default()).unwrap();
-    let Samples::U8(cmyk) = &composite.samples else { panic!("8-bit composite expected") };
+    let Samples::U8(cmyk) = &composite.samples else {
+        panic!("8-bit composite expected")
+    };
     let condition = platesmith::press::builtin::coated_offset();
     let mut settings = SeparationSettings::for_condition(&condition);
     settings.intent = Intent::Relative;
@@ -130,7 +163,12 @@ fn out_of_gamut_patches_are_found_where_they_are_with_the_delta_e_of_a_direct_co
         .map(|i| {
             let src = lcms_srgb_lab([rgb[i * 3], rgb[i * 3 + 1], rgb[i * 3 + 2]]);
             let px = &cmyk[i * 4..i * 4 + 4];
-            let ink = Cmyk::new(px[0] as f64 / 255.0, px[1] as f64 / 255.0, px[2] as f64 / 255.0, px[3] as f64 / 255.0);
+            let ink = Cmyk::new(
+                px[0] as f64 / 255.0,
+                px[1] as f64 / 255.0,
+                px[2] as f64 / 255.0,
+                px[3] as f64 / 255.0,
+            );
             let p = separator.printed_in_frame(ink);
             src.cie2000_delta_e(&CIELab { L: p.l, a: p.a, b: p.b }, 1.0, 1.0, 1.0)
         })
@@ -140,25 +178,44 @@ fn out_of_gamut_patches_are_found_where_they_are_with_the_delta_e_of_a_direct_co
     let g = &r["gamut"];
     let mean = de.iter().sum::<f64>() / de.len() as f64;
     let max = de.iter().cloned().fold(0.0, f64::max);
-    assert!((g["mean_de"].as_f64().unwrap() - mean).abs() < TOL, "mean {} vs {mean}", g["mean_de"]);
+    assert!(
+        (g["mean_de"].as_f64().unwrap() - mean).abs() < TOL,
+        "mean {} vs {mean}",
+        g["mean_de"]
+    );
     assert!((g["max_de"].as_f64().unwrap() - max).abs() < TOL, "max {} vs {max}", g["max_de"]);
     let mut sorted = de.clone();
     sorted.sort_by(f64::total_cmp);
     let p95 = sorted[(0.95 * sorted.len() as f64).ceil() as usize - 1];
-    assert!((g["p95_de"].as_f64().unwrap() - p95).abs() < TOL + 0.01, "p95 {} vs {p95}", g["p95_de"]);
+    assert!(
+        (g["p95_de"].as_f64().unwrap() - p95).abs() < TOL + 0.01,
+        "p95 {} vs {p95}",
+        g["p95_de"]
+    );
     for (k, t) in [1.0, 3.0, 10.0].iter().enumerate() {
         let share = de.iter().filter(|&&v| v > *t).count() as f64 / de.len() as f64;
         assert!((g["over"][k]["fraction"].as_f64().unwrap() - share).abs() < 1e-6, "share over {t}");
     }
     // Regions at ΔE > 10 (the largest threshold): the two vivid patches.
-    let regions: Vec<&Value> = r["regions"].as_array().unwrap().iter().filter(|g| g["kind"] == "out-of-gamut").collect();
+    let regions: Vec<&Value> = r["regions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|g| g["kind"] == "out-of-gamut")
+        .collect();
     assert_eq!(regions.len(), 2, "{regions:?}");
     // pHYs 5906 pixels per metre = 150.0124 ppi.
     let mm = 1000.0 / 5906.0;
     for (patch, _) in [BLUE, GREEN] {
-        let found = regions.iter().find(|g| iou(bbox(g), patch) >= 0.9).unwrap_or_else(|| panic!("no region at {patch:?}: {regions:?}"));
+        let found = regions
+            .iter()
+            .find(|g| iou(bbox(g), patch) >= 0.9)
+            .unwrap_or_else(|| panic!("no region at {patch:?}: {regions:?}"));
         let [x, y, pw, ph] = patch;
-        let direct: Vec<f64> = (y..y + ph).flat_map(|yy| (x..x + pw).map(move |xx| (yy * w + xx) as usize)).map(|i| de[i]).collect();
+        let direct: Vec<f64> = (y..y + ph)
+            .flat_map(|yy| (x..x + pw).map(move |xx| (yy * w + xx) as usize))
+            .map(|i| de[i])
+            .collect();
         let dmax = direct.iter().cloned().fold(0.0, f64::max);
         let dmean = direct.iter().sum::<f64>() / direct.len() as f64;
         assert!((found["max"].as_f64().unwrap() - dmax).abs() < TOL, "{found} vs {dmax}");
@@ -192,10 +249,27 @@ fn sixteen_bit_input_agrees_with_eight_bit() {
     enc.set_depth(png::BitDepth::Sixteen);
     let data: Vec<u8> = scene().iter().flat_map(|&v| (v as u16 * 257).to_be_bytes()).collect();
     enc.write_header().unwrap().write_image_data(&data).unwrap();
-    let run = |p: &Path| json_of(&platesmith().arg("inspect").arg(p).args(MODEL).arg("--json").assert().get_output().stdout.clone());
+    let run = |p: &Path| {
+        json_of(
+            &platesmith()
+                .arg("inspect")
+                .arg(p)
+                .args(MODEL)
+                .arg("--json")
+                .assert()
+                .get_output()
+                .stdout
+                .clone(),
+        )
+    };
     let (a, b) = (run(&eight), run(&sixteen));
     for key in ["mean_de", "max_de"] {
-        assert!((a["gamut"][key].as_f64().unwrap() - b["gamut"][key].as_f64().unwrap()).abs() < 0.5, "{key}: {} vs {}", a["gamut"], b["gamut"]);
+        assert!(
+            (a["gamut"][key].as_f64().unwrap() - b["gamut"][key].as_f64().unwrap()).abs() < 0.5,
+            "{key}: {} vs {}",
+            a["gamut"],
+            b["gamut"]
+        );
     }
     let boxes = |r: &Value| r["regions"].as_array().unwrap().iter().map(bbox).collect::<Vec<_>>();
     assert_eq!(boxes(&a), boxes(&b));
@@ -206,7 +280,20 @@ fn region_threshold_and_minimum_area_are_configurable() {
     let d = Dir::new();
     let input = d.path("scene.png");
     write_rgb_png(&input, SCENE.0, SCENE.1, &scene());
-    let run = |extra: &[&str]| json_of(&platesmith().arg("inspect").arg(&input).args(MODEL).arg("--json").args(extra).assert().get_output().stdout.clone());
+    let run = |extra: &[&str]| {
+        json_of(
+            &platesmith()
+                .arg("inspect")
+                .arg(&input)
+                .args(MODEL)
+                .arg("--json")
+                .args(extra)
+                .assert()
+                .get_output()
+                .stdout
+                .clone(),
+        )
+    };
     let count = |r: &Value| r["regions_by_kind"]["out-of-gamut"].as_u64().unwrap();
     assert_eq!(count(&run(&["--region-de", "5"])), 2);
     assert_eq!(count(&run(&["--region-de", "500"])), 0);
@@ -239,7 +326,14 @@ fn write_cmyk_fixture(path: &Path) {
     }
     let image = CmykImage::new(w, h, Samples::U8(v)).unwrap();
     let mut f = std::fs::File::create(path).unwrap();
-    let opts = TiffOptions { compression: Compression::None, resolution: Some(Resolution { x_ppi: 200.0, y_ppi: 200.0 }), icc_profile: None };
+    let opts = TiffOptions {
+        compression: Compression::None,
+        resolution: Some(Resolution {
+            x_ppi: 200.0,
+            y_ppi: 200.0,
+        }),
+        icc_profile: None,
+    };
     write_cmyk_tiff(&mut f, &image, &opts).unwrap();
 }
 
@@ -248,12 +342,25 @@ fn a_400_percent_block_is_one_over_ink_region_of_the_right_area() {
     let d = Dir::new();
     let input = d.path("plate-ready.tif");
     write_cmyk_fixture(&input);
-    let out = platesmith().arg("inspect").arg(&input).args(["--json", "--fail-if", "tac>400"]).assert().code(0).get_output().stdout.clone();
+    let out = platesmith()
+        .arg("inspect")
+        .arg(&input)
+        .args(["--json", "--fail-if", "tac>400"])
+        .assert()
+        .code(0)
+        .get_output()
+        .stdout
+        .clone();
     let r = json_of(&out);
     assert_eq!(r["kind"], "cmyk");
     assert!(r.get("gamut").is_none());
     assert_eq!(r["tac"]["max"], 400.0);
-    let over: Vec<&Value> = r["regions"].as_array().unwrap().iter().filter(|g| g["kind"] == "over-ink").collect();
+    let over: Vec<&Value> = r["regions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|g| g["kind"] == "over-ink")
+        .collect();
     assert_eq!(over.len(), 1, "{over:?}");
     let g = over[0];
     assert_eq!(bbox(g), BLOCK);
@@ -266,9 +373,18 @@ fn a_400_percent_block_is_one_over_ink_region_of_the_right_area() {
     assert!((r["tac"]["over_fraction"].as_f64().unwrap() - 6000.0 / (240.0 * 160.0)).abs() < 1e-6);
     // Mean total ink from the drawn areas: 400 %, 664/255 and 103/255 of 100 %.
     let tac_mean = (6000.0 * 400.0 + 400.0 * 66400.0 / 255.0 + 32000.0 * 10300.0 / 255.0) / 38400.0;
-    assert!((r["tac"]["mean"].as_f64().unwrap() - tac_mean).abs() < 0.06, "{} vs {tac_mean}", r["tac"]);
+    assert!(
+        (r["tac"]["mean"].as_f64().unwrap() - tac_mean).abs() < 0.06,
+        "{} vs {tac_mean}",
+        r["tac"]
+    );
     // The 2-pixel (0.25 mm) rich black line is fine detail; the block is not.
-    let rich: Vec<&Value> = r["regions"].as_array().unwrap().iter().filter(|g| g["kind"] == "rich-black-detail").collect();
+    let rich: Vec<&Value> = r["regions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|g| g["kind"] == "rich-black-detail")
+        .collect();
     assert_eq!(rich.len(), 1, "{rich:?}");
     assert_eq!(bbox(rich[0]), LINE);
     // Plates: cyan mean over the image from the drawn areas.
@@ -298,7 +414,11 @@ fn fail_if_rules_set_the_exit_code_and_name_the_rule() {
     assert_eq!(code(&["tac>400"]).0, Some(0));
     assert_eq!(code(&["over_fraction>50%"]).0, Some(0));
     assert_eq!(code(&["over_fraction>1%"]).0, Some(1));
-    assert_eq!(code(&["regions.over-ink>1", "p95_de>3"]).0, Some(0), "ΔE rules do not apply to CMYK input");
+    assert_eq!(
+        code(&["regions.over-ink>1", "p95_de>3"]).0,
+        Some(0),
+        "ΔE rules do not apply to CMYK input"
+    );
     let (c, err) = code(&["tac>400", "regions>0"]);
     assert_eq!(c, Some(1));
     assert!(err.contains("'regions>0'") && !err.contains("'tac>400'"), "{err}");
@@ -310,7 +430,13 @@ fn fail_if_rules_set_the_exit_code_and_name_the_rule() {
     // A ticket carries rules too.
     let ticket = d.path("job.toml");
     std::fs::write(&ticket, "[checks]\nfail_if = [\"tac>350\"]\n").unwrap();
-    let out = platesmith().arg("inspect").arg(&input).arg("--ticket").arg(&ticket).output().unwrap();
+    let out = platesmith()
+        .arg("inspect")
+        .arg(&input)
+        .arg("--ticket")
+        .arg(&ticket)
+        .output()
+        .unwrap();
     assert_eq!(out.status.code(), Some(1));
     assert!(String::from_utf8_lossy(&out.stderr).contains("'tac>350'"));
 }
@@ -321,7 +447,14 @@ fn report_folder_holds_json_csv_maps_and_page_or_nothing() {
     let input = d.path("scene.png");
     write_rgb_png(&input, SCENE.0, SCENE.1, &scene());
     let dir = d.path("report");
-    platesmith().arg("inspect").arg(&input).args(MODEL).arg("--report").arg(&dir).assert().code(0);
+    platesmith()
+        .arg("inspect")
+        .arg(&input)
+        .args(MODEL)
+        .arg("--report")
+        .arg(&dir)
+        .assert()
+        .code(0);
     let r: Value = serde_json::from_str(&std::fs::read_to_string(dir.join("scene.inspect.json")).unwrap()).unwrap();
     let csv = std::fs::read_to_string(dir.join("scene.regions.csv")).unwrap();
     assert_eq!(csv.lines().count(), 1 + r["regions"].as_array().unwrap().len());
@@ -333,12 +466,25 @@ fn report_folder_holds_json_csv_maps_and_page_or_nothing() {
     }
     let html = std::fs::read_to_string(dir.join("scene.inspect.html")).unwrap();
     assert!(html.contains("data:image/png;base64,") && html.contains("<svg") && html.contains("a contract proof"));
-    assert!(!html.contains("src='http") && !html.contains("href='http"), "the page is self-contained");
+    assert!(
+        !html.contains("src='http") && !html.contains("href='http"),
+        "the page is self-contained"
+    );
 
     // A failed write leaves no file of the set.
     let dir2 = d.path("report2");
-    platesmith().env("PLATESMITH_FAIL_WRITE_AFTER_BYTES", "200").arg("inspect").arg(&input).args(MODEL).arg("--report").arg(&dir2).assert().code(2);
-    let left: Vec<_> = std::fs::read_dir(&dir2).map(|d| d.flatten().map(|e| e.file_name()).collect()).unwrap_or_default();
+    platesmith()
+        .env("PLATESMITH_FAIL_WRITE_AFTER_BYTES", "200")
+        .arg("inspect")
+        .arg(&input)
+        .args(MODEL)
+        .arg("--report")
+        .arg(&dir2)
+        .assert()
+        .code(2);
+    let left: Vec<_> = std::fs::read_dir(&dir2)
+        .map(|d| d.flatten().map(|e| e.file_name()).collect())
+        .unwrap_or_default();
     assert!(left.is_empty(), "{left:?}");
 }
 
@@ -349,7 +495,13 @@ fn several_inputs_give_an_array_and_a_bad_file_exits_2_without_stopping_the_othe
     write_cmyk_fixture(&cmyk);
     let bad = d.path("broken.png");
     std::fs::write(&bad, b"\x89PNG\r\n\x1a\nnot really").unwrap();
-    let out = platesmith().arg("inspect").arg(&bad).arg(&cmyk).args(["--json", "--fail-if", "tac>400"]).output().unwrap();
+    let out = platesmith()
+        .arg("inspect")
+        .arg(&bad)
+        .arg(&cmyk)
+        .args(["--json", "--fail-if", "tac>400"])
+        .output()
+        .unwrap();
     assert_eq!(out.status.code(), Some(2));
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(err.contains("broken.png"), "{err}");

@@ -20,8 +20,17 @@ fn writes_a_v4_profile_and_a_v2_profile_on_request() {
     for (flags, version, name, float_tables) in cases {
         let path = dir.path().join(name);
         let mut cmd = platesmith();
-        cmd.args(["profile", "--out"]).arg(&path).args(["--condition", "newsprint", "--tac", "230", "--gcr", "70"]).args(flags);
-        let out = cmd.assert().success().stderr(predicates::str::contains("prediction")).get_output().stderr.clone();
+        cmd.args(["profile", "--out"])
+            .arg(&path)
+            .args(["--condition", "newsprint", "--tac", "230", "--gcr", "70"])
+            .args(flags);
+        let out = cmd
+            .assert()
+            .success()
+            .stderr(predicates::str::contains("prediction"))
+            .get_output()
+            .stderr
+            .clone();
         assert_eq!(String::from_utf8_lossy(&out).contains("floating-point"), float_tables);
         let bytes = std::fs::read(&path).unwrap();
         // ICC.1:2022 §7.2.2: the size field is the file's size; 'acsp' at byte 36.
@@ -29,16 +38,26 @@ fn writes_a_v4_profile_and_a_v2_profile_on_request() {
         assert_eq!(&bytes[36..40], b"acsp");
         let p = Profile::new_icc(&bytes).expect("lcms2 reads it");
         assert_eq!(p.device_class(), ProfileClassSignature::OutputClass);
-        assert_eq!((p.color_space(), p.pcs()), (ColorSpaceSignature::CmykData, ColorSpaceSignature::LabData));
+        assert_eq!(
+            (p.color_space(), p.pcs()),
+            (ColorSpaceSignature::CmykData, ColorSpaceSignature::LabData)
+        );
         assert!((p.version() - version).abs() < 1e-9, "{}", p.version());
         // The floating-point BToD tables (multiProcessElementsType) unless left out.
-        for tag in [lcms2::TagSignature::BToD0Tag, lcms2::TagSignature::BToD1Tag, lcms2::TagSignature::BToD2Tag] {
+        for tag in [
+            lcms2::TagSignature::BToD0Tag,
+            lcms2::TagSignature::BToD1Tag,
+            lcms2::TagSignature::BToD2Tag,
+        ] {
             assert_eq!(p.has_tag(tag), float_tables, "{name}: {tag:?}");
         }
         let d = p.info(lcms2::InfoType::Description, Locale::none()).unwrap();
         assert!(d.contains("newsprint") && d.contains("TAC 230 %") && d.contains("GCR 70 %"), "{d}");
         // lcms2 finds the ink limit in the BToA table (cmsDetectTAC).
-        let tac = platesmith::press::icc_model::IccPressModel::from_bytes(&bytes, &path, Default::default()).unwrap().detected_tac().unwrap();
+        let tac = platesmith::press::icc_model::IccPressModel::from_bytes(&bytes, &path, Default::default())
+            .unwrap()
+            .detected_tac()
+            .unwrap();
         assert!((220.0..=231.0).contains(&tac), "{tac}");
     }
 }
@@ -48,15 +67,35 @@ fn an_existing_file_is_kept_without_force_and_bad_options_write_nothing() {
     let dir = tempfile::tempdir().unwrap();
     let path = dir.path().join("p.icc");
     std::fs::write(&path, b"keep me").unwrap();
-    platesmith().args(["profile", "--out"]).arg(&path).assert().code(2).stderr(predicates::str::contains("p.icc")).stderr(predicates::str::contains("--force"));
+    platesmith()
+        .args(["profile", "--out"])
+        .arg(&path)
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("p.icc"))
+        .stderr(predicates::str::contains("--force"));
     assert_eq!(std::fs::read(&path).unwrap(), b"keep me");
     platesmith().args(["profile", "--force", "--out"]).arg(&path).assert().success();
     assert!(Profile::new_icc(&std::fs::read(&path).unwrap()).is_ok());
 
     let other = dir.path().join("q.icc");
-    platesmith().args(["profile", "--tac", "500", "--out"]).arg(&other).assert().code(2).stderr(predicates::str::contains("100–400"));
-    platesmith().args(["profile", "--icc-version", "3", "--out"]).arg(&other).assert().code(2);
-    platesmith().args(["profile", "--out"]).arg(dir.path().join("missing/q.icc")).assert().code(2).stderr(predicates::str::contains("does not exist"));
+    platesmith()
+        .args(["profile", "--tac", "500", "--out"])
+        .arg(&other)
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("100–400"));
+    platesmith()
+        .args(["profile", "--icc-version", "3", "--out"])
+        .arg(&other)
+        .assert()
+        .code(2);
+    platesmith()
+        .args(["profile", "--out"])
+        .arg(dir.path().join("missing/q.icc"))
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("does not exist"));
     assert!(!other.exists());
     let left: Vec<_> = std::fs::read_dir(dir.path()).unwrap().map(|e| e.unwrap().file_name()).collect();
     assert_eq!(left.len(), 1, "{left:?}");

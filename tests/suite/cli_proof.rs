@@ -28,7 +28,16 @@ fn cmyk_file(path: &Path) -> Vec<[u8; 4]> {
     }
     let image = CmykImage::new(81, 81, Samples::U8(px.iter().flatten().copied().collect())).unwrap();
     let mut f = std::fs::File::create(path).unwrap();
-    write_cmyk_tiff(&mut f, &image, &TiffOptions { compression: Compression::None, resolution: None, icc_profile: None }).unwrap();
+    write_cmyk_tiff(
+        &mut f,
+        &image,
+        &TiffOptions {
+            compression: Compression::None,
+            resolution: None,
+            icc_profile: None,
+        },
+    )
+    .unwrap();
     px
 }
 
@@ -49,7 +58,10 @@ fn proof_of_cmyk_equals_lcms2_through_the_exported_profile() {
     platesmith().args(["profile", "--out"]).arg(&icc).args(model).assert().success();
     let press = Profile::new_icc(&std::fs::read(&icc).unwrap()).unwrap();
     let srgb = Profile::new_srgb();
-    for (flag, intent) in [(None, Intent::RelativeColorimetric), (Some("--paper-white"), Intent::AbsoluteColorimetric)] {
+    for (flag, intent) in [
+        (None, Intent::RelativeColorimetric),
+        (Some("--paper-white"), Intent::AbsoluteColorimetric),
+    ] {
         let out = dir.path().join(format!("proof-{intent:?}.png"));
         let mut cmd = platesmith();
         cmd.arg("proof").arg(&input).arg("--out").arg(&out).args(model);
@@ -59,8 +71,16 @@ fn proof_of_cmyk_equals_lcms2_through_the_exported_profile() {
         cmd.assert().success();
         let (w, h, got) = rgb_of(&out);
         assert_eq!((w, h), (81, 81));
-        let t: Transform<[u8; 4], [u8; 3], GlobalContext, lcms2::DisallowCache> =
-            Transform::new_flags_context(GlobalContext::new(), &press, PixelFormat::CMYK_8, &srgb, PixelFormat::RGB_8, intent, Flags::NO_CACHE | Flags::NO_OPTIMIZE).unwrap();
+        let t: Transform<[u8; 4], [u8; 3], GlobalContext, lcms2::DisallowCache> = Transform::new_flags_context(
+            GlobalContext::new(),
+            &press,
+            PixelFormat::CMYK_8,
+            &srgb,
+            PixelFormat::RGB_8,
+            intent,
+            Flags::NO_CACHE | Flags::NO_OPTIMIZE,
+        )
+        .unwrap();
         let mut want = vec![[0u8; 3]; px.len()];
         t.transform_pixels(&px, &mut want);
         let mut worst = 0i32;
@@ -69,9 +89,17 @@ fn proof_of_cmyk_equals_lcms2_through_the_exported_profile() {
             let d = (0..3).map(|c| (got[3 * i + c] as i32 - w[c] as i32).abs()).max().unwrap();
             worst = worst.max(d);
             off += (d > 0) as usize;
-            assert!(d <= 1, "{intent:?}: CMYK {:?} proofs as {:?}, lcms2 says {w:?}", px[i], &got[3 * i..3 * i + 3]);
+            assert!(
+                d <= 1,
+                "{intent:?}: CMYK {:?} proofs as {:?}, lcms2 says {w:?}",
+                px[i],
+                &got[3 * i..3 * i + 3]
+            );
         }
-        println!("{intent:?}: proof vs lcms2: largest difference {worst} code value(s), {off} of {} pixels differ", px.len());
+        println!(
+            "{intent:?}: proof vs lcms2: largest difference {worst} code value(s), {off} of {} pixels differ",
+            px.len()
+        );
         // Paper: white without paper simulation, the paper's own tint with it.
         let paper = &got[0..3];
         match flag {
@@ -102,7 +130,14 @@ fn rgb_input_side_by_side_and_progressives() {
     }
     let before = std::fs::read(&input).unwrap();
     let out = dir.path().join("look.png");
-    platesmith().arg("proof").arg(&input).arg("--out").arg(&out).args(["--side-by-side", "--progressives", "--table-grid", "17"]).assert().success();
+    platesmith()
+        .arg("proof")
+        .arg(&input)
+        .arg("--out")
+        .arg(&out)
+        .args(["--side-by-side", "--progressives", "--table-grid", "17"])
+        .assert()
+        .success();
     let (sw, sh, both) = rgb_of(&out);
     assert_eq!((sw, sh), (2 * w, h));
     // The left half is the original: sRGB shown on sRGB is unchanged (±1 for
@@ -110,7 +145,10 @@ fn rgb_input_side_by_side_and_progressives() {
     for y in 0..h as usize {
         for x in 0..w as usize {
             for c in 0..3 {
-                let (a, b) = (both[(y * 2 * w as usize + x) * 3 + c] as i32, data[(y * w as usize + x) * 3 + c] as i32);
+                let (a, b) = (
+                    both[(y * 2 * w as usize + x) * 3 + c] as i32,
+                    data[(y * w as usize + x) * 3 + c] as i32,
+                );
                 assert!((a - b).abs() <= 1, "({x}, {y}): {a} vs {b}");
             }
         }
@@ -118,14 +156,23 @@ fn rgb_input_side_by_side_and_progressives() {
     // Progressives: cyan alone has no red light absorbed less than the full build.
     let names = ["1-c", "2-cm", "3-cmy", "4-cmyk"];
     let images: Vec<Vec<u8>> = names.iter().map(|n| rgb_of(&dir.path().join(format!("look.{n}.png"))).2).collect();
-    let right: Vec<u8> = (0..h as usize).flat_map(|y| both[(y * 2 * w as usize + w as usize) * 3..(y + 1) * 2 * w as usize * 3].to_vec()).collect();
+    let right: Vec<u8> = (0..h as usize)
+        .flat_map(|y| both[(y * 2 * w as usize + w as usize) * 3..(y + 1) * 2 * w as usize * 3].to_vec())
+        .collect();
     assert_eq!(images[3], right, "the full progressive is the proof");
     // Each added ink can only darken (ink absorbs light): sum of values falls.
     let sum = |v: &Vec<u8>| v.iter().map(|&x| x as u64).sum::<u64>();
     assert!(sum(&images[0]) >= sum(&images[1]) && sum(&images[1]) >= sum(&images[2]) && sum(&images[2]) >= sum(&images[3]));
     assert_eq!(std::fs::read(&input).unwrap(), before, "input changed");
     // Existing outputs are kept without --force.
-    platesmith().arg("proof").arg(&input).arg("--out").arg(&out).assert().code(2).stderr(predicates::str::contains("--force"));
+    platesmith()
+        .arg("proof")
+        .arg(&input)
+        .arg("--out")
+        .arg(&out)
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("--force"));
 }
 
 #[test]
@@ -134,19 +181,67 @@ fn bad_input_is_an_error_naming_the_file() {
     let bad = dir.path().join("not-an-image.png");
     std::fs::write(&bad, b"plain text").unwrap();
     let out = dir.path().join("p.png");
-    platesmith().arg("proof").arg(&bad).arg("--out").arg(&out).assert().code(2).stderr(predicates::str::contains("not-an-image.png"));
+    platesmith()
+        .arg("proof")
+        .arg(&bad)
+        .arg("--out")
+        .arg(&out)
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("not-an-image.png"));
     let input = dir.path().join("builds.tif");
     cmyk_file(&input);
     let display = dir.path().join("display.icc");
     std::fs::write(&display, b"no profile here, just some words to fill the file up").unwrap();
-    platesmith().arg("proof").arg(&input).arg("--out").arg(&out).arg("--display-profile").arg(&display).assert().code(2).stderr(predicates::str::contains("display.icc"));
+    platesmith()
+        .arg("proof")
+        .arg(&input)
+        .arg("--out")
+        .arg(&out)
+        .arg("--display-profile")
+        .arg(&display)
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("display.icc"));
     // CMYK without an embedded profile has no original to show.
-    platesmith().arg("proof").arg(&input).arg("--out").arg(&out).arg("--side-by-side").assert().code(2).stderr(predicates::str::contains("no embedded profile"));
+    platesmith()
+        .arg("proof")
+        .arg(&input)
+        .arg("--out")
+        .arg(&out)
+        .arg("--side-by-side")
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("no embedded profile"));
     // The reading limits apply, from the flags and from the ticket.
-    platesmith().arg("proof").arg(&input).arg("--out").arg(&out).args(["--max-side", "80"]).assert().code(2).stderr(predicates::str::contains("builds.tif"));
+    platesmith()
+        .arg("proof")
+        .arg(&input)
+        .arg("--out")
+        .arg(&out)
+        .args(["--max-side", "80"])
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("builds.tif"));
     let ticket = dir.path().join("job.toml");
     std::fs::write(&ticket, "[limits]\nmax_side = 80\n").unwrap();
-    platesmith().arg("proof").arg(&input).arg("--out").arg(&out).arg("--ticket").arg(&ticket).assert().code(2).stderr(predicates::str::contains("builds.tif"));
+    platesmith()
+        .arg("proof")
+        .arg(&input)
+        .arg("--out")
+        .arg(&out)
+        .arg("--ticket")
+        .arg(&ticket)
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("builds.tif"));
     assert!(!out.exists());
-    platesmith().arg("proof").arg(&input).arg("--out").arg(&out).args(["--max-side", "81"]).assert().success();
+    platesmith()
+        .arg("proof")
+        .arg(&input)
+        .arg("--out")
+        .arg(&out)
+        .args(["--max-side", "81"])
+        .assert()
+        .success();
 }

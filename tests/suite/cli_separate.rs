@@ -26,10 +26,18 @@ fn write_png(path: &Path, width: u32, height: u32, channels: u8, bits: u8, data:
     info.bit_depth = if bits == 16 { png::BitDepth::Sixteen } else { png::BitDepth::Eight };
     info.icc_profile = icc.map(std::borrow::Cow::Owned);
     // 150 ppi in pHYs (pixels per metre, ISO/IEC 15948 §11.3.5.3).
-    info.pixel_dims = Some(png::PixelDimensions { xppu: 5906, yppu: 5906, unit: png::Unit::Meter });
+    info.pixel_dims = Some(png::PixelDimensions {
+        xppu: 5906,
+        yppu: 5906,
+        unit: png::Unit::Meter,
+    });
     let enc = png::Encoder::with_info(std::io::BufWriter::new(file), info).unwrap();
     let mut w = enc.write_header().unwrap();
-    let bytes: Vec<u8> = if bits == 16 { data.iter().flat_map(|v| v.to_be_bytes()).collect() } else { data.iter().map(|&v| v as u8).collect() };
+    let bytes: Vec<u8> = if bits == 16 {
+        data.iter().flat_map(|v| v.to_be_bytes()).collect()
+    } else {
+        data.iter().map(|&v| v as u8).collect()
+    };
     w.write_image_data(&bytes).unwrap();
 }
 
@@ -61,7 +69,9 @@ struct Outputs {
 
 impl Outputs {
     fn new() -> Outputs {
-        Outputs { dir: tempfile::tempdir().unwrap() }
+        Outputs {
+            dir: tempfile::tempdir().unwrap(),
+        }
     }
     fn path(&self, name: &str) -> PathBuf {
         self.dir.path().join(name)
@@ -76,7 +86,14 @@ fn samples_u32(s: &Samples) -> Vec<u32> {
 }
 
 fn separate(input: &Path, out: &Path, extra: &[&str]) -> assert_cmd::assert::Assert {
-    platesmith().arg("separate").arg(input).arg("--out-dir").arg(out).args(["--table-grid", "17"]).args(extra).assert()
+    platesmith()
+        .arg("separate")
+        .arg(input)
+        .arg("--out-dir")
+        .arg(out)
+        .args(["--table-grid", "17"])
+        .args(extra)
+        .assert()
 }
 
 #[test]
@@ -120,7 +137,13 @@ fn sixteen_bit_rgba_and_gray_inputs() {
     let c = read_raster(&out.join("rgba16.cmyk.tif"), &Limits::default()).unwrap();
     assert_eq!(c.bits, 16);
     let s: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("rgba16.summary.json")).unwrap()).unwrap();
-    assert!(s["notes"].as_array().unwrap().iter().any(|n| n.as_str().unwrap().contains("alpha flattened")));
+    assert!(
+        s["notes"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|n| n.as_str().unwrap().contains("alpha flattened"))
+    );
     // Fully transparent pixels (x = 0) print as paper: no ink.
     let v = samples_u32(&c.samples);
     assert_eq!(&v[0..4], &[0, 0, 0, 0]);
@@ -129,7 +152,10 @@ fn sixteen_bit_rgba_and_gray_inputs() {
     write_png(&gray, 16, 16, 1, 8, &picture(16, 16, 1, 255), None);
     separate(&gray, &out, &["--gray", "black-only"]).success();
     let g = samples_u32(&read_raster(&out.join("gray.cmyk.tif"), &Limits::default()).unwrap().samples);
-    assert!(g.chunks_exact(4).all(|px| px[0] == 0 && px[1] == 0 && px[2] == 0), "black-only gray used other inks");
+    assert!(
+        g.chunks_exact(4).all(|px| px[0] == 0 && px[1] == 0 && px[2] == 0),
+        "black-only gray used other inks"
+    );
     // Darker gray → more black (monotone).
     let k: Vec<u32> = g.chunks_exact(4).map(|p| p[3]).collect();
     assert!(k[0] >= k[k.len() - 1]);
@@ -138,21 +164,43 @@ fn sixteen_bit_rgba_and_gray_inputs() {
 /// Builds an RGB profile with wide primaries through lcms2 (a test fixture).
 fn wide_profile() -> Vec<u8> {
     use lcms2::{CIExyY, CIExyYTRIPLE, Profile, ToneCurve};
-    let white = CIExyY { x: 0.3127, y: 0.3290, Y: 1.0 };
+    let white = CIExyY {
+        x: 0.3127,
+        y: 0.3290,
+        Y: 1.0,
+    };
     let primaries = CIExyYTRIPLE {
-        Red: CIExyY { x: 0.7347, y: 0.2653, Y: 1.0 },
-        Green: CIExyY { x: 0.1152, y: 0.8264, Y: 1.0 },
-        Blue: CIExyY { x: 0.1566, y: 0.0177, Y: 1.0 },
+        Red: CIExyY {
+            x: 0.7347,
+            y: 0.2653,
+            Y: 1.0,
+        },
+        Green: CIExyY {
+            x: 0.1152,
+            y: 0.8264,
+            Y: 1.0,
+        },
+        Blue: CIExyY {
+            x: 0.1566,
+            y: 0.0177,
+            Y: 1.0,
+        },
     };
     let curve = ToneCurve::new(2.2);
-    Profile::new_rgb(&white, &primaries, &[&curve, &curve, &curve]).unwrap().icc().unwrap()
+    Profile::new_rgb(&white, &primaries, &[&curve, &curve, &curve])
+        .unwrap()
+        .icc()
+        .unwrap()
 }
 
 #[test]
 fn an_embedded_profile_changes_the_separation_as_lcms2_predicts() {
     let o = Outputs::new();
     let out = o.path("out");
-    let pixels: Vec<u16> = [[40u16, 200, 60], [200, 60, 40]].iter().flat_map(|p| p.iter().copied().cycle().take(3 * 32)).collect();
+    let pixels: Vec<u16> = [[40u16, 200, 60], [200, 60, 40]]
+        .iter()
+        .flat_map(|p| p.iter().copied().cycle().take(3 * 32))
+        .collect();
     let plain = o.path("plain.png");
     let tagged = o.path("tagged.png");
     write_png(&plain, 8, 8, 3, 8, &pixels, None);
@@ -175,7 +223,10 @@ fn a_garbage_profile_is_an_error_unless_ignored() {
     let input = o.path("bad-icc.png");
     write_png(&input, 4, 4, 3, 8, &picture(4, 4, 3, 255), Some(vec![7u8; 300]));
     let before = std::fs::read(&input).unwrap();
-    separate(&input, &out, &[]).code(2).stderr(predicates::str::contains("bad-icc.png")).stderr(predicates::str::contains("--ignore-bad-profile"));
+    separate(&input, &out, &[])
+        .code(2)
+        .stderr(predicates::str::contains("bad-icc.png"))
+        .stderr(predicates::str::contains("--ignore-bad-profile"));
     assert!(!out.join("bad-icc.cmyk.tif").exists());
     separate(&input, &out, &["--ignore-bad-profile"]).success();
     assert_eq!(std::fs::read(&input).unwrap(), before, "input changed");
@@ -189,7 +240,9 @@ fn existing_outputs_are_kept_without_force() {
     write_png(&input, 4, 4, 3, 8, &picture(4, 4, 3, 255), None);
     separate(&input, &out, &[]).success();
     let first = std::fs::read(out.join("a.cmyk.tif")).unwrap();
-    separate(&input, &out, &["--tac", "250"]).code(2).stderr(predicates::str::contains("a.cmyk.tif"));
+    separate(&input, &out, &["--tac", "250"])
+        .code(2)
+        .stderr(predicates::str::contains("a.cmyk.tif"));
     assert_eq!(std::fs::read(out.join("a.cmyk.tif")).unwrap(), first);
     separate(&input, &out, &["--tac", "250", "--force"]).success();
     assert_ne!(std::fs::read(out.join("a.cmyk.tif")).unwrap(), first);
@@ -244,13 +297,23 @@ fn one_bad_file_does_not_stop_the_others() {
 #[test]
 fn the_printed_ticket_repeats_the_job() {
     let o = Outputs::new();
-    let out = platesmith().args(["separate", "--print-ticket", "--tac", "290", "--gcr", "70", "--intent", "relative"]).output().unwrap();
+    let out = platesmith()
+        .args(["separate", "--print-ticket", "--tac", "290", "--gcr", "70", "--intent", "relative"])
+        .output()
+        .unwrap();
     assert!(out.status.success());
     let text = String::from_utf8(out.stdout).unwrap();
-    assert!(text.contains("tac = 290") && text.contains("gcr = 70") && text.contains("intent = \"relative\""), "{text}");
+    assert!(
+        text.contains("tac = 290") && text.contains("gcr = 70") && text.contains("intent = \"relative\""),
+        "{text}"
+    );
     let ticket = o.path("job.toml");
     std::fs::write(&ticket, &text).unwrap();
-    let again = platesmith().args(["separate", "--print-ticket", "--ticket"]).arg(&ticket).output().unwrap();
+    let again = platesmith()
+        .args(["separate", "--print-ticket", "--ticket"])
+        .arg(&ticket)
+        .output()
+        .unwrap();
     assert_eq!(String::from_utf8(again.stdout).unwrap(), text);
 }
 
@@ -268,18 +331,31 @@ fn bad_tickets_name_file_key_and_line() {
         .stderr(predicates::str::contains("line 2"))
         .stderr(predicates::str::contains("model.tac"));
     std::fs::write(&ticket, "[model]\ngcr = 50\nshade = 3\n").unwrap();
-    platesmith().args(["separate", "x.png", "--ticket"]).arg(&ticket).assert().code(2).stderr(predicates::str::contains("line 3"));
+    platesmith()
+        .args(["separate", "x.png", "--ticket"])
+        .arg(&ticket)
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("line 3"));
 }
 
 #[test]
 fn out_of_range_flags_are_usage_errors() {
     platesmith().args(["separate", "x.png", "--gcr", "-5"]).assert().code(2);
-    platesmith().args(["recipe", "#ff0000", "--tac", "450"]).assert().code(2).stderr(predicates::str::contains("100–400"));
+    platesmith()
+        .args(["recipe", "#ff0000", "--tac", "450"])
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("100–400"));
 }
 
 #[test]
 fn written_tiffs_read_in_an_independent_reader() {
-    let ok = std::process::Command::new("python3").args(["-c", "import tifffile, imagecodecs"]).status().map(|s| s.success()).unwrap_or(false);
+    let ok = std::process::Command::new("python3")
+        .args(["-c", "import tifffile, imagecodecs"])
+        .status()
+        .map(|s| s.success())
+        .unwrap_or(false);
     if !ok {
         eprintln!("skipped: python3 with tifffile and imagecodecs is not installed");
         return;
@@ -354,7 +430,10 @@ fn the_composite_embeds_our_output_profile() {
     assert_eq!(p.color_space(), ColorSpaceSignature::CmykData);
     assert_eq!(p.pcs(), ColorSpaceSignature::LabData);
     let description = p.info(lcms2::InfoType::Description, Locale::none()).unwrap();
-    assert!(description.contains("platesmith") && description.contains("coated-offset") && description.contains("TAC 300 %"), "{description}");
+    assert!(
+        description.contains("platesmith") && description.contains("coated-offset") && description.contains("TAC 300 %"),
+        "{description}"
+    );
     let plate = read_raster(&out.join("tagged.C.tif"), &Limits::default()).unwrap();
     assert!(plate.icc_profile.is_none());
 }

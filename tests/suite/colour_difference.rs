@@ -64,7 +64,12 @@ fn ciede2000_matches_all_34_sharma_pairs_to_four_decimals() {
         let (a, b) = row.labs();
         let d = ciede2000(a, b);
         let err = (d - row.de2000).abs();
-        assert!(err <= PUBLISHED_TOLERANCE, "pair {}: ours {d:.6}, published {:.4}", row.pair, row.de2000);
+        assert!(
+            err <= PUBLISHED_TOLERANCE,
+            "pair {}: ours {d:.6}, published {:.4}",
+            row.pair,
+            row.de2000
+        );
         // The formula is symmetric; the table relies on it (pairs 7 and 8).
         assert!((ciede2000(b, a) - d).abs() < 1e-12, "pair {} is not symmetric", row.pair);
         if err > worst.0 {
@@ -82,7 +87,11 @@ fn sharma_pair_14_opposite_hues_take_the_published_branch() {
     // Pair 14: h'1 and h'2 differ by exactly 180° in exact arithmetic; the mean
     // hue must be 180.0345° and ΔE00 4.8045 (Sharma et al. 2005, Table 1),
     // whatever the last bit of atan2.
-    let t = ciede2000_terms(Lab::new(50.0, -0.0010, 2.4900), Lab::new(50.0, 0.0010, -2.4900), De2000Weights::default());
+    let t = ciede2000_terms(
+        Lab::new(50.0, -0.0010, 2.4900),
+        Lab::new(50.0, 0.0010, -2.4900),
+        De2000Weights::default(),
+    );
     assert!((t.h_mean - 180.0345).abs() < 5e-5, "mean hue {}", t.h_mean);
     assert!((t.delta_e - 4.8045).abs() < PUBLISHED_TOLERANCE, "{}", t.delta_e);
 }
@@ -123,8 +132,20 @@ fn cie76_and_cie94_match_colour_science_on_the_sharma_pairs() {
         let (a, b) = row.labs();
         let e76 = (delta_e76(a, b) - row.cs_de76).abs();
         let e94 = (delta_e94(a, b) - row.cs_de94).abs();
-        assert!(e76 <= COLOUR_SCIENCE_TOLERANCE, "pair {}: CIE76 {} vs {}", row.pair, delta_e76(a, b), row.cs_de76);
-        assert!(e94 <= COLOUR_SCIENCE_TOLERANCE, "pair {}: CIE94 {} vs {}", row.pair, delta_e94(a, b), row.cs_de94);
+        assert!(
+            e76 <= COLOUR_SCIENCE_TOLERANCE,
+            "pair {}: CIE76 {} vs {}",
+            row.pair,
+            delta_e76(a, b),
+            row.cs_de76
+        );
+        assert!(
+            e94 <= COLOUR_SCIENCE_TOLERANCE,
+            "pair {}: CIE94 {} vs {}",
+            row.pair,
+            delta_e94(a, b),
+            row.cs_de94
+        );
         worst76 = worst76.max(e76);
         worst94 = worst94.max(e94);
     }

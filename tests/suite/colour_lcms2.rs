@@ -47,7 +47,15 @@ fn srgb_8_bit_to_lab_matches_lcms2() {
     let mut rng = SplitMix64(0x5EED_0008);
     let mut pixels: Vec<[u8; 3]> = (0..SAMPLES).map(|_| [0; 3].map(|_: u8| (rng.next_u64() >> 56) as u8)).collect();
     // The corners of the cube and the darkest codes (linear segment of the curve) are always included.
-    pixels.extend([[0, 0, 0], [255, 255, 255], [255, 0, 0], [0, 255, 0], [0, 0, 255], [1, 1, 1], [10, 10, 10]]);
+    pixels.extend([
+        [0, 0, 0],
+        [255, 255, 255],
+        [255, 0, 0],
+        [0, 255, 0],
+        [0, 0, 255],
+        [1, 1, 1],
+        [10, 10, 10],
+    ]);
     let transform: Transform<[u8; 3], [f64; 3]> = Transform::new(
         &Profile::new_srgb(),
         PixelFormat::RGB_8,
@@ -60,7 +68,10 @@ fn srgb_8_bit_to_lab_matches_lcms2() {
     transform.transform_pixels(&pixels, &mut lab);
     let codes: Vec<[u16; 3]> = pixels.iter().map(|p| p.map(u16::from)).collect();
     let (worst, at) = compare_srgb(&codes, 8, &lab);
-    eprintln!("sRGB 8-bit → Lab D50 vs lcms2, {} colours: max ΔE00 = {worst:.2e} at {at:?}", codes.len());
+    eprintln!(
+        "sRGB 8-bit → Lab D50 vs lcms2, {} colours: max ΔE00 = {worst:.2e} at {at:?}",
+        codes.len()
+    );
     assert!(worst <= RGB_TOLERANCE, "max ΔE00 {worst} at {at:?}");
 }
 
@@ -88,15 +99,23 @@ fn srgb_16_bit_to_lab_matches_lcms2() {
     let mut lab = vec![[0.0; 3]; pixels.len()];
     transform.transform_pixels(&pixels, &mut lab);
     let (worst, at) = compare_srgb(&pixels, 16, &lab);
-    eprintln!("sRGB 16-bit → Lab D50 vs lcms2, {} colours: max ΔE00 = {worst:.2e} at {at:?}", pixels.len());
+    eprintln!(
+        "sRGB 16-bit → Lab D50 vs lcms2, {} colours: max ΔE00 = {worst:.2e} at {at:?}",
+        pixels.len()
+    );
     assert!(worst <= RGB_TOLERANCE, "max ΔE00 {worst} at {at:?}");
 }
 
 #[test]
 fn ciede2000_matches_lcms2() {
     let mut rng = SplitMix64(0x5EED_2000);
-    let mut random_lab =
-        || Lab::new(100.0 * rng.next_f64(), 256.0 * rng.next_f64() - 128.0, 256.0 * rng.next_f64() - 128.0);
+    let mut random_lab = || {
+        Lab::new(
+            100.0 * rng.next_f64(),
+            256.0 * rng.next_f64() - 128.0,
+            256.0 * rng.next_f64() - 128.0,
+        )
+    };
     let mut worst = (0.0_f64, Lab::default(), Lab::default());
     for i in 0..SAMPLES {
         let a = random_lab();
@@ -107,13 +126,15 @@ fn ciede2000_matches_lcms2() {
             let c = random_lab();
             Lab::new(a.l + 0.05 * (c.l - 50.0), a.a + 0.05 * c.a, a.b + 0.05 * c.b)
         };
-        let theirs =
-            CIELab { L: a.l, a: a.a, b: a.b }.cie2000_delta_e(&CIELab { L: b.l, a: b.a, b: b.b }, 1.0, 1.0, 1.0);
+        let theirs = CIELab { L: a.l, a: a.a, b: a.b }.cie2000_delta_e(&CIELab { L: b.l, a: b.a, b: b.b }, 1.0, 1.0, 1.0);
         let d = (ciede2000(a, b) - theirs).abs();
         if d > worst.0 {
             worst = (d, a, b);
         }
     }
-    eprintln!("CIEDE2000 vs lcms2 cmsCIE2000DeltaE, {SAMPLES} pairs: max |difference| = {:.2e}", worst.0);
+    eprintln!(
+        "CIEDE2000 vs lcms2 cmsCIE2000DeltaE, {SAMPLES} pairs: max |difference| = {:.2e}",
+        worst.0
+    );
     assert!(worst.0 <= DE2000_TOLERANCE, "{worst:?}");
 }

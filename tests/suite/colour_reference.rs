@@ -30,8 +30,7 @@ struct Row {
 
 impl Row {
     fn space(&self) -> RgbSpace {
-        RgbSpace::from_name(&self.space)
-            .unwrap_or_else(|| panic!("unknown space {:?} in the reference CSV", self.space))
+        RgbSpace::from_name(&self.space).unwrap_or_else(|| panic!("unknown space {:?} in the reference CSV", self.space))
     }
 
     fn lab(&self) -> Lab {

@@ -2,9 +2,7 @@
 //! encoding of IEC 61966-2-1, the CIELAB equations of CIE 15:2004 /
 //! ISO/CIE 11664-4, and the published RGB → XYZ matrices of the RGB spaces.
 
-use platesmith::colour::{
-    D50, D65, EncodedRgb, Lab, LinearRgb, Mat3, RgbSpace, Transfer, Xyz, bradford_adaptation, rgb_to_xyz_matrix,
-};
+use platesmith::colour::{D50, D65, EncodedRgb, Lab, LinearRgb, Mat3, RgbSpace, Transfer, Xyz, bradford_adaptation, rgb_to_xyz_matrix};
 
 /// Largest absolute difference between two matrices.
 fn max_matrix_deviation(a: &Mat3, b: &Mat3) -> f64 {
@@ -22,7 +20,10 @@ fn max_matrix_deviation(a: &Mat3, b: &Mat3) -> f64 {
 fn check_published_matrix(name: &str, ours: &Mat3, published: Mat3, decimals: i32) -> f64 {
     let half_unit = 0.5 * 10f64.powi(-decimals);
     let worst = max_matrix_deviation(ours, &published);
-    assert!(worst <= half_unit + 1e-12, "{name}: our matrix {ours:?} deviates by {worst:e} from {published:?}");
+    assert!(
+        worst <= half_unit + 1e-12,
+        "{name}: our matrix {ours:?} deviates by {worst:e} from {published:?}"
+    );
     eprintln!("{name}: max |ours - published| = {worst:.2e} (published to {decimals} decimals)");
     worst
 }
@@ -105,7 +106,11 @@ fn oprgb_matrix_is_the_published_adobe_rgb_1998_matrix() {
     // Adobe Systems (2005), "Adobe RGB (1998) Color Image Encoding" (5 decimals), as
     // transcribed in colour-science 0.4.7 (MATRIX_ADOBE_RGB1998_TO_XYZ). opRGB of
     // IEC 61966-2-5 has the same primaries, white and 563/256 power.
-    let published = Mat3([[0.57667, 0.18556, 0.18823], [0.29734, 0.62736, 0.07529], [0.02703, 0.07069, 0.99134]]);
+    let published = Mat3([
+        [0.57667, 0.18556, 0.18823],
+        [0.29734, 0.62736, 0.07529],
+        [0.02703, 0.07069, 0.99134],
+    ]);
     let def = RgbSpace::Oprgb.definition();
     check_published_matrix("opRGB RGB→XYZ vs Adobe RGB (1998)", &rgb_to_xyz_matrix(&def), published, 5);
     assert_eq!(def.transfer, Transfer::Power(563.0 / 256.0));
@@ -180,7 +185,10 @@ fn lab_from_xyz_linear_segment_near_black() {
     for yr in [0.0, 1e-5, 1e-4, 0.001, 0.005, 0.008, limit] {
         let lab = Lab::from_xyz(Xyz::new(yr * white.x, yr, yr * white.z));
         assert!((lab.l - 24389.0 / 27.0 * yr).abs() < 1e-10, "Y {yr}: L* {}", lab.l);
-        assert!((lab.l - 903.3 * yr).abs() <= 0.004 * yr + 1e-15, "CIE 15 rounded slope 903.3 at Y {yr}");
+        assert!(
+            (lab.l - 903.3 * yr).abs() <= 0.004 * yr + 1e-15,
+            "CIE 15 rounded slope 903.3 at Y {yr}"
+        );
         assert!(lab.a.abs() < 1e-12 && lab.b.abs() < 1e-12);
     }
     // a*, b* in the linear segment: 500 (841/108)(X/Xn − Y/Yn) and 200 (841/108)(Y/Yn − Z/Zn).
@@ -202,7 +210,11 @@ fn lab_l(yr: f64) -> f64 {
 #[test]
 fn lab_inverse_recovers_xyz_in_both_segments() {
     // The inverse of CIE 15:2004 §8.2.1 (as given in ISO/CIE 11664-4).
-    for xyz in [Xyz::new(0.4, 0.35, 0.2), Xyz::new(0.001, 0.0005, 0.002), Xyz::new(0.01, 0.02, 0.0001)] {
+    for xyz in [
+        Xyz::new(0.4, 0.35, 0.2),
+        Xyz::new(0.001, 0.0005, 0.002),
+        Xyz::new(0.01, 0.02, 0.0001),
+    ] {
         let back = Lab::from_xyz(xyz).to_xyz();
         for (b, w) in back.to_array().iter().zip(xyz.to_array()) {
             assert!((b - w).abs() < 1e-14, "{xyz:?} → {back:?}");

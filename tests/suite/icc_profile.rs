@@ -11,15 +11,13 @@
 //! test, not the quality of that inversion.
 
 use lcms2::{
-    CIExyY, ColorSpaceSignature, Flags, GlobalContext, Intent, Locale, PixelFormat, Profile, ProfileClassSignature,
-    Tag, TagSignature, Transform,
+    CIExyY, ColorSpaceSignature, Flags, GlobalContext, Intent, Locale, PixelFormat, Profile, ProfileClassSignature, Tag, TagSignature,
+    Transform,
 };
 use platesmith::colour::{D50, Lab, ciede2000, delta_e76};
 use platesmith::icc::{IccVersion, OutputProfileSpec, build_output_profile, default_description, encode_lab, grid_lab};
 use platesmith::ink::Cmyk;
-use platesmith::press::icc_model::{
-    DEFAULT_MODEL_GRID, IccColorimetry, IccModelOptions, IccPressModel, condition_from_icc,
-};
+use platesmith::press::icc_model::{DEFAULT_MODEL_GRID, IccColorimetry, IccModelOptions, IccPressModel, condition_from_icc};
 use platesmith::press::{MediaWhite, PressModel, builtin::coated_offset};
 use rayon::prelude::*;
 use std::collections::HashMap;
@@ -82,11 +80,7 @@ fn fixture(tac: f64) -> Fixture {
     let model = coated_offset().model;
     let media = MediaWhite::new(model.paper_xyz());
     let inversion = NearestInversion::new(&*model, media, tac);
-    Fixture {
-        model,
-        media,
-        inversion,
-    }
+    Fixture { model, media, inversion }
 }
 
 fn profile_bytes(f: &Fixture, version: IccVersion, a2b_grid: u32, b2a_grid: u32) -> Vec<u8> {
@@ -141,10 +135,7 @@ fn lab_profile() -> Profile {
     .unwrap()
 }
 
-fn cmyk_to_lab(
-    profile: &Profile,
-    intent: Intent,
-) -> Transform<[f64; 4], [f64; 3], GlobalContext, lcms2::DisallowCache> {
+fn cmyk_to_lab(profile: &Profile, intent: Intent) -> Transform<[f64; 4], [f64; 3], GlobalContext, lcms2::DisallowCache> {
     Transform::new_flags_context(
         GlobalContext::new(),
         profile,
@@ -179,10 +170,7 @@ fn written_profile_is_a_cmyk_output_profile_in_v4_and_v2() {
         let bytes = profile_bytes(&f, version, 9, 9);
         // ICC.1:2022 §7.2: size in bytes 0–3, 'acsp' at 36, class 'prtr' at 12,
         // data colour space 'CMYK' at 16, PCS 'Lab ' at 20.
-        assert_eq!(
-            u32::from_be_bytes(bytes[0..4].try_into().unwrap()) as usize,
-            bytes.len()
-        );
+        assert_eq!(u32::from_be_bytes(bytes[0..4].try_into().unwrap()) as usize, bytes.len());
         assert_eq!(
             (&bytes[12..16], &bytes[16..20], &bytes[20..24]),
             (&b"prtr"[..], &b"CMYK"[..], &b"Lab "[..])
@@ -193,11 +181,7 @@ fn written_profile_is_a_cmyk_output_profile_in_v4_and_v2() {
         assert_eq!(p.color_space(), ColorSpaceSignature::CmykData);
         assert_eq!(p.pcs(), ColorSpaceSignature::LabData);
         let want = version.number();
-        assert!(
-            (p.version() - want).abs() < 1e-9,
-            "{version:?}: version {}",
-            p.version()
-        );
+        assert!((p.version() - want).abs() < 1e-9, "{version:?}: version {}", p.version());
         use TagSignature::*;
         for tag in [
             AToB0Tag,
@@ -214,10 +198,7 @@ fn written_profile_is_a_cmyk_output_profile_in_v4_and_v2() {
             assert!(p.has_tag(tag), "{version:?}: {tag:?} missing");
         }
         for intent in [Intent::Perceptual, Intent::RelativeColorimetric, Intent::Saturation] {
-            assert!(
-                p.is_clut(intent, 0) && p.is_clut(intent, 1),
-                "{version:?}: {intent:?} tables"
-            );
+            assert!(p.is_clut(intent, 0) && p.is_clut(intent, 1), "{version:?}: {intent:?} tables");
         }
         let description = p.info(lcms2::InfoType::Description, Locale::none()).unwrap();
         assert_eq!(description, "platesmith output profile for coated-offset");
@@ -270,9 +251,7 @@ fn icc_model_agrees_with_the_source_model() {
             })
             .collect();
         let (mean, max) = stats(&des);
-        println!(
-            "{version:?}: IccPressModel (21^4 over a 17^4 profile) vs source model: ΔE2000 mean {mean:.3} max {max:.3}"
-        );
+        println!("{version:?}: IccPressModel (21^4 over a 17^4 profile) vs source model: ΔE2000 mean {mean:.3} max {max:.3}");
         assert!(mean <= 0.5, "{version:?}: mean {mean}");
         // The paper and the solids sit on grid nodes of both tables.
         for ink in [Cmyk::ZERO, Cmyk::new(1.0, 0.0, 0.0, 0.0), Cmyk::new(0.0, 0.0, 0.0, 1.0)] {
@@ -406,18 +385,12 @@ fn bad_files_give_errors_naming_the_file() {
         let path = dir.path().join(name);
         std::fs::write(&path, &bytes).unwrap();
         let message = IccPressModel::from_file(&path).unwrap_err().to_string();
-        assert!(
-            message.contains(name) && message.contains(expected),
-            "{name}: {message}"
-        );
+        assert!(message.contains(name) && message.contains(expected), "{name}: {message}");
         assert!(condition_from_icc(&path).is_err());
     }
     let missing = dir.path().join("missing.icc");
     let message = IccPressModel::from_file(&missing).unwrap_err().to_string();
-    assert!(
-        message.contains("missing.icc") && message.contains("cannot read"),
-        "{message}"
-    );
+    assert!(message.contains("missing.icc") && message.contains("cannot read"), "{message}");
 }
 
 #[test]
@@ -444,15 +417,9 @@ fn sampled_grid_error_against_lcms2() {
                 ..IccModelOptions::default()
             };
             let icc = IccPressModel::from_bytes(&bytes, Path::new("grid.icc"), options).unwrap();
-            let des: Vec<f64> = points
-                .iter()
-                .zip(&direct)
-                .map(|(&ink, &d)| ciede2000(icc.lab(ink), d))
-                .collect();
+            let des: Vec<f64> = points.iter().zip(&direct).map(|(&ink, &d)| ciede2000(icc.lab(ink), d)).collect();
             let (mean, max) = stats(&des);
-            println!(
-                "profile {profile_grid}^4, model grid {grid}^4 vs lcms2 direct: ΔE2000 mean {mean:.3} max {max:.3}"
-            );
+            println!("profile {profile_grid}^4, model grid {grid}^4 vs lcms2 direct: ΔE2000 mean {mean:.3} max {max:.3}");
             if grid == DEFAULT_MODEL_GRID {
                 assert!(mean <= 0.1 && max <= 0.5, "default grid: mean {mean} max {max}");
             }
@@ -486,7 +453,10 @@ mod separation_profile {
             IccVersion::V2 => &V2,
         };
         cell.get_or_init(|| {
-            let options = ProfileOptions { version, ..ProfileOptions::default() };
+            let options = ProfileOptions {
+                version,
+                ..ProfileOptions::default()
+            };
             profile_for(&coated_offset(), &settings(SepIntent::Perceptual), &options).expect("profile builds")
         })
     }
@@ -527,7 +497,10 @@ mod separation_profile {
             }
             assert!(p.has_tag(TagSignature::GamutTag));
             let description = p.info(lcms2::InfoType::Description, Locale::none()).unwrap();
-            assert!(description.contains("coated-offset") && description.contains("TAC 330 %"), "{description}");
+            assert!(
+                description.contains("coated-offset") && description.contains("TAC 330 %"),
+                "{description}"
+            );
         }
     }
 
@@ -572,7 +545,9 @@ mod separation_profile {
     }
 
     fn srgb_grid(n: usize) -> Vec<[f64; 3]> {
-        (0..n.pow(3)).map(|i| [i / (n * n), i / n % n, i % n].map(|v| v as f64 / (n - 1) as f64)).collect()
+        (0..n.pow(3))
+            .map(|i| [i / (n * n), i / n % n, i % n].map(|v| v as f64 / (n - 1) as f64))
+            .collect()
     }
 
     #[test]
@@ -600,8 +575,17 @@ mod separation_profile {
                     // lcms2 reads the floating-point BToD tables, whose CLUT
                     // has the separation table's nodes among its own.
                     IccVersion::V4 => {
-                        assert!(a.share >= 0.99, "{version:?} {intent:?}: only {:.2} % within 1 % ink", a.share * 100.0);
-                        assert!(a.worst.0 <= 0.5 && a.mean <= 0.05, "{version:?} {intent:?}: worst {:.2} %, mean {:.3} %", a.worst.0, a.mean);
+                        assert!(
+                            a.share >= 0.99,
+                            "{version:?} {intent:?}: only {:.2} % within 1 % ink",
+                            a.share * 100.0
+                        );
+                        assert!(
+                            a.worst.0 <= 0.5 && a.mean <= 0.05,
+                            "{version:?} {intent:?}: worst {:.2} %, mean {:.3} %",
+                            a.worst.0,
+                            a.mean
+                        );
                     }
                     // Version 2 has only the 16-bit BToA tables: a 33³ CIELAB
                     // grid interpolates across the creases of the separation
@@ -614,8 +598,17 @@ mod separation_profile {
                             SepIntent::Relative => (0.80, 6.5, 0.7),
                             _ => (0.48, 11.5, 1.8),
                         };
-                        assert!(a.share >= min_share, "{version:?} {intent:?}: only {:.2} % within 1 % ink", a.share * 100.0);
-                        assert!(a.p99 <= max_p99 && a.mean <= max_mean, "{version:?} {intent:?}: 99th percentile {:.2} %, mean {:.3} %", a.p99, a.mean);
+                        assert!(
+                            a.share >= min_share,
+                            "{version:?} {intent:?}: only {:.2} % within 1 % ink",
+                            a.share * 100.0
+                        );
+                        assert!(
+                            a.p99 <= max_p99 && a.mean <= max_mean,
+                            "{version:?} {intent:?}: 99th percentile {:.2} %, mean {:.3} %",
+                            a.p99,
+                            a.mean
+                        );
                     }
                 }
             }
@@ -632,14 +625,26 @@ mod separation_profile {
         let p = Profile::new_icc(profile(IccVersion::V4)).unwrap();
         let mut rng = Rng(0x9e37_79b9_7f4a_7c15);
         let rgb: Vec<[f64; 3]> = (0..20_000).map(|_| [rng.unit(), rng.unit(), rng.unit()]).collect();
-        let pixels: Vec<[u8; 3]> = (0..20_000).map(|_| [rng.unit(), rng.unit(), rng.unit()].map(|v| (v * 255.0).round() as u8)).collect();
+        let pixels: Vec<[u8; 3]> = (0..20_000)
+            .map(|_| [rng.unit(), rng.unit(), rng.unit()].map(|v| (v * 255.0).round() as u8))
+            .collect();
         for intent in [SepIntent::Relative, SepIntent::Perceptual] {
             let table = separation_table(intent);
             let mut theirs = vec![[0.0; 4]; rgb.len()];
             srgb_to_cmyk(&p, lcms_intent(intent)).transform_pixels(&rgb, &mut theirs);
             let a = agreement(&rgb, &theirs, &table);
-            println!("{intent:?}: 20 000 random sRGB colours: {:.2} % within 1 % ink, worst {:.3} %, mean {:.4} %", a.share * 100.0, a.worst.0, a.mean);
-            assert!(a.share >= 0.999 && a.worst.0 <= 1.0, "{intent:?}: {:.2} %, worst {:.3} %", a.share * 100.0, a.worst.0);
+            println!(
+                "{intent:?}: 20 000 random sRGB colours: {:.2} % within 1 % ink, worst {:.3} %, mean {:.4} %",
+                a.share * 100.0,
+                a.worst.0,
+                a.mean
+            );
+            assert!(
+                a.share >= 0.999 && a.worst.0 <= 1.0,
+                "{intent:?}: {:.2} %, worst {:.3} %",
+                a.share * 100.0,
+                a.worst.0
+            );
 
             let eight: Transform<[u8; 3], [u8; 4], GlobalContext, lcms2::DisallowCache> = Transform::new_flags_context(
                 GlobalContext::new(),
@@ -656,18 +661,32 @@ mod separation_profile {
             let flat: Vec<u8> = pixels.iter().flatten().copied().collect();
             let mut ours = vec![0u8; pixels.len() * 4];
             table.apply_rgb8(&flat, &mut ours, pixels.len());
-            let diffs: Vec<i32> = ours.iter().zip(lcms_out.iter().flatten()).map(|(&a, &b)| (a as i32 - b as i32).abs()).collect();
+            let diffs: Vec<i32> = ours
+                .iter()
+                .zip(lcms_out.iter().flatten())
+                .map(|(&a, &b)| (a as i32 - b as i32).abs())
+                .collect();
             let within = diffs.iter().filter(|&&d| d <= 1).count() as f64 / diffs.len() as f64;
             let max = diffs.iter().copied().max().unwrap();
-            println!("{intent:?}: 8-bit through lcms2's device link vs separate: {:.3} % of channels within 1 code, largest {max} codes", within * 100.0);
-            assert!(within >= 0.995 && max <= 3, "{intent:?}: {:.3} % within 1 code, largest {max}", within * 100.0);
+            println!(
+                "{intent:?}: 8-bit through lcms2's device link vs separate: {:.3} % of channels within 1 code, largest {max} codes",
+                within * 100.0
+            );
+            assert!(
+                within >= 0.995 && max <= 3,
+                "{intent:?}: {:.3} % within 1 code, largest {max}",
+                within * 100.0
+            );
         }
     }
 
     /// The type signature of a tag in a profile's tag table (ICC.1:2022 §7.3).
     fn tag_type(bytes: &[u8], sig: &[u8; 4]) -> Option<[u8; 4]> {
         let word = |at: usize| u32::from_be_bytes(bytes[at..at + 4].try_into().unwrap()) as usize;
-        (0..word(128)).map(|i| 132 + 12 * i).find(|&e| &bytes[e..e + 4] == sig).map(|e| bytes[word(e + 4)..word(e + 4) + 4].try_into().unwrap())
+        (0..word(128))
+            .map(|i| 132 + 12 * i)
+            .find(|&e| &bytes[e..e + 4] == sig)
+            .map(|e| bytes[word(e + 4)..word(e + 4) + 4].try_into().unwrap())
     }
 
     #[test]
@@ -689,20 +708,36 @@ mod separation_profile {
         // (sRGB → CIELAB by IEC 61966-2-1, checked against lcms2 in
         // tests/suite/colour_lcms2.rs). Held at its measured level.
         let p = Profile::new_icc(v4).unwrap();
-        let Tag::Pipeline(b2a1) = p.read_tag(TagSignature::BToA1Tag) else { panic!("no B2A1") };
+        let Tag::Pipeline(b2a1) = p.read_tag(TagSignature::BToA1Tag) else {
+            panic!("no B2A1")
+        };
         let conv = platesmith::colour::RgbSpace::Srgb.converter();
         let rgb = srgb_grid(17);
         let theirs: Vec<[f64; 4]> = rgb
             .iter()
             .map(|&v| {
                 let mut out = [0u16; 4];
-                b2a1.eval(&encode_lab(conv.to_lab(platesmith::colour::EncodedRgb(v)), IccVersion::V4), &mut out);
+                b2a1.eval(
+                    &encode_lab(conv.to_lab(platesmith::colour::EncodedRgb(v)), IccVersion::V4),
+                    &mut out,
+                );
                 out.map(|c| c as f64 / 655.35)
             })
             .collect();
         let a = agreement(&rgb, &theirs, &separation_table(SepIntent::Relative));
-        println!("V4 16-bit BToA1: {:.2} % within 1 % ink, 99th percentile {:.2} %, mean {:.3} %", a.share * 100.0, a.p99, a.mean);
-        assert!(a.share >= 0.80 && a.p99 <= 6.5 && a.mean <= 0.7, "{:.2} % {:.2} {:.3}", a.share * 100.0, a.p99, a.mean);
+        println!(
+            "V4 16-bit BToA1: {:.2} % within 1 % ink, 99th percentile {:.2} %, mean {:.3} %",
+            a.share * 100.0,
+            a.p99,
+            a.mean
+        );
+        assert!(
+            a.share >= 0.80 && a.p99 <= 6.5 && a.mean <= 0.7,
+            "{:.2} % {:.2} {:.3}",
+            a.share * 100.0,
+            a.p99,
+            a.mean
+        );
     }
 
     #[test]
@@ -712,13 +747,28 @@ mod separation_profile {
         // nodes stays in the limit, ICC.1:2022 leaves interpolation to the CMM).
         let tac = settings(SepIntent::Perceptual).tac * 100.0;
         let mut rng = Rng(0x5151_7a7a_0101_3c3c);
-        let labs: Vec<[f64; 3]> = (0..20_000).map(|_| [rng.unit() * 100.0, rng.unit() * 256.0 - 128.0, rng.unit() * 256.0 - 128.0]).collect();
+        let labs: Vec<[f64; 3]> = (0..20_000)
+            .map(|_| [rng.unit() * 100.0, rng.unit() * 256.0 - 128.0, rng.unit() * 256.0 - 128.0])
+            .collect();
         let rgbs: Vec<[f64; 3]> = (0..20_000).map(|_| [rng.unit(), rng.unit(), rng.unit()]).collect();
         for version in VERSIONS {
             let p = Profile::new_icc(profile(version)).unwrap();
-            for intent in [Intent::Perceptual, Intent::RelativeColorimetric, Intent::Saturation, Intent::AbsoluteColorimetric] {
-                let from_lab: Transform<[f64; 3], [f64; 4], GlobalContext, lcms2::DisallowCache> =
-                    Transform::new_flags_context(GlobalContext::new(), &lab_profile(), PixelFormat::Lab_DBL, &p, PixelFormat::CMYK_DBL, intent, Flags::NO_CACHE).unwrap();
+            for intent in [
+                Intent::Perceptual,
+                Intent::RelativeColorimetric,
+                Intent::Saturation,
+                Intent::AbsoluteColorimetric,
+            ] {
+                let from_lab: Transform<[f64; 3], [f64; 4], GlobalContext, lcms2::DisallowCache> = Transform::new_flags_context(
+                    GlobalContext::new(),
+                    &lab_profile(),
+                    PixelFormat::Lab_DBL,
+                    &p,
+                    PixelFormat::CMYK_DBL,
+                    intent,
+                    Flags::NO_CACHE,
+                )
+                .unwrap();
                 let mut out = vec![[0.0; 4]; labs.len()];
                 from_lab.transform_pixels(&labs, &mut out);
                 let mut worst = out.iter().map(|c| c.iter().sum::<f64>()).fold(0.0, f64::max);
@@ -750,8 +800,14 @@ mod separation_profile {
             let p = Profile::new_icc(profile(version)).unwrap();
             let relative = cmyk_to_lab(&p, Intent::RelativeColorimetric);
             let absolute = cmyk_to_lab(&p, Intent::AbsoluteColorimetric);
-            let rel: Vec<f64> = inks.iter().map(|&ink| ciede2000(lcms2_lab(&relative, ink), sep.printed_relative(ink))).collect();
-            let abs: Vec<f64> = inks.iter().map(|&ink| ciede2000(lcms2_lab(&absolute, ink), sep.printed_absolute(ink))).collect();
+            let rel: Vec<f64> = inks
+                .iter()
+                .map(|&ink| ciede2000(lcms2_lab(&relative, ink), sep.printed_relative(ink)))
+                .collect();
+            let abs: Vec<f64> = inks
+                .iter()
+                .map(|&ink| ciede2000(lcms2_lab(&absolute, ink), sep.printed_absolute(ink)))
+                .collect();
             let ((rm, rx), (am, ax)) = (stats(&rel), stats(&abs));
             println!("{version:?}: AToB1 vs press model ΔE2000 mean {rm:.3} max {rx:.3}; absolute mean {am:.3} max {ax:.3}");
             // The issue: mean ≤ 0.5 ΔE2000.
@@ -761,7 +817,9 @@ mod separation_profile {
             // paper stays at L* 100.
             // Read from the stored AToB0 table itself: an lcms2 transform to a
             // Lab profile would apply its own v4 black point compensation.
-            let Tag::Pipeline(a2b0) = p.read_tag(TagSignature::AToB0Tag) else { panic!("no A2B0") };
+            let Tag::Pipeline(a2b0) = p.read_tag(TagSignature::AToB0Tag) else {
+                panic!("no A2B0")
+            };
             let perceptual = |ink: Cmyk| {
                 let mut out = [0u16; 3];
                 a2b0.eval(&ink.to_array().map(platesmith::icc::encode_unit), &mut out);
@@ -770,7 +828,14 @@ mod separation_profile {
             let (bp_lab, bp_ink) = sep.black_point();
             let black = perceptual(bp_ink);
             let want = match version {
-                IccVersion::V4 => Lab::from_xyz(platesmith::colour::Xyz::new(PERCEPTUAL_REFERENCE_BLACK.x, PERCEPTUAL_REFERENCE_BLACK.y, PERCEPTUAL_REFERENCE_BLACK.z)).l,
+                IccVersion::V4 => {
+                    Lab::from_xyz(platesmith::colour::Xyz::new(
+                        PERCEPTUAL_REFERENCE_BLACK.x,
+                        PERCEPTUAL_REFERENCE_BLACK.y,
+                        PERCEPTUAL_REFERENCE_BLACK.z,
+                    ))
+                    .l
+                }
                 IccVersion::V2 => 0.0,
             };
             println!("{version:?}: press black L* {:.2} → perceptual PCS L* {:.2}", bp_lab.l, black.l);
@@ -788,7 +853,9 @@ mod separation_profile {
         let sep = Separator::new(coated_offset(), settings(SepIntent::Relative)).unwrap();
         for version in VERSIONS {
             let p = Profile::new_icc(profile(version)).unwrap();
-            let Tag::Pipeline(gamut) = p.read_tag(TagSignature::GamutTag) else { panic!("no gamt") };
+            let Tag::Pipeline(gamut) = p.read_tag(TagSignature::GamutTag) else {
+                panic!("no gamt")
+            };
             let code = |lab: Lab| {
                 let mut out = [0u16];
                 gamut.eval(&encode_lab(lab, version), &mut out);
@@ -799,11 +866,16 @@ mod separation_profile {
             assert_eq!(code(Lab::new(50.0, 0.0, 0.0)), 0, "{version:?}");
             // sRGB blue (lcms2 gives L* 29.6 a* 68.3 b* −112.0 relative to D50) lies
             // about 30 ΔE2000 outside a coated offset gamut.
-            let blue = platesmith::colour::RgbSpace::Srgb.converter().to_lab(platesmith::colour::EncodedRgb([0.0, 0.0, 1.0]));
+            let blue = platesmith::colour::RgbSpace::Srgb
+                .converter()
+                .to_lab(platesmith::colour::EncodedRgb([0.0, 0.0, 1.0]));
             let outside = code(blue);
             let measured = ciede2000(blue, sep.printed_relative(Cmyk::from_array(sep.invert(blue, None).x)));
             println!("{version:?}: sRGB blue gamut code {outside}, ΔE2000 to the clipped print {measured:.1}");
-            assert!(outside >= 5 && (outside as f64 - measured).abs() <= 3.0, "{version:?}: {outside} vs {measured:.1}");
+            assert!(
+                outside >= 5 && (outside as f64 - measured).abs() <= 3.0,
+                "{version:?}: {outside} vs {measured:.1}"
+            );
         }
     }
 }

@@ -4,9 +4,9 @@
 //! Tests that change process-wide state (environment variables) live in binaries of their
 //! own beside this folder (`tests/raster_fail_env.rs`).
 
+mod jpeg;
 #[path = "../support/rng.rs"]
 mod rng;
-mod jpeg;
 
 mod bad_inputs;
 mod cli_conditions;

@@ -57,7 +57,12 @@ fn tone_value_at_50_percent_is_50_plus_the_configured_tvi() {
             let half = m.xyz(Cmyk::from_array(a)).to_array()[ch];
             let tv = murray_davies_tone_value(half, m.paper_xyz().to_array()[ch], solid);
             let want = 0.5 + tvi[ink.index()];
-            assert!((tv - want).abs() <= 0.005, "{} {}: tone value {tv:.4}, want {want:.4}", c.name, ink.name());
+            assert!(
+                (tv - want).abs() <= 0.005,
+                "{} {}: tone value {tv:.4}, want {want:.4}",
+                c.name,
+                ink.name()
+            );
             assert!((predicted_tvi(m, ink, 0.5) - tvi[ink.index()]).abs() <= 0.005);
         }
         for ink in [Ink::Magenta, Ink::Black] {
@@ -107,16 +112,15 @@ fn gray_balance_is_near_the_rule_of_thumb_on_coated_stock() {
         let g = gray_balance(c.model.as_ref(), 0.5);
         eprintln!(
             "{}: neutral at C {:.1} M {:.1} Y {:.1} % (L* {:.1}; relative a* {:.3} b* {:.3})",
-            c.name,
-            g.cmy_percent[0],
-            g.cmy_percent[1],
-            g.cmy_percent[2],
-            g.absolute_lab.l,
-            g.relative_lab.a,
-            g.relative_lab.b
+            c.name, g.cmy_percent[0], g.cmy_percent[1], g.cmy_percent[2], g.absolute_lab.l, g.relative_lab.a, g.relative_lab.b
         );
         assert!(g.neutral_reached, "{}", c.name);
-        assert!(g.cmy_percent[1] < 50.0 && g.cmy_percent[2] < 50.0, "{}: {:?}", c.name, g.cmy_percent);
+        assert!(
+            g.cmy_percent[1] < 50.0 && g.cmy_percent[2] < 50.0,
+            "{}: {:?}",
+            c.name,
+            g.cmy_percent
+        );
         if c.name == "coated-offset" {
             for v in &g.cmy_percent[1..] {
                 assert!((v - 40.0).abs() <= 10.0, "coated gray balance {:?}", g.cmy_percent);
@@ -129,7 +133,11 @@ fn gray_balance_is_near_the_rule_of_thumb_on_coated_stock() {
 fn four_colour_solid_is_a_realistic_deep_black_for_each_stock() {
     // From memory: 400 % prints about L* 7–10 on gloss coated stock, about
     // 20–25 on uncoated and 25–31 on newsprint (ISO 12647-2/-3 practice).
-    let bands = [("coated-offset", 6.0, 10.5), ("uncoated-offset", 19.0, 25.0), ("newsprint", 25.0, 31.0)];
+    let bands = [
+        ("coated-offset", 6.0, 10.5),
+        ("uncoated-offset", 19.0, 25.0),
+        ("newsprint", 25.0, 31.0),
+    ];
     for (name, lo, hi) in bands {
         let c = builtin::by_name(name).unwrap();
         let l = c.model.lab(Cmyk::new(1.0, 1.0, 1.0, 1.0)).l;

@@ -81,7 +81,11 @@ fn chart(params: &ModelParams, sigma: f64, seed: u64, xyz: bool) -> String {
             }
         }
     }
-    let colour: [&str; 3] = if xyz { ["XYZ_X", "XYZ_Y", "XYZ_Z"] } else { ["LAB_L", "LAB_A", "LAB_B"] };
+    let colour: [&str; 3] = if xyz {
+        ["XYZ_X", "XYZ_Y", "XYZ_Z"]
+    } else {
+        ["LAB_L", "LAB_A", "LAB_B"]
+    };
     let mut fields: Vec<String> = ["SAMPLE_ID", "CMYK_C", "CMYK_M", "CMYK_Y", "CMYK_K"].map(String::from).to_vec();
     fields.extend(colour.map(String::from));
     let table = CgatsTable {
@@ -190,8 +194,15 @@ fn fit_command_writes_a_loadable_condition_and_never_overwrites_silently() {
     assert!(String::from_utf8_lossy(&again.stderr).contains("--force"));
     assert_eq!(std::fs::read_to_string(&out).unwrap(), written);
 
-    let forced =
-        bin().arg("fit").arg(&chart_path).arg("--out").arg(&out).arg("--force").arg("--json").output().unwrap();
+    let forced = bin()
+        .arg("fit")
+        .arg(&chart_path)
+        .arg("--out")
+        .arg(&out)
+        .arg("--force")
+        .arg("--json")
+        .output()
+        .unwrap();
     assert!(forced.status.success());
     let json: serde_json::Value = serde_json::from_slice(&forced.stdout).unwrap();
     assert!(json["residuals"]["mean"].as_f64().unwrap() <= 0.5);
@@ -205,7 +216,14 @@ fn fit_command_reports_malformed_measurements_with_the_line() {
     let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("testdata/press/bad/not-a-number.cgats.txt");
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("x.toml");
-    let run = Command::cargo_bin("platesmith").unwrap().arg("fit").arg(&path).arg("--out").arg(&out).output().unwrap();
+    let run = Command::cargo_bin("platesmith")
+        .unwrap()
+        .arg("fit")
+        .arg(&path)
+        .arg("--out")
+        .arg(&out)
+        .output()
+        .unwrap();
     assert_eq!(run.status.code(), Some(2));
     let err = String::from_utf8_lossy(&run.stderr);
     assert!(err.contains("not-a-number.cgats.txt") && err.contains("line 11"), "{err}");

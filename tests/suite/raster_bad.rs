@@ -56,9 +56,7 @@ fn small_tiff(compression: tiff::encoder::Compression) -> Vec<u8> {
 fn small_jpeg(ct: jpeg_encoder::ColorType, channels: usize) -> Vec<u8> {
     let mut out = Vec::new();
     let data: Vec<u8> = (0..24 * 16 * channels).map(|i| (i * 5 % 251) as u8).collect();
-    jpeg_encoder::Encoder::new(&mut out, 90)
-        .encode(&data, 24, 16, ct)
-        .unwrap();
+    jpeg_encoder::Encoder::new(&mut out, 90).encode(&data, 24, 16, ct).unwrap();
     out
 }
 
@@ -72,10 +70,7 @@ fn empty_text_folder_and_missing_files() {
         &Limits::default(),
     );
     assert!(m.contains("not a PNG, TIFF or JPEG") && m.contains("text"), "{m}");
-    let m = input_error(
-        &save(dir.path(), "blob.jpg", &[0, 1, 2, 250, 251, 3]),
-        &Limits::default(),
-    );
+    let m = input_error(&save(dir.path(), "blob.jpg", &[0, 1, 2, 250, 251, 3]), &Limits::default());
     assert!(m.contains("not a PNG, TIFF or JPEG"), "{m}");
     let sub = dir.path().join("art.png");
     std::fs::create_dir(&sub).unwrap();
@@ -142,9 +137,7 @@ fn corrupted_bytes_never_panic() {
         ("p.png", small_png()),
         (
             "t.tif",
-            small_tiff(tiff::encoder::Compression::Deflate(
-                tiff::encoder::DeflateLevel::Balanced,
-            )),
+            small_tiff(tiff::encoder::Compression::Deflate(tiff::encoder::DeflateLevel::Balanced)),
         ),
         ("j.jpg", small_jpeg(jpeg_encoder::ColorType::Rgb, 3)),
         ("k.jpg", small_jpeg(jpeg_encoder::ColorType::CmykAsYcck, 4)),
@@ -208,9 +201,7 @@ fn limits_refuse_a_huge_tiff_header_before_allocating() {
     let mut c = Cursor::new(Vec::new());
     {
         let mut enc = tiff::encoder::TiffEncoder::new(&mut c).unwrap();
-        let img = enc
-            .new_image::<tiff::encoder::colortype::CMYK8>(100_000, 100_000)
-            .unwrap();
+        let img = enc.new_image::<tiff::encoder::colortype::CMYK8>(100_000, 100_000).unwrap();
         img.finish().unwrap(); // a directory with no strips
     }
     let bytes = c.into_inner();
@@ -222,9 +213,7 @@ fn limits_refuse_a_huge_tiff_header_before_allocating() {
     let mut c = Cursor::new(Vec::new());
     {
         let mut enc = tiff::encoder::TiffEncoder::new_big(&mut c).unwrap();
-        let img = enc
-            .new_image::<tiff::encoder::colortype::Gray16>(100_000, 100_000)
-            .unwrap();
+        let img = enc.new_image::<tiff::encoder::colortype::Gray16>(100_000, 100_000).unwrap();
         img.finish().unwrap();
     }
     let p = save(dir.path(), "huge-big.tif", &c.into_inner());

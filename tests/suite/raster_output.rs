@@ -7,8 +7,7 @@ use std::path::Path;
 
 use platesmith::Error;
 use platesmith::raster::{
-    CmykImage, Compression, Ink, Limits, OutputSet, Samples, TiffOptions, read_raster, write_cmyk_tiff,
-    write_plate_png, write_plate_tiff,
+    CmykImage, Compression, Ink, Limits, OutputSet, Samples, TiffOptions, read_raster, write_cmyk_tiff, write_plate_png, write_plate_tiff,
 };
 
 fn names(dir: &Path) -> Vec<String> {
@@ -43,11 +42,7 @@ fn files_appear_only_on_commit_and_no_temporary_remains() {
     set.stage("b.txt", |w| w.write_all(b"beta")).unwrap();
     assert_eq!(a, dir.path().join("a.txt"));
     // Staged files are hidden temporaries until commit.
-    assert!(
-        names(dir.path())
-            .iter()
-            .all(|n| n.starts_with('.') && n.ends_with(".part"))
-    );
+    assert!(names(dir.path()).iter().all(|n| n.starts_with('.') && n.ends_with(".part")));
     let done = set.commit().unwrap();
     assert_eq!(done.len(), 2);
     assert_eq!(names(dir.path()), ["a.txt", "b.txt"]);
@@ -140,9 +135,7 @@ fn a_failure_midway_through_a_set_keeps_earlier_files_out_of_place() {
     set.stage("job.cmyk.tif", |w| write_cmyk_tiff(w, &img, &TiffOptions::default()))
         .unwrap();
     set.fail_writes_after(1000);
-    let err = set.stage("job.K.tif", |w| {
-        write_plate_tiff(w, &img, Ink::Black, &TiffOptions::default())
-    });
+    let err = set.stage("job.K.tif", |w| write_plate_tiff(w, &img, Ink::Black, &TiffOptions::default()));
     assert!(err.is_err());
     drop(set); // the job gives up
     assert_eq!(names(dir.path()), ["job.K.tif"]);
@@ -173,10 +166,7 @@ fn bad_output_folders_and_names() {
     fs::write(&file, b"").unwrap();
     assert!(output_message(OutputSet::new(&file, false), &file).contains("not a folder"));
     let mut set = OutputSet::new(dir.path(), false).unwrap();
-    assert!(matches!(
-        set.stage("../escape.txt", |_| Ok(())),
-        Err(Error::Internal(_))
-    ));
+    assert!(matches!(set.stage("../escape.txt", |_| Ok(())), Err(Error::Internal(_))));
     set.stage("x.txt", |_| Ok(())).unwrap();
     assert!(output_message(set.stage("x.txt", |_| Ok(())), &dir.path().join("x.txt")).contains("twice"));
 }
@@ -201,13 +191,10 @@ fn a_whole_job_round_trip_leaves_the_input_untouched() {
         icc_profile: None,
     };
     assert!(set.stage("poster.tif", |w| write_cmyk_tiff(w, &cmyk, &opts)).is_err());
-    set.stage("poster.cmyk.tif", |w| write_cmyk_tiff(w, &cmyk, &opts))
-        .unwrap();
+    set.stage("poster.cmyk.tif", |w| write_cmyk_tiff(w, &cmyk, &opts)).unwrap();
     for ink in Ink::ALL {
-        set.stage(&format!("poster.{}.tif", ink.letter()), |w| {
-            write_plate_tiff(w, &cmyk, ink, &opts)
-        })
-        .unwrap();
+        set.stage(&format!("poster.{}.tif", ink.letter()), |w| write_plate_tiff(w, &cmyk, ink, &opts))
+            .unwrap();
         set.stage(&format!("poster.{}.png", ink.letter()), |w| {
             write_plate_png(w, &cmyk, ink, raster.resolution)
         })

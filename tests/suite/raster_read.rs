@@ -72,10 +72,7 @@ fn png_every_layout_at_8_and_16_bit() {
             &png_bytes(w, h, color, png::BitDepth::Eight, &v8, |_| {}),
         );
         let r = read(&p);
-        assert_eq!(
-            (r.width, r.height, r.layout, r.bits, r.format),
-            (w, h, layout, 8, Format::Png)
-        );
+        assert_eq!((r.width, r.height, r.layout, r.bits, r.format), (w, h, layout, 8, Format::Png));
         assert_eq!(r.samples, Samples::U8(v8));
         assert_eq!(r.resolution, None);
         assert_eq!(r.icc_profile, None);
@@ -91,10 +88,7 @@ fn png_every_layout_at_8_and_16_bit() {
         let r = read(&p);
         assert_eq!((r.layout, r.bits), (layout, 16));
         let row_len = w as usize * layout.channels();
-        assert_eq!(
-            r.row(3),
-            platesmith::raster::SampleRow::U16(&v16[3 * row_len..4 * row_len])
-        );
+        assert_eq!(r.row(3), platesmith::raster::SampleRow::U16(&v16[3 * row_len..4 * row_len]));
         assert_eq!(r.samples, Samples::U16(v16));
     }
 }
@@ -140,22 +134,15 @@ fn png_resolution_and_icc_profile() {
     let dir = tempfile::tempdir().unwrap();
     let icc = random_u8(4000, 9);
     let icc2 = icc.clone();
-    let bytes = png_bytes(
-        2,
-        2,
-        png::ColorType::Grayscale,
-        png::BitDepth::Eight,
-        &[0, 1, 2, 3],
-        |info| {
-            // 11811 px/m = 299.9994 ppi (ISO/IEC 15948 §11.3.5.3).
-            info.pixel_dims = Some(png::PixelDimensions {
-                xppu: 11811,
-                yppu: 5906,
-                unit: png::Unit::Meter,
-            });
-            info.icc_profile = Some(Cow::Owned(icc2));
-        },
-    );
+    let bytes = png_bytes(2, 2, png::ColorType::Grayscale, png::BitDepth::Eight, &[0, 1, 2, 3], |info| {
+        // 11811 px/m = 299.9994 ppi (ISO/IEC 15948 §11.3.5.3).
+        info.pixel_dims = Some(png::PixelDimensions {
+            xppu: 11811,
+            yppu: 5906,
+            unit: png::Unit::Meter,
+        });
+        info.icc_profile = Some(Cow::Owned(icc2));
+    });
     let r = read(&save(dir.path(), "res.png", &bytes));
     let res = r.resolution.unwrap();
     assert!((res.x_ppi - 11811.0 * 0.0254).abs() < 1e-9);
@@ -167,14 +154,7 @@ fn png_resolution_and_icc_profile() {
 fn low_bit_gray_png_expands_to_8_bit() {
     let dir = tempfile::tempdir().unwrap();
     // 1-bit gray, 8 px per byte: 0b1010_0000 → white, black, white, black.
-    let bytes = png_bytes(
-        4,
-        1,
-        png::ColorType::Grayscale,
-        png::BitDepth::One,
-        &[0b1010_0000],
-        |_| {},
-    );
+    let bytes = png_bytes(4, 1, png::ColorType::Grayscale, png::BitDepth::One, &[0b1010_0000], |_| {});
     let r = read(&save(dir.path(), "g1.png", &bytes));
     assert_eq!((r.layout, r.bits), (Layout::Gray, 8));
     assert_eq!(r.samples, Samples::U8(vec![255, 0, 255, 0]));
@@ -229,19 +209,9 @@ fn tiff_every_layout_at_8_and_16_bit() {
         assert_eq!(r.samples, Samples::U8(want), "{name}");
     };
     let g = random_u8(px, 1);
-    check8(
-        "g8.tif",
-        tiff_bytes::<ct::Gray8>(w, h, &g, |_| {}),
-        Layout::Gray,
-        g.clone(),
-    );
+    check8("g8.tif", tiff_bytes::<ct::Gray8>(w, h, &g, |_| {}), Layout::Gray, g.clone());
     let rgb = random_u8(px * 3, 2);
-    check8(
-        "rgb8.tif",
-        tiff_bytes::<ct::RGB8>(w, h, &rgb, |_| {}),
-        Layout::Rgb,
-        rgb.clone(),
-    );
+    check8("rgb8.tif", tiff_bytes::<ct::RGB8>(w, h, &rgb, |_| {}), Layout::Rgb, rgb.clone());
     let rgba = random_u8(px * 4, 3);
     check8(
         "rgba8.tif",
@@ -258,18 +228,12 @@ fn tiff_every_layout_at_8_and_16_bit() {
     );
     let ga = random_u8(px * 2, 5);
     let ga_bytes = tiff_bytes::<ct::Gray8>(w, h, &ga, |img| {
-        img.extra_samples(&[tiff::tags::ExtraSamples::UnassociatedAlpha])
-            .unwrap();
+        img.extra_samples(&[tiff::tags::ExtraSamples::UnassociatedAlpha]).unwrap();
     });
     check8("ga8.tif", ga_bytes, Layout::GrayAlpha, ga.clone());
     // WhiteIsZero is returned as gray level: 255 − stored.
     let inverted: Vec<u8> = g.iter().map(|v| 255 - v).collect();
-    check8(
-        "wiz8.tif",
-        tiff_bytes::<GrayWhiteIsZero8>(w, h, &g, |_| {}),
-        Layout::Gray,
-        inverted,
-    );
+    check8("wiz8.tif", tiff_bytes::<GrayWhiteIsZero8>(w, h, &g, |_| {}), Layout::Gray, inverted);
 
     let check16 = |name: &str, bytes: Vec<u8>, layout: Layout, want: Vec<u16>| {
         let r = read(&save(dir.path(), name, &bytes));
@@ -277,19 +241,9 @@ fn tiff_every_layout_at_8_and_16_bit() {
         assert_eq!(r.samples, Samples::U16(want), "{name}");
     };
     let g = random_u16(px, 11);
-    check16(
-        "g16.tif",
-        tiff_bytes::<ct::Gray16>(w, h, &g, |_| {}),
-        Layout::Gray,
-        g.clone(),
-    );
+    check16("g16.tif", tiff_bytes::<ct::Gray16>(w, h, &g, |_| {}), Layout::Gray, g.clone());
     let rgb = random_u16(px * 3, 12);
-    check16(
-        "rgb16.tif",
-        tiff_bytes::<ct::RGB16>(w, h, &rgb, |_| {}),
-        Layout::Rgb,
-        rgb.clone(),
-    );
+    check16("rgb16.tif", tiff_bytes::<ct::RGB16>(w, h, &rgb, |_| {}), Layout::Rgb, rgb.clone());
     let rgba = random_u16(px * 4, 13);
     check16(
         "rgba16.tif",
@@ -336,9 +290,7 @@ fn tiff_resolution_in_centimetres_and_icc_profile() {
 /// Image of flat 16 × 16 blocks, so that JPEG's loss stays within a level or two.
 fn blocks(w: usize, h: usize, channels: usize, seed: u64) -> Vec<u8> {
     let mut r = SplitMix64(seed);
-    let colours: Vec<u8> = (0..(w / 16 + 1) * (h / 16 + 1) * channels)
-        .map(|_| r.next_u64() as u8)
-        .collect();
+    let colours: Vec<u8> = (0..(w / 16 + 1) * (h / 16 + 1) * channels).map(|_| r.next_u64() as u8).collect();
     let mut out = Vec::with_capacity(w * h * channels);
     for y in 0..h {
         for x in 0..w {
@@ -349,13 +301,7 @@ fn blocks(w: usize, h: usize, channels: usize, seed: u64) -> Vec<u8> {
     out
 }
 
-fn jpeg(
-    w: u16,
-    h: u16,
-    data: &[u8],
-    ct: jpeg_encoder::ColorType,
-    edit: impl FnOnce(&mut jpeg_encoder::Encoder<&mut Vec<u8>>),
-) -> Vec<u8> {
+fn jpeg(w: u16, h: u16, data: &[u8], ct: jpeg_encoder::ColorType, edit: impl FnOnce(&mut jpeg_encoder::Encoder<&mut Vec<u8>>)) -> Vec<u8> {
     let mut out = Vec::new();
     let mut enc = jpeg_encoder::Encoder::new(&mut out, 100);
     enc.set_sampling_factor(jpeg_encoder::SamplingFactor::R_4_4_4);
@@ -398,9 +344,7 @@ fn jpeg_gray_rgb_with_density_and_multi_chunk_icc() {
     // A profile larger than one APP2 segment (65 519 bytes) is split into numbered chunks (ICC.1 annex B.4).
     let icc = random_u8(150_000, 5);
     let rgb = blocks(w.into(), h.into(), 3, 2);
-    let bytes = jpeg(w, h, &rgb, jpeg_encoder::ColorType::Rgb, |e| {
-        e.add_icc_profile(&icc).unwrap()
-    });
+    let bytes = jpeg(w, h, &rgb, jpeg_encoder::ColorType::Rgb, |e| e.add_icc_profile(&icc).unwrap());
     let r = read(&save(dir.path(), "rgb.jpg", &bytes));
     assert_eq!(r.layout, Layout::Rgb);
     assert_close(&r.samples, &rgb, 3, "rgb");
@@ -452,10 +396,7 @@ fn one_by_one_images() {
     let r = read(&save(dir.path(), "1.png", &p));
     assert_eq!((r.width, r.height, r.samples), (1, 1, Samples::U8(vec![1, 2, 3])));
     let t = tiff_bytes::<tiff::encoder::colortype::CMYK16>(1, 1, &[1, 2, 3, 65535], |_| {});
-    assert_eq!(
-        read(&save(dir.path(), "1.tif", &t)).samples,
-        Samples::U16(vec![1, 2, 3, 65535])
-    );
+    assert_eq!(read(&save(dir.path(), "1.tif", &t)).samples, Samples::U16(vec![1, 2, 3, 65535]));
     let j = jpeg(1, 1, &[200], jpeg_encoder::ColorType::Luma, |_| {});
     assert_close(&read(&save(dir.path(), "1.jpg", &j)).samples, &[200], 2, "1×1 JPEG");
 }

@@ -8,8 +8,8 @@ use std::path::Path;
 use std::process::Command;
 
 use platesmith::raster::{
-    CmykImage, Compression, Ink, Layout, Limits, Resolution, Samples, TiffOptions, read_raster, write_cmyk_tiff,
-    write_plate_png, write_plate_tiff,
+    CmykImage, Compression, Ink, Layout, Limits, Resolution, Samples, TiffOptions, read_raster, write_cmyk_tiff, write_plate_png,
+    write_plate_tiff,
 };
 
 use crate::rng::SplitMix64;
@@ -21,13 +21,7 @@ fn cmyk(width: u32, height: u32, bits: u8, seed: u64) -> CmykImage {
     let samples = if bits == 8 {
         Samples::U8(
             (0..n)
-                .map(|i| {
-                    if i % 3 == 0 {
-                        (i / 4 % 256) as u8
-                    } else {
-                        rng.next_u64() as u8
-                    }
-                })
+                .map(|i| if i % 3 == 0 { (i / 4 % 256) as u8 } else { rng.next_u64() as u8 })
                 .collect(),
         )
     } else {
@@ -70,19 +64,11 @@ fn parse_ifd(file: &[u8]) -> Vec<Field> {
     };
     let u16_at = |o: usize| {
         let b = [file[o], file[o + 1]];
-        if le {
-            u16::from_le_bytes(b)
-        } else {
-            u16::from_be_bytes(b)
-        }
+        if le { u16::from_le_bytes(b) } else { u16::from_be_bytes(b) }
     };
     let u32_at = |o: usize| {
         let b = [file[o], file[o + 1], file[o + 2], file[o + 3]];
-        if le {
-            u32::from_le_bytes(b)
-        } else {
-            u32::from_be_bytes(b)
-        }
+        if le { u32::from_le_bytes(b) } else { u32::from_be_bytes(b) }
     };
     let ifd = u32_at(4) as usize;
     let n = u16_at(ifd) as usize;
@@ -296,10 +282,7 @@ fn plates_store_the_ink_value_as_white_is_zero() {
                     let stored: Vec<u32> = if bits == 8 {
                         stored.iter().map(|&b| u32::from(b)).collect()
                     } else {
-                        stored
-                            .chunks(2)
-                            .map(|b| u32::from(u16::from_ne_bytes([b[0], b[1]])))
-                            .collect()
+                        stored.chunks(2).map(|b| u32::from(u16::from_ne_bytes([b[0], b[1]]))).collect()
                     };
                     assert_eq!(stored, want, "{ink:?} {bits} bit");
                 }
@@ -327,10 +310,7 @@ fn png_plate_shows_ink_dark_on_white_with_phys() {
         let file = write_to_vec(|w| write_plate_png(w, &image, Ink::Magenta, Some(res)));
         let mut dec = png::Decoder::new(Cursor::new(&file)).read_info().unwrap();
         let info = dec.info();
-        assert_eq!(
-            (info.color_type, info.bit_depth),
-            (png::ColorType::Grayscale, png::BitDepth::Eight)
-        );
+        assert_eq!((info.color_type, info.bit_depth), (png::ColorType::Grayscale, png::BitDepth::Eight));
         // pHYs in pixels per metre: 300 ppi / 0.0254 m = 11811.02 → 11811.
         let dims = info.pixel_dims.unwrap();
         assert_eq!((dims.xppu, dims.yppu, dims.unit), (11811, 5906, png::Unit::Meter));
@@ -338,11 +318,7 @@ fn png_plate_shows_ink_dark_on_white_with_phys() {
         dec.next_frame(&mut buf).unwrap();
         let ink = channel(&image, Ink::Magenta);
         for (g, i) in buf.iter().zip(&ink) {
-            let i8 = if bits == 8 {
-                *i
-            } else {
-                (f64::from(*i) / 257.0).round() as u32
-            };
+            let i8 = if bits == 8 { *i } else { (f64::from(*i) / 257.0).round() as u32 };
             assert_eq!(u32::from(*g), 255 - i8);
         }
     }
@@ -372,11 +348,7 @@ fn independent_reader_tifffile_agrees() {
         };
         std::fs::write(path, bytes).unwrap();
     };
-    for (bits, compression, code) in [
-        (8u8, Compression::None, 1),
-        (16, Compression::Lzw, 5),
-        (8, Compression::Deflate, 8),
-    ] {
+    for (bits, compression, code) in [(8u8, Compression::None, 1), (16, Compression::Lzw, 5), (8, Compression::Deflate, 8)] {
         let image = cmyk(123, 45, bits, u64::from(bits) * 3 + code);
         let res = Resolution {
             x_ppi: 300.0,
@@ -408,11 +380,7 @@ fn independent_reader_tifffile_agrees() {
         }
     }
     let spec = dir.path().join("spec.json");
-    std::fs::write(
-        &spec,
-        serde_json::to_vec(&serde_json::json!({ "files": files })).unwrap(),
-    )
-    .unwrap();
+    std::fs::write(&spec, serde_json::to_vec(&serde_json::json!({ "files": files })).unwrap()).unwrap();
     let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("scripts/check_tiff.py");
     let out = Command::new("python3").arg(script).arg(&spec).output().unwrap();
     let text = String::from_utf8_lossy(&out.stdout);

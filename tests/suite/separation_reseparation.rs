@@ -129,9 +129,7 @@ fn pure_black_stays_black_only() {
             assert!((px[3] as f64 - k as f64).abs() <= 1.0, "source K {k} -> {}", px[3]);
         }
     }
-    let input16: Vec<u16> = (0..=1000u32)
-        .flat_map(|i| [0, 0, 0, (i * 65535 / 1000) as u16])
-        .collect();
+    let input16: Vec<u16> = (0..=1000u32).flat_map(|i| [0, 0, 0, (i * 65535 / 1000) as u16]).collect();
     let mut out16 = vec![0u16; input16.len()];
     table.apply_cmyk16(&input16, &mut out16, 100);
     let mut prev = 0u16;
@@ -179,15 +177,8 @@ fn black_curve_matches_source_lightness() {
 fn check_8bit(px: &[u8], tac: f64, kmax: f64, what: &str) {
     let total: u32 = px.iter().map(|&v| v as u32).sum();
     // ≤ TAC + 1 % after 8-bit quantisation (issue requirement).
-    assert!(
-        total as f64 / 255.0 <= tac + 0.01,
-        "{what}: 8-bit total {total} over {tac}"
-    );
-    assert!(
-        px[3] as f64 / 255.0 <= kmax + 0.5 / 255.0 + 1e-9,
-        "{what}: 8-bit black {}",
-        px[3]
-    );
+    assert!(total as f64 / 255.0 <= tac + 0.01, "{what}: 8-bit total {total} over {tac}");
+    assert!(px[3] as f64 / 255.0 <= kmax + 0.5 / 255.0 + 1e-9, "{what}: 8-bit black {}", px[3]);
 }
 
 /// The target's ink limit and maximum black hold at every node and for
@@ -219,11 +210,7 @@ fn target_limits_hold_for_every_node_and_pixel() {
                 let pure_black = rng.next_f64() < 0.1;
                 let mut px = [0u8; 4];
                 for (ch, v) in px.iter_mut().enumerate() {
-                    *v = if pure_black && ch < 3 {
-                        0
-                    } else {
-                        (rng.next_f64() * 256.0) as u8
-                    };
+                    *v = if pure_black && ch < 3 { 0 } else { (rng.next_f64() * 256.0) as u8 };
                 }
                 px
             })
@@ -262,9 +249,7 @@ fn reseparation_is_independent_of_thread_count() {
         let pool = rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap();
         pool.install(|| {
             let t = ReseparationTable::build(&sep, &source, true, 7).unwrap();
-            let input: Vec<u8> = (0..40_000u32)
-                .map(|i| (i.wrapping_mul(2654435761) >> 24) as u8)
-                .collect();
+            let input: Vec<u8> = (0..40_000u32).map(|i| (i.wrapping_mul(2654435761) >> 24) as u8).collect();
             let mut out = vec![0u8; input.len()];
             t.apply_cmyk8(&input, &mut out, 100);
             (t, out)
@@ -341,9 +326,7 @@ fn sixteen_bit_path_agrees_with_lookup() {
     let mut out = vec![0u16; input.len()];
     table.apply_cmyk16(&input, &mut out, 64);
     for (px, got) in input.chunks_exact(4).zip(out.chunks_exact(4)) {
-        let want = table.lookup(Cmyk::from_array(
-            [px[0], px[1], px[2], px[3]].map(|v| v as f64 / 65535.0),
-        ));
+        let want = table.lookup(Cmyk::from_array([px[0], px[1], px[2], px[3]].map(|v| v as f64 / 65535.0)));
         for (g, w) in got.iter().zip(want.to_array()) {
             assert!((*g as f64 - w * 65535.0).abs() <= 2.0, "{px:?}: {got:?} vs {want:?}");
         }

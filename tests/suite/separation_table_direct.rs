@@ -30,7 +30,13 @@ fn settings() -> impl Strategy<Value = SeparationSettings> {
         .prop_map(|(tac, gcr, black_start, black_max, shape, uca, intent, bpc)| {
             let mut s = SeparationSettings::for_condition(&coated_offset());
             s.tac = tac;
-            s.black = BlackGeneration { gcr, black_start, black_max, shape, uca };
+            s.black = BlackGeneration {
+                gcr,
+                black_start,
+                black_max,
+                shape,
+                uca,
+            };
             s.intent = intent;
             s.bpc = bpc;
             s.table_grid = 17;
