@@ -117,12 +117,11 @@ pub fn line_of(text: &str, section: &str, key: &str) -> Option<usize> {
             current = rest.trim_end_matches(']').trim().to_string();
             continue;
         }
-        if current == section {
-            if let Some((k, _)) = t.split_once('=') {
-                if k.trim().trim_matches('"') == key {
-                    return Some(i + 1);
-                }
-            }
+        if current == section
+            && let Some((k, _)) = t.split_once('=')
+            && k.trim().trim_matches('"') == key
+        {
+            return Some(i + 1);
         }
     }
     None
@@ -174,16 +173,16 @@ impl Ticket {
             ("uca", m.uca, 0.0, 100.0),
         ];
         for (key, value, lo, hi) in ranges {
-            if let Some(v) = value {
-                if !(v.is_finite() && (lo..=hi).contains(&v)) {
-                    return Err(self.error_at("model", key, format!("= {v}: allowed range is {lo}–{hi}")));
-                }
+            if let Some(v) = value
+                && !(v.is_finite() && (lo..=hi).contains(&v))
+            {
+                return Err(self.error_at("model", key, format!("= {v}: allowed range is {lo}–{hi}")));
             }
         }
-        if let Some(n) = m.table_grid {
-            if !(5..=129).contains(&n) {
-                return Err(self.error_at("model", "table_grid", format!("= {n}: allowed range is 5–129")));
-            }
+        if let Some(n) = m.table_grid
+            && !(5..=129).contains(&n)
+        {
+            return Err(self.error_at("model", "table_grid", format!("= {n}: allowed range is 5–129")));
         }
         let choice = |section: &str, key: &str, value: &Option<String>, allowed: &[&str]| -> Result<()> {
             match value {
@@ -198,25 +197,26 @@ impl Ticket {
         choice("model", "gray", &m.gray, &["neutral", "black-only"])?;
         choice("output", "plates", &self.output.plates, &["tiff", "png", "none"])?;
         choice("output", "compression", &self.output.compression, &["none", "lzw", "deflate"])?;
-        if let Some(b) = self.output.bits {
-            if b != 8 && b != 16 {
-                return Err(self.error_at("output", "bits", format!("= {b}: expected 8 or 16")));
-            }
+        if let Some(b) = self.output.bits
+            && b != 8
+            && b != 16
+        {
+            return Err(self.error_at("output", "bits", format!("= {b}: expected 8 or 16")));
         }
-        if let Some(s) = self.limits.max_side {
-            if s == 0 {
-                return Err(self.error_at("limits", "max_side", "= 0: must be at least 1"));
-            }
+        if let Some(s) = self.limits.max_side
+            && s == 0
+        {
+            return Err(self.error_at("limits", "max_side", "= 0: must be at least 1"));
         }
         for rule in &self.checks.fail_if {
             if let Err(why) = crate::inspect::rules::Rule::parse_plain(rule) {
                 return Err(self.error_at("checks", "fail_if", format!("rule \"{rule}\": {why}")));
             }
         }
-        if let Some(s) = self.limits.max_memory_mib {
-            if s == 0 {
-                return Err(self.error_at("limits", "max_memory_mib", "= 0: must be at least 1"));
-            }
+        if let Some(s) = self.limits.max_memory_mib
+            && s == 0
+        {
+            return Err(self.error_at("limits", "max_memory_mib", "= 0: must be at least 1"));
         }
         Ok(())
     }

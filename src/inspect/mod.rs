@@ -969,7 +969,7 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
             de_thresholds: opts.de_thresholds.clone(),
             region_de: opts.region_de,
             min_area_mm2: opts.min_area_mm2,
-            min_dot_percent: round_to(min_dot as f64 * 100.0, 2),
+            min_dot_percent: round_to(min_dot * 100.0, 2),
             rich_black: RichBlackSettings {
                 k_percent: round_to(opts.rich_black_k * 100.0, 1),
                 cmy_percent: round_to(opts.rich_black_cmy * 100.0, 1),

@@ -177,7 +177,7 @@ impl ConditionReport {
                 .map(|((name, aim), ink)| {
                     let predicted = model.lab(Cmyk::from_array(ink));
                     AimCheck {
-                        name: *name,
+                        name,
                         ink_percent: ink.map(|v| v * 100.0),
                         aim,
                         predicted,

@@ -80,7 +80,7 @@ pub fn patches_from_cgats(file: &CgatsFile, path: &Path) -> Result<Vec<Patch>> {
             }
             Lab::new(l, a, b)
         } else {
-            let cols = xyz_cols.as_ref().map(|c| c.as_slice()).unwrap_or(&[]);
+            let cols = xyz_cols.as_deref().unwrap_or(&[]);
             let v: Vec<f64> = cols.iter().map(|&c| table.number(path, row, c)).collect::<Result<_>>()?;
             if v.iter().any(|&x| !(0.0..=110.0).contains(&x)) {
                 return Err(Error::input(
@@ -216,7 +216,7 @@ fn from_vector(v: &[f64; N_PARAMS]) -> ModelParams {
 
 fn bounds(i: usize) -> (f64, f64) {
     match i {
-        0..27 if i % 3 == 0 => (1.0, 100.0),
+        0..27 if i.is_multiple_of(3) => (1.0, 100.0),
         0..27 => (-128.0, 128.0),
         27..31 => (0.0, 0.30),
         31 => (1.0, 8.0),

@@ -81,7 +81,9 @@ impl ToneCurve {
     /// Segment index and position inside it for nominal coverage `a`.
     #[inline(always)]
     fn locate(&self, a: f64) -> (usize, f64) {
-        // `max` then `min` also maps NaN to 0 (max returns the non-NaN operand).
+        // `max` then `min` also maps NaN to 0 (max returns the non-NaN
+        // operand), which `clamp` would pass through.
+        #[allow(clippy::manual_clamp)]
         let x = a.max(0.0).min(1.0) * TONE_STEPS as f64;
         let i = (x as usize).min(TONE_STEPS - 1);
         (i, x - i as f64)

@@ -596,7 +596,7 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
         }
         h.push_str("</ul>");
     }
-    let _ = write!(h, "<p class='note'>{}</p></main></body></html>\n", escape(r.note));
+    let _ = writeln!(h, "<p class='note'>{}</p></main></body></html>", escape(r.note));
     h
 }
 

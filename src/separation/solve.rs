@@ -278,13 +278,13 @@ impl Problem<'_> {
                             }
                         }
                     }
-                    if !released && tac_active {
-                        if let Some(st) = exact_step(&jac, r, &x, black_move, &fixed, false, b) {
-                            if st.iter().sum::<f64>() < -1e-9 {
-                                tac_active = false;
-                                released = true;
-                            }
-                        }
+                    if !released
+                        && tac_active
+                        && let Some(st) = exact_step(&jac, r, &x, black_move, &fixed, false, b)
+                        && st.iter().sum::<f64>() < -1e-9
+                    {
+                        tac_active = false;
+                        released = true;
                     }
                     if released {
                         releases += 1;
@@ -329,13 +329,14 @@ impl Problem<'_> {
             }
             let free_after = fixed.iter().filter(|&&f| !f).count() - usize::from(blocking.is_some());
             let rows_after = 3 + usize::from(tac_active || tac_blocks);
-            if (blocking.is_some() || tac_blocks) && rows_after > free_after {
-                if let Some((px, pf, pt)) = on_curve {
-                    (x, fixed, tac_active) = (px, pf, pt);
-                    stride *= 0.5;
-                    black_stuck = stride < 1e-4;
-                    continue;
-                }
+            if (blocking.is_some() || tac_blocks)
+                && rows_after > free_after
+                && let Some((px, pf, pt)) = on_curve
+            {
+                (x, fixed, tac_active) = (px, pf, pt);
+                stride *= 0.5;
+                black_stuck = stride < 1e-4;
+                continue;
             }
             for i in 0..4 {
                 x[i] += tau * step[i];

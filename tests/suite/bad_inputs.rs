@@ -137,7 +137,7 @@ fn huge_tiff() -> Vec<u8> {
 }
 
 fn gray_profile() -> Vec<u8> {
-    lcms2::Profile::new_gray(&lcms2::CIExyY::d50(), &lcms2::ToneCurve::new(2.2))
+    lcms2::Profile::new_gray(lcms2::CIExyY::d50(), &lcms2::ToneCurve::new(2.2))
         .unwrap()
         .icc()
         .unwrap()
