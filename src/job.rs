@@ -432,7 +432,11 @@ impl Workshop {
                     (Samples::U16(v), bits) => {
                         let mut out = vec![0u16; pixels * 4];
                         table.apply_cmyk16(v, &mut out, w);
-                        if bits == 16 { Samples::U16(out) } else { narrow_to_8bit(&out) }
+                        if bits == 16 {
+                            Samples::U16(out)
+                        } else {
+                            Samples::U8(table.narrow_to_8bit(&out))
+                        }
                     }
                 };
                 (cmyk, table_ms, ms(t2))
@@ -588,7 +592,7 @@ impl Workshop {
             (Samples::U16(v), _) => {
                 let mut out16 = vec![0u16; pixels * 4];
                 table.apply_rgb16(v, &mut out16, width);
-                narrow_to_8bit(&out16)
+                Samples::U8(table.narrow_to_8bit(&out16))
             }
         }
     }
@@ -617,7 +621,10 @@ impl Workshop {
         let k_at = |v: f64| curve[((v / max_in) * 4095.0).round() as usize];
         let bits = self.options.bits;
         let pure = sep.settings().keep_pure_black;
-        let k_code = |k: f64| if bits == 8 { k * 255.0 } else { k * 65535.0 };
+        let scale = if bits == 8 { 255.0 } else { 65535.0 };
+        // Rounded to the nearest code, but never over the maximum black.
+        let k_top = (k_max * scale + 1e-6).floor();
+        let k_code = |k: f64| (k * scale).round().min(k_top);
         let gray: Vec<f64> = match &raster.samples {
             Samples::U8(v) => v
                 .chunks_exact(channels)
@@ -630,16 +637,11 @@ impl Workshop {
         };
         let k: Vec<f64> = gray.par_iter().map(|&g| if pure && g == 0.0 { k_max } else { k_at(g) }).collect();
         if bits == 8 {
-            Samples::U8(k.iter().flat_map(|&k| [0, 0, 0, k_code(k).round() as u8]).collect())
+            Samples::U8(k.iter().flat_map(|&k| [0, 0, 0, k_code(k) as u8]).collect())
         } else {
-            Samples::U16(k.iter().flat_map(|&k| [0, 0, 0, k_code(k).round() as u16]).collect())
+            Samples::U16(k.iter().flat_map(|&k| [0, 0, 0, k_code(k) as u16]).collect())
         }
     }
-}
-
-/// 16-bit samples rounded to 8 bits.
-fn narrow_to_8bit(v: &[u16]) -> Samples {
-    Samples::U8(v.par_iter().map(|&x| ((x as u32 + 128) / 257) as u8).collect())
 }
 
 fn flatten_gray(g: f64, alpha: Option<f64>, max: f64) -> f64 {

@@ -44,7 +44,8 @@ use super::SeparationSettings;
 use super::engine::{Intent, Separator};
 use super::gamut::{GamutBoundary, PerceptualMap, SourceGamut, black_point_compensation};
 use super::table::{
-    PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, position, quantize, simplex, smooth_shadows, step_table, steps,
+    InkCaps, PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, narrow_within, position, quantize, round_within, simplex,
+    smooth_shadows, step_table, steps,
 };
 use crate::colour::Lab;
 use crate::error::{Error, Result};
@@ -148,6 +149,9 @@ pub struct ReseparationTable {
     black_curve: Option<Vec<u16>>,
     /// The same curve sampled at the 256 8-bit codes, rounded to 8 bits.
     black_curve8: Option<Vec<u8>>,
+    /// The target's total ink and black, which rounding a pixel to 8 bits
+    /// must not break either.
+    caps: InkCaps,
 }
 
 impl ReseparationTable {
@@ -224,7 +228,11 @@ impl ReseparationTable {
 
         let (black_curve, black_curve8) = if keep_pure_black {
             let curve = black_only_curve(&source_gamut, target);
-            let curve8: Vec<u8> = (0..256u32).map(|v| to_8bit(curve_at(&curve, v, 255) as u32)).collect();
+            // Rounded, but never over the maximum black in 8-bit codes.
+            let k_codes = InkCaps::new(tac, k_max).codes::<u8>().black();
+            let curve8: Vec<u8> = (0..256u32)
+                .map(|v| to_8bit(curve_at(&curve, v, 255) as u32).min(k_codes as u8))
+                .collect();
             (Some(curve), Some(curve8))
         } else {
             (None, None)
@@ -235,6 +243,7 @@ impl ReseparationTable {
             nodes,
             black_curve,
             black_curve8,
+            caps: InkCaps::new(tac, k_max),
         })
     }
 
@@ -341,6 +350,13 @@ impl ReseparationTable {
         self.apply(input, output, row_pixels, curve8.map(|c| move |k: u32| c[k as usize]))
     }
 
+    /// 16-bit CMYK that this table wrote ([`apply_cmyk16`](Self::apply_cmyk16))
+    /// rounded to 8 bits, holding the target's ink limit and maximum black
+    /// to the code as [`apply_cmyk8`](Self::apply_cmyk8) does.
+    pub fn narrow_to_8bit(&self, cmyk16: &[u16]) -> Vec<u8> {
+        narrow_within(self.caps, cmyk16)
+    }
+
     /// Re-separates interleaved 16-bit CMYK (0 = no ink) into interleaved
     /// 16-bit CMYK, in parallel over rows of `row_pixels`.
     pub fn apply_cmyk16(&self, input: &[u16], output: &mut [u16], row_pixels: usize) {
@@ -355,6 +371,7 @@ impl ReseparationTable {
         let strides = self.strides();
         let table = step_table::<S, 4>(self.grid, strides);
         let zero = S::from_16(0);
+        let caps = self.caps.codes::<S>();
         let row_pixels = row_pixels.max(1);
         input
             .par_chunks(4 * row_pixels)
@@ -368,9 +385,7 @@ impl ReseparationTable {
                         continue;
                     }
                     let v = simplex::<4, 5>(&self.packed, steps(&table, px, self.grid, strides));
-                    for ch in 0..4 {
-                        out[ch] = S::from_16(v[ch]);
-                    }
+                    round_within(v, caps, out);
                 }
             });
     }
@@ -469,6 +484,7 @@ mod tests {
             nodes,
             black_curve: None,
             black_curve8: None,
+            caps: InkCaps::new(4.0, 1.0),
         };
         // Linear precision holds for the pixel kernels too, to within the
         // rounding of the node values and of the output (8 bits: ±1 code).

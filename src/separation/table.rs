@@ -28,6 +28,9 @@ pub struct SeparationTable {
     /// Source pure black (all channels 0) prints as black ink only, at the
     /// maximum black (16-bit value), when set.
     pure_black: Option<u16>,
+    /// The total ink and black the nodes hold, which rounding a pixel to
+    /// 8 bits must not break either.
+    caps: InkCaps,
 }
 
 /// Index and fixed-point fraction of one input code value on the grid.
@@ -55,6 +58,9 @@ pub(crate) fn position(value: u32, max: u32, grid: usize) -> Position {
 pub(crate) trait Sample: Copy + Send + Sync + 'static {
     /// The largest code (full ink or full channel).
     const MAX: u32;
+    /// What [`from_16`](Sample::from_16) adds before dividing by 65535 to
+    /// round: `from_16(v) = (v · MAX + HALF) / 65535`.
+    const HALF: u32;
     fn code(self) -> u32;
     /// A 16-bit table value (0..65535) as this sample type, rounded.
     fn from_16(v: u32) -> Self;
@@ -65,22 +71,32 @@ pub(crate) trait Sample: Copy + Send + Sync + 'static {
 
 impl Sample for u8 {
     const MAX: u32 = 255;
+    const HALF: u32 = 32767;
     #[inline(always)]
     fn code(self) -> u32 {
         self as u32
     }
+    /// `(v · 255 + 32767) / 65535`, which is `(v + 128) / 257` (65535 =
+    /// 255 · 257, and no multiple of 257 lies between v + 128 and
+    /// v + 128.498), computed as a multiply and a shift: x · 65281 / 2^24 is
+    /// x / 257 + x / (257 · 2^24) (65281 · 257 = 2^24 + 1), and the excess,
+    /// below 1/257 for x below 2^24, never carries past an integer; and
+    /// (65535 + 128) · 65281 fits in 32 bits. Equal for every 16-bit value
+    /// (unit test).
     #[inline(always)]
     fn from_16(v: u32) -> u8 {
-        ((v * 255 + 32767) / 65535) as u8
+        (((v + 128) * 65281) >> 24) as u8
     }
+    /// `v · 255 / 65535`, that is `v / 257`, as in [`from_16`](Sample::from_16).
     #[inline(always)]
     fn from_16_down(v: u32) -> u8 {
-        (v * 255 / 65535) as u8
+        ((v * 65281) >> 24) as u8
     }
 }
 
 impl Sample for u16 {
     const MAX: u32 = 65535;
+    const HALF: u32 = 0;
     #[inline(always)]
     fn code(self) -> u32 {
         self as u32
@@ -283,6 +299,110 @@ pub(crate) fn quantize(x: [f64; 4], tac: f64, k_max: f64) -> [u16; 4] {
     q.map(|v| v as u16)
 }
 
+/// The limits a table's nodes were quantised to ([`quantize`]), in 16-bit
+/// units: total ink and black.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct InkCaps {
+    total: u32,
+    black: u32,
+}
+
+impl InkCaps {
+    pub(crate) fn new(tac: f64, k_max: f64) -> InkCaps {
+        let cap = |v: f64| (v * 65535.0 + 1e-6).floor().clamp(0.0, 4.0 * 65535.0) as u32;
+        InkCaps {
+            total: cap(tac),
+            black: cap(k_max).min(65535),
+        }
+    }
+
+    /// The same limits in codes of the sample type, rounded down, with the
+    /// sums of 16-bit values below which rounding cannot break them.
+    pub(crate) fn codes<S: Sample>(self) -> PixelCaps {
+        let down = |v: u32| (v as u64 * S::MAX as u64 / 65535) as u32;
+        let (total, black) = (down(self.total), down(self.black));
+        // Rounding gives floor((v · MAX + HALF) / 65535) per channel, so a
+        // code sum over `total` needs Σv · MAX + 4 · HALF ≥ (total + 1) · 65535.
+        let safe = |cap: u32, channels: u64| (((cap as u64 + 1) * 65535 - channels * S::HALF as u64 - 1) / S::MAX as u64) as u32;
+        PixelCaps {
+            total,
+            black,
+            safe_total: safe(total, 4),
+            safe_black: safe(black, 1),
+        }
+    }
+}
+
+/// [`InkCaps`] for one sample type ([`InkCaps::codes`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct PixelCaps {
+    /// Most total ink and black, in codes.
+    total: u32,
+    black: u32,
+    /// Largest sum of the four 16-bit values, and largest 16-bit black,
+    /// whose rounding always fits.
+    safe_total: u32,
+    safe_black: u32,
+}
+
+impl PixelCaps {
+    /// The most black, in codes.
+    pub(crate) fn black(self) -> u32 {
+        self.black
+    }
+}
+
+/// An interpolated pixel (16-bit channels, each within the caps, as
+/// interpolation between nodes that are) rounded to the sample type without
+/// letting rounding break the limits. Where rounding up would put black or
+/// the total over its cap, the channels rounded up the most are rounded down
+/// instead, one code each; the floors always fit, so this ends. The common
+/// case costs one sum and two compares on the 16-bit values.
+#[inline(always)]
+pub(crate) fn round_within<S: Sample>(v: [u32; 4], caps: PixelCaps, out: &mut [S]) {
+    // At 16 bits nothing is rounded: interpolation between nodes within the
+    // caps stays within them, and the constant test drops the check.
+    if S::MAX < 65535 && (v[0] + v[1] + v[2] + v[3] > caps.safe_total || v[3] > caps.safe_black) {
+        out.copy_from_slice(&held(v, caps));
+        return;
+    }
+    for ch in 0..4 {
+        out[ch] = S::from_16(v[ch]);
+    }
+}
+
+/// 16-bit CMYK from a table with these caps, rounded to 8 bits with
+/// [`round_within`], in parallel.
+pub(crate) fn narrow_within(caps: InkCaps, cmyk16: &[u16]) -> Vec<u8> {
+    let caps = caps.codes::<u8>();
+    let mut out = vec![0u8; cmyk16.len()];
+    out.par_chunks_mut(4 * 4096)
+        .zip(cmyk16.par_chunks(4 * 4096))
+        .for_each(|(dst, src)| {
+            for (o, px) in dst.chunks_exact_mut(4).zip(src.chunks_exact(4)) {
+                round_within([0, 1, 2, 3].map(|i| px[i] as u32), caps, o);
+            }
+        });
+    out
+}
+
+#[cold]
+fn held<S: Sample>(v: [u32; 4], caps: PixelCaps) -> [S; 4] {
+    let mut q = v.map(S::from_16);
+    // How far each channel was rounded up, in units of 1 / (65535 · MAX).
+    let up = |q: &[S; 4], i: usize| q[i].code() as i64 * 65535 - v[i] as i64 * S::MAX as i64;
+    if q[3].code() > caps.black {
+        q[3] = S::from_16_down(v[3]);
+    }
+    while q.iter().map(|s| s.code()).sum::<u32>() > caps.total {
+        let Some(i) = (0..4).filter(|&i| up(&q, i) > 0).max_by_key(|&i| (up(&q, i), std::cmp::Reverse(i))) else {
+            break;
+        };
+        q[i] = S::from_16_down(v[i]);
+    }
+    q
+}
+
 impl SeparationTable {
     /// Builds the table. `node_lab` gives the source colour (media-relative
     /// CIELAB D50, the ICC PCS) of each grid node from its encoded RGB
@@ -320,11 +440,19 @@ impl SeparationTable {
             grid: n,
             packed: PackedNodes::new(&nodes),
             nodes,
+            caps: InkCaps::new(tac, k_max),
             pure_black: separator
                 .settings()
                 .keep_pure_black
                 .then(|| (k_max * 65535.0 + 1e-6).floor() as u16),
         }
+    }
+
+    /// 16-bit CMYK that this table wrote ([`apply_rgb16`](Self::apply_rgb16))
+    /// rounded to 8 bits, holding the ink limit and maximum black to the
+    /// code as [`apply_rgb8`](Self::apply_rgb8) does.
+    pub fn narrow_to_8bit(&self, cmyk16: &[u16]) -> Vec<u8> {
+        narrow_within(self.caps, cmyk16)
     }
 
     pub fn grid(&self) -> usize {
@@ -397,6 +525,7 @@ impl SeparationTable {
         let table = step_table::<S, 3>(self.grid, strides);
         let black = self.pure_black.map(|k| S::from_16_down(k as u32));
         let zero = S::from_16(0);
+        let caps = self.caps.codes::<S>();
         let row_pixels = row_pixels.max(1);
         rgb.par_chunks(3 * row_pixels)
             .zip(cmyk.par_chunks_mut(4 * row_pixels))
@@ -409,9 +538,7 @@ impl SeparationTable {
                         continue;
                     }
                     let v = simplex::<3, 4>(&self.packed, steps(&table, px, self.grid, strides));
-                    for ch in 0..4 {
-                        out[ch] = S::from_16(v[ch]);
-                    }
+                    round_within(v, caps, out);
                 }
             });
     }
@@ -446,6 +573,7 @@ mod tests {
                 packed: PackedNodes::new(&nodes),
                 nodes,
                 pure_black: None,
+                caps: InkCaps::new(4.0, 1.0),
             };
             let mut rgb8: Vec<u8> = (0..3 * 4096).map(|_| splitmix(&mut state) as u8).collect();
             for v in [0u8, 1, 8, 64, 127, 128, 254, 255] {
@@ -469,6 +597,73 @@ mod tests {
                 let want: Vec<u16> = v.iter().map(|&v| v as u16).collect();
                 assert_eq!(out, &want[..], "grid {grid}, pixel {px:?}");
             }
+        }
+    }
+
+    /// Rounding to 8 bits never puts a pixel over the caps, changes nothing
+    /// where plain rounding fits, and otherwise only rounds channels down
+    /// that plain rounding took up. Random in-cap pixels with every channel
+    /// just over half a code make plain rounding overshoot often.
+    #[test]
+    fn rounding_to_8_bits_holds_the_ink_limit_and_black() {
+        let mut state = 11u64;
+        let (tac, k_max) = (3.3, 0.96);
+        let caps = InkCaps::new(tac, k_max);
+        let codes = caps.codes::<u8>();
+        assert_eq!((codes.total, codes.black), (841, 244), "floor(3.3 · 255) and floor(0.96 · 255)");
+        let (mut held_total, mut held_black) = (0, 0);
+        for _ in 0..200_000 {
+            // Codes c + 0.5 … c + 0.99 in 16-bit units, scaled into the caps.
+            let raw: [f64; 4] = std::array::from_fn(|_| {
+                let c = (splitmix(&mut state) % 255) as f64;
+                c + 0.5 + (splitmix(&mut state) % 490) as f64 / 1000.0
+            });
+            let mut v = raw.map(|c| (c * 65535.0 / 255.0) as u32);
+            v[3] = v[3].min(caps.black);
+            let sum: u32 = v.iter().sum();
+            if sum > caps.total {
+                let over = sum - caps.total;
+                v[0] = v[0].saturating_sub(over);
+                if v.iter().sum::<u32>() > caps.total {
+                    continue;
+                }
+            }
+            let plain = v.map(u8::from_16);
+            let mut out = [0u8; 4];
+            round_within(v, codes, &mut out);
+            let total: u32 = out.iter().map(|&c| c as u32).sum();
+            assert!(total <= codes.total && out[3] as u32 <= codes.black, "{v:?} → {out:?}");
+            let plain_total: u32 = plain.iter().map(|&c| c as u32).sum();
+            if plain_total <= codes.total && plain[3] as u32 <= codes.black {
+                assert_eq!(out, plain, "{v:?}: nothing to hold");
+            } else {
+                held_total += (plain_total > codes.total) as u32;
+                held_black += (plain[3] as u32 > codes.black) as u32;
+                for i in 0..4 {
+                    assert!(
+                        out[i] == plain[i] || out[i] == u8::from_16_down(v[i]),
+                        "{v:?} → {out:?} (plain {plain:?})"
+                    );
+                }
+            }
+        }
+        assert!(
+            held_total > 1000 && held_black > 100,
+            "the check fired {held_total} / {held_black} times"
+        );
+        // Sixteen bits: nothing is rounded, so nothing changes.
+        let mut out16 = [0u16; 4];
+        round_within([54_000, 54_000, 54_000, caps.total - 162_000], caps.codes::<u16>(), &mut out16);
+        assert_eq!(out16, [54_000, 54_000, 54_000, (caps.total - 162_000) as u16]);
+    }
+
+    /// The multiply-and-shift rounding to 8 bits is the division it stands
+    /// for, at every 16-bit value.
+    #[test]
+    fn eight_bit_rounding_is_exact() {
+        for v in 0..=65535u32 {
+            assert_eq!(u8::from_16(v) as u32, (v * 255 + 32767) / 65535, "{v}");
+            assert_eq!(u8::from_16_down(v) as u32, v * 255 / 65535, "{v}");
         }
     }
 

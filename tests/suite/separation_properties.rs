@@ -3,7 +3,8 @@
 //! The requirements checked are the project's own hard rules (issue texts of
 //! the separation engine and of hardening): the total ink never exceeds the
 //! ink limit (TAC) and black never exceeds maximum black, exactly in float
-//! and within TAC + 1 % after 8-bit quantization; no NaN; every channel in
+//! and after 8-bit quantization (the issues allowed TAC + 1 % there; the
+//! kernel now holds the limit to the code); no NaN; every channel in
 //! 0..1; the table applied to pixels equals the table's own interpolation
 //! of the same value; the same input separates to the same output.
 //!
@@ -115,9 +116,10 @@ proptest! {
     }
 
     /// A grid-9 table under random settings, applied to random 8-bit pixels:
-    /// total ink within TAC + 1 % and black within maximum black + 0.5/255
-    /// after quantization, and each pixel equal to the table's interpolation
-    /// of the same value (`lookup`) within one code value; 16-bit application
+    /// total ink and black never over their limits after quantization (not
+    /// by one code), and each pixel equal to the table's interpolation of the
+    /// same value (`lookup`) within one code value, two where a channel was
+    /// rounded down to hold the ink limit; 16-bit application
     /// within three 16-bit code values (the interpolation weights have 15 bits,
     /// so a weight's rounding moves the result by at most 2 codes, plus one
     /// for the final rounding).
@@ -139,15 +141,14 @@ proptest! {
         table.apply_rgb8(&rgb8, &mut cmyk8, 16);
         for (px, out) in pixels.iter().zip(cmyk8.chunks_exact(4)) {
             let total: u32 = out.iter().map(|&v| v as u32).sum();
-            prop_assert!(total as f64 / 255.0 <= s.tac + 0.01, "{px:?} → {out:?}: total over TAC {}", s.tac);
-            prop_assert!(
-                out[3] as f64 / 255.0 <= s.black.black_max + 0.5 / 255.0 + 1e-12,
-                "{px:?} → {out:?}: black over maximum {}", s.black.black_max
-            );
+            let (tac_codes, k_codes) = ((s.tac * 255.0 + 1e-9).floor() as u32, (s.black.black_max * 255.0 + 1e-9).floor() as u32);
+            prop_assert!(total <= tac_codes, "{px:?} → {out:?}: total over TAC {}", s.tac);
+            prop_assert!(out[3] as u32 <= k_codes, "{px:?} → {out:?}: black over maximum {}", s.black.black_max);
+            let slack = if total + 1 >= tac_codes || out[3] as u32 + 1 >= k_codes { 2 } else { 1 };
             let direct = table.lookup(px.map(|v| v as f64 / 255.0));
             for (&got, want) in out.iter().zip(direct.to_array()) {
                 let want = (want * 255.0).round() as i32;
-                prop_assert!((got as i32 - want).abs() <= 1, "{px:?}: applied {out:?}, lookup {direct:?}");
+                prop_assert!((got as i32 - want).abs() <= slack, "{px:?}: applied {out:?}, lookup {direct:?}");
             }
         }
 
