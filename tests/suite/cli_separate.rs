@@ -212,7 +212,10 @@ fn no_eight_bit_output_exceeds_the_ink_limit_or_maximum_black() {
             at_limit += (total + 2 >= tac_codes) as u32;
         }
     }
-    assert!(at_limit > 100, "only {at_limit} pixels near the limit: the check would not see rounding");
+    assert!(
+        at_limit > 100,
+        "only {at_limit} pixels near the limit: the check would not see rounding"
+    );
 }
 
 /// Builds an RGB profile with wide primaries through lcms2 (a test fixture).

@@ -157,7 +157,10 @@ fn limits_hold_for_every_node_and_pixel() {
 }
 
 fn table_for(intent: Intent, bpc: bool) -> SeparationTable {
-    let c = coated_offset();
+    table_on(coated_offset(), intent, bpc)
+}
+
+fn table_on(c: platesmith::press::PrintingCondition, intent: Intent, bpc: bool) -> SeparationTable {
     let mut s = SeparationSettings::for_condition(&c);
     s.intent = intent;
     s.bpc = bpc;
@@ -175,11 +178,33 @@ fn table_for(intent: Intent, bpc: bool) -> SeparationTable {
 #[test]
 fn ramps_separate_smoothly() {
     for (intent, bpc) in [(Intent::Perceptual, false), (Intent::Relative, true)] {
-        ramps_are_smooth(&table_for(intent, bpc), &format!("{intent:?} bpc {bpc}"));
+        ramps_are_smooth(&table_for(intent, bpc), &format!("{intent:?} bpc {bpc}"), 0.03);
     }
 }
 
-fn ramps_are_smooth(table: &SeparationTable, label: &str) {
+/// The same on the other built-in conditions. Uncoated offset holds 3 %
+/// (measured 2.75 % perceptual, 1.96 % relative with BPC); so does newsprint
+/// with relative and BPC (2.35 %). Newsprint perceptual does not: at the
+/// saturated end of the red, green and blue ramps its 240 % limit makes
+/// black give way to the colour inks within a few input steps (blue 216 →
+/// 219: K 57 → 45 %, C 57 → 72 %), up to 6.27 % per step (measured). The
+/// printed colour moves smoothly there (on blue 200–255 at most 0.71 ΔE2000
+/// per input step, measured); the plates are steep. Held at 6.5 % so that a
+/// regression fails.
+#[test]
+fn ramps_separate_smoothly_on_the_other_builtin_conditions() {
+    for (name, intent, bpc, limit) in [
+        ("uncoated-offset", Intent::Perceptual, false, 0.03),
+        ("uncoated-offset", Intent::Relative, true, 0.03),
+        ("newsprint", Intent::Relative, true, 0.03),
+        ("newsprint", Intent::Perceptual, false, 0.065),
+    ] {
+        let c = platesmith::press::builtin::by_name(name).unwrap();
+        ramps_are_smooth(&table_on(c, intent, bpc), &format!("{name} {intent:?} bpc {bpc}"), limit);
+    }
+}
+
+fn ramps_are_smooth(table: &SeparationTable, label: &str, limit: f64) {
     let ramps: Vec<(&str, [f64; 3])> = vec![
         ("gray", [1.0, 1.0, 1.0]),
         ("red", [1.0, 0.0, 0.0]),
@@ -200,7 +225,7 @@ fn ramps_are_smooth(table: &SeparationTable, label: &str) {
             if let Some(p) = prev {
                 for (a, b) in p.to_array().iter().zip(c.to_array()) {
                     worst = worst.max((a - b).abs());
-                    assert!((a - b).abs() <= 0.03, "{label}: {name} ramp at {v}: {p:?} -> {c:?}");
+                    assert!((a - b).abs() <= limit, "{label}: {name} ramp at {v}: {p:?} -> {c:?}");
                 }
             }
             prev = Some(c);
