@@ -117,11 +117,11 @@ pub fn run(args: ProofArgs) -> Result<i32> {
         eprintln!("{}", p.display());
     }
     eprintln!(
-        "proof of {} on {}{}; {}",
+        "proof of {} on {}{}",
         args.input.display(),
         setup.condition.name,
         if args.paper_white { " with the paper's colour" } else { "" },
-        crate::report::PREDICTION_NOTE
     );
+    eprintln!("{}", crate::report::PREDICTION_NOTE);
     Ok(0)
 }
