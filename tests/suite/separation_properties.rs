@@ -17,18 +17,29 @@ use platesmith::ink::Cmyk;
 use platesmith::press::builtin::coated_offset;
 use platesmith::separation::{BlackGeneration, Intent, RgbGamut, SeparationSettings, SeparationTable, Separator};
 use proptest::prelude::*;
+use std::ops::RangeInclusive;
 
 /// Random settings inside the documented ranges: TAC 200–400 %, GCR 0–100 %,
 /// black start 0–60 %, maximum black 50–100 %, curve shape 0.5–3, UCA 0–50 %,
 /// every intent, black point compensation on or off.
 fn settings() -> impl Strategy<Value = SeparationSettings> {
+    settings_within(2.0..=4.0, 0.5..=1.0, 0.0..=0.5)
+}
+
+/// Random settings with TAC, maximum black and UCA in the ranges given and
+/// the rest as in [`settings`] (shared with `separation_table_direct`).
+pub(crate) fn settings_within(
+    tac: RangeInclusive<f64>,
+    black_max: RangeInclusive<f64>,
+    uca: RangeInclusive<f64>,
+) -> impl Strategy<Value = SeparationSettings> {
     (
-        2.0..=4.0f64,
+        tac,
         0.0..=1.0f64,
         0.0..=0.6f64,
-        0.5..=1.0f64,
+        black_max,
         0.5..=3.0f64,
-        0.0..=0.5f64,
+        uca,
         prop_oneof![Just(Intent::Perceptual), Just(Intent::Relative), Just(Intent::Absolute)],
         any::<bool>(),
     )
