@@ -125,28 +125,14 @@ impl SourceGamut for IccGamut<'_> {
     }
 
     fn primaries(&self) -> Option<[Lab; 6]> {
-        let corners = [
-            [1.0, 0.0, 0.0],
-            [1.0, 1.0, 0.0],
-            [0.0, 1.0, 0.0],
-            [0.0, 1.0, 1.0],
-            [0.0, 0.0, 1.0],
-            [1.0, 0.0, 1.0],
-        ];
+        let corners = crate::separation::gamut::RGB_CORNERS;
         let mut out = [[0.0; 3]; 6];
         self.0.to_lab.transform_pixels(&corners, &mut out);
         Some(out.map(Lab::from_array))
     }
 
     fn ridge(&self) -> Option<Vec<Lab>> {
-        let corners = [
-            [1.0, 0.0, 0.0],
-            [1.0, 1.0, 0.0],
-            [0.0, 1.0, 0.0],
-            [0.0, 1.0, 1.0],
-            [0.0, 0.0, 1.0],
-            [1.0, 0.0, 1.0],
-        ];
+        let corners = crate::separation::gamut::RGB_CORNERS;
         let pts = std::cell::RefCell::new(Vec::new());
         crate::separation::gamut::ridge_samples(&corners, &|rgb| {
             pts.borrow_mut().push(rgb);

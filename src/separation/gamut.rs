@@ -210,6 +210,17 @@ pub trait SourceGamut: Send + Sync {
 /// The gamut of an RGB colour space: the colours whose RGB lies in 0..1.
 pub struct RgbGamut(pub crate::colour::RgbConverter);
 
+/// The six saturated corners of the RGB cube in hue order: red, yellow,
+/// green, cyan, blue, magenta (encoded values).
+pub const RGB_CORNERS: [[f64; 3]; 6] = [
+    [1.0, 0.0, 0.0],
+    [1.0, 1.0, 0.0],
+    [0.0, 1.0, 0.0],
+    [0.0, 1.0, 1.0],
+    [0.0, 0.0, 1.0],
+    [1.0, 0.0, 1.0],
+];
+
 impl SourceGamut for RgbGamut {
     fn contains(&self, lab: Lab) -> bool {
         let rgb = self.0.xyz_to_linear(lab.to_xyz());
@@ -217,26 +228,12 @@ impl SourceGamut for RgbGamut {
     }
 
     fn primaries(&self) -> Option<[Lab; 6]> {
-        let corners = [
-            [1.0, 0.0, 0.0],
-            [1.0, 1.0, 0.0],
-            [0.0, 1.0, 0.0],
-            [0.0, 1.0, 1.0],
-            [0.0, 0.0, 1.0],
-            [1.0, 0.0, 1.0],
-        ];
+        let corners = RGB_CORNERS;
         Some(corners.map(|c| self.0.to_lab(crate::colour::EncodedRgb(c))))
     }
 
     fn ridge(&self) -> Option<Vec<Lab>> {
-        let corners = [
-            [1.0, 0.0, 0.0],
-            [1.0, 1.0, 0.0],
-            [0.0, 1.0, 0.0],
-            [0.0, 1.0, 1.0],
-            [0.0, 0.0, 1.0],
-            [1.0, 0.0, 1.0],
-        ];
+        let corners = RGB_CORNERS;
         Some(ridge_samples(&corners, &|rgb| self.0.to_lab(crate::colour::EncodedRgb(rgb))))
     }
 }
