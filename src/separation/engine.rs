@@ -192,6 +192,17 @@ pub struct Separator {
     relative_from_absolute: Mat3,
 }
 
+/// C, M, Y of the six process colours in hue order: red (M+Y), yellow,
+/// green (C+Y), cyan, blue (C+M), magenta.
+const PROCESS_CORNERS: [[f64; 3]; 6] = [
+    [0.0, 1.0, 1.0],
+    [0.0, 0.0, 1.0],
+    [1.0, 0.0, 1.0],
+    [1.0, 0.0, 0.0],
+    [1.0, 1.0, 0.0],
+    [0.0, 1.0, 0.0],
+];
+
 impl Separator {
     pub fn new(condition: PrintingCondition, settings: SeparationSettings) -> Result<Separator> {
         settings.validate()?;
@@ -470,29 +481,13 @@ impl Separator {
     /// The printed red (M+Y), yellow, green (C+Y), cyan, blue (C+M) and
     /// magenta solids, media-relative.
     pub fn process_primaries(&self) -> [Lab; 6] {
-        [
-            [0.0, 1.0, 1.0],
-            [0.0, 0.0, 1.0],
-            [1.0, 0.0, 1.0],
-            [1.0, 0.0, 0.0],
-            [1.0, 1.0, 0.0],
-            [0.0, 1.0, 0.0],
-        ]
-        .map(|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)))
+        PROCESS_CORNERS.map(|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)))
     }
 
     /// Dense samples along the edges of the ink cube (no black) joining the
     /// process colours: the ridge of the printable gamut that holds its cusps.
     pub fn process_ridge(&self) -> Vec<Lab> {
-        let corners = [
-            [0.0, 1.0, 1.0],
-            [0.0, 0.0, 1.0],
-            [1.0, 0.0, 1.0],
-            [1.0, 0.0, 0.0],
-            [1.0, 1.0, 0.0],
-            [0.0, 1.0, 0.0],
-        ];
-        super::gamut::ridge_samples(&corners, &|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)))
+        super::gamut::ridge_samples(&PROCESS_CORNERS, &|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)))
     }
 
     /// Prepares the mapping of colours from one source gamut (the perceptual
