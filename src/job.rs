@@ -293,15 +293,7 @@ impl Workshop {
         if let Some(t) = self.tables.lock().ok().and_then(|m| m.get(key).cloned()) {
             return t;
         }
-        let n = self.separator.settings().table_grid;
-        let labs = source.node_labs(n);
-        let gamut = source.gamut();
-        let mapping = self.separator.source_mapping(gamut.as_ref());
-        let lookup = |rgb: [f64; 3]| {
-            let idx = |v: f64| (v * (n - 1) as f64).round() as usize;
-            labs[(idx(rgb[0]) * n + idx(rgb[1])) * n + idx(rgb[2])]
-        };
-        let table = Arc::new(SeparationTable::build(&self.separator, &mapping, &lookup));
+        let table = Arc::new(table_for_source(&self.separator, source));
         if let Ok(mut m) = self.tables.lock() {
             m.insert(key.to_vec(), table.clone());
         }
@@ -642,6 +634,21 @@ impl Workshop {
             Samples::U16(k.iter().flat_map(|&k| [0, 0, 0, k_code(k) as u16]).collect())
         }
     }
+}
+
+/// The separation table of `separator` for an RGB source: the source colour
+/// of every node (a batch through the source's profile or named space), its
+/// gamut for the perceptual mapping.
+pub fn table_for_source(separator: &Separator, source: &RgbSource) -> SeparationTable {
+    let n = separator.settings().table_grid;
+    let labs = source.node_labs(n);
+    let gamut = source.gamut();
+    let mapping = separator.source_mapping(gamut.as_ref());
+    let lookup = |rgb: [f64; 3]| {
+        let idx = |v: f64| (v * (n - 1) as f64).round() as usize;
+        labs[(idx(rgb[0]) * n + idx(rgb[1])) * n + idx(rgb[2])]
+    };
+    SeparationTable::build(separator, &mapping, &lookup)
 }
 
 fn flatten_gray(g: f64, alpha: Option<f64>, max: f64) -> f64 {

@@ -220,6 +220,13 @@ pub fn text_summary(r: &InspectReport) -> String {
             g.max_de,
             shares.join(", ")
         );
+        let _ = writeln!(
+            o,
+            "  gamut       {:.2} % of the image lies more than ΔE {} outside the press gamut (largest {:.2})",
+            g.outside_fraction * 100.0,
+            g.threshold,
+            g.outside_max_de
+        );
     }
     let _ = writeln!(
         o,

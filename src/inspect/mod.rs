@@ -25,10 +25,10 @@ pub mod rules;
 use crate::colour::{Lab, RgbSpace, ciede2000};
 use crate::error::Result;
 use crate::ink::{Cmyk, Ink};
-use crate::job::{InkStats, SeparatedFile, TacSummary, Workshop};
+use crate::job::{InkStats, SeparatedFile, TacSummary, Workshop, table_for_source};
 use crate::raster::{Layout, Raster, Resolution, Samples};
 use crate::report::{SettingsReport, round_to};
-use crate::separation::{Intent, Separator};
+use crate::separation::{Intent, SeparationTable, Separator};
 use crate::source::RgbSource;
 use rayon::prelude::*;
 use regions::{Region, RowRuns, Run};
@@ -159,6 +159,15 @@ pub struct GamutSummary {
     pub threshold: f64,
     /// Share of pixels over each of the configured thresholds.
     pub over: Vec<ThresholdShare>,
+    /// Share of pixels whose source colour lies more than `threshold`
+    /// outside the press gamut: ΔE2000 from the source colour to the nearest
+    /// printable colour (media-relative, as relative colorimetric clips it),
+    /// whatever the intent. With the perceptual intent `over_fraction` also
+    /// counts printable colours the mapping moved; this does not.
+    pub outside_fraction: f64,
+    /// Mean (over all pixels; 0 inside the gamut) and largest of that distance.
+    pub outside_mean_de: f64,
+    pub outside_max_de: f64,
     /// Distinct source values evaluated.
     pub distinct_values: u64,
 }
@@ -317,6 +326,9 @@ struct Tally {
     de_max: f32,
     de_over: Vec<u64>,
     region_over: u64,
+    outside_sum: f64,
+    outside_max: f32,
+    outside_over: u64,
     small_dots: [u64; 4],
     /// CMYK input: the ink statistics (RGB input has them from the separation).
     ink: InkStats,
@@ -340,6 +352,9 @@ impl Tally {
         self.de_sum += o.de_sum;
         self.de_max = self.de_max.max(o.de_max);
         self.region_over += o.region_over;
+        self.outside_sum += o.outside_sum;
+        self.outside_max = self.outside_max.max(o.outside_max);
+        self.outside_over += o.outside_over;
         for i in 0..4 {
             self.small_dots[i] += o.small_dots[i];
         }
@@ -406,7 +421,17 @@ impl Pass {
                 let mut de = 0.0f32;
                 if let Some(l) = lookup.as_mut() {
                     let i = y * w + x;
-                    de = l.get(i);
+                    let outside;
+                    (de, outside) = l.get(i);
+                    tally.outside_sum += outside as f64;
+                    tally.outside_max = tally.outside_max.max(outside);
+                    if outside > self.region_de {
+                        tally.outside_over += 1;
+                        // The a*b* chart's samples: colours the press cannot reach.
+                        if x % self.sample_step == 0 && y % self.sample_step == 0 {
+                            band.samples.push(i);
+                        }
+                    }
                     tally.de_hist[((de * (1.0 / DE_BIN as f32)).round() as usize).min(DE_BINS - 1)] += 1;
                     tally.de_sum += de as f64;
                     tally.de_max = tally.de_max.max(de);
@@ -416,9 +441,6 @@ impl Pass {
                     if de > self.region_de {
                         tally.region_over += 1;
                         rows[0].push(x as u32, de);
-                        if x % self.sample_step == 0 && y % self.sample_step == 0 {
-                            band.samples.push(i);
-                        }
                     }
                 }
                 if total > self.over_code {
@@ -476,6 +498,15 @@ impl Pass {
 
 /// A CMYK sample as one key (16 bits per ink).
 #[inline]
+/// An 8-bit RGB key (R << 16 | G << 8 | B) as encoded values 0..1.
+fn key_rgb(key: u32) -> [f64; 3] {
+    [
+        (key >> 16) as f64 / 255.0,
+        ((key >> 8) & 255) as f64 / 255.0,
+        (key & 255) as f64 / 255.0,
+    ]
+}
+
 fn cmyk_key(samples: &Samples, i: usize) -> u64 {
     let q: [u64; 4] = match samples {
         Samples::U8(v) => std::array::from_fn(|c| v[i * 4 + c] as u64 * 257),
@@ -514,18 +545,30 @@ struct DeModel<'a> {
     cmyk: &'a Samples,
     /// 8-bit RGB: ΔE (as f32 bits) per RGB value, filled for the values present.
     dense: Option<Vec<AtomicU32>>,
+    /// The relative colorimetric table (no black point compensation) that
+    /// finds each colour's nearest printable colour, where the intent is
+    /// another; `None` when the separation itself is that clip.
+    reach: Option<SeparationTable>,
+    /// 8-bit RGB with `reach`: the distance outside the gamut (f32 bits) per
+    /// RGB value.
+    dense_outside: Option<Vec<AtomicU32>>,
     distinct: u64,
 }
 
 impl<'a> DeModel<'a> {
     fn new(separator: &'a Separator, source: &'a RgbSource, rgb: &'a Samples, cmyk: &'a Samples) -> DeModel<'a> {
         let pixels = rgb.len() / 3;
+        let settings = separator.settings();
+        let reach = (settings.intent != Intent::Relative || settings.bpc)
+            .then(|| table_for_source(&separator.with_intent(Intent::Relative, false), source));
         let mut model = DeModel {
             separator,
             source,
             rgb,
             cmyk,
             dense: None,
+            reach,
+            dense_outside: None,
             distinct: 0,
         };
         let Samples::U8(v) = rgb else { return model };
@@ -553,6 +596,17 @@ impl<'a> DeModel<'a> {
                 (i != u32::MAX).then_some((k as u32, i))
             })
             .collect();
+        if let Some(reach) = &model.reach {
+            let outside: Vec<AtomicU32> = (0..1usize << 24).into_par_iter().map(|_| AtomicU32::new(0)).collect();
+            distinct.par_chunks(4096).for_each(|chunk| {
+                let rgb: Vec<[f64; 3]> = chunk.iter().map(|&(key, _)| key_rgb(key)).collect();
+                for ((&(key, _), lab), rgb) in chunk.iter().zip(source.labs_of(&rgb)).zip(&rgb) {
+                    let d = ciede2000(lab, separator.printed_relative(reach.lookup(*rgb)));
+                    outside[key as usize].store((d as f32).to_bits(), Ordering::Relaxed);
+                }
+            });
+            model.dense_outside = Some(outside);
+        }
         // Grouped by the CMYK they separate to: the forward model once per
         // distinct CMYK, the source colour once per distinct RGB.
         let mut items: Vec<(u64, u32)> = distinct.par_iter().map(|&(key, i)| (cmyk_key(cmyk, i as usize), key)).collect();
@@ -569,16 +623,7 @@ impl<'a> DeModel<'a> {
         starts.push(items.len());
         starts.par_windows(2).for_each(|span| {
             let group = &items[span[0]..span[1]];
-            let rgb: Vec<[f64; 3]> = group
-                .iter()
-                .map(|&(_, key)| {
-                    [
-                        (key >> 16) as f64 / 255.0,
-                        ((key >> 8) & 255) as f64 / 255.0,
-                        (key & 255) as f64 / 255.0,
-                    ]
-                })
-                .collect();
+            let rgb: Vec<[f64; 3]> = group.iter().map(|&(_, key)| key_rgb(key)).collect();
             let labs = source.labs_of(&rgb);
             let mut printed = (u64::MAX, Lab::default());
             for (&(ink, key), lab) in group.iter().zip(labs) {
@@ -593,25 +638,37 @@ impl<'a> DeModel<'a> {
         model
     }
 
-    /// ΔE of pixel `i` computed directly.
-    fn compute(&self, i: usize) -> f32 {
-        let lab = self.source.labs_of(&[rgb_at(self.rgb, i)])[0];
-        ciede2000(lab, self.separator.printed_in_frame(cmyk_of_key(cmyk_key(self.cmyk, i)))) as f32
+    /// ΔE of pixel `i`, and its distance outside the gamut, computed directly.
+    fn compute(&self, i: usize) -> (f32, f32) {
+        let rgb = rgb_at(self.rgb, i);
+        let lab = self.source.labs_of(&[rgb])[0];
+        let de = ciede2000(lab, self.separator.printed_in_frame(cmyk_of_key(cmyk_key(self.cmyk, i)))) as f32;
+        let outside = match &self.reach {
+            Some(reach) => ciede2000(lab, self.separator.printed_relative(reach.lookup(rgb))) as f32,
+            None => de,
+        };
+        (de, outside)
     }
 }
 
 /// A per-band lookup: the dense table, or a memo of the band's own values.
 struct DeLookup<'m, 'a> {
     model: &'m DeModel<'a>,
-    memo: HashMap<u64, f32>,
+    memo: HashMap<u64, (f32, f32)>,
 }
 
 impl DeLookup<'_, '_> {
+    /// ΔE of pixel `i` and its distance outside the gamut.
     #[inline]
-    fn get(&mut self, i: usize) -> f32 {
+    fn get(&mut self, i: usize) -> (f32, f32) {
         let key = rgb_key(self.model.rgb, i);
         if let Some(d) = &self.model.dense {
-            return f32::from_bits(d[key as usize].load(Ordering::Relaxed));
+            let de = f32::from_bits(d[key as usize].load(Ordering::Relaxed));
+            let outside = match &self.model.dense_outside {
+                Some(o) => f32::from_bits(o[key as usize].load(Ordering::Relaxed)),
+                None => de,
+            };
+            return (de, outside);
         }
         if let Some(&v) = self.memo.get(&key) {
             return v;
@@ -902,6 +959,9 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
                 fraction: frac(n),
             })
             .collect(),
+        outside_fraction: frac(tally.outside_over),
+        outside_mean_de: round_to(tally.outside_sum / px, 2),
+        outside_max_de: round_to(tally.outside_max as f64, 2),
         distinct_values: if m.dense.is_some() { m.distinct } else { 0 },
     });
     let tac = TacSummary {
@@ -1101,7 +1161,12 @@ mod tests {
             memo: HashMap::new(),
         };
         for i in 0..pixels {
-            assert_eq!(lookup.get(i).to_bits(), model.compute(i).to_bits(), "pixel {i}");
+            let (got, want) = (lookup.get(i), model.compute(i));
+            assert_eq!(
+                (got.0.to_bits(), got.1.to_bits()),
+                (want.0.to_bits(), want.1.to_bits()),
+                "pixel {i}"
+            );
         }
     }
 

@@ -37,6 +37,8 @@ enum Metric {
     P95De,
     MaxDe,
     DeOver,
+    OutsideFraction,
+    OutsideMaxDe,
     Regions(Option<&'static str>),
     SmallDots,
 }
@@ -51,6 +53,12 @@ const NAMES: &[(&[&str], Metric, Unit)] = &[
     (&["gamut.p95_de", "p95_de"], Metric::P95De, Unit::Plain),
     (&["gamut.max_de", "max_de"], Metric::MaxDe, Unit::Plain),
     (&["gamut.over_fraction", "de_over_fraction"], Metric::DeOver, Unit::Fraction),
+    (
+        &["gamut.outside_fraction", "outside_fraction"],
+        Metric::OutsideFraction,
+        Unit::Fraction,
+    ),
+    (&["gamut.outside_max_de", "outside_max_de"], Metric::OutsideMaxDe, Unit::Plain),
     (&["regions"], Metric::Regions(None), Unit::Plain),
     (
         &["regions.out-of-gamut"],
@@ -163,6 +171,8 @@ impl Rule {
             Metric::P95De => r.gamut.as_ref()?.p95_de,
             Metric::MaxDe => r.gamut.as_ref()?.max_de,
             Metric::DeOver => r.gamut.as_ref()?.over_fraction,
+            Metric::OutsideFraction => r.gamut.as_ref()?.outside_fraction,
+            Metric::OutsideMaxDe => r.gamut.as_ref()?.outside_max_de,
             Metric::Regions(None) => r.regions_total as f64,
             Metric::Regions(Some(kind)) => r.regions_by_kind.get(kind).copied().unwrap_or(0) as f64,
             Metric::SmallDots => r.plates.iter().map(|p| p.below_min_dot_fraction).fold(0.0, f64::max),
@@ -203,6 +213,8 @@ mod tests {
         assert_eq!(Rule::parse("tac>300%").unwrap().value, 300.0);
         assert_eq!(Rule::parse("TAC>=300").unwrap().op, Op::Ge);
         assert_eq!(Rule::parse("gamut.p95_de<=3").unwrap().metric, Metric::P95De);
+        assert_eq!(Rule::parse("outside_fraction>1%").unwrap().metric, Metric::OutsideFraction);
+        assert_eq!(Rule::parse("gamut.outside_max_de>=10").unwrap().metric, Metric::OutsideMaxDe);
         assert_eq!(Rule::parse("regions.over-ink>0").unwrap().metric, Metric::Regions(Some("over-ink")));
         assert_eq!(Rule::parse(DEFAULT_RULE).unwrap().metric, Metric::TacOver);
     }

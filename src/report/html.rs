@@ -415,6 +415,11 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
                 &format!("of the image over ΔE {}", o.threshold),
             );
         }
+        fig(
+            &mut h,
+            format!("{:.2} %", g.outside_fraction * 100.0),
+            &format!("of the image more than ΔE {} outside the press gamut", g.threshold),
+        );
     }
     fig(
         &mut h,

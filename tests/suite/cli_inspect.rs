@@ -275,6 +275,65 @@ fn sixteen_bit_input_agrees_with_eight_bit() {
     assert_eq!(boxes(&a), boxes(&b));
 }
 
+/// The share outside the press gamut does not depend on the intent: under
+/// relative colorimetric (the clip itself) and perceptual alike it is the
+/// blue and green patches, 4 900 of 30 000 pixels, at 8 and 16 bits; and its
+/// largest distance is that of the relative separation's own ΔE. The
+/// perceptual ΔE, by contrast, also counts in-gamut colours it moved.
+#[test]
+fn the_share_outside_the_gamut_is_the_colours_the_press_cannot_reach_whatever_the_intent() {
+    let d = Dir::new();
+    let (w, h) = SCENE;
+    let eight = d.path("scene8.png");
+    write_rgb_png(&eight, w, h, &scene());
+    let sixteen = d.path("scene16.png");
+    let file = std::fs::File::create(&sixteen).unwrap();
+    let mut enc = png::Encoder::new(std::io::BufWriter::new(file), w, h);
+    enc.set_color(png::ColorType::Rgb);
+    enc.set_depth(png::BitDepth::Sixteen);
+    let data: Vec<u8> = scene().iter().flat_map(|&v| (v as u16 * 257).to_be_bytes()).collect();
+    enc.write_header().unwrap().write_image_data(&data).unwrap();
+    let run = |p: &Path, intent: &str| {
+        let out = platesmith()
+            .arg("inspect")
+            .arg(p)
+            .args(["--intent", intent, "--table-grid", "17", "--region-de", "2", "--json"])
+            .assert()
+            .get_output()
+            .stdout
+            .clone();
+        json_of(&out)["gamut"].clone()
+    };
+    let patches = (50.0 * 50.0 + 60.0 * 40.0) / (w * h) as f64;
+    let relative = run(&eight, "relative");
+    // Relative colorimetric: the ΔE of the separation is the distance itself.
+    assert_eq!(relative["outside_fraction"], relative["over_fraction"], "{relative}");
+    assert_eq!(relative["outside_max_de"], relative["max_de"], "{relative}");
+    for (file, bits) in [(&eight, 8), (&sixteen, 16)] {
+        for intent in ["perceptual", "relative", "absolute"] {
+            let g = run(file, intent);
+            let share = g["outside_fraction"].as_f64().unwrap();
+            assert!(
+                (share - patches).abs() < 1e-5,
+                "{bits}-bit {intent}: {share} outside, patches {patches}: {g}"
+            );
+            let largest = g["outside_max_de"].as_f64().unwrap();
+            let want = relative["max_de"].as_f64().unwrap();
+            // The relative ΔE is of the 8-bit CMYK written; the distance uses
+            // the table's unrounded value.
+            assert!(
+                (largest - want).abs() < 0.5,
+                "{bits}-bit {intent}: largest {largest}, relative separation {want}"
+            );
+        }
+    }
+    let perceptual = run(&eight, "perceptual");
+    assert!(
+        perceptual["over_fraction"].as_f64().unwrap() > patches + 0.1,
+        "perceptual moves the in-gamut ground and tan by more than 2 too: {perceptual}"
+    );
+}
+
 #[test]
 fn region_threshold_and_minimum_area_are_configurable() {
     let d = Dir::new();
