@@ -427,7 +427,9 @@ impl Pass {
                     tally.outside_max = tally.outside_max.max(outside);
                     if outside > self.region_de {
                         tally.outside_over += 1;
-                        // The a*b* chart's samples: colours the press cannot reach.
+                        // Out-of-gamut regions and the a*b* chart's samples:
+                        // where and which colours the press cannot reach.
+                        rows[0].push(x as u32, outside);
                         if x % self.sample_step == 0 && y % self.sample_step == 0 {
                             band.samples.push(i);
                         }
@@ -440,7 +442,6 @@ impl Pass {
                     }
                     if de > self.region_de {
                         tally.region_over += 1;
-                        rows[0].push(x as u32, de);
                     }
                 }
                 if total > self.over_code {

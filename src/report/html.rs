@@ -445,7 +445,7 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
     if let Some(png) = de_png {
         let _ = write!(
             h,
-            "<figure><img alt='ΔE2000 map' src='data:image/png;base64,{}'><figcaption>ΔE2000 between the source colour and its printed colour, over a muted copy of the predicted print. Numbered boxes are the largest regions (up to 40 per map), numbered as in the table below.</figcaption></figure>",
+            "<figure><img alt='ΔE2000 map' src='data:image/png;base64,{}'><figcaption>ΔE2000 between the source colour and its printed colour, over a muted copy of the predicted print. Numbered boxes are the largest regions the press cannot reach (source colours more than the region threshold outside its gamut; up to 40 per map), numbered as in the table below.</figcaption></figure>",
             base64(png)
         );
     }

@@ -278,7 +278,8 @@ fn sixteen_bit_input_agrees_with_eight_bit() {
 /// The share outside the press gamut does not depend on the intent: under
 /// relative colorimetric (the clip itself) and perceptual alike it is the
 /// blue and green patches, 4 900 of 30 000 pixels, at 8 and 16 bits; and its
-/// largest distance is that of the relative separation's own ΔE. The
+/// largest distance is that of the relative separation's own ΔE; the
+/// out-of-gamut regions are those two patches under every intent. The
 /// perceptual ΔE, by contrast, also counts in-gamut colours it moved.
 #[test]
 fn the_share_outside_the_gamut_is_the_colours_the_press_cannot_reach_whatever_the_intent() {
@@ -302,16 +303,28 @@ fn the_share_outside_the_gamut_is_the_colours_the_press_cannot_reach_whatever_th
             .get_output()
             .stdout
             .clone();
-        json_of(&out)["gamut"].clone()
+        json_of(&out)
     };
     let patches = (50.0 * 50.0 + 60.0 * 40.0) / (w * h) as f64;
-    let relative = run(&eight, "relative");
+    let relative = run(&eight, "relative")["gamut"].clone();
     // Relative colorimetric: the ΔE of the separation is the distance itself.
     assert_eq!(relative["outside_fraction"], relative["over_fraction"], "{relative}");
     assert_eq!(relative["outside_max_de"], relative["max_de"], "{relative}");
     for (file, bits) in [(&eight, 8), (&sixteen, 16)] {
         for intent in ["perceptual", "relative", "absolute"] {
-            let g = run(file, intent);
+            let r = run(file, intent);
+            let g = &r["gamut"];
+            let boxes: Vec<[u32; 4]> = r["regions"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .filter(|v| v["kind"] == "out-of-gamut")
+                .map(bbox)
+                .collect();
+            assert_eq!(boxes.len(), 2, "{bits}-bit {intent}: {boxes:?}");
+            for (patch, found) in [BLUE, GREEN].iter().zip(&boxes) {
+                assert!(iou(patch.0, *found) >= 0.9, "{bits}-bit {intent}: {found:?} for {:?}", patch.0);
+            }
             let share = g["outside_fraction"].as_f64().unwrap();
             assert!(
                 (share - patches).abs() < 1e-5,
@@ -327,7 +340,7 @@ fn the_share_outside_the_gamut_is_the_colours_the_press_cannot_reach_whatever_th
             );
         }
     }
-    let perceptual = run(&eight, "perceptual");
+    let perceptual = run(&eight, "perceptual")["gamut"].clone();
     assert!(
         perceptual["over_fraction"].as_f64().unwrap() > patches + 0.1,
         "perceptual moves the in-gamut ground and tan by more than 2 too: {perceptual}"
