@@ -51,6 +51,17 @@ fn write_rgb_png(path: &Path, width: u32, height: u32, data: &[u8]) {
     w.write_image_data(data).unwrap();
 }
 
+/// The scene at 16 bits (v × 257 is the same colour as v at 8 bits).
+fn write_scene_16(path: &Path) {
+    let (w, h) = SCENE;
+    let file = std::fs::File::create(path).unwrap();
+    let mut enc = png::Encoder::new(std::io::BufWriter::new(file), w, h);
+    enc.set_color(png::ColorType::Rgb);
+    enc.set_depth(png::BitDepth::Sixteen);
+    let data: Vec<u8> = scene().iter().flat_map(|&v| (v as u16 * 257).to_be_bytes()).collect();
+    enc.write_header().unwrap().write_image_data(&data).unwrap();
+}
+
 /// A patch: x, y, width, height and its RGB value.
 type Patch = ([u32; 4], [u8; 3]);
 
@@ -243,12 +254,7 @@ fn sixteen_bit_input_agrees_with_eight_bit() {
     let eight = d.path("scene8.png");
     write_rgb_png(&eight, w, h, &scene());
     let sixteen = d.path("scene16.png");
-    let file = std::fs::File::create(&sixteen).unwrap();
-    let mut enc = png::Encoder::new(std::io::BufWriter::new(file), w, h);
-    enc.set_color(png::ColorType::Rgb);
-    enc.set_depth(png::BitDepth::Sixteen);
-    let data: Vec<u8> = scene().iter().flat_map(|&v| (v as u16 * 257).to_be_bytes()).collect();
-    enc.write_header().unwrap().write_image_data(&data).unwrap();
+    write_scene_16(&sixteen);
     let run = |p: &Path| {
         json_of(
             &platesmith()
@@ -288,12 +294,7 @@ fn the_share_outside_the_gamut_is_the_colours_the_press_cannot_reach_whatever_th
     let eight = d.path("scene8.png");
     write_rgb_png(&eight, w, h, &scene());
     let sixteen = d.path("scene16.png");
-    let file = std::fs::File::create(&sixteen).unwrap();
-    let mut enc = png::Encoder::new(std::io::BufWriter::new(file), w, h);
-    enc.set_color(png::ColorType::Rgb);
-    enc.set_depth(png::BitDepth::Sixteen);
-    let data: Vec<u8> = scene().iter().flat_map(|&v| (v as u16 * 257).to_be_bytes()).collect();
-    enc.write_header().unwrap().write_image_data(&data).unwrap();
+    write_scene_16(&sixteen);
     let run = |p: &Path, intent: &str| {
         let out = platesmith()
             .arg("inspect")
