@@ -32,7 +32,7 @@ pub struct InspectArgs {
     /// ΔE2000 thresholds for the area shares, comma-separated. Default: 2,5.
     #[arg(long, value_name = "LIST", value_delimiter = ',')]
     pub de_thresholds: Option<Vec<f64>>,
-    /// ΔE2000 above which a pixel counts as out of gamut (regions). Default: the largest threshold.
+    /// ΔE2000 outside the press gamut above which a pixel counts as out of gamut (regions, the share outside), whatever the intent. Default: the largest threshold.
     #[arg(long, value_name = "DE")]
     pub region_de: Option<f64>,
     /// Regions smaller than this are dropped as specks, mm². Default: 0.25.

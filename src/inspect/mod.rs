@@ -76,7 +76,7 @@ pub const DEFAULT_MIN_AREA_MM2: f64 = 0.25;
 pub struct InspectOptions {
     /// ΔE2000 thresholds for the area shares, ascending.
     pub de_thresholds: Vec<f64>,
-    /// ΔE2000 above which a pixel counts as out of gamut (regions, `gamut.over_fraction`).
+    /// ΔE2000 above which a pixel counts as out of gamut: its distance outside the press gamut for the regions and `gamut.outside_fraction`, the separation's ΔE for `gamut.over_fraction`.
     pub region_de: f64,
     /// Regions under this area are dropped, mm².
     pub min_area_mm2: f64,
