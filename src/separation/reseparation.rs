@@ -44,8 +44,8 @@ use super::SeparationSettings;
 use super::engine::{Intent, Separator};
 use super::gamut::{GamutBoundary, PerceptualMap, SourceGamut, black_point_compensation};
 use super::table::{
-    InkCaps, PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, narrow_within, position, quantize, round_within, simplex,
-    smooth_shadows, step_table, steps,
+    InkCaps, PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, narrow_within, position, quantize, simplex, smooth_shadows,
+    step_table, steps,
 };
 use crate::colour::Lab;
 use crate::error::{Error, Result};
@@ -145,6 +145,8 @@ pub struct ReseparationTable {
     nodes: Vec<[u16; 4]>,
     /// The same nodes packed for the pixel kernel.
     packed: PackedNodes,
+    /// The nodes for 8-bit output, quantised to [`InkCaps::for_8_bit_nodes`].
+    packed8: PackedNodes,
     /// Source black → target black only, 0..65535, when pure black is kept.
     black_curve: Option<Vec<u16>>,
     /// The same curve sampled at the 256 8-bit codes, rounded to 8 bits.
@@ -224,12 +226,15 @@ impl ReseparationTable {
             smooth_shadows(&mut inks, &lightness, n, 4, target_black.l);
         }
         let (tac, k_max) = (settings.tac, settings.black.black_max);
+        let caps = InkCaps::new(tac, k_max);
+        let (tac8, k_max8) = caps.for_8_bit_nodes();
+        let nodes8: Vec<[u16; 4]> = inks.iter().map(|&x| quantize(x, tac8, k_max8)).collect();
         let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, tac, k_max)).collect();
 
         let (black_curve, black_curve8) = if keep_pure_black {
             let curve = black_only_curve(&source_gamut, target);
             // Rounded, but never over the maximum black in 8-bit codes.
-            let k_codes = InkCaps::new(tac, k_max).codes::<u8>().black();
+            let k_codes = caps.codes::<u8>().black();
             let curve8: Vec<u8> = (0..256u32)
                 .map(|v| to_8bit(curve_at(&curve, v, 255) as u32).min(k_codes as u8))
                 .collect();
@@ -240,10 +245,11 @@ impl ReseparationTable {
         Ok(ReseparationTable {
             grid: n,
             packed: PackedNodes::new(&nodes),
+            packed8: PackedNodes::new(&nodes8),
             nodes,
             black_curve,
             black_curve8,
-            caps: InkCaps::new(tac, k_max),
+            caps,
         })
     }
 
@@ -371,7 +377,9 @@ impl ReseparationTable {
         let strides = self.strides();
         let table = step_table::<S, 4>(self.grid, strides);
         let zero = S::from_16(0);
-        let caps = self.caps.codes::<S>();
+        // As in `SeparationTable`: 8-bit pixels from nodes rounding cannot
+        // take over the limits.
+        let packed = if S::MAX == 255 { &self.packed8 } else { &self.packed };
         let row_pixels = row_pixels.max(1);
         input
             .par_chunks(4 * row_pixels)
@@ -384,8 +392,10 @@ impl ReseparationTable {
                         out.copy_from_slice(&[zero, zero, zero, black(px[3].code())]);
                         continue;
                     }
-                    let v = simplex::<4, 5>(&self.packed, steps(&table, px, self.grid, strides));
-                    round_within(v, caps, out);
+                    let v = simplex::<4, 5>(packed, steps(&table, px, self.grid, strides));
+                    for ch in 0..4 {
+                        out[ch] = S::from_16(v[ch]);
+                    }
                 }
             });
     }
@@ -481,6 +491,7 @@ mod tests {
         let t = ReseparationTable {
             grid: n,
             packed: PackedNodes::new(&nodes),
+            packed8: PackedNodes::new(&nodes),
             nodes,
             black_curve: None,
             black_curve8: None,

@@ -25,6 +25,8 @@ pub struct SeparationTable {
     nodes: Vec<[u16; 4]>,
     /// The same nodes packed for the pixel kernels (see [`PackedNodes`]).
     packed: PackedNodes,
+    /// The nodes for 8-bit output, quantised to [`InkCaps::for_8_bit_nodes`].
+    packed8: PackedNodes,
     /// Source pure black (all channels 0) prints as black ink only, at the
     /// maximum black (16-bit value), when set.
     pure_black: Option<u16>,
@@ -308,6 +310,16 @@ pub(crate) struct InkCaps {
 }
 
 impl InkCaps {
+    /// The limits for the nodes that 8-bit pixels are interpolated from:
+    /// low enough that no pixel between them, each plate rounded to the
+    /// nearest code, can go over the limits in 8-bit codes (at 330 %, nodes
+    /// hold at most 840.0 codes and pixels at most 841). The cost is one code
+    /// of total ink at nodes on the limit; the kernel needs no check.
+    pub(crate) fn for_8_bit_nodes(self) -> (f64, f64) {
+        let c = self.codes::<u8>();
+        (c.safe_total as f64 / 65535.0, c.safe_black as f64 / 65535.0)
+    }
+
     pub(crate) fn new(tac: f64, k_max: f64) -> InkCaps {
         let cap = |v: f64| (v * 65535.0 + 1e-6).floor().clamp(0.0, 4.0 * 65535.0) as u32;
         InkCaps {
@@ -435,12 +447,16 @@ impl SeparationTable {
             smooth_shadows(&mut inks, &lightness, n, 3, separator.black_point().0.l);
         }
         let (tac, k_max) = (separator.settings().tac, separator.settings().black.black_max);
+        let caps = InkCaps::new(tac, k_max);
+        let (tac8, k_max8) = caps.for_8_bit_nodes();
+        let nodes8: Vec<[u16; 4]> = inks.iter().map(|&x| quantize(x, tac8, k_max8)).collect();
         let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, tac, k_max)).collect();
         SeparationTable {
             grid: n,
             packed: PackedNodes::new(&nodes),
+            packed8: PackedNodes::new(&nodes8),
             nodes,
-            caps: InkCaps::new(tac, k_max),
+            caps,
             pure_black: separator
                 .settings()
                 .keep_pure_black
@@ -525,7 +541,9 @@ impl SeparationTable {
         let table = step_table::<S, 3>(self.grid, strides);
         let black = self.pure_black.map(|k| S::from_16_down(k as u32));
         let zero = S::from_16(0);
-        let caps = self.caps.codes::<S>();
+        // 8-bit pixels come from nodes that rounding cannot take over the
+        // limits; 16-bit pixels are not rounded.
+        let packed = if S::MAX == 255 { &self.packed8 } else { &self.packed };
         let row_pixels = row_pixels.max(1);
         rgb.par_chunks(3 * row_pixels)
             .zip(cmyk.par_chunks_mut(4 * row_pixels))
@@ -537,8 +555,10 @@ impl SeparationTable {
                         out.copy_from_slice(&[zero, zero, zero, k]);
                         continue;
                     }
-                    let v = simplex::<3, 4>(&self.packed, steps(&table, px, self.grid, strides));
-                    round_within(v, caps, out);
+                    let v = simplex::<3, 4>(packed, steps(&table, px, self.grid, strides));
+                    for ch in 0..4 {
+                        out[ch] = S::from_16(v[ch]);
+                    }
                 }
             });
     }
@@ -571,6 +591,7 @@ mod tests {
             let table = SeparationTable {
                 grid,
                 packed: PackedNodes::new(&nodes),
+                packed8: PackedNodes::new(&nodes),
                 nodes,
                 pure_black: None,
                 caps: InkCaps::new(4.0, 1.0),
@@ -655,6 +676,24 @@ mod tests {
         let mut out16 = [0u16; 4];
         round_within([54_000, 54_000, 54_000, caps.total - 162_000], caps.codes::<u16>(), &mut out16);
         assert_eq!(out16, [54_000, 54_000, 54_000, (caps.total - 162_000) as u16]);
+    }
+
+    /// Nodes at the 8-bit node caps, interpolated anyhow and rounded per
+    /// plate, stay within the 8-bit limits: the worst case rounds all four
+    /// plates up by half a code.
+    #[test]
+    fn eight_bit_node_caps_leave_room_for_rounding() {
+        for (tac, k_max) in [(3.3, 0.96), (2.4, 0.9), (2.8, 1.0), (4.0, 1.0), (2.0, 0.5)] {
+            let caps = InkCaps::new(tac, k_max);
+            let codes = caps.codes::<u8>();
+            let (tac8, k8) = caps.for_8_bit_nodes();
+            let (t16, k16) = ((tac8 * 65535.0 + 1e-6).floor() as u32, (k8 * 65535.0 + 1e-6).floor() as u32);
+            // Σ round(v) ≤ (Σv · 255 + 4 · 32767) / 65535 and round(k) alike.
+            assert!((t16 as u64 * 255 + 4 * 32767) / 65535 <= codes.total as u64, "{tac}: {t16}");
+            assert!(u8::from_16(k16) as u32 <= codes.black, "{k_max}: {k16}");
+            // And the room taken is one code of total ink.
+            assert!(codes.total as f64 - t16 as f64 * 255.0 / 65535.0 <= 1.01, "{tac}: {t16}");
+        }
     }
 
     /// The multiply-and-shift rounding to 8 bits is the division it stands
