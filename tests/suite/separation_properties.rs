@@ -129,8 +129,8 @@ proptest! {
     /// A grid-9 table under random settings, applied to random 8-bit pixels:
     /// total ink and black never over their limits after quantization (not
     /// by one code), and each pixel equal to the table's interpolation of the
-    /// same value (`lookup`) within one code value, two where a channel was
-    /// rounded down to hold the ink limit; 16-bit application
+    /// same value (`lookup`) within one code value, two next to the limits
+    /// (8-bit pixels come from nodes held one code under them); 16-bit application
     /// within three 16-bit code values (the interpolation weights have 15 bits,
     /// so a weight's rounding moves the result by at most 2 codes, plus one
     /// for the final rounding).
