@@ -51,6 +51,30 @@ fn write_rgb_png(path: &Path, width: u32, height: u32, data: &[u8]) {
     w.write_image_data(data).unwrap();
 }
 
+/// The scene as an 8-bit and as a 16-bit PNG.
+fn scene_files(d: &Dir) -> (PathBuf, PathBuf) {
+    let (w, h) = SCENE;
+    let eight = d.path("scene8.png");
+    write_rgb_png(&eight, w, h, &scene());
+    let sixteen = d.path("scene16.png");
+    write_scene_16(&sixteen);
+    (eight, sixteen)
+}
+
+/// `platesmith inspect FILE ARGS…` as JSON.
+fn inspect_json(path: &Path, args: &[&str]) -> Value {
+    json_of(
+        &platesmith()
+            .arg("inspect")
+            .arg(path)
+            .args(args)
+            .assert()
+            .get_output()
+            .stdout
+            .clone(),
+    )
+}
+
 /// The scene at 16 bits (v × 257 is the same colour as v at 8 bits).
 fn write_scene_16(path: &Path) {
     let (w, h) = SCENE;
@@ -250,25 +274,11 @@ fn sixteen_bit_input_agrees_with_eight_bit() {
     // The same scene at 16 bits (v × 257 is the same colour): the same regions
     // and, within the 8-bit rounding of the CMYK, the same ΔE.
     let d = Dir::new();
-    let (w, h) = SCENE;
-    let eight = d.path("scene8.png");
-    write_rgb_png(&eight, w, h, &scene());
-    let sixteen = d.path("scene16.png");
-    write_scene_16(&sixteen);
-    let run = |p: &Path| {
-        json_of(
-            &platesmith()
-                .arg("inspect")
-                .arg(p)
-                .args(MODEL)
-                .arg("--json")
-                .assert()
-                .get_output()
-                .stdout
-                .clone(),
-        )
-    };
-    let (a, b) = (run(&eight), run(&sixteen));
+    let (eight, sixteen) = scene_files(&d);
+    let (a, b) = (
+        inspect_json(&eight, &[&MODEL[..], &["--json"]].concat()),
+        inspect_json(&sixteen, &[&MODEL[..], &["--json"]].concat()),
+    );
     for key in ["mean_de", "max_de"] {
         assert!(
             (a["gamut"][key].as_f64().unwrap() - b["gamut"][key].as_f64().unwrap()).abs() < 0.5,
@@ -290,22 +300,9 @@ fn sixteen_bit_input_agrees_with_eight_bit() {
 #[test]
 fn the_share_outside_the_gamut_is_the_colours_the_press_cannot_reach_whatever_the_intent() {
     let d = Dir::new();
+    let (eight, sixteen) = scene_files(&d);
     let (w, h) = SCENE;
-    let eight = d.path("scene8.png");
-    write_rgb_png(&eight, w, h, &scene());
-    let sixteen = d.path("scene16.png");
-    write_scene_16(&sixteen);
-    let run = |p: &Path, intent: &str| {
-        let out = platesmith()
-            .arg("inspect")
-            .arg(p)
-            .args(["--intent", intent, "--table-grid", "17", "--region-de", "2", "--json"])
-            .assert()
-            .get_output()
-            .stdout
-            .clone();
-        json_of(&out)
-    };
+    let run = |p: &Path, intent: &str| inspect_json(p, &["--intent", intent, "--table-grid", "17", "--region-de", "2", "--json"]);
     let patches = (50.0 * 50.0 + 60.0 * 40.0) / (w * h) as f64;
     let relative = run(&eight, "relative")["gamut"].clone();
     // Relative colorimetric: the ΔE of the separation is the distance itself.
