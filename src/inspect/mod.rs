@@ -497,8 +497,6 @@ impl Pass {
     }
 }
 
-/// A CMYK sample as one key (16 bits per ink).
-#[inline]
 /// An 8-bit RGB key (R << 16 | G << 8 | B) as encoded values 0..1.
 fn key_rgb(key: u32) -> [f64; 3] {
     [
@@ -508,6 +506,8 @@ fn key_rgb(key: u32) -> [f64; 3] {
     ]
 }
 
+/// A CMYK sample as one key (16 bits per ink).
+#[inline]
 fn cmyk_key(samples: &Samples, i: usize) -> u64 {
     let q: [u64; 4] = match samples {
         Samples::U8(v) => std::array::from_fn(|c| v[i * 4 + c] as u64 * 257),
@@ -597,17 +597,6 @@ impl<'a> DeModel<'a> {
                 (i != u32::MAX).then_some((k as u32, i))
             })
             .collect();
-        if let Some(reach) = &model.reach {
-            let outside: Vec<AtomicU32> = (0..1usize << 24).into_par_iter().map(|_| AtomicU32::new(0)).collect();
-            distinct.par_chunks(4096).for_each(|chunk| {
-                let rgb: Vec<[f64; 3]> = chunk.iter().map(|&(key, _)| key_rgb(key)).collect();
-                for ((&(key, _), lab), rgb) in chunk.iter().zip(source.labs_of(&rgb)).zip(&rgb) {
-                    let d = ciede2000(lab, separator.printed_relative(reach.lookup(*rgb)));
-                    outside[key as usize].store((d as f32).to_bits(), Ordering::Relaxed);
-                }
-            });
-            model.dense_outside = Some(outside);
-        }
         // Grouped by the CMYK they separate to: the forward model once per
         // distinct CMYK, the source colour once per distinct RGB.
         let mut items: Vec<(u64, u32)> = distinct.par_iter().map(|&(key, i)| (cmyk_key(cmyk, i as usize), key)).collect();
@@ -622,18 +611,31 @@ impl<'a> DeModel<'a> {
             }
         }
         starts.push(items.len());
+        // The distance outside the gamut, where it is not the ΔE itself, from
+        // the same source colours.
+        let outside = model.reach.as_ref().map(|reach| {
+            (
+                reach,
+                (0..1usize << 24).into_par_iter().map(|_| AtomicU32::new(0)).collect::<Vec<_>>(),
+            )
+        });
         starts.par_windows(2).for_each(|span| {
             let group = &items[span[0]..span[1]];
             let rgb: Vec<[f64; 3]> = group.iter().map(|&(_, key)| key_rgb(key)).collect();
             let labs = source.labs_of(&rgb);
             let mut printed = (u64::MAX, Lab::default());
-            for (&(ink, key), lab) in group.iter().zip(labs) {
+            for ((&(ink, key), lab), rgb) in group.iter().zip(labs).zip(&rgb) {
                 if printed.0 != ink {
                     printed = (ink, separator.printed_in_frame(cmyk_of_key(ink)));
                 }
                 first[key as usize].store((ciede2000(lab, printed.1) as f32).to_bits(), Ordering::Relaxed);
+                if let Some((reach, o)) = &outside {
+                    let d = ciede2000(lab, separator.printed_relative(reach.lookup(*rgb)));
+                    o[key as usize].store((d as f32).to_bits(), Ordering::Relaxed);
+                }
             }
         });
+        model.dense_outside = outside.map(|(_, o)| o);
         model.distinct = distinct.len() as u64;
         model.dense = Some(first);
         model
