@@ -227,9 +227,9 @@ impl ReseparationTable {
         }
         let (tac, k_max) = (settings.tac, settings.black.black_max);
         let caps = InkCaps::new(tac, k_max);
-        let (tac8, k_max8) = caps.for_8_bit_nodes();
-        let nodes8: Vec<[u16; 4]> = inks.iter().map(|&x| quantize(x, tac8, k_max8)).collect();
-        let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, tac, k_max)).collect();
+        let caps8 = caps.for_8_bit_nodes();
+        let nodes8: Vec<[u16; 4]> = inks.iter().map(|&x| quantize(x, caps8)).collect();
+        let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, caps)).collect();
 
         let (black_curve, black_curve8) = if keep_pure_black {
             let curve = black_only_curve(&source_gamut, target);

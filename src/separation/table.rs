@@ -285,12 +285,11 @@ pub(crate) fn smooth_shadows(inks: &mut [[f64; 4]], lightness: &[f64], n: usize,
 /// Rounds a node to 16 bits without letting rounding break the limits:
 /// channels rounded up are taken back, largest rounding first, until the
 /// total and black fit.
-pub(crate) fn quantize(x: [f64; 4], tac: f64, k_max: f64) -> [u16; 4] {
+pub(crate) fn quantize(x: [f64; 4], caps: InkCaps) -> [u16; 4] {
     let scale = 65535.0;
     let mut q = x.map(|v| (v * scale).round().clamp(0.0, scale) as i64);
-    let k_cap = (k_max * scale + 1e-6).floor() as i64;
-    q[3] = q[3].min(k_cap);
-    let cap = (tac * scale + 1e-6).floor() as i64;
+    q[3] = q[3].min(caps.black as i64);
+    let cap = caps.total as i64;
     while q.iter().sum::<i64>() > cap {
         let i = (0..4)
             .filter(|&i| q[i] > 0)
@@ -301,7 +300,7 @@ pub(crate) fn quantize(x: [f64; 4], tac: f64, k_max: f64) -> [u16; 4] {
     q.map(|v| v as u16)
 }
 
-/// The limits a table's nodes were quantised to ([`quantize`]), in 16-bit
+/// The limits a table's nodes are quantised to ([`quantize`]), in 16-bit
 /// units: total ink and black.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) struct InkCaps {
@@ -315,9 +314,12 @@ impl InkCaps {
     /// nearest code, can go over the limits in 8-bit codes (at 330 %, nodes
     /// hold at most 840.0 codes and pixels at most 841). The cost is one code
     /// of total ink at nodes on the limit; the kernel needs no check.
-    pub(crate) fn for_8_bit_nodes(self) -> (f64, f64) {
+    pub(crate) fn for_8_bit_nodes(self) -> InkCaps {
         let c = self.codes::<u8>();
-        (c.safe_total as f64 / 65535.0, c.safe_black as f64 / 65535.0)
+        InkCaps {
+            total: c.safe_total,
+            black: c.safe_black,
+        }
     }
 
     pub(crate) fn new(tac: f64, k_max: f64) -> InkCaps {
@@ -448,19 +450,16 @@ impl SeparationTable {
         }
         let (tac, k_max) = (separator.settings().tac, separator.settings().black.black_max);
         let caps = InkCaps::new(tac, k_max);
-        let (tac8, k_max8) = caps.for_8_bit_nodes();
-        let nodes8: Vec<[u16; 4]> = inks.iter().map(|&x| quantize(x, tac8, k_max8)).collect();
-        let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, tac, k_max)).collect();
+        let caps8 = caps.for_8_bit_nodes();
+        let nodes8: Vec<[u16; 4]> = inks.iter().map(|&x| quantize(x, caps8)).collect();
+        let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, caps)).collect();
         SeparationTable {
             grid: n,
             packed: PackedNodes::new(&nodes),
             packed8: PackedNodes::new(&nodes8),
             nodes,
             caps,
-            pure_black: separator
-                .settings()
-                .keep_pure_black
-                .then(|| (k_max * 65535.0 + 1e-6).floor() as u16),
+            pure_black: separator.settings().keep_pure_black.then_some(caps.black as u16),
         }
     }
 
@@ -686,8 +685,8 @@ mod tests {
         for (tac, k_max) in [(3.3, 0.96), (2.4, 0.9), (2.8, 1.0), (4.0, 1.0), (2.0, 0.5)] {
             let caps = InkCaps::new(tac, k_max);
             let codes = caps.codes::<u8>();
-            let (tac8, k8) = caps.for_8_bit_nodes();
-            let (t16, k16) = ((tac8 * 65535.0 + 1e-6).floor() as u32, (k8 * 65535.0 + 1e-6).floor() as u32);
+            let caps8 = caps.for_8_bit_nodes();
+            let (t16, k16) = (caps8.total, caps8.black);
             // Σ round(v) ≤ (Σv · 255 + 4 · 32767) / 65535 and round(k) alike.
             assert!((t16 as u64 * 255 + 4 * 32767) / 65535 <= codes.total as u64, "{tac}: {t16}");
             assert!(u8::from_16(k16) as u32 <= codes.black, "{k_max}: {k16}");
