@@ -48,6 +48,8 @@ fn end_to_end(c: &mut Criterion) {
                 compression: Compression::None,
                 overwrite: true,
                 limits: Limits::default(),
+                accept_damaged: false,
+                page: None,
                 gray: GrayMode::Neutral,
                 ignore_bad_profile: false,
                 source_space: RgbSpace::Srgb,

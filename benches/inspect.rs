@@ -85,6 +85,8 @@ fn workshop(separator: &Separator) -> Workshop {
         compression: Compression::None,
         overwrite: false,
         limits: Limits::default(),
+        accept_damaged: false,
+        page: None,
         gray: GrayMode::Neutral,
         ignore_bad_profile: false,
         source_space: platesmith::colour::RgbSpace::Srgb,

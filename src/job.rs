@@ -4,7 +4,7 @@
 use crate::colour::RgbSpace;
 use crate::error::{Error, Result};
 use crate::ink::{Cmyk, Ink};
-use crate::raster::{CmykImage, Compression, Layout, Limits, OutputSet, Raster, Resolution, Samples, TiffOptions};
+use crate::raster::{CmykImage, Compression, Layout, Limits, OutputSet, Raster, ReadOptions, Resolution, Samples, TiffOptions};
 use crate::report::{SettingsReport, round_to};
 use crate::separation::{SeparationTable, Separator};
 use crate::source::RgbSource;
@@ -47,6 +47,10 @@ pub struct JobOptions {
     pub compression: Compression,
     pub overwrite: bool,
     pub limits: Limits,
+    /// Separate JPEG files whose data is cut short or corrupt (noted in the summary).
+    pub accept_damaged: bool,
+    /// The TIFF page to read, from 1 (`None`: the first full-resolution page).
+    pub page: Option<u32>,
     pub gray: GrayMode,
     pub ignore_bad_profile: bool,
     pub source_space: RgbSpace,
@@ -54,6 +58,18 @@ pub struct JobOptions {
     pub source_condition: crate::press::PrintingCondition,
     /// CMYK input: pixels with only black stay black only.
     pub keep_pure_black_cmyk: bool,
+}
+
+impl JobOptions {
+    /// How this job reads its inputs: float samples are encoded with the source space's curve.
+    pub fn read_options(&self) -> ReadOptions {
+        ReadOptions {
+            limits: self.limits,
+            accept_damaged: self.accept_damaged,
+            page: self.page,
+            float_space: self.source_space,
+        }
+    }
 }
 
 /// Points per L*, a*, b* axis of the BToA and gamut tables of the profile
@@ -347,7 +363,7 @@ impl Workshop {
     /// a separation (inspect, proof) see exactly the CMYK that `separate` writes.
     pub fn separate_file(&self, path: &Path) -> Result<SeparatedFile> {
         let t = Instant::now();
-        let raster = crate::raster::read_raster(path, &self.options.limits)?;
+        let raster = crate::raster::read_raster_with(path, &self.options.read_options())?;
         let read_ms = ms(t);
         self.separate_raster(path, raster, read_ms)
     }
@@ -355,14 +371,17 @@ impl Workshop {
     /// Separates a raster already read from `path` (as [`Workshop::separate_file`]
     /// does after reading); `read_ms` is the time the read took.
     pub fn separate_raster(&self, path: &Path, raster: Raster, read_ms: f64) -> Result<SeparatedFile> {
-        let mut notes = Vec::new();
+        let mut notes = raster.notes.clone();
         let t = Instant::now();
         let gray = matches!(raster.layout, Layout::Gray | Layout::GrayAlpha);
+        let black_only = self.options.gray == GrayMode::BlackOnly || raster.line_art;
         let mut rgb_source = None;
         let (image, table_ms, separate_ms) = match to_rgb(&raster, &mut notes) {
-            Some(_) if gray && self.options.gray == GrayMode::BlackOnly => {
+            Some(_) if gray && black_only => {
                 let cmyk = self.gray_to_black(&raster);
-                notes.push("gray input on the black plate only".into());
+                if !raster.line_art {
+                    notes.push("gray input on the black plate only".into());
+                }
                 (cmyk, 0.0, ms(t))
             }
             Some(rgb) => {

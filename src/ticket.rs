@@ -81,6 +81,10 @@ pub struct LimitsSection {
     /// Largest decoded image accepted, MiB.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub max_memory_mib: Option<u64>,
+    /// Separate JPEG files whose data is cut short or corrupt (noted in the summary and the
+    /// hot folder's log) instead of refusing them.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub accept_damaged: Option<bool>,
 }
 
 /// Pass/fail rules for checks (`inspect`, the hot folder).

@@ -332,6 +332,8 @@ pub fn run(args: InspectArgs) -> Result<i32> {
         compression: Compression::None,
         overwrite: args.force,
         limits: args.input.limits(t)?,
+        accept_damaged: args.input.accept_damaged(t),
+        page: args.input.page,
         gray: super::separate::gray_mode(None, t),
         ignore_bad_profile: args.input.ignore_bad_profile,
         source_space: setup.source_space,

@@ -212,9 +212,22 @@ pub struct InputArgs {
     /// Largest decoded image accepted, MiB. Default: 4096.
     #[arg(long, value_name = "MIB")]
     pub max_memory: Option<u64>,
+    /// Separate JPEG files whose data is cut short or corrupt (the decoder fills
+    /// the gap); the summary notes it. Without it such a file is an error.
+    #[arg(long)]
+    pub accept_damaged: bool,
+    /// The page of a multi-page TIFF to read, from 1. Default: the first
+    /// full-resolution page (reduced-resolution copies are passed over).
+    #[arg(long, value_name = "N")]
+    pub page: Option<u32>,
 }
 
 impl InputArgs {
+    /// Whether damaged JPEG data is accepted: the flag, else the ticket's `[limits] accept_damaged`.
+    pub fn accept_damaged(&self, t: &Ticket) -> bool {
+        self.accept_damaged || t.limits.accept_damaged.unwrap_or(false)
+    }
+
     /// Reading limits: the flags, else the ticket's, else the defaults. A zero
     /// side and a zero or overflowing memory budget are refused.
     pub fn limits(&self, t: &Ticket) -> Result<Limits> {

@@ -73,6 +73,8 @@ pub fn run(args: ProofArgs) -> Result<i32> {
         compression: Compression::None,
         overwrite: args.force,
         limits,
+        accept_damaged: args.input_args.accept_damaged(t),
+        page: args.input_args.page,
         gray: super::separate::gray_mode(None, t),
         ignore_bad_profile: args.input_args.ignore_bad_profile,
         source_space: setup.source_space,

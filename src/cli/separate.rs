@@ -175,6 +175,8 @@ fn build_workshop(args: &SeparateArgs, r: Resolved) -> Result<Workshop> {
         compression,
         overwrite: args.force,
         limits,
+        accept_damaged: args.input.accept_damaged(t),
+        page: args.input.page,
         gray,
         ignore_bad_profile: args.input.ignore_bad_profile,
         source_space: setup.source_space,
@@ -209,6 +211,7 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
             limits: LimitsSection {
                 max_side: Some(limits.max_width),
                 max_memory_mib: Some(limits.max_bytes >> 20),
+                accept_damaged: args.input.accept_damaged(t).then_some(true),
             },
             checks: t.checks.clone(),
             source: None,

@@ -625,6 +625,15 @@ fn process(shared: &Shared, claimed: &Claimed) -> Outcome {
                 Verdict::Fail(r) => reasons.extend(r.into_iter().map(|r| format!("{}: {r}", step.name()))),
             }
         }
+        // Damaged data accepted by the ticket's `accept_damaged` is said in the log, not only in the summary.
+        for note in job
+            .separated
+            .iter()
+            .flat_map(|s| &s.raster.notes)
+            .filter(|n| n.contains("--accept-damaged"))
+        {
+            shared.log.event("damaged", &name, note, None);
+        }
         Ok(reasons)
     })();
     if let Some(d) = shared.delay {

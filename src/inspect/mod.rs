@@ -709,7 +709,7 @@ fn hist_quantile(hist: &[u64], q: f64, bin: f64) -> f64 {
 pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> Result<Inspection> {
     let started = Instant::now();
     let t = Instant::now();
-    let raster = crate::raster::read_raster(path, &workshop.options.limits)?;
+    let raster = crate::raster::read_raster_with(path, &workshop.options.read_options())?;
     let read_ms = ms(t);
     if raster.layout == Layout::Cmyk {
         let notes = vec![format!(

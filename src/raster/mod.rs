@@ -17,13 +17,17 @@
 //! refused from its header with a message that names the `limits` setting, which the
 //! command line and the job ticket expose (maximum pixels a side, maximum memory).
 
+mod jpeg_scan;
+mod orient;
 mod output;
 mod read;
 mod sniff;
+mod tiff_in;
 mod write;
 
+pub use orient::Orientation;
 pub use output::{OutputSet, StageFn, StagedWriter};
-pub use read::{decoder_panic_is_caught, read_raster, read_raster_bytes};
+pub use read::{decoder_panic_is_caught, read_raster, read_raster_bytes, read_raster_bytes_with, read_raster_with};
 pub use write::{Compression, TiffOptions, write_cmyk_tiff, write_plate_png, write_plate_tiff};
 
 #[doc(hidden)]
@@ -84,6 +88,41 @@ impl Default for Limits {
             max_width: Limits::DEFAULT_MAX_SIDE,
             max_height: Limits::DEFAULT_MAX_SIDE,
             max_bytes: Limits::DEFAULT_MAX_BYTES,
+        }
+    }
+}
+
+/// How images are read: the limits, whether damaged data is accepted, which page.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct ReadOptions {
+    pub limits: Limits,
+    /// Separate a JPEG whose data is cut short or corrupt (the decoder fills the gap);
+    /// the summary notes it. Off: such a file is an input error.
+    pub accept_damaged: bool,
+    /// The page of a multi-page TIFF to read, counted from 1. `None`: the first
+    /// full-resolution page (NewSubfileType bit 0 clear).
+    pub page: Option<u32>,
+    /// The space whose transfer curve encodes 32-bit float samples, which are read as
+    /// linear light (the source space the job assumes).
+    pub float_space: crate::colour::RgbSpace,
+}
+
+impl Default for ReadOptions {
+    fn default() -> ReadOptions {
+        ReadOptions {
+            limits: Limits::default(),
+            accept_damaged: false,
+            page: None,
+            float_space: crate::colour::RgbSpace::Srgb,
+        }
+    }
+}
+
+impl From<Limits> for ReadOptions {
+    fn from(limits: Limits) -> ReadOptions {
+        ReadOptions {
+            limits,
+            ..ReadOptions::default()
         }
     }
 }
@@ -233,6 +272,11 @@ pub struct Raster {
     pub icc_profile: Option<Vec<u8>>,
     pub resolution: Option<Resolution>,
     pub format: Format,
+    /// What reading did or found that the summary reports (orientation applied, further
+    /// pages, damaged data accepted, float samples encoded, alpha un-premultiplied…).
+    pub notes: Vec<String>,
+    /// 1-bit line art: separated onto the black plate only.
+    pub line_art: bool,
 }
 
 impl Raster {

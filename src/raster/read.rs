@@ -6,7 +6,7 @@ use std::io::{BufRead, BufReader, Cursor, Read, Seek, SeekFrom};
 use std::path::Path;
 
 use super::sniff::{self, JpegHeader};
-use super::{Format, Layout, Limits, Raster, Resolution, Samples};
+use super::{Format, Layout, Limits, Orientation, Raster, ReadOptions, Resolution, Samples, jpeg_scan};
 use crate::error::io_reason;
 use crate::{Error, Result};
 
@@ -20,6 +20,12 @@ use crate::{Error, Result};
 /// JPEG: gray, YCbCr/RGB and CMYK/YCCK (Adobe APP14 inverted samples are turned round so
 /// 0 = no ink); the JFIF density or EXIF resolution and APP2 ICC_PROFILE chunks are read.
 pub fn read_raster(path: &Path, limits: &Limits) -> Result<Raster> {
+    read_raster_with(path, &ReadOptions::from(*limits))
+}
+
+/// [`read_raster`] with all the reading options: damaged JPEG data accepted or not, the
+/// TIFF page, the transfer curve of float samples.
+pub fn read_raster_with(path: &Path, options: &ReadOptions) -> Result<Raster> {
     let file = File::open(path).map_err(|e| Error::input(path, format!("cannot open: {}", io_reason(&e))))?;
     let meta = file
         .metadata()
@@ -27,16 +33,22 @@ pub fn read_raster(path: &Path, limits: &Limits) -> Result<Raster> {
     if meta.is_dir() {
         return Err(Error::input(path, "is a folder, not an image file"));
     }
-    read_from(path, BufReader::with_capacity(1 << 16, file), meta.len(), limits)
+    read_from(path, BufReader::with_capacity(1 << 16, file), meta.len(), options)
 }
 
 /// Decodes an image held in memory through the same path as [`read_raster`]; `name`
 /// stands for the file in messages (and its extension only improves them).
 pub fn read_raster_bytes(bytes: &[u8], name: &Path, limits: &Limits) -> Result<Raster> {
-    read_from(name, Cursor::new(bytes), bytes.len() as u64, limits)
+    read_raster_bytes_with(bytes, name, &ReadOptions::from(*limits))
 }
 
-fn read_from<R: BufRead + Seek>(path: &Path, mut reader: R, len: u64, limits: &Limits) -> Result<Raster> {
+/// [`read_raster_bytes`] with all the reading options (as [`read_raster_with`]).
+pub fn read_raster_bytes_with(bytes: &[u8], name: &Path, options: &ReadOptions) -> Result<Raster> {
+    read_from(name, Cursor::new(bytes), bytes.len() as u64, options)
+}
+
+fn read_from<R: BufRead + Seek>(path: &Path, mut reader: R, len: u64, options: &ReadOptions) -> Result<Raster> {
+    let limits = &options.limits;
     if len == 0 {
         return Err(Error::input(path, "empty file (0 bytes), not an image"));
     }
@@ -61,8 +73,8 @@ fn read_from<R: BufRead + Seek>(path: &Path, mut reader: R, len: u64, limits: &L
     DECODING.with(|d| d.set(true));
     let decoded = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| match format {
         Format::Png => read_png(path, reader, limits),
-        Format::Tiff => read_tiff(path, reader, limits),
-        Format::Jpeg => read_jpeg(path, reader, len, limits),
+        Format::Tiff => super::tiff_in::read_tiff(path, reader, len, options),
+        Format::Jpeg => read_jpeg(path, reader, len, options),
     }));
     DECODING.with(|d| d.set(false));
     let result = decoded.unwrap_or_else(|_| {
@@ -113,7 +125,7 @@ fn is_truncation(message: &str) -> bool {
         || m.contains("failed to fill whole buffer")
 }
 
-fn decode_error(path: &Path, format: Format, message: String) -> Error {
+pub(super) fn decode_error(path: &Path, format: Format, message: String) -> Error {
     let message = message.split_whitespace().collect::<Vec<_>>().join(" ");
     if is_truncation(&message) {
         Error::input(path, format!("truncated {} file: the data ends early ({message})", format.name()))
@@ -192,6 +204,8 @@ fn read_png<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> R
         icc_profile,
         resolution,
         format: Format::Png,
+        notes: Vec::new(),
+        line_art: false,
     })
 }
 
@@ -203,105 +217,9 @@ fn try_alloc_u8(path: &Path, size: usize) -> Result<Vec<u8>> {
     Ok(v)
 }
 
-// ---------------------------------------------------------------- TIFF
+// ---------------------------------------------------------------- TIFF (resolution; the reader is in tiff_in.rs)
 
-fn read_tiff<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> Result<Raster> {
-    use tiff::ColorType as T;
-    use tiff::tags::Tag;
-    let err = |e: tiff::TiffError| decode_error(path, Format::Tiff, e.to_string());
-    let mut tl = tiff::decoder::Limits::default();
-    tl.decoding_buffer_size = usize::try_from(limits.max_bytes).unwrap_or(usize::MAX);
-    tl.intermediate_buffer_size = tl.decoding_buffer_size;
-    tl.ifd_value_size = 64 << 20; // room for large ICC profiles
-    // The first IFD's claim is checked before the decoder runs.
-    if let Some((w, h, channels, bits)) = sniff::tiff_header(&mut reader) {
-        limits.check(path, w, h, channels, bits)?;
-    }
-    reader
-        .seek(SeekFrom::Start(0))
-        .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
-    let mut dec = tiff::decoder::Decoder::new(reader).map_err(err)?.with_limits(tl);
-    let (width, height) = dec.dimensions().map_err(err)?;
-    let colortype = dec.colortype().map_err(|e| match e {
-        tiff::TiffError::UnsupportedError(u) => Error::input(path, format!("unsupported TIFF layout: {u}")),
-        other => err(other),
-    })?;
-    let (layout, bits) = match colortype {
-        T::Gray(b) => (Layout::Gray, b),
-        T::GrayA(b) => (Layout::GrayAlpha, b),
-        T::RGB(b) => (Layout::Rgb, b),
-        T::RGBA(b) => (Layout::Rgba, b),
-        T::CMYK(b) => (Layout::Cmyk, b),
-        T::Multiband { bit_depth, num_samples: 2 } => (Layout::GrayAlpha, bit_depth),
-        other => {
-            return Err(Error::input(
-                path,
-                format!("unsupported TIFF layout {other:?}; use gray, RGB or CMYK"),
-            ));
-        }
-    };
-    if bits != 8 && bits != 16 {
-        return Err(Error::input(path, format!("unsupported TIFF bit depth {bits}; use 8 or 16 bit")));
-    }
-    let tag_u16 = |dec: &mut tiff::decoder::Decoder<R>, tag: Tag| -> Result<Option<u16>> { dec.find_tag_unsigned::<u16>(tag).map_err(err) };
-    if tag_u16(&mut dec, Tag::PlanarConfiguration)? == Some(2) {
-        return Err(Error::input(
-            path,
-            "planar TIFF (PlanarConfiguration 2) is not supported; save it interleaved",
-        ));
-    }
-    let formats = dec
-        .find_tag_unsigned_vec::<u16>(Tag::SampleFormat)
-        .map_err(err)?
-        .unwrap_or_default();
-    if formats.iter().any(|&f| f != 1) {
-        return Err(Error::input(
-            path,
-            "TIFF samples are not unsigned integers; use 8 or 16-bit integer samples",
-        ));
-    }
-    if layout == Layout::Cmyk {
-        // InkSet (332): 1 = CMYK, 2 = other inks (TIFF 6.0 §16).
-        if tag_u16(&mut dec, Tag::Unknown(332))?.is_some_and(|s| s != 1) {
-            return Err(Error::input(
-                path,
-                "separated TIFF with inks other than CMYK (InkSet 2) is not supported",
-            ));
-        }
-    }
-    limits.check(path, width, height, layout.channels() as u8, bits)?;
-    let resolution = tiff_resolution(&mut dec).map_err(err)?;
-    let icc_profile = match dec.find_tag(Tag::IccProfile).map_err(err)? {
-        Some(v) => Some(v.into_u8_vec().map_err(err)?),
-        None => None,
-    };
-    let samples = match dec.read_image().map_err(err)? {
-        tiff::decoder::DecodingResult::U8(v) => Samples::U8(v),
-        tiff::decoder::DecodingResult::U16(v) => Samples::U16(v),
-        _ => {
-            return Err(Error::input(path, "unsupported TIFF sample type; use 8 or 16-bit integer samples"));
-        }
-    };
-    let expected = width as usize * height as usize * layout.channels();
-    if samples.len() != expected {
-        return Err(Error::input(
-            path,
-            format!("TIFF decoded to {} samples, expected {expected}", samples.len()),
-        ));
-    }
-    Ok(Raster {
-        width,
-        height,
-        layout,
-        bits,
-        samples,
-        icc_profile,
-        resolution,
-        format: Format::Tiff,
-    })
-}
-
-fn tiff_resolution<R: Read + Seek>(dec: &mut tiff::decoder::Decoder<R>) -> tiff::TiffResult<Option<Resolution>> {
+pub(super) fn tiff_resolution<R: Read + Seek>(dec: &mut tiff::decoder::Decoder<R>) -> tiff::TiffResult<Option<Resolution>> {
     use tiff::decoder::ifd::Value;
     use tiff::tags::Tag;
     let as_f64 = |v: Option<Value>| -> Option<f64> {
@@ -340,7 +258,8 @@ fn tiff_resolution<R: Read + Seek>(dec: &mut tiff::decoder::Decoder<R>) -> tiff:
 
 // ---------------------------------------------------------------- JPEG
 
-fn read_jpeg<R: BufRead + Seek>(path: &Path, mut reader: R, file_len: u64, limits: &Limits) -> Result<Raster> {
+fn read_jpeg<R: BufRead + Seek>(path: &Path, mut reader: R, file_len: u64, options: &ReadOptions) -> Result<Raster> {
+    let limits = &options.limits;
     use zune_core::colorspace::ColorSpace as Z;
     // JPEG data is read whole: it is small next to the decoded image, and zune-jpeg decodes from memory.
     if file_len > limits.max_bytes {
@@ -356,18 +275,29 @@ fn read_jpeg<R: BufRead + Seek>(path: &Path, mut reader: R, file_len: u64, limit
         .read_to_end(&mut data)
         .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
     let header: JpegHeader = sniff::scan_jpeg(&data);
+    let mut notes = Vec::new();
+    let damaged = |what: &str, notes: &mut Vec<String>| -> Result<()> {
+        if options.accept_damaged {
+            notes.push(format!(
+                "{what}; accepted (--accept-damaged): the missing or corrupt part is filled by the decoder"
+            ));
+            Ok(())
+        } else {
+            Err(Error::input(path, format!("{what}; give --accept-damaged to separate it anyway")))
+        }
+    };
     if !header.complete {
-        return Err(Error::input(
-            path,
+        damaged(
             "truncated JPEG file: the image data ends before the end-of-image marker",
-        ));
+            &mut notes,
+        )?;
     }
     // Strict mode turns a stream that ends early into an error instead of gray padding.
-    let options = zune_core::options::DecoderOptions::default()
+    let zune_options = zune_core::options::DecoderOptions::default()
         .set_strict_mode(true)
         .set_max_width(usize::from(u16::MAX))
         .set_max_height(usize::from(u16::MAX));
-    let mut dec = zune_jpeg::JpegDecoder::new_with_options(zune_core::bytestream::ZCursor::new(&data[..]), options);
+    let mut dec = zune_jpeg::JpegDecoder::new_with_options(zune_core::bytestream::ZCursor::new(&data[..]), zune_options);
     dec.decode_headers().map_err(|e| decode_error(path, Format::Jpeg, e.to_string()))?;
     let info = dec.info().ok_or_else(|| Error::input(path, "JPEG header could not be read"))?;
     let (width, height) = (u32::from(info.width), u32::from(info.height));
@@ -383,8 +313,30 @@ fn read_jpeg<R: BufRead + Seek>(path: &Path, mut reader: R, file_len: u64, limit
         other => return Err(Error::input(path, format!("unsupported JPEG colour space {other:?}"))),
     };
     limits.check(path, width, height, layout.channels() as u8, 8)?;
+    // The claimed size against the data that can hold it, before anything is allocated.
+    if let Some(frame) = jpeg_scan::frame(&data) {
+        let least = frame.min_entropy_bytes();
+        if frame.data_after_first_scan < least {
+            return Err(Error::input(
+                path,
+                format!(
+                    "JPEG header claims {} × {} px, which needs at least {} of image data; the file holds {}: refused as corrupt or hostile",
+                    frame.width,
+                    frame.height,
+                    super::human_bytes(least),
+                    super::human_bytes(frame.data_after_first_scan)
+                ),
+            ));
+        }
+    }
+    if header.complete
+        && let jpeg_scan::Walk::Damaged(what) = jpeg_scan::walk(&data)
+    {
+        damaged(&what, &mut notes)?;
+    }
     let icc_profile = dec.icc_profile();
-    dec.set_options(options.jpeg_set_out_colorspace(out_space));
+    let zune_options = zune_options.set_strict_mode(notes.is_empty());
+    dec.set_options(zune_options.jpeg_set_out_colorspace(out_space));
     let size = dec
         .output_buffer_size()
         .ok_or_else(|| Error::input(path, "JPEG dimensions overflow memory size"))?;
@@ -402,7 +354,7 @@ fn read_jpeg<R: BufRead + Seek>(path: &Path, mut reader: R, file_len: u64, limit
             *s = 255 - *s;
         }
     }
-    Ok(Raster {
+    let mut raster = Raster {
         width,
         height,
         layout,
@@ -411,7 +363,18 @@ fn read_jpeg<R: BufRead + Seek>(path: &Path, mut reader: R, file_len: u64, limit
         icc_profile,
         resolution: header.resolution,
         format: Format::Jpeg,
-    })
+        notes,
+        line_art: false,
+    };
+    if let Some(v) = header.orientation {
+        match Orientation::from_tag(v) {
+            Some(o) => o.apply(&mut raster, "EXIF"),
+            None => raster
+                .notes
+                .push(format!("EXIF orientation {v} is not a defined value (1–8); read as stored")),
+        }
+    }
+    Ok(raster)
 }
 
 /// YCCK → (inverted) CMYK as libjpeg's `ycck_cmyk_convert`: the YCbCr triple is turned into

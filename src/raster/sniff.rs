@@ -43,6 +43,8 @@ pub(crate) struct JpegHeader {
     /// An end-of-image marker follows the first scan: the entropy-coded data is complete.
     /// (Entropy-coded bytes stuff every 0xFF with 0x00, so FF D9 after the first SOS is the EOI.)
     pub complete: bool,
+    /// The EXIF Orientation tag (274) of IFD0, if present.
+    pub orientation: Option<u16>,
 }
 
 /// Walks the markers before the first scan (ISO/IEC 10918-1 annex B).
@@ -92,7 +94,10 @@ pub(crate) fn scan_jpeg(data: &[u8]) -> JpegHeader {
                     _ => None,
                 };
             }
-            0xE1 if seg.starts_with(b"Exif\0\0") => exif = exif_resolution(&seg[6..]),
+            0xE1 if seg.starts_with(b"Exif\0\0") => {
+                exif = exif_resolution(&seg[6..]);
+                out.orientation = exif_orientation(&seg[6..]);
+            }
             // Adobe APP14: "Adobe", version (2), flags0 (2), flags1 (2), transform (1).
             0xEE if seg.starts_with(b"Adobe") => {
                 out.adobe = true;
@@ -219,6 +224,64 @@ pub(crate) fn tiff_header<R: std::io::Read + std::io::Seek>(r: &mut R) -> Option
         bits = u8::try_from(u16v(&b)).unwrap_or(u8::MAX);
     }
     Some((width?, height?, spp, bits))
+}
+
+/// Sets PhotometricInterpretation (262) of the directory `page` (from 0) of a TIFF or
+/// BigTIFF held in memory to `value`; `None` when the directory or the tag is not there.
+pub(crate) fn set_tiff_photometric(bytes: &mut [u8], page: usize, value: u16) -> Option<()> {
+    let le = match bytes.get(0..2)? {
+        b"II" => true,
+        b"MM" => false,
+        _ => return None,
+    };
+    let get = |b: &[u8], at: usize, n: usize| -> Option<u64> {
+        let s = b.get(at..at.checked_add(n)?)?;
+        let mut v = 0u64;
+        for k in 0..n {
+            let byte = if le { s[n - 1 - k] } else { s[k] };
+            v = (v << 8) | u64::from(byte);
+        }
+        Some(v)
+    };
+    let big = get(bytes, 2, 2)? == 43;
+    let (off_len, count_len, entry_len, value_at) = if big { (8, 8, 20, 12) } else { (4, 2, 12, 8) };
+    let mut ifd = usize::try_from(get(bytes, if big { 8 } else { 4 }, off_len)?).ok()?;
+    for _ in 0..page {
+        let count = usize::try_from(get(bytes, ifd, count_len)?).ok()?;
+        let next_at = ifd.checked_add(count_len)?.checked_add(count.checked_mul(entry_len)?)?;
+        ifd = usize::try_from(get(bytes, next_at, off_len)?).ok()?;
+    }
+    let count = usize::try_from(get(bytes, ifd, count_len)?).ok()?;
+    for k in 0..count.min(4096) {
+        let e = ifd + count_len + k * entry_len;
+        if get(bytes, e, 2)? == 262 {
+            let at = e + value_at;
+            let v = if le { value.to_le_bytes() } else { value.to_be_bytes() };
+            bytes.get_mut(at..at + 2)?.copy_from_slice(&v);
+            return Some(());
+        }
+    }
+    None
+}
+
+/// The Orientation tag (274, SHORT) of IFD0 of an EXIF block (EXIF 2.3 §4.6.4).
+fn exif_orientation(tiff: &[u8]) -> Option<u16> {
+    let big = match tiff.get(0..2)? {
+        b"II" => false,
+        b"MM" => true,
+        _ => return None,
+    };
+    let u16_at = |o: usize| -> Option<u16> {
+        let b: [u8; 2] = tiff.get(o..o + 2)?.try_into().ok()?;
+        Some(if big { u16::from_be_bytes(b) } else { u16::from_le_bytes(b) })
+    };
+    let b: [u8; 4] = tiff.get(4..8)?.try_into().ok()?;
+    let ifd = (if big { u32::from_be_bytes(b) } else { u32::from_le_bytes(b) }) as usize;
+    let count = usize::from(u16_at(ifd)?);
+    (0..count.min(1024))
+        .map(|k| ifd + 2 + 12 * k)
+        .find(|&e| u16_at(e) == Some(274))
+        .and_then(|e| u16_at(e + 8))
 }
 
 /// XResolution (282), YResolution (283) and ResolutionUnit (296) from IFD0 of an EXIF

@@ -25,6 +25,7 @@ mod press_builtin;
 mod press_condition_file;
 mod press_fit;
 mod raster_bad;
+mod raster_inputs;
 mod raster_output;
 mod raster_read;
 mod raster_write;
