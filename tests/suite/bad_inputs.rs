@@ -136,6 +136,56 @@ fn huge_tiff() -> Vec<u8> {
     c.into_inner()
 }
 
+/// A JPEG cut partway through its entropy-coded data with the end-of-image marker appended,
+/// as an interrupted transfer leaves it (ISO/IEC 10918-1 B.2.4: the data follows the SOS header).
+fn cut_short_with_end_marker(jpeg: &[u8], percent: usize) -> Vec<u8> {
+    let sos = jpeg.windows(2).position(|w| w == [0xFF, 0xDA]).unwrap();
+    let data = sos + 2 + usize::from(u16::from_be_bytes([jpeg[sos + 2], jpeg[sos + 3]]));
+    let cut = data + (jpeg.len() - 2 - data) * percent / 100;
+    [&jpeg[..cut], &[0xFF, 0xD9][..]].concat()
+}
+
+/// The JPEG with its SOF0 frame header claiming `side` × `side` px (B.2.2).
+fn claiming(jpeg: &[u8], side: u16) -> Vec<u8> {
+    let mut b = jpeg.to_vec();
+    let sof = b.windows(2).position(|w| w == [0xFF, 0xC0]).unwrap();
+    b[sof + 5..sof + 7].copy_from_slice(&side.to_be_bytes());
+    b[sof + 7..sof + 9].copy_from_slice(&side.to_be_bytes());
+    b
+}
+
+/// A little-endian TIFF whose directory claims `side` × `side` 8-bit gray, uncompressed,
+/// in one strip that holds only 100 bytes (TIFF 6.0 §2, baseline tags).
+fn tiff_claiming(side: u32) -> Vec<u8> {
+    let entries: [(u16, u16, u32); 8] = [
+        (256, 4, side),               // ImageWidth
+        (257, 4, side),               // ImageLength
+        (258, 3, 8),                  // BitsPerSample
+        (259, 3, 1),                  // Compression: none
+        (262, 3, 1),                  // BlackIsZero
+        (273, 4, 8 + 2 + 8 * 12 + 4), // StripOffsets: right after the directory
+        (278, 4, side),               // RowsPerStrip
+        (279, 4, 100),                // StripByteCounts
+    ];
+    let mut t = b"II*\0".to_vec();
+    t.extend_from_slice(&8u32.to_le_bytes());
+    t.extend_from_slice(&(entries.len() as u16).to_le_bytes());
+    for (tag, ty, v) in entries {
+        t.extend_from_slice(&tag.to_le_bytes());
+        t.extend_from_slice(&ty.to_le_bytes());
+        t.extend_from_slice(&1u32.to_le_bytes());
+        if ty == 3 {
+            t.extend_from_slice(&(v as u16).to_le_bytes());
+            t.extend_from_slice(&[0, 0]);
+        } else {
+            t.extend_from_slice(&v.to_le_bytes());
+        }
+    }
+    t.extend_from_slice(&0u32.to_le_bytes());
+    t.extend_from_slice(&[128; 100]);
+    t
+}
+
 fn gray_profile() -> Vec<u8> {
     lcms2::Profile::new_gray(lcms2::CIExyY::d50(), &lcms2::ToneCurve::new(2.2))
         .unwrap()
@@ -187,6 +237,9 @@ fn fixtures() -> Vec<Fixture> {
         f("notes.png", b"Proof notes for the harbour poster: check the cyan.\n".to_vec()),
         f("huge.png", huge_png()),
         f("huge.tif", huge_tiff()),
+        f("cut-short-with-end.jpg", cut_short_with_end_marker(&good_jpeg, 60)),
+        f("claims-20000.jpg", claiming(&good_jpeg, 20_000)),
+        f("claims-30000.tif", tiff_claiming(30_000)),
         f(
             "garbage-icc.png",
             png(4, 4, png::ColorType::Rgb, false, &rgb_picture(4, 4), None, Some(vec![7u8; 300])),
@@ -386,6 +439,11 @@ fn bad_images_are_refused_with_one_line_naming_the_file() {
         ("notes.png", &["not a PNG, TIFF or JPEG", "text file"]),
         ("huge.png", &["100000 × 100000", "limits"]),
         ("huge.tif", &["100000 × 100000", "limits"]),
+        // Within the limits, but more than the data can hold (ISO/IEC 10918-1 C.2: a Huffman
+        // code is at least one bit, one per block; TIFF 6.0: an uncompressed strip holds its bytes).
+        ("cut-short-with-end.jpg", &["damaged JPEG data", "--accept-damaged"]),
+        ("claims-20000.jpg", &["20000 × 20000", "refused as corrupt or hostile"]),
+        ("claims-30000.tif", &["30000 × 30000", "refused as corrupt or hostile"]),
         ("garbage-icc.png", &["embedded ICC profile", "--ignore-bad-profile"]),
         // ICC.1 §7.2.6: the data colour space field says what the profile describes.
         ("gray-icc-on-rgb.png", &["embedded ICC profile", "not RGB", "--ignore-bad-profile"]),

@@ -386,6 +386,47 @@ fn thirty_files_each_end_once_in_done_or_failed_with_complete_outputs() {
     assert_complete_output(&hot, "art00", "art00.png", (6, 5));
 }
 
+/// A JPEG cut short with its end marker appended (written by Pillow/libjpeg, cut by
+/// scripts/reference/make_input_fixtures.py) is filed under failed/ with the reason; a ticket
+/// that accepts damaged data sends it to done/, and the log says what was accepted.
+#[test]
+fn a_jpeg_cut_short_is_filed_under_failed_unless_the_ticket_accepts_damage() {
+    let cut = fs::read(Path::new(env!("CARGO_MANIFEST_DIR")).join("testdata/inputs/cut-baseline.jpg")).unwrap();
+    let hot = Hot::new();
+    hot.put("transfer.jpg", &cut);
+    let (status, stderr) = hot.once(&[]);
+    assert_eq!(status.code(), Some(1), "the file failed, so --once exits 1; stderr:\n{stderr}");
+    assert_eq!(
+        hot.visible("failed"),
+        BTreeSet::from(["transfer.jpg".to_string(), "transfer.jpg.error.txt".to_string()])
+    );
+    assert_eq!(fs::read(hot.path("failed/transfer.jpg")).unwrap(), cut, "the input is unchanged");
+    let why = fs::read_to_string(hot.path("failed/transfer.jpg.error.txt")).unwrap();
+    assert!(why.contains("damaged JPEG data") && why.contains("--accept-damaged"), "{why}");
+    assert!(hot.visible("out").is_empty() && hot.visible("done").is_empty());
+
+    let hot = Hot::new();
+    fs::write(
+        hot.path("ticket.toml"),
+        "[model]\ntable_grid = 9\n\n[limits]\naccept_damaged = true\n",
+    )
+    .unwrap();
+    hot.put("transfer.jpg", &cut);
+    let (status, stderr) = hot.once(&[]);
+    assert_eq!(status.code(), Some(0), "{stderr}");
+    assert_eq!(hot.visible("done"), BTreeSet::from(["transfer.jpg".to_string()]));
+    let log = hot.log_lines();
+    let damaged = log
+        .iter()
+        .find(|l| l[1] == "damaged" && l[2] == "transfer.jpg")
+        .unwrap_or_else(|| panic!("{}", hot.log()));
+    assert!(damaged[3].contains("damaged JPEG data"), "{damaged:?}");
+    let summary: serde_json::Value =
+        serde_json::from_str(&fs::read_to_string(hot.path("out/transfer/transfer.summary.json")).unwrap()).unwrap();
+    let notes = summary["notes"].to_string();
+    assert!(notes.contains("damaged JPEG data"), "{notes}");
+}
+
 #[test]
 fn outputs_are_those_of_separate_with_the_same_ticket() {
     let hot = Hot::new();

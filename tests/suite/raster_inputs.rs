@@ -192,3 +192,50 @@ fn jpeg_cut_short_with_its_end_marker_is_damaged_unless_accepted() {
         assert!(r.notes.iter().any(|n| n.contains("damaged JPEG data")), "{name}: {:?}", r.notes);
     }
 }
+
+/// The binary on the independent files: line art on the black plate only, and every reading
+/// decision in the summary's notes.
+#[test]
+fn separate_reports_what_reading_did_and_puts_line_art_on_black_only() {
+    let dir = tempfile::tempdir().unwrap();
+    let names = [
+        "lineart-1bit.tif",
+        "orientation-6.tif",
+        "float32-linear.tif",
+        "pages-thumbnail-first.tif",
+        "rgba-associated.tif",
+    ];
+    let out = assert_cmd::Command::cargo_bin("platesmith")
+        .unwrap()
+        .arg("separate")
+        .args(names.iter().map(|n| input(n)))
+        .arg("--out-dir")
+        .arg(dir.path())
+        .args(["--table-grid", "9", "--plates", "none"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
+    let summary = |stem: &str| -> serde_json::Value {
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join(format!("{stem}.summary.json"))).unwrap()).unwrap()
+    };
+    let expect = [
+        ("lineart-1bit", "1-bit line art: separated onto the black plate only"),
+        ("orientation-6", "TIFF orientation 6"),
+        ("float32-linear", "linear light in srgb"),
+        ("pages-thumbnail-first", "page 2 of 3"),
+        ("rgba-associated", "un-premultiplied"),
+    ];
+    for (stem, note) in expect {
+        let s = summary(stem);
+        assert!(s["notes"].to_string().contains(note), "{stem}: {}", s["notes"]);
+        assert_eq!((s["width"].as_u64(), s["height"].as_u64()), (Some(48), Some(32)), "{stem}");
+    }
+    // Line art: no cyan, magenta or yellow anywhere; black exactly where the art is black.
+    let composite = read_raster(&dir.path().join("lineart-1bit.cmyk.tif"), &Limits::default()).unwrap();
+    let art = values(&read("lineart-1bit.expected.png").samples);
+    let cmyk = values(&composite.samples);
+    for (px, &gray) in cmyk.chunks_exact(4).zip(&art) {
+        assert_eq!(&px[..3], &[0, 0, 0]);
+        assert_eq!(px[3] > 0, gray == 0, "black where the art is black, none elsewhere");
+    }
+}
