@@ -141,6 +141,8 @@ struct Huffman {
     valptr: [i32; 17],
     mincode: [i32; 17],
     values: Vec<u8>,
+    /// (code length, value) for every `FAST_BITS`-bit prefix of a short code; length 0 otherwise.
+    fast: Vec<(u8, u8)>,
     defined: bool,
 }
 
@@ -151,6 +153,7 @@ impl Huffman {
             valptr: [0; 17],
             mincode: [0; 17],
             values: values.to_vec(),
+            fast: vec![(0, 0); 1 << FAST_BITS],
             defined: true,
         };
         let (mut code, mut k) = (0i32, 0i32);
@@ -165,16 +168,39 @@ impl Huffman {
             }
             code <<= 1;
         }
+        let mut k = 0usize;
+        let mut code = 0u32;
+        for l in 1..=FAST_BITS {
+            for _ in 0..counts[l as usize - 1] {
+                if let Some(&v) = values.get(k) {
+                    let shift = FAST_BITS - l;
+                    for fill in 0..(1u32 << shift) {
+                        if let Some(e) = h.fast.get_mut(((code << shift) | fill) as usize) {
+                            *e = (l as u8, v);
+                        }
+                    }
+                }
+                k += 1;
+                code += 1;
+            }
+            code <<= 1;
+        }
         h
     }
 }
 
-/// Bits of one scan's entropy-coded segment, with 0xFF00 unstuffed (F.1.2.3); stops at a marker.
+/// Bits of one scan's entropy-coded segment, with 0xFF00 unstuffed (F.1.2.3). Bytes are
+/// loaded ahead into `acc`; at a marker, zero bits are appended as padding, and taking a
+/// padding bit means the data ran out.
 struct Bits<'a> {
     data: &'a [u8],
+    /// The next byte to load.
     pos: usize,
-    acc: u32,
+    acc: u64,
+    /// Bits held in `acc` (the low `n` bits), padding included.
     n: u32,
+    /// How many of the held bits are padding.
+    pad: u32,
     /// A marker was reached (`pos` is at its 0xFF).
     at_marker: bool,
 }
@@ -187,57 +213,104 @@ enum Stop {
     Invalid(&'static str),
 }
 
+/// Codes of up to this many bits are decoded by one table lookup.
+const FAST_BITS: u32 = 9;
+
 impl<'a> Bits<'a> {
-    fn bit(&mut self) -> Result<u32, Stop> {
-        if self.n == 0 {
-            if self.at_marker || self.pos >= self.data.len() {
-                return Err(Stop::OutOfData);
-            }
-            let b = self.data[self.pos];
-            if b == 0xFF {
-                match self.data.get(self.pos + 1) {
-                    Some(0x00) => self.pos += 2,
-                    _ => {
-                        self.at_marker = true;
-                        return Err(Stop::OutOfData);
-                    }
-                }
-            } else {
-                self.pos += 1;
-            }
-            self.acc = u32::from(b);
-            self.n = 8;
+    fn new(data: &'a [u8]) -> Bits<'a> {
+        Bits {
+            data,
+            pos: 0,
+            acc: 0,
+            n: 0,
+            pad: 0,
+            at_marker: false,
         }
-        self.n -= 1;
-        Ok((self.acc >> self.n) & 1)
+    }
+
+    fn fill(&mut self) {
+        while self.n <= 56 {
+            let mut byte = None;
+            if !self.at_marker && self.pos < self.data.len() {
+                let b = self.data[self.pos];
+                if b != 0xFF {
+                    self.pos += 1;
+                    byte = Some(b);
+                } else if self.data.get(self.pos + 1) == Some(&0x00) {
+                    self.pos += 2;
+                    byte = Some(0xFF);
+                } else {
+                    self.at_marker = true;
+                }
+            }
+            self.acc = (self.acc << 8) | u64::from(byte.unwrap_or(0));
+            self.n += 8;
+            if byte.is_none() {
+                self.pad += 8;
+            }
+        }
+    }
+
+    fn peek(&mut self, k: u32) -> u32 {
+        if self.n < k {
+            self.fill();
+        }
+        ((self.acc >> (self.n - k)) & ((1u64 << k) - 1)) as u32
+    }
+
+    fn consume(&mut self, k: u32) -> Result<(), Stop> {
+        if k > self.n - self.pad {
+            return Err(Stop::OutOfData);
+        }
+        self.n -= k;
+        Ok(())
     }
 
     fn bits(&mut self, count: u8) -> Result<u32, Stop> {
-        let mut v = 0;
-        for _ in 0..count {
-            v = (v << 1) | self.bit()?;
+        if count == 0 {
+            return Ok(0);
         }
+        let v = self.peek(u32::from(count));
+        self.consume(u32::from(count))?;
         Ok(v)
+    }
+
+    fn bit(&mut self) -> Result<u32, Stop> {
+        self.bits(1)
     }
 
     fn decode(&mut self, h: &Huffman) -> Result<u8, Stop> {
         if !h.defined {
             return Err(Stop::Invalid("a scan uses a Huffman table that was never defined"));
         }
-        let mut code = 0i32;
-        for l in 1..=16 {
-            code = (code << 1) | self.bit()? as i32;
+        let look = self.peek(FAST_BITS);
+        let (len, value) = h.fast[look as usize];
+        if len > 0 {
+            self.consume(u32::from(len))?;
+            return Ok(value);
+        }
+        let word = self.peek(16) as i32;
+        for l in FAST_BITS as usize + 1..=16 {
+            let code = word >> (16 - l);
             if code <= h.maxcode[l] {
+                self.consume(l as u32)?;
                 let at = (h.valptr[l] + code - h.mincode[l]) as usize;
                 return h.values.get(at).copied().ok_or(Stop::Invalid("a Huffman table is inconsistent"));
             }
         }
+        // A code that needs padding bits is data that ran out, not a bad code.
+        if self.n - self.pad < 16 {
+            return Err(Stop::OutOfData);
+        }
         Err(Stop::Invalid("a code matches no Huffman table entry"))
     }
 
-    /// Skips to the next marker: the end of this scan's data (or of a restart interval).
+    /// Drops the bits held and moves to the next marker: the end of this scan's data or of a
+    /// restart interval (bytes before it are passed over, as libjpeg does with a warning).
     fn skip_to_marker(&mut self) {
         self.n = 0;
+        self.pad = 0;
+        self.acc = 0;
         while self.pos + 1 < self.data.len() {
             if self.data[self.pos] == 0xFF && self.data[self.pos + 1] != 0x00 && self.data[self.pos + 1] != 0xFF {
                 break;
@@ -373,13 +446,7 @@ fn walk_inner(data: &[u8]) -> Result<Walk, String> {
                     ah,
                     restart,
                 };
-                let mut bits = Bits {
-                    data: &data[i..],
-                    pos: 0,
-                    acc: 0,
-                    n: 0,
-                    at_marker: false,
-                };
+                let mut bits = Bits::new(&data[i..]);
                 walk_scan(&frame, &scan, &dc, &ac, nonzero.as_mut(), &mut bits)
                     .map_err(|m| format!("damaged JPEG data: scan {scans} {m}"))?;
                 for &(c, _, _) in &scan.comps {
@@ -444,33 +511,31 @@ fn walk_scan(
     for unit in 0..total {
         if scan.restart > 0 && unit > 0 && unit % u64::from(scan.restart) == 0 {
             // B.2.4.4: the data is byte-aligned and an RSTm marker follows, m counting modulo 8.
-            bits.n = 0;
+            bits.skip_to_marker();
             let at = bits.pos;
             if bits.data.get(at) != Some(&0xFF) || bits.data.get(at + 1) != Some(&(0xD0 + next_rst)) {
                 return Err(describe(unit, Stop::OutOfData));
             }
             bits.pos += 2;
-            bits.at_marker = false;
             next_rst = (next_rst + 1) % 8;
             eobrun = 0;
         }
         let (ux, uy) = (unit % units_x, unit / units_x);
         for &(c, td, ta) in &scan.comps {
-            let (_, h, v) = frame.comps[c];
-            let blocks: Vec<(u64, u64)> = if scan.comps.len() == 1 {
-                vec![(ux, uy)]
+            // One block per unit in a scan of one component; h × v blocks per MCU otherwise (A.2.3).
+            let (h, v) = if scan.comps.len() == 1 {
+                (1, 1)
             } else {
-                (0..u64::from(v))
-                    .flat_map(|by| (0..u64::from(h)).map(move |bx| (bx, by)))
-                    .map(|(bx, by)| (ux * u64::from(h) + bx, uy * u64::from(v) + by))
-                    .collect()
+                (u64::from(frame.comps[c].1), u64::from(frame.comps[c].2))
             };
-            for (bx, by) in blocks {
-                let nz = nonzero.as_deref_mut().map(|n| {
-                    let at = by as usize * n.strides[c] + bx as usize;
-                    &mut n.grids[c][at]
-                });
-                block(scan, &dc[td], &ac[ta], nz, &mut eobrun, bits).map_err(|e| describe(unit, e))?;
+            for by in 0..v {
+                for bx in 0..h {
+                    let (x, y) = (ux * h + bx, uy * v + by);
+                    let nz = nonzero
+                        .as_deref_mut()
+                        .map(|n| &mut n.grids[c][y as usize * n.strides[c] + x as usize]);
+                    block(scan, &dc[td], &ac[ta], nz, &mut eobrun, bits).map_err(|e| describe(unit, e))?;
+                }
             }
         }
     }
@@ -590,4 +655,93 @@ fn block(scan: &Scan, dc: &Huffman, ac: &Huffman, nz: Option<&mut u64>, eobrun: 
         *eobrun -= 1;
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use jpeg_encoder::{ColorType, Encoder, SamplingFactor};
+
+    /// A noisy picture, so every block carries AC data.
+    fn picture(w: usize, h: usize, channels: usize) -> Vec<u8> {
+        let mut state = 0x2545_f491_4f6c_dd1du64;
+        (0..w * h * channels)
+            .map(|i| {
+                state ^= state << 13;
+                state ^= state >> 7;
+                state ^= state << 17;
+                ((i % (w * channels)) as u64 * 3 + (state & 63)) as u8
+            })
+            .collect()
+    }
+
+    fn encode(progressive: bool, restart: u16, sampling: SamplingFactor, ct: ColorType, channels: usize) -> Vec<u8> {
+        let (w, h) = (61u16, 37u16);
+        let mut out = Vec::new();
+        let mut enc = Encoder::new(&mut out, 85);
+        enc.set_progressive(progressive);
+        enc.set_restart_interval(restart);
+        enc.set_sampling_factor(sampling);
+        enc.encode(&picture(61, 37, channels), w, h, ct).unwrap();
+        out
+    }
+
+    fn variants() -> Vec<(String, Vec<u8>)> {
+        let mut v = Vec::new();
+        for progressive in [false, true] {
+            for restart in [0u16, 3] {
+                for (name, s) in [
+                    ("444", SamplingFactor::R_4_4_4),
+                    ("420", SamplingFactor::R_4_2_0),
+                    ("422", SamplingFactor::R_4_2_2),
+                ] {
+                    v.push((
+                        format!("rgb {name} progressive {progressive} restart {restart}"),
+                        encode(progressive, restart, s, ColorType::Rgb, 3),
+                    ));
+                }
+                v.push((
+                    format!("gray progressive {progressive} restart {restart}"),
+                    encode(progressive, restart, SamplingFactor::R_4_4_4, ColorType::Luma, 1),
+                ));
+            }
+        }
+        v
+    }
+
+    #[test]
+    fn valid_streams_walk_complete() {
+        for (name, jpeg) in variants() {
+            assert_eq!(walk(&jpeg), Walk::Complete, "{name}");
+        }
+    }
+
+    #[test]
+    fn streams_cut_anywhere_in_their_data_are_damaged() {
+        for (name, jpeg) in variants() {
+            let sos = jpeg.windows(2).position(|w| w == [0xFF, 0xDA]).unwrap();
+            let data = sos + 2 + usize::from(u16::from_be_bytes([jpeg[sos + 2], jpeg[sos + 3]]));
+            for percent in [5, 30, 60, 90, 99] {
+                let cut = data + (jpeg.len() - 2 - data) * percent / 100;
+                let damaged = [&jpeg[..cut], &[0xFF, 0xD9][..]].concat();
+                assert!(matches!(walk(&damaged), Walk::Damaged(_)), "{name} cut at {percent} %");
+            }
+        }
+    }
+
+    #[test]
+    fn the_least_data_is_one_bit_per_block() {
+        let mut jpeg = encode(false, 0, SamplingFactor::R_4_4_4, ColorType::Luma, 1);
+        let sof = jpeg.windows(2).position(|w| w == [0xFF, 0xC0]).unwrap();
+        jpeg[sof + 5..sof + 9].copy_from_slice(&[0x4E, 0x20, 0x4E, 0x20]); // 20 000 × 20 000
+        let f = frame(&jpeg).unwrap();
+        assert_eq!((f.width, f.height), (20_000, 20_000));
+        assert_eq!(f.min_entropy_bytes(), 2500 * 2500 / 8);
+        // 4:2:0 colour: 4 luma blocks and one of each chroma per 16 × 16 MCU.
+        let jpeg = encode(false, 0, SamplingFactor::R_4_2_0, ColorType::Rgb, 3);
+        let f = frame(&jpeg).unwrap();
+        let luma = 61usize.div_ceil(8) * 37usize.div_ceil(8);
+        let chroma = 31usize.div_ceil(8) * 19usize.div_ceil(8);
+        assert_eq!(f.min_entropy_bytes(), ((luma + 2 * chroma) as u64).div_ceil(8));
+    }
 }
