@@ -86,7 +86,7 @@ pub fn run(args: ProofArgs) -> Result<i32> {
         SettingsReport::new(&setup.condition, &setup.settings, setup.source_space),
         options,
     );
-    let raster = crate::raster::read_raster(&args.input, &limits)?;
+    let raster = crate::raster::read_raster_with(&args.input, &workshop.options.read_options())?;
     // CMYK is proofed as it is; other input is separated as `separate` would.
     let (raster, cmyk) = if raster.layout == Layout::Cmyk {
         let samples = raster.samples.clone();

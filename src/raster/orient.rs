@@ -77,6 +77,18 @@ impl Orientation {
         }
     }
 
+    /// Applies the tag value `v` read from a file (`tag_name`: where it was found); a value
+    /// outside 1–8 is noted and the raster read as stored.
+    pub(crate) fn apply_tag(raster: &mut Raster, v: Option<u16>, tag_name: &str) {
+        match v.map(|v| (v, Orientation::from_tag(v))) {
+            Some((_, Some(o))) => o.apply(raster, tag_name),
+            Some((v, None)) => raster
+                .notes
+                .push(format!("{tag_name} orientation {v} is not a defined value (1–8); read as stored")),
+            None => {}
+        }
+    }
+
     /// Turns the raster upright and notes it; the resolutions trade places with the axes.
     pub(crate) fn apply(self, raster: &mut Raster, tag_name: &str) {
         if self == Orientation::Upright {

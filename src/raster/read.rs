@@ -84,6 +84,13 @@ fn read_from<R: BufRead + Seek>(path: &Path, mut reader: R, len: u64, options: &
             path.display()
         )))
     });
+    // Only TIFF has pages: a page asked of another format is a usage mistake, not silence.
+    let result = result.and_then(|r| match options.page {
+        Some(n) if n != 1 && format != Format::Tiff => {
+            Err(Error::input(path, format!("--page {n}: a {} file has one page", format.name())))
+        }
+        _ => Ok(r),
+    });
     result.map_err(|e| match e {
         Error::Input { path, message } if !hint.is_empty() => Error::Input {
             path,
@@ -366,14 +373,7 @@ fn read_jpeg<R: BufRead + Seek>(path: &Path, mut reader: R, file_len: u64, optio
         notes,
         line_art: false,
     };
-    if let Some(v) = header.orientation {
-        match Orientation::from_tag(v) {
-            Some(o) => o.apply(&mut raster, "EXIF"),
-            None => raster
-                .notes
-                .push(format!("EXIF orientation {v} is not a defined value (1–8); read as stored")),
-        }
-    }
+    Orientation::apply_tag(&mut raster, header.orientation, "EXIF");
     Ok(raster)
 }
 

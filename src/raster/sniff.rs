@@ -95,8 +95,9 @@ pub(crate) fn scan_jpeg(data: &[u8]) -> JpegHeader {
                 };
             }
             0xE1 if seg.starts_with(b"Exif\0\0") => {
-                exif = exif_resolution(&seg[6..]);
-                out.orientation = exif_orientation(&seg[6..]);
+                let (resolution, orientation) = exif_ifd0(&seg[6..]);
+                exif = resolution;
+                out.orientation = orientation;
             }
             // Adobe APP14: "Adobe", version (2), flags0 (2), flags1 (2), transform (1).
             0xEE if seg.starts_with(b"Adobe") => {
@@ -264,29 +265,15 @@ pub(crate) fn set_tiff_photometric(bytes: &mut [u8], page: usize, value: u16) ->
     None
 }
 
-/// The Orientation tag (274, SHORT) of IFD0 of an EXIF block (EXIF 2.3 §4.6.4).
-fn exif_orientation(tiff: &[u8]) -> Option<u16> {
-    let big = match tiff.get(0..2)? {
-        b"II" => false,
-        b"MM" => true,
-        _ => return None,
-    };
-    let u16_at = |o: usize| -> Option<u16> {
-        let b: [u8; 2] = tiff.get(o..o + 2)?.try_into().ok()?;
-        Some(if big { u16::from_be_bytes(b) } else { u16::from_le_bytes(b) })
-    };
-    let b: [u8; 4] = tiff.get(4..8)?.try_into().ok()?;
-    let ifd = (if big { u32::from_be_bytes(b) } else { u32::from_le_bytes(b) }) as usize;
-    let count = usize::from(u16_at(ifd)?);
-    (0..count.min(1024))
-        .map(|k| ifd + 2 + 12 * k)
-        .find(|&e| u16_at(e) == Some(274))
-        .and_then(|e| u16_at(e + 8))
+/// XResolution (282), YResolution (283), ResolutionUnit (296) and Orientation (274, EXIF 2.3
+/// §4.6.4) from IFD0 of an EXIF block, which is laid out as a TIFF file (EXIF 2.3 §4.6).
+fn exif_ifd0(tiff: &[u8]) -> (Option<Resolution>, Option<u16>) {
+    let mut orientation = None;
+    let resolution = exif_walk(tiff, &mut orientation);
+    (resolution, orientation)
 }
 
-/// XResolution (282), YResolution (283) and ResolutionUnit (296) from IFD0 of an EXIF
-/// block, which is laid out as a TIFF file (EXIF 2.3 §4.6).
-fn exif_resolution(tiff: &[u8]) -> Option<Resolution> {
+fn exif_walk(tiff: &[u8], orientation: &mut Option<u16>) -> Option<Resolution> {
     let big = match tiff.get(0..2)? {
         b"II" => false,
         b"MM" => true,
@@ -314,6 +301,7 @@ fn exif_resolution(tiff: &[u8]) -> Option<Resolution> {
             282 => x = rational_at(u32_at(e + 8)? as usize),
             283 => y = rational_at(u32_at(e + 8)? as usize),
             296 => unit = u16_at(e + 8)?,
+            274 => *orientation = u16_at(e + 8),
             _ => {}
         }
     }
@@ -393,12 +381,12 @@ mod tests {
             t.extend_from_slice(&1u32.to_be_bytes());
         }
         assert_eq!(
-            exif_resolution(&t),
+            exif_ifd0(&t).0,
             Some(Resolution {
                 x_ppi: 240.0,
                 y_ppi: 240.0
             })
         );
-        assert_eq!(exif_resolution(&t[..20]), None);
+        assert_eq!(exif_ifd0(&t[..20]).0, None);
     }
 }

@@ -302,14 +302,7 @@ fn read_page<R: std::io::Read + Seek>(
         notes,
         line_art,
     };
-    if let Some(v) = orientation {
-        match Orientation::from_tag(v) {
-            Some(o) => o.apply(&mut raster, "TIFF"),
-            None => raster
-                .notes
-                .push(format!("TIFF orientation {v} is not a defined value (1–8); read as stored")),
-        }
-    }
+    Orientation::apply_tag(&mut raster, orientation, "TIFF");
     Ok(raster)
 }
 

@@ -239,3 +239,10 @@ fn separate_reports_what_reading_did_and_puts_line_art_on_black_only() {
         assert_eq!(px[3] > 0, gray == 0, "black where the art is black, none elsewhere");
     }
 }
+
+#[test]
+fn a_page_asked_of_a_single_page_format_is_refused() {
+    let e = read_with("baseline-420.jpg", |o| o.page = Some(2)).unwrap_err().to_string();
+    assert!(e.contains("--page 2") && e.contains("one page"), "{e}");
+    assert!(read_with("baseline-420.jpg", |o| o.page = Some(1)).is_ok());
+}
