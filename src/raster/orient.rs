@@ -157,4 +157,35 @@ mod tests {
             assert_eq!(found, Some(at), "tag {tag}");
         }
     }
+
+    #[test]
+    fn a_quarter_turn_swaps_size_and_resolution_and_says_so() {
+        let mut r = Raster {
+            width: 3,
+            height: 2,
+            layout: crate::raster::Layout::Gray,
+            bits: 8,
+            samples: Samples::U8(vec![1, 2, 3, 4, 5, 6]),
+            icc_profile: None,
+            resolution: Some(Resolution {
+                x_ppi: 300.0,
+                y_ppi: 150.0,
+            }),
+            format: crate::raster::Format::Tiff,
+            notes: Vec::new(),
+            line_art: false,
+        };
+        Orientation::apply_tag(&mut r, Some(6), "TIFF");
+        assert_eq!((r.width, r.height), (2, 3));
+        assert_eq!(
+            r.resolution,
+            Some(Resolution {
+                x_ppi: 150.0,
+                y_ppi: 300.0
+            })
+        );
+        // Row 0 (1 2 3) stands on the right, read downwards.
+        assert_eq!(r.samples, Samples::U8(vec![4, 1, 5, 2, 6, 3]));
+        assert!(r.notes[0].contains("orientation 6"), "{:?}", r.notes);
+    }
 }
