@@ -54,7 +54,7 @@ const FOLD_ITERATIONS: usize = 40;
 
 /// Margin by which the corrected L* drops from a node to the next node with
 /// more ink at least, where the correction had to be lowered.
-const MONOTONIC_MARGIN: f64 = 1e-3;
+const MONOTONIC_MARGIN: f64 = 0.01;
 
 /// Samples along each lattice edge for the physical model's least slope.
 const EDGE_SAMPLES: usize = 16;

@@ -149,17 +149,27 @@ impl Correction {
         self.strides
     }
 
-    /// The 16 nodes around `ink` (index) and their multilinear weights.
+    /// The lowest node of the cell holding `ink`, the position inside the
+    /// cell per ink (0..1) and 1 / the cell's width per ink.
     #[inline(always)]
-    pub fn weights(&self, ink: Cmyk) -> ([usize; 16], [f64; 16]) {
+    fn cell(&self, ink: Cmyk) -> (usize, [f64; 4], [f64; 4]) {
         let x = ink.to_array();
         let mut base = 0;
         let mut t = [0.0; 4];
+        let mut inv = [0.0; 4];
         for a in 0..4 {
-            let (i, f, _) = self.axes[a].locate(x[a]);
+            let (i, f, w) = self.axes[a].locate(x[a]);
             base += i * self.strides[a];
             t[a] = f;
+            inv[a] = w;
         }
+        (base, t, inv)
+    }
+
+    /// The 16 nodes around `ink` (index) and their multilinear weights.
+    #[inline(always)]
+    pub fn weights(&self, ink: Cmyk) -> ([usize; 16], [f64; 16]) {
+        let (base, t, _) = self.cell(ink);
         let mut idx = [0; 16];
         let mut w = [0.0; 16];
         for corner in 0..16 {
@@ -182,14 +192,7 @@ impl Correction {
     /// The offset at `ink`.
     #[inline(always)]
     pub fn offset(&self, ink: Cmyk) -> [f64; 3] {
-        let x = ink.to_array();
-        let mut base = 0;
-        let mut t = [0.0; 4];
-        for a in 0..4 {
-            let (i, f, _) = self.axes[a].locate(x[a]);
-            base += i * self.strides[a];
-            t[a] = f;
-        }
+        let (base, t, _) = self.cell(ink);
         let s = self.strides;
         let v = &self.values;
         let lerp = |p: [f64; 3], q: [f64; 3], f: f64| [p[0] + f * (q[0] - p[0]), p[1] + f * (q[1] - p[1]), p[2] + f * (q[2] - p[2])];
@@ -208,16 +211,7 @@ impl Correction {
     /// b*; columns c, m, y, k). Inside a cell the derivative along an ink is
     /// exact; on a node the cell above is used.
     pub fn offset_with_derivative(&self, ink: Cmyk) -> ([f64; 3], [[f64; 4]; 3]) {
-        let x = ink.to_array();
-        let mut base = 0;
-        let mut t = [0.0; 4];
-        let mut inv = [0.0; 4];
-        for a in 0..4 {
-            let (i, f, w) = self.axes[a].locate(x[a]);
-            base += i * self.strides[a];
-            t[a] = f;
-            inv[a] = w;
-        }
+        let (base, t, inv) = self.cell(ink);
         let mut out = [0.0; 3];
         let mut jac = [[0.0; 4]; 3];
         for corner in 0..16 {

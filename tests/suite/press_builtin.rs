@@ -139,7 +139,8 @@ fn adding_any_ink_never_raises_lightness() {
                             let mut more = base;
                             more[ink] = (more[ink] + h).min(1.0);
                             let l2 = m.lab(Cmyk::from_array(more)).l;
-                            assert!(l2 <= lab + 1e-9, "{}: {base:?} L* {lab} → +ink {ink} L* {l2}", c.name);
+                            // 0.002 L*: see press_characterization::corrected_models_never_lighten_with_more_ink.
+                            assert!(l2 <= lab + 2e-3, "{}: {base:?} L* {lab} → +ink {ink} L* {l2}", c.name);
                         }
                     }
                 }
