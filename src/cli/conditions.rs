@@ -111,7 +111,12 @@ fn show(name: &str, json: bool) -> Result<i32> {
         (false, true) => " (built in)",
         _ => "",
     };
-    let _ = writeln!(s, "{}{tag}\n  {}\n", r.name, r.description);
+    let _ = writeln!(s, "{}{tag}\n  {}", r.name, r.description);
+    if r.source.is_empty() {
+        let _ = writeln!(s, "  source: not given\n");
+    } else {
+        let _ = writeln!(s, "  characterized from {}\n", r.source);
+    }
     let _ = writeln!(s, "Defaults");
     let _ = writeln!(s, "  total ink limit      {:.0} %", r.tac_percent);
     let _ = writeln!(s, "  smallest dot         {:.1} %", r.min_dot_percent);
@@ -129,7 +134,15 @@ fn show(name: &str, json: bool) -> Result<i32> {
     );
     if let Some(m) = &r.model {
         let t = m.tvi50_percent;
-        let _ = writeln!(s, "\nModel: Yule–Nielsen modified Neugebauer, 16 primaries");
+        let _ = writeln!(
+            s,
+            "\nModel: Yule–Nielsen modified Neugebauer, 16 primaries{}",
+            if m.kind.ends_with("lattice") {
+                ", with a lattice correction fitted to the measurements"
+            } else {
+                ""
+            }
+        );
         let _ = writeln!(s, "  n-factor             {:.3}", m.yule_nielsen_n);
         let _ = writeln!(
             s,
@@ -143,16 +156,21 @@ fn show(name: &str, json: bool) -> Result<i32> {
         );
     }
     if !r.aims.is_empty() {
-        let _ = writeln!(s, "\nAims (CIELAB D50) and the model at the same builds");
+        let what = if r.aims.first().is_some_and(|a| a.from == "measured") {
+            "Aims measured in the data (CIELAB D50) and the model's error at each"
+        } else {
+            "Aims (CIELAB D50) and the model at the same builds"
+        };
+        let _ = writeln!(s, "\n{what}");
         let _ = writeln!(
             s,
-            "  {:<14} {:>6} {:>7} {:>7}    {:>6} {:>7} {:>7}   {:>5}",
+            "  {:<19} {:>6} {:>7} {:>7}    {:>6} {:>7} {:>7}   {:>5}",
             "", "aim L*", "a*", "b*", "model L*", "a*", "b*", "ΔE00"
         );
         for a in &r.aims {
             let _ = writeln!(
                 s,
-                "  {:<14} {}    {}   {:5.2}",
+                "  {:<19} {}    {}   {:5.2}",
                 a.name,
                 lab3(a.aim),
                 lab3(a.predicted),

@@ -1,5 +1,6 @@
 //! Command-line definitions (clap) and dispatch.
 
+mod compare;
 mod conditions;
 mod fit;
 pub mod hotfolder;
@@ -36,6 +37,8 @@ pub enum Command {
     Conditions(conditions::ConditionsArgs),
     /// Fit a press model to measured patches (CGATS text) and write it as a condition file.
     Fit(fit::FitArgs),
+    /// Hold a condition against measured patches: ΔE2000 per patch, statistics, exit 1 over a tolerance.
+    Compare(compare::CompareArgs),
     /// Watch a folder: separate every file that arrives, results to out/, inputs to done/ or failed/.
     Hotfolder(hotfolder::HotfolderArgs),
     /// Write the separation as an ICC output profile (CMYK, CIELAB PCS, all intents).
@@ -53,6 +56,7 @@ pub fn run(cli: Cli) -> Result<i32> {
         Command::Separate(args) => separate::run(args),
         Command::Conditions(args) => conditions::run(args),
         Command::Fit(args) => fit::run(args),
+        Command::Compare(args) => compare::run(args),
         Command::Hotfolder(args) => hotfolder::run(args),
         Command::Profile(args) => profile::run(args),
         Command::Proof(args) => proof::run(args),

@@ -40,10 +40,29 @@
 //! three_colour = [23.0, 0.0, 0.0]     # cyan + magenta + yellow
 //! ```
 //!
+//! A condition fitted to measurements (`platesmith fit`) adds `source` (the
+//! data it was fitted to), `[black_overprints]` (the seven primaries printed
+//! with black, CIELAB D50, which then replace the overprint rule: keys
+//! `cyan_black`, `magenta_black`, `blue_black`, `yellow_black`,
+//! `green_black`, `red_black`, `three_colour_black`), `[measured]` (the
+//! measured CIELAB at those builds and the nine aims, from the data, for
+//! `conditions show`) and `[correction]`, the
+//! lattice of CIELAB offsets fitted to the residuals of the physical model
+//! (see [`super::correction`]):
+//!
+//! ```toml
+//! [correction]
+//! cyan = [0.0, 10.0, 20.0, 100.0]     # node levels per ink, percent, 0 first, 100 last
+//! magenta = [0.0, 50.0, 100.0]
+//! yellow = [0.0, 100.0]
+//! black = [0.0, 100.0]
+//! values = [[0.1, -0.2, 0.05], ...]  # ΔL*, Δa*, Δb* per node, black varying fastest
+//! ```
+//!
 //! Unknown keys are errors (a misspelt key must not be silently ignored);
 //! every error names the file, the key, the line and the allowed range.
 
-use super::{AIM_NAMES, Aims, DEFAULT_INK_FILM, ModelParams, PrintingCondition, builtin};
+use super::{AIM_NAMES, Aims, Axis, BLACK_OVERPRINT_NAMES, Correction, DEFAULT_INK_FILM, ModelParams, PrintingCondition, builtin};
 use crate::colour::Lab;
 use crate::error::{Error, Result};
 use crate::separation::BlackGeneration;
@@ -68,6 +87,32 @@ struct FileCondition {
     ink_film: Option<PerInk>,
     black_generation: Option<FileBlack>,
     aims: FileAims,
+    source: Option<String>,
+    measured: Option<std::collections::BTreeMap<String, Spanned<[f64; 3]>>>,
+    black_overprints: Option<FileOverprints>,
+    correction: Option<FileCorrection>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FileOverprints {
+    cyan_black: Spanned<[f64; 3]>,
+    magenta_black: Spanned<[f64; 3]>,
+    blue_black: Spanned<[f64; 3]>,
+    yellow_black: Spanned<[f64; 3]>,
+    green_black: Spanned<[f64; 3]>,
+    red_black: Spanned<[f64; 3]>,
+    three_colour_black: Spanned<[f64; 3]>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FileCorrection {
+    cyan: Spanned<Vec<f64>>,
+    magenta: Spanned<Vec<f64>>,
+    yellow: Spanned<Vec<f64>>,
+    black: Spanned<Vec<f64>>,
+    values: Spanned<Vec<[f64; 3]>>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -246,6 +291,41 @@ pub fn parse_condition(text: &str, path: &Path) -> Result<PrintingCondition> {
         ));
     }
 
+    let black_overprints = match &file.black_overprints {
+        None => None,
+        Some(o) => {
+            let spanned = [
+                &o.cyan_black,
+                &o.magenta_black,
+                &o.blue_black,
+                &o.yellow_black,
+                &o.green_black,
+                &o.red_black,
+                &o.three_colour_black,
+            ];
+            let mut over = [Lab::default(); 7];
+            for (i, v) in spanned.iter().enumerate() {
+                let key = format!("black_overprints.{}", BLACK_OVERPRINT_NAMES[i]);
+                over[i] = ck.lab(v, &key)?;
+                if over[i].l > aims.black.l {
+                    return Err(ck.error(
+                        v.span(),
+                        &key,
+                        format!(
+                            "L* {} is lighter than aims.black (L* {}): an overprint cannot be lighter than an ink in it",
+                            over[i].l, aims.black.l
+                        ),
+                    ));
+                }
+            }
+            Some(over)
+        }
+    };
+    let correction = match &file.correction {
+        None => None,
+        Some(c) => Some(std::sync::Arc::new(read_correction(&ck, c)?)),
+    };
+
     let name = match &file.name {
         Some(n) => {
             let s = n.get_ref().trim();
@@ -267,8 +347,76 @@ pub fn parse_condition(text: &str, path: &Path) -> Result<PrintingCondition> {
         tvi50,
         n,
         black_surface: surface,
+        black_overprints,
     };
-    Ok(PrintingCondition::from_params(name, description, params, tac, black, min_dot).with_ink_film(ink_film))
+    let mut measured = Vec::new();
+    if let Some(table) = &file.measured {
+        for (key, value) in table {
+            let Some((name, ink)) = super::aim_builds().find(|(n, _)| n == key) else {
+                return Err(ck.error(
+                    value.span(),
+                    &format!("measured.{key}"),
+                    format!(
+                        "not an aim build; allowed {}",
+                        super::aim_builds().map(|(n, _)| n).collect::<Vec<_>>().join(", ")
+                    ),
+                ));
+            };
+            measured.push(super::MeasuredAim {
+                name: name.to_string(),
+                ink,
+                lab: ck.lab(value, &format!("measured.{key}"))?,
+            });
+        }
+        // In the order of `aim_builds`, not the file's (a map is sorted by name).
+        measured.sort_by_key(|m| super::aim_builds().position(|(n, _)| n == m.name));
+    }
+    let mut condition = PrintingCondition::from_fitted(name, description, params, correction, tac, black, min_dot)
+        .with_ink_film(ink_film)
+        .with_source(file.source.unwrap_or_default());
+    condition.measured = measured;
+    Ok(condition)
+}
+
+/// The `[correction]` table: node levels per ink (percent) and the offsets.
+fn read_correction(ck: &Checker, c: &FileCorrection) -> Result<Correction> {
+    let mut axes = Vec::with_capacity(4);
+    for (key, levels) in [
+        ("cyan", &c.cyan),
+        ("magenta", &c.magenta),
+        ("yellow", &c.yellow),
+        ("black", &c.black),
+    ] {
+        let fractions: Vec<f64> = levels.get_ref().iter().map(|v| v / 100.0).collect();
+        let axis = Axis::new(&fractions).ok_or_else(|| {
+            ck.error(
+                levels.span(),
+                &format!("correction.{key}"),
+                "node levels must be 2–64 ascending percentages, at least 0.1 apart, from 0 to 100".into(),
+            )
+        })?;
+        axes.push(axis);
+    }
+    let nodes: usize = axes.iter().map(Axis::len).product();
+    let values = c.values.get_ref();
+    if values.len() != nodes {
+        return Err(ck.error(
+            c.values.span(),
+            "correction.values",
+            format!("{} offsets for {nodes} nodes; one [ΔL*, Δa*, Δb*] per node is needed", values.len()),
+        ));
+    }
+    if let Some(bad) = values.iter().flatten().find(|v| !v.is_finite() || v.abs() > 50.0) {
+        return Err(ck.error(
+            c.values.span(),
+            "correction.values",
+            format!("{bad} is out of range; allowed -50–50"),
+        ));
+    }
+    let axes: [Axis; 4] = axes
+        .try_into()
+        .map_err(|_| Error::Internal("four correction axes expected".into()))?;
+    Correction::new(axes, values.clone()).ok_or_else(|| Error::Internal("correction size checked above".into()))
 }
 
 /// Reads a condition file.
@@ -277,11 +425,26 @@ pub fn read_condition_file(path: &Path) -> Result<PrintingCondition> {
     parse_condition(&text, path)
 }
 
+/// Extensions of CGATS measurement files accepted as conditions.
+pub const MEASUREMENT_EXTENSIONS: [&str; 4] = [".ti3", ".cgats", ".it8", ".txt"];
+
 /// A printing condition from a built-in name (`coated-offset`), a `.toml`
-/// file, or a CMYK ICC output profile (`.icc`, `.icm`) read through the ICC
-/// profile model.
+/// file, a CMYK ICC output profile (`.icc`, `.icm`) read through the ICC
+/// profile model, or a CGATS measurement file (`.ti3`, `.cgats`, `.it8`,
+/// `.txt`), fitted on load (physical model and correction, no
+/// cross-validation; the job defaults of the default built-in condition).
 pub fn load_condition(spec: &str) -> Result<PrintingCondition> {
     let lower = spec.to_ascii_lowercase();
+    if MEASUREMENT_EXTENSIONS.iter().any(|e| lower.ends_with(e)) {
+        let path = Path::new(spec);
+        let defaults = builtin::by_name(builtin::DEFAULT).ok_or_else(|| Error::Internal("no default condition".into()))?;
+        let options = super::characterize::Options {
+            folds: 0,
+            ..Default::default()
+        };
+        let fitted = super::characterize::fit_measurements(path, &defaults, None, None, &options)?;
+        return Ok(fitted.condition);
+    }
     if lower.ends_with(".toml") {
         return read_condition_file(Path::new(spec));
     }
@@ -290,7 +453,7 @@ pub fn load_condition(spec: &str) -> Result<PrintingCondition> {
     }
     builtin::by_name(spec).ok_or_else(|| {
         Error::usage(format!(
-            "unknown printing condition `{spec}`: built-in conditions are {}; or give a .toml condition file or a CMYK .icc profile",
+            "unknown printing condition `{spec}`: built-in conditions are {}; or give a .toml condition file, a CMYK .icc profile or a CGATS measurement file (.ti3, .cgats, .it8, .txt)",
             builtin::names().join(", ")
         ))
     })
@@ -372,6 +535,9 @@ pub fn to_toml(condition: &PrintingCondition, header: &[String]) -> Result<Strin
     let esc = |t: &str| t.replace('\\', "\\\\").replace('"', "\\\"");
     let _ = writeln!(s, "name = \"{}\"", esc(&condition.name));
     let _ = writeln!(s, "description = \"{}\"", esc(&condition.description));
+    if !condition.source.is_empty() {
+        let _ = writeln!(s, "source = \"{}\"", esc(&condition.source));
+    }
     let _ = writeln!(s, "tac = {}  # percent", num(condition.tac * 100.0, 1));
     let _ = writeln!(s, "min_dot = {}  # percent", num(condition.min_dot * 100.0, 2));
     let _ = writeln!(s, "yule_nielsen_n = {}", num(p.n, 4));
@@ -395,6 +561,39 @@ pub fn to_toml(condition: &PrintingCondition, header: &[String]) -> Result<Strin
     let _ = writeln!(s, "\n[aims]  # CIELAB D50 [L*, a*, b*]");
     for (name, lab) in AIM_NAMES.iter().zip(p.aims.to_array()) {
         let _ = writeln!(s, "{name} = [{}, {}, {}]", num(lab.l, 2), num(lab.a, 2), num(lab.b, 2));
+    }
+    if !condition.measured.is_empty() {
+        let _ = writeln!(s, "\n[measured]  # CIELAB D50 measured at the aim builds, from the data fitted to");
+        for m in &condition.measured {
+            let _ = writeln!(s, "{} = [{}, {}, {}]", m.name, num(m.lab.l, 2), num(m.lab.a, 2), num(m.lab.b, 2));
+        }
+    }
+    if let Some(over) = &p.black_overprints {
+        let _ = writeln!(
+            s,
+            "\n[black_overprints]  # CIELAB D50 [L*, a*, b*] of the primaries printed with black"
+        );
+        for (name, lab) in BLACK_OVERPRINT_NAMES.iter().zip(over) {
+            let _ = writeln!(s, "{name} = [{}, {}, {}]", num(lab.l, 2), num(lab.a, 2), num(lab.b, 2));
+        }
+    }
+    if let Some(c) = &condition.correction {
+        let _ = writeln!(
+            s,
+            "\n[correction]  # CIELAB offsets on a lattice over CMYK (node levels in percent), fitted to the physical model's residuals"
+        );
+        for (key, axis) in ["cyan", "magenta", "yellow", "black"].iter().zip(c.axes()) {
+            let levels: Vec<String> = axis.levels().iter().map(|v| num(v * 100.0, 3)).collect();
+            let _ = writeln!(s, "{key} = [{}]", levels.join(", "));
+        }
+        let _ = writeln!(
+            s,
+            "values = [  # ΔL*, Δa*, Δb* per node; black varies fastest, then yellow, magenta, cyan"
+        );
+        for v in c.values() {
+            let _ = writeln!(s, "  [{}, {}, {}],", num(v[0], 4), num(v[1], 4), num(v[2], 4));
+        }
+        let _ = writeln!(s, "]");
     }
     Ok(s)
 }

@@ -92,9 +92,12 @@ pub fn gray_balance(model: &dyn PressModel, cyan: f64) -> GrayBalance {
 }
 
 /// How closely the model reproduces one of its aims.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct AimCheck {
-    pub name: &'static str,
+    pub name: String,
+    /// Where the aim comes from: "measured" (the data the condition was
+    /// fitted to) or "parameter" (the condition's own aim values).
+    pub from: &'static str,
     pub ink_percent: [f64; 4],
     pub aim: Lab,
     pub predicted: Lab,
@@ -118,6 +121,8 @@ pub struct InkTvi {
 pub struct ConditionReport {
     pub name: String,
     pub description: String,
+    /// The data the condition was characterized from, or how else it was made.
+    pub source: String,
     pub default: bool,
     pub built_in: bool,
     pub tac_percent: f64,
@@ -169,21 +174,24 @@ impl ConditionReport {
     pub fn new(c: &PrintingCondition, options: GamutOptions) -> ConditionReport {
         let model = c.model.as_ref();
         let white = MediaWhite::new(model.paper_xyz());
+        let check = |name: &str, from: &'static str, ink: [f64; 4], aim: Lab| {
+            let predicted = model.lab(Cmyk::from_array(ink));
+            AimCheck {
+                name: name.to_string(),
+                from,
+                ink_percent: ink.map(|v| v * 100.0),
+                aim,
+                predicted,
+                delta_e2000: ciede2000(aim, predicted),
+            }
+        };
         let aims = match &c.params {
+            _ if !c.measured.is_empty() => c.measured.iter().map(|m| check(&m.name, "measured", m.ink, m.lab)).collect(),
             Some(p) => AIM_NAMES
                 .iter()
                 .zip(p.aims.to_array())
                 .zip(AIM_INKS)
-                .map(|((name, aim), ink)| {
-                    let predicted = model.lab(Cmyk::from_array(ink));
-                    AimCheck {
-                        name,
-                        ink_percent: ink.map(|v| v * 100.0),
-                        aim,
-                        predicted,
-                        delta_e2000: ciede2000(aim, predicted),
-                    }
-                })
+                .map(|((name, aim), ink)| check(name, "parameter", ink, aim))
                 .collect(),
             None => Vec::new(),
         };
@@ -191,6 +199,7 @@ impl ConditionReport {
         ConditionReport {
             name: c.name.clone(),
             description: c.description.clone(),
+            source: c.source.clone(),
             default: c.name == builtin::DEFAULT,
             built_in: builtin::names().contains(&c.name.as_str()) && builtin::by_name(&c.name).map(|b| b.params) == Some(c.params),
             tac_percent: c.tac * 100.0,
@@ -204,7 +213,11 @@ impl ConditionReport {
                 uca: c.black.uca * 100.0,
             },
             model: c.params.map(|p| ModelFigures {
-                kind: "yule-nielsen-neugebauer",
+                kind: if c.correction.is_some() {
+                    "yule-nielsen-neugebauer+lattice"
+                } else {
+                    "yule-nielsen-neugebauer"
+                },
                 yule_nielsen_n: p.n,
                 tvi50_percent: p.tvi50.map(|v| v * 100.0),
                 black_surface_percent: p.black_surface * 100.0,

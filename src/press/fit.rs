@@ -8,7 +8,7 @@
 //! The Jacobian is taken by forward differences. Residuals are reported in
 //! CIEDE2000.
 
-use super::{AIM_INKS, Aims, ModelParams, PressModel};
+use super::{AIM_INKS, Aims, BLACK_OVERPRINT_INKS, ModelParams, PressModel};
 use crate::cgats::CgatsFile;
 use crate::colour::{Lab, Xyz, ciede2000};
 use crate::error::{Error, Result};
@@ -51,12 +51,13 @@ pub fn patches_from_cgats(file: &CgatsFile, path: &Path) -> Result<Vec<Patch>> {
     }
     let id_col = table.column("SAMPLE_ID").or_else(|| table.column("SAMPLE_NAME"));
     let mut patches = Vec::with_capacity(table.rows.len());
+    let mut seen = std::collections::HashMap::new();
     for row in 0..table.rows.len() {
         let line = table.row_lines[row];
         let mut ink = [0.0; 4];
         for (slot, &col) in ink.iter_mut().zip(&ink_cols) {
             let v = table.number(path, row, col)?;
-            if !(-0.5..=100.5).contains(&v) {
+            if !(0.0..=100.0).contains(&v) {
                 return Err(Error::input(
                     path,
                     format!(
@@ -91,6 +92,12 @@ pub fn patches_from_cgats(file: &CgatsFile, path: &Path) -> Result<Vec<Patch>> {
             Lab::from_xyz(Xyz::new(v[0] / 100.0, v[1] / 100.0, v[2] / 100.0))
         };
         let id = id_col.map(|c| table.rows[row][c].clone()).unwrap_or_else(|| (row + 1).to_string());
+        if let Some(first) = seen.insert(id.clone(), line) {
+            return Err(Error::input(
+                path,
+                format!("line {line}: patch `{id}` is measured twice (first on line {first}); each SAMPLE_ID must be unique"),
+            ));
+        }
         patches.push(Patch {
             id,
             ink: Cmyk::from_array(ink),
@@ -102,7 +109,7 @@ pub fn patches_from_cgats(file: &CgatsFile, path: &Path) -> Result<Vec<Patch>> {
         return Err(Error::input(
             path,
             format!(
-                "{} patches is too few to fit the model (33 parameters); a characterization chart has hundreds",
+                "{} patches is too few to fit the model (54 physical parameters); a characterization chart has hundreds",
                 patches.len()
             ),
         ));
@@ -117,8 +124,66 @@ pub struct Residuals {
     pub mean: f64,
     pub p95: f64,
     pub max: f64,
+    /// The same statistics per region of the ink space ([`Region`]).
+    pub regions: Vec<RegionStats>,
     /// The worst patches, worst first (at most 10).
     pub worst: Vec<WorstPatch>,
+}
+
+/// Statistics of one region.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RegionStats {
+    pub region: Region,
+    pub count: usize,
+    pub mean: f64,
+    pub p95: f64,
+    pub max: f64,
+}
+
+/// Parts of the ink space a press is judged on separately.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Region {
+    /// Every ink at 25 % or less (paper included).
+    PaperAndHighlights,
+    /// Total ink 200 % or more, or black 70 % or more (solids excluded).
+    Shadows,
+    /// Every ink either absent or at 95 % or more, at least one solid: the
+    /// solids and their overprints.
+    SolidsAndOverprints,
+    /// Everything else.
+    Midtones,
+}
+
+impl Region {
+    pub const ALL: [Region; 4] = [
+        Region::PaperAndHighlights,
+        Region::Midtones,
+        Region::Shadows,
+        Region::SolidsAndOverprints,
+    ];
+
+    pub fn of(ink: Cmyk) -> Region {
+        let v = ink.to_array();
+        if v.iter().all(|&x| x <= 0.005 || x >= 0.95) && v.iter().any(|&x| x >= 0.95) {
+            Region::SolidsAndOverprints
+        } else if v.iter().all(|&x| x <= 0.25) {
+            Region::PaperAndHighlights
+        } else if v.iter().sum::<f64>() >= 2.0 || v[3] >= 0.7 {
+            Region::Shadows
+        } else {
+            Region::Midtones
+        }
+    }
+
+    pub fn name(self) -> &'static str {
+        match self {
+            Region::PaperAndHighlights => "paper and highlights",
+            Region::Midtones => "midtones",
+            Region::Shadows => "shadows",
+            Region::SolidsAndOverprints => "solids and overprints",
+        }
+    }
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -131,46 +196,70 @@ pub struct WorstPatch {
     pub delta_e2000: f64,
 }
 
-/// ΔE2000 residual statistics of `model` against `patches` (95th percentile by
-/// the nearest-rank method).
-pub fn residuals(model: &dyn PressModel, patches: &[Patch]) -> Residuals {
-    let mut all: Vec<(f64, usize, Lab)> = patches
+/// Mean, 95th percentile (nearest rank) and maximum of `values`.
+fn stats(values: &[f64]) -> (f64, f64, f64) {
+    if values.is_empty() {
+        return (0.0, 0.0, 0.0);
+    }
+    let mut v = values.to_vec();
+    v.sort_by(f64::total_cmp);
+    let n = v.len();
+    let p95 = v[((0.95 * n as f64).ceil() as usize).clamp(1, n) - 1];
+    (v.iter().sum::<f64>() / n as f64, p95, v[n - 1])
+}
+
+/// ΔE2000 statistics of `predicted` against the measured `patches` (same order).
+pub fn summarize(patches: &[Patch], predicted: &[Lab]) -> Residuals {
+    let des: Vec<f64> = patches.iter().zip(predicted).map(|(p, q)| ciede2000(p.lab, *q)).collect();
+    let (mean, p95, max) = stats(&des);
+    let regions = Region::ALL
         .iter()
-        .enumerate()
-        .map(|(i, p)| {
-            let predicted = model.lab(p.ink);
-            (ciede2000(p.lab, predicted), i, predicted)
+        .map(|&region| {
+            let v: Vec<f64> = patches
+                .iter()
+                .zip(&des)
+                .filter(|(p, _)| Region::of(p.ink) == region)
+                .map(|(_, &d)| d)
+                .collect();
+            let (mean, p95, max) = stats(&v);
+            RegionStats {
+                region,
+                count: v.len(),
+                mean,
+                p95,
+                max,
+            }
         })
         .collect();
-    all.sort_by(|a, b| b.0.total_cmp(&a.0));
-    let count = all.len();
-    let mean = all.iter().map(|a| a.0).sum::<f64>() / count.max(1) as f64;
-    let mut ascending: Vec<f64> = all.iter().map(|a| a.0).collect();
-    ascending.reverse();
-    let p95 = if count == 0 {
-        0.0
-    } else {
-        ascending[((0.95 * count as f64).ceil() as usize).clamp(1, count) - 1]
-    };
-    let worst = all
+    let mut order: Vec<usize> = (0..des.len()).collect();
+    order.sort_by(|&a, &b| des[b].total_cmp(&des[a]));
+    let worst = order
         .iter()
         .take(10)
-        .map(|&(de, i, predicted)| WorstPatch {
+        .map(|&i| WorstPatch {
             id: patches[i].id.clone(),
             line: patches[i].line,
             ink_percent: patches[i].ink.to_percent(),
             measured: patches[i].lab,
-            predicted,
-            delta_e2000: de,
+            predicted: predicted[i],
+            delta_e2000: des[i],
         })
         .collect();
     Residuals {
-        count,
+        count: des.len(),
         mean,
         p95,
-        max: all.first().map(|a| a.0).unwrap_or(0.0),
+        max,
+        regions,
         worst,
     }
+}
+
+/// ΔE2000 residual statistics of `model` against `patches` (95th percentile by
+/// the nearest-rank method).
+pub fn residuals(model: &dyn PressModel, patches: &[Patch]) -> Residuals {
+    let predicted: Vec<Lab> = patches.iter().map(|p| model.lab(p.ink)).collect();
+    summarize(patches, &predicted)
 }
 
 /// The outcome of [`fit_model`].
@@ -183,11 +272,13 @@ pub struct FitResult {
     pub rms_delta_e76: f64,
 }
 
-const N_PARAMS: usize = 33;
+const N_PARAMS: usize = 54;
 
-/// Parameter vector: 27 aim coordinates, 4 TVI, n, and the surface parameter
-/// as a fraction ρ of its upper bound (black solid Y / paper Y), so that every
-/// vector inside the box gives a valid model.
+/// Parameter vector: 27 aim coordinates, 4 TVI, n, the surface parameter as a
+/// fraction ρ of its upper bound (black solid Y / paper Y), so that every
+/// vector inside the box gives a valid model, and the 21 coordinates of the 7
+/// primaries with black. The surface parameter only sets where those start
+/// (the overprint rule); the fit moves the primaries themselves.
 fn to_vector(p: &ModelParams) -> [f64; N_PARAMS] {
     let mut v = [0.0; N_PARAMS];
     for (i, lab) in p.aims.to_array().iter().enumerate() {
@@ -196,6 +287,10 @@ fn to_vector(p: &ModelParams) -> [f64; N_PARAMS] {
     v[27..31].copy_from_slice(&p.tvi50);
     v[31] = p.n;
     v[32] = p.black_surface / surface_bound(&p.aims);
+    let over = p.black_overprints.unwrap_or_else(|| p.black_overprints_by_rule());
+    for (i, lab) in over.iter().enumerate() {
+        v[33 + 3 * i..36 + 3 * i].copy_from_slice(&lab.to_array());
+    }
     v
 }
 
@@ -206,18 +301,20 @@ fn surface_bound(aims: &Aims) -> f64 {
 fn from_vector(v: &[f64; N_PARAMS]) -> ModelParams {
     let labs: [Lab; 9] = std::array::from_fn(|i| Lab::new(v[3 * i], v[3 * i + 1], v[3 * i + 2]));
     let aims = Aims::from_array(labs);
+    let over: [Lab; 7] = std::array::from_fn(|i| Lab::new(v[33 + 3 * i], v[34 + 3 * i], v[35 + 3 * i]));
     ModelParams {
         aims,
         tvi50: [v[27], v[28], v[29], v[30]],
         n: v[31],
         black_surface: v[32] * surface_bound(&aims),
+        black_overprints: Some(over),
     }
 }
 
 fn bounds(i: usize) -> (f64, f64) {
     match i {
-        0..27 if i.is_multiple_of(3) => (1.0, 100.0),
-        0..27 => (-128.0, 128.0),
+        0..27 | 33.. if i.is_multiple_of(3) => (1.0, 100.0),
+        0..27 | 33.. => (-128.0, 128.0),
         27..31 => (0.0, 0.30),
         31 => (1.0, 8.0),
         _ => (0.0, 0.95),
@@ -268,27 +365,55 @@ fn cholesky_solve(a: &[[f64; N_PARAMS]; N_PARAMS], b: &[f64; N_PARAMS]) -> Optio
     Some(x)
 }
 
-/// A starting point: `base` with its aims replaced by the measured patches
-/// printed at exactly those builds (averaged when repeated), where present.
+/// The mean measured CIELAB of the patches printed at exactly `ink`, if any.
+pub fn mean_at(patches: &[Patch], ink: [f64; 4]) -> Option<Lab> {
+    let hits: Vec<Lab> = patches
+        .iter()
+        .filter(|p| p.ink.to_array().iter().zip(ink).all(|(a, b)| (a - b).abs() < 0.005))
+        .map(|p| p.lab)
+        .collect();
+    if hits.is_empty() {
+        return None;
+    }
+    let n = hits.len() as f64;
+    Some(Lab::new(
+        hits.iter().map(|l| l.l).sum::<f64>() / n,
+        hits.iter().map(|l| l.a).sum::<f64>() / n,
+        hits.iter().map(|l| l.b).sum::<f64>() / n,
+    ))
+}
+
+/// A starting point: the aims of `base` replaced by the measured patches
+/// printed at exactly those builds (averaged when repeated), where present,
+/// and fixed generic values for the rest (TVI 15 %, n = 2, first-surface
+/// reflection 2 %; black overprints measured or by the overprint rule). It does
+/// not depend on the base's fitted physics, so that refitting a condition from
+/// the same data gives the same result whatever the built-ins hold.
 pub fn starting_point(patches: &[Patch], base: &ModelParams) -> ModelParams {
     let mut labs = base.aims.to_array();
     for (slot, ink) in labs.iter_mut().zip(AIM_INKS) {
-        let hits: Vec<Lab> = patches
-            .iter()
-            .filter(|p| p.ink.to_array().iter().zip(ink).all(|(a, b)| (a - b).abs() < 0.005))
-            .map(|p| p.lab)
-            .collect();
-        if !hits.is_empty() {
-            let n = hits.len() as f64;
-            *slot = Lab::new(
-                hits.iter().map(|l| l.l).sum::<f64>() / n,
-                hits.iter().map(|l| l.a).sum::<f64>() / n,
-                hits.iter().map(|l| l.b).sum::<f64>() / n,
-            );
+        if let Some(lab) = mean_at(patches, ink) {
+            *slot = lab;
         }
     }
-    let mut p = *base;
-    p.aims = Aims::from_array(labs);
+    let mut p = ModelParams {
+        aims: Aims::from_array(labs),
+        tvi50: [0.15; 4],
+        n: 2.0,
+        black_surface: 0.02,
+        black_overprints: None,
+    };
+    let mut v = to_vector(&p);
+    project(&mut v);
+    p = from_vector(&v);
+    p.black_overprints = None;
+    let mut over = p.black_overprints_by_rule();
+    for (slot, ink) in over.iter_mut().zip(BLACK_OVERPRINT_INKS) {
+        if let Some(lab) = mean_at(patches, ink) {
+            *slot = lab;
+        }
+    }
+    p.black_overprints = Some(over);
     let mut v = to_vector(&p);
     project(&mut v);
     from_vector(&v)
@@ -306,6 +431,22 @@ pub fn order_aims(aims: &mut Aims) {
     aims.green.l = aims.green.l.min(aims.cyan.l).min(aims.yellow.l);
     aims.blue.l = aims.blue.l.min(aims.cyan.l).min(aims.magenta.l);
     aims.three_colour.l = aims.three_colour.l.min(aims.red.l).min(aims.green.l).min(aims.blue.l);
+}
+
+/// [`order_aims`], and every primary with black no lighter than the black
+/// solid or the same primary without black.
+pub fn order_params(p: &mut ModelParams) {
+    order_aims(&mut p.aims);
+    let without = p.aims.to_array();
+    // Aim index (in `Aims::to_array` order) of each primary of BLACK_OVERPRINT_NAMES without black.
+    const PARTNER: [usize; 7] = [1, 2, 7, 3, 6, 5, 8];
+    if let Some(over) = &mut p.black_overprints {
+        for (lab, partner) in over.iter_mut().zip(PARTNER) {
+            lab.l = lab.l.min(without[partner].l).min(p.aims.black.l);
+        }
+        // The three-colour black is no lighter than any two-colour black.
+        over[6].l = over[6].l.min(over[2].l).min(over[4].l).min(over[5].l);
+    }
 }
 
 /// Fits the model parameters to `patches`, starting from `start`.
@@ -389,7 +530,7 @@ pub fn fit_model(patches: &[Patch], start: &ModelParams, max_iterations: usize) 
         }
     }
     let mut params = from_vector(&v);
-    order_aims(&mut params.aims);
+    order_params(&mut params);
     params.black_surface = params.black_surface.min(0.95 * surface_bound(&params.aims));
     let model = params.model();
     FitResult {

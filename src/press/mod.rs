@@ -5,19 +5,23 @@
 //! allocate per call and is cheap enough to be called millions of times.
 
 pub mod builtin;
+pub mod characterize;
 pub mod condition_file;
+pub mod correction;
 pub mod figures;
 pub mod fit;
 pub mod gamut;
 pub mod icc_model;
 mod neugebauer;
 mod params;
+pub mod residual_plot;
 
 pub use condition_file::load_condition;
+pub use correction::{Axis, CorrectedModel, Correction};
 pub use neugebauer::{
     NeugebauerModel, NeugebauerParams, TONE_CHANNEL, ToneCurve, complete_primaries, lab_with_derivative, overprint_black,
 };
-pub use params::{AIM_INKS, AIM_NAMES, Aims, ModelParams};
+pub use params::{AIM_INKS, AIM_NAMES, Aims, BLACK_OVERPRINT_INKS, BLACK_OVERPRINT_NAMES, ModelParams};
 
 use crate::colour::{D50, Lab, Xyz};
 use crate::ink::Cmyk;
@@ -145,6 +149,34 @@ pub struct PrintingCondition {
     /// The characterization parameters the model was built from (built-in and
     /// TOML conditions); `None` when the model comes from elsewhere (an ICC profile).
     pub params: Option<ModelParams>,
+    /// The lattice correction fitted to measurements on top of the physical
+    /// model of `params`, if any.
+    pub correction: Option<Arc<Correction>>,
+    /// Where the characterization comes from (a measurement data set, or
+    /// "from memory"), for people; empty when not known.
+    pub source: String,
+    /// Measured CIELAB at the aim builds (paper, solids, overprints, and
+    /// the primaries with black), from the data the condition was fitted to:
+    /// (name, nominal CMYK fractions, measured).
+    pub measured: Vec<MeasuredAim>,
+}
+
+/// One measured aim of a condition fitted to data.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MeasuredAim {
+    pub name: String,
+    pub ink: [f64; 4],
+    pub lab: Lab,
+}
+
+/// Name and nominal CMYK of every aim build: the nine aims, then the seven
+/// primaries with black.
+pub fn aim_builds() -> impl Iterator<Item = (&'static str, [f64; 4])> {
+    AIM_NAMES
+        .iter()
+        .copied()
+        .zip(AIM_INKS)
+        .chain(BLACK_OVERPRINT_NAMES.iter().copied().zip(BLACK_OVERPRINT_INKS))
 }
 
 impl PrintingCondition {
@@ -167,6 +199,9 @@ impl PrintingCondition {
             min_dot,
             ink_film: DEFAULT_INK_FILM,
             params: None,
+            correction: None,
+            source: String::new(),
+            measured: Vec::new(),
         }
     }
 
@@ -181,9 +216,31 @@ impl PrintingCondition {
         black: BlackGeneration,
         min_dot: f64,
     ) -> PrintingCondition {
-        let mut condition = PrintingCondition::new(name, description, Arc::new(params.model()), tac, black, min_dot);
+        PrintingCondition::from_fitted(name, description, params, None, tac, black, min_dot)
+    }
+
+    /// A condition whose model is the physical model of `params` with the
+    /// lattice `correction` on top.
+    pub fn from_fitted(
+        name: impl Into<String>,
+        description: impl Into<String>,
+        params: ModelParams,
+        correction: Option<Arc<Correction>>,
+        tac: f64,
+        black: BlackGeneration,
+        min_dot: f64,
+    ) -> PrintingCondition {
+        let model = CorrectedModel::new(params.model(), correction.clone());
+        let mut condition = PrintingCondition::new(name, description, Arc::new(model), tac, black, min_dot);
         condition.params = Some(params);
+        condition.correction = correction;
         condition
+    }
+
+    /// The same condition with its source named.
+    pub fn with_source(mut self, source: impl Into<String>) -> PrintingCondition {
+        self.source = source.into();
+        self
     }
 
     /// The same condition with other ink film figures.

@@ -121,13 +121,53 @@ pub struct ModelParams {
     /// First-surface reflection of the black overprint rule, as a fraction of
     /// the paper's tristimulus values (see [`super::overprint_black`]).
     pub black_surface: f64,
+    /// Measured (fitted) CIELAB of the 7 primaries printed with black, in the
+    /// order of [`BLACK_OVERPRINT_NAMES`]; when given they replace the
+    /// overprint rule (which then only serves as the starting point of a fit).
+    pub black_overprints: Option<[Lab; 7]>,
 }
+
+/// Names of the primaries with black (bit masks 9 to 15 of the Neugebauer
+/// primaries), as used in files and reports.
+pub const BLACK_OVERPRINT_NAMES: [&str; 7] = [
+    "cyan_black",
+    "magenta_black",
+    "blue_black",
+    "yellow_black",
+    "green_black",
+    "red_black",
+    "three_colour_black",
+];
+
+/// Nominal CMYK (fractions) of each primary of [`BLACK_OVERPRINT_NAMES`].
+pub const BLACK_OVERPRINT_INKS: [[f64; 4]; 7] = [
+    [1.0, 0.0, 0.0, 1.0],
+    [0.0, 1.0, 0.0, 1.0],
+    [1.0, 1.0, 0.0, 1.0],
+    [0.0, 0.0, 1.0, 1.0],
+    [1.0, 0.0, 1.0, 1.0],
+    [0.0, 1.0, 1.0, 1.0],
+    [1.0, 1.0, 1.0, 1.0],
+];
 
 impl ModelParams {
     /// The 16 Neugebauer primaries: the 8 aims without black and the 8 with
     /// black derived by the overprint rule.
     pub fn primaries(&self) -> [Xyz; 16] {
-        complete_primaries(self.aims.primaries_without_black(), self.aims.black.to_xyz(), self.black_surface)
+        let mut all = complete_primaries(self.aims.primaries_without_black(), self.aims.black.to_xyz(), self.black_surface);
+        if let Some(over) = &self.black_overprints {
+            for (slot, lab) in all[9..].iter_mut().zip(over) {
+                *slot = lab.to_xyz();
+            }
+        }
+        all
+    }
+
+    /// The primaries with black by the overprint rule, as CIELAB, in the order
+    /// of [`BLACK_OVERPRINT_NAMES`] (a fit's starting point).
+    pub fn black_overprints_by_rule(&self) -> [Lab; 7] {
+        let all = complete_primaries(self.aims.primaries_without_black(), self.aims.black.to_xyz(), self.black_surface);
+        std::array::from_fn(|i| Lab::from_xyz(all[9 + i]))
     }
 
     pub fn neugebauer(&self) -> NeugebauerParams {

@@ -22,6 +22,7 @@ mod colour_reference;
 mod colour_standards;
 mod icc_profile;
 mod press_builtin;
+mod press_characterization;
 mod press_condition_file;
 mod press_fit;
 mod raster_bad;

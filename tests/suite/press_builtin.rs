@@ -1,15 +1,27 @@
-//! The built-in printing conditions against their own definitions and
-//! against published formulas and the trade's rules of thumb.
+//! The built-in printing conditions against the public measurement data they
+//! were characterized from (testdata/characterization: FOGRA39L, FOGRA29L,
+//! FOGRA28L, FOGRA40L, FOGRA30L, CGATS/SNAP TR 002), published formulas and
+//! the trade's rules of thumb.
 
 use platesmith::colour::{Lab, ciede2000};
 use platesmith::ink::{Cmyk, Ink};
 use platesmith::press::figures::{gray_balance, murray_davies_tone_value, predicted_tvi, predicted_tvi_in};
 use platesmith::press::gamut::{GamutOptions, gamut_volume};
-use platesmith::press::{AIM_INKS, AIM_NAMES, TONE_CHANNEL, builtin, finite_difference_lab_jacobian};
+use platesmith::press::{TONE_CHANNEL, builtin, finite_difference_lab_jacobian};
 
 #[test]
-fn registry_lists_three_conditions_with_the_default_first() {
-    assert_eq!(builtin::names(), ["coated-offset", "uncoated-offset", "newsprint"]);
+fn registry_lists_the_conditions_with_the_default_first() {
+    assert_eq!(
+        builtin::names(),
+        [
+            "coated-offset",
+            "uncoated-offset",
+            "newsprint",
+            "web-offset-lwc",
+            "supercalendered",
+            "uncoated-yellowish"
+        ]
+    );
     for name in builtin::names() {
         let c = builtin::by_name(name).expect("listed name resolves");
         assert_eq!(c.name, *name);
@@ -20,54 +32,88 @@ fn registry_lists_three_conditions_with_the_default_first() {
 }
 
 #[test]
-fn each_condition_reproduces_its_aims() {
-    // Aims: ISO 12647-2 (paper types 1 and 4) and ISO 12647-3 values from
-    // memory, as configured in builtin.rs. Colour difference: CIEDE2000
-    // (CIE 142-2001; Sharma, Wu & Dalal 2005).
+fn each_condition_reproduces_the_measured_aims_of_its_data() {
+    // Source: the measured patches of each built-in's data set at paper,
+    // solids, two- and three-colour overprints and the primaries with black
+    // (kept in the condition file's [measured] table by `platesmith fit`;
+    // checked against the data files themselves in press_characterization).
+    // Colour difference: CIEDE2000 (CIE 142-2001; Sharma, Wu & Dalal 2005).
     for c in builtin::all() {
-        let aims = c.params.expect("built-in conditions have parameters").aims.to_array();
-        for ((name, aim), ink) in AIM_NAMES.iter().zip(aims).zip(AIM_INKS) {
-            let got = c.model.lab(Cmyk::from_array(ink));
-            let de = ciede2000(aim, got);
-            if *name == "paper" {
-                assert!(de < 1e-9, "{}: paper {got:?} vs {aim:?}", c.name);
+        assert_eq!(c.measured.len(), 16, "{}", c.name);
+        for m in &c.measured {
+            let got = c.model.lab(Cmyk::from_array(m.ink));
+            let de = ciede2000(m.lab, got);
+            eprintln!("{} {}: ΔE00 {de:.3}", c.name, m.name);
+            // Paper, solids and overprints without black: 1.0. With black,
+            // the data are not always physical: TR 002 prints yellow over
+            // black 1.9 L* lighter than black alone, which a model where ink
+            // only absorbs may not follow; 2.0 there.
+            let bound = if m.ink[3] > 0.0 && m.ink.iter().filter(|&&v| v > 0.0).count() > 1 {
+                2.0
             } else {
-                assert!(de <= 0.5, "{} {name}: ΔE00 {de:.3} ({got:?} vs {aim:?})", c.name);
-            }
+                1.0
+            };
+            assert!(de <= bound, "{} {}: ΔE00 {de:.3} ({got:?} vs measured {:?})", c.name, m.name, m.lab);
         }
     }
 }
 
 #[test]
-fn tone_value_at_50_percent_is_50_plus_the_configured_tvi() {
-    // Murray–Davies tone value (ISO 12647-1 / ISO 20654 definition):
-    // TV = (T_paper − T)/(T_paper − T_solid) on the ink's tone channel, the
-    // tristimulus value behind the complementary filter: X for cyan, Y for
-    // magenta, Z for yellow, and the luminance factor Y for black. For
-    // magenta and black this is the luminance-factor tone value.
-    for c in builtin::all() {
-        let tvi = c.params.unwrap().tvi50;
+fn predicted_tone_value_increase_is_the_measured_one() {
+    // Murray–Davies tone value (ISO 12647-1 / ISO 20654 definition) on the
+    // ink's tone channel (X cyan, Y magenta and black, Z yellow), from the
+    // model and from the single-ink patches of the data at 40 % and 70 %.
+    let data = [
+        ("coated-offset", "FOGRA39L.ti3"),
+        ("uncoated-offset", "FOGRA29L.ti3"),
+        ("web-offset-lwc", "FOGRA28L.ti3"),
+        ("supercalendered", "FOGRA40L.ti3"),
+        ("uncoated-yellowish", "FOGRA30L.ti3"),
+    ];
+    for (name, file) in data {
+        let patches = crate::press_characterization::patches(file);
+        let c = builtin::by_name(name).unwrap();
         let m = c.model.as_ref();
+        let measured_xyz = |ink: [f64; 4]| {
+            let labs: Vec<Lab> = patches
+                .iter()
+                .filter(|p| p.ink.to_array().iter().zip(ink).all(|(a, b)| (a - b).abs() < 1e-6))
+                .map(|p| p.lab)
+                .collect();
+            assert!(!labs.is_empty(), "{file}: no patch at {ink:?}");
+            let n = labs.len() as f64;
+            Lab::new(
+                labs.iter().map(|l| l.l).sum::<f64>() / n,
+                labs.iter().map(|l| l.a).sum::<f64>() / n,
+                labs.iter().map(|l| l.b).sum::<f64>() / n,
+            )
+            .to_xyz()
+            .to_array()
+        };
         for ink in Ink::ALL {
             let ch = TONE_CHANNEL[ink.index()];
-            let mut a = [0.0; 4];
-            a[ink.index()] = 1.0;
-            let solid = m.xyz(Cmyk::from_array(a)).to_array()[ch];
-            a[ink.index()] = 0.5;
-            let half = m.xyz(Cmyk::from_array(a)).to_array()[ch];
-            let tv = murray_davies_tone_value(half, m.paper_xyz().to_array()[ch], solid);
-            let want = 0.5 + tvi[ink.index()];
+            let mut solid = [0.0; 4];
+            solid[ink.index()] = 1.0;
+            for a in [0.4, 0.7] {
+                let mut at = [0.0; 4];
+                at[ink.index()] = a;
+                let want = murray_davies_tone_value(measured_xyz(at)[ch], measured_xyz([0.0; 4])[ch], measured_xyz(solid)[ch]) - a;
+                let got = predicted_tvi(m, ink, a);
+                assert!(
+                    (got - want).abs() <= 0.01,
+                    "{name} {} at {a}: TVI {got:.4}, measured {want:.4}",
+                    ink.name()
+                );
+            }
+        }
+        // The luminance-factor tone value agrees for magenta and black too.
+        for ink in [Ink::Magenta, Ink::Black] {
+            let from_y = predicted_tvi_in(m, ink, 0.4, 1);
             assert!(
-                (tv - want).abs() <= 0.005,
-                "{} {}: tone value {tv:.4}, want {want:.4}",
-                c.name,
+                (from_y - predicted_tvi(m, ink, 0.4)).abs() <= 1e-9,
+                "{name} {}: {from_y}",
                 ink.name()
             );
-            assert!((predicted_tvi(m, ink, 0.5) - tvi[ink.index()]).abs() <= 0.005);
-        }
-        for ink in [Ink::Magenta, Ink::Black] {
-            let from_y = predicted_tvi_in(m, ink, 0.5, 1);
-            assert!((from_y - tvi[ink.index()]).abs() <= 0.005, "{} {}: {from_y}", c.name, ink.name());
         }
     }
 }
@@ -93,7 +139,8 @@ fn adding_any_ink_never_raises_lightness() {
                             let mut more = base;
                             more[ink] = (more[ink] + h).min(1.0);
                             let l2 = m.lab(Cmyk::from_array(more)).l;
-                            assert!(l2 <= lab + 1e-9, "{}: {base:?} L* {lab} → +ink {ink} L* {l2}", c.name);
+                            // 0.002 L*: see press_characterization::corrected_models_never_lighten_with_more_ink.
+                            assert!(l2 <= lab + 2e-3, "{}: {base:?} L* {lab} → +ink {ink} L* {l2}", c.name);
                         }
                     }
                 }
@@ -133,9 +180,11 @@ fn gray_balance_is_near_the_rule_of_thumb_on_coated_stock() {
 fn four_colour_solid_is_a_realistic_deep_black_for_each_stock() {
     // From memory: 400 % prints about L* 7–10 on gloss coated stock, about
     // 20–25 on uncoated and 25–31 on newsprint (ISO 12647-2/-3 practice).
+    // The data sets measure 8.7 (FOGRA39L), 26.9 (FOGRA29L) and 30.5
+    // (TR 002): the uncoated band is widened to the measurement.
     let bands = [
         ("coated-offset", 6.0, 10.5),
-        ("uncoated-offset", 19.0, 25.0),
+        ("uncoated-offset", 19.0, 28.0),
         ("newsprint", 25.0, 31.0),
     ];
     for (name, lo, hi) in bands {
@@ -152,7 +201,16 @@ fn four_colour_solid_is_a_realistic_deep_black_for_each_stock() {
 fn defaults_follow_common_practice_ranges() {
     // Common practice: TAC 300–340 % coated sheetfed, 260–300 % uncoated,
     // 220–260 % newsprint.
-    let ranges = [("coated-offset", 3.0, 3.4), ("uncoated-offset", 2.6, 3.0), ("newsprint", 2.2, 2.6)];
+    // Web offset on lightweight coated, super-calendered and yellowish
+    // uncoated stock: 280–320 % (common practice).
+    let ranges = [
+        ("coated-offset", 3.0, 3.4),
+        ("uncoated-offset", 2.6, 3.0),
+        ("newsprint", 2.2, 2.6),
+        ("web-offset-lwc", 2.8, 3.2),
+        ("supercalendered", 2.8, 3.2),
+        ("uncoated-yellowish", 2.8, 3.2),
+    ];
     for (name, lo, hi) in ranges {
         let c = builtin::by_name(name).unwrap();
         assert!((lo..=hi).contains(&c.tac), "{name}: TAC {}", c.tac);
@@ -180,7 +238,11 @@ fn analytic_jacobian_of_each_condition_matches_finite_differences() {
             assert!(ciede2000(lab, lab_fd) < 1e-9);
             for r in 0..3 {
                 for k in 0..4 {
-                    let tol = 2e-3 * (1.0 + fd[r][k].abs());
+                    // The tone curves are tabulated (1024 segments) and the
+                    // analytic slope is the segment's: a difference step
+                    // across a segment end sees the mean of two slopes,
+                    // a few thousandths of a unit apart.
+                    let tol = 2e-3 * (1.0 + fd[r][k].abs()) + 0.01;
                     assert!(
                         (jac[r][k] - fd[r][k]).abs() < tol,
                         "{} {ink:?} [{r}][{k}] {} vs {}",
@@ -218,8 +280,9 @@ fn gamut_volume_orders_the_stocks() {
 }
 
 #[test]
-fn paper_lab_is_the_paper_aim() {
+fn paper_is_the_measured_paper() {
+    // FOGRA39L measures the unprinted paper at L*a*b* 95.00/0.00/-2.00.
     let c = builtin::coated_offset();
     let p = Lab::from_xyz(c.model.paper_xyz());
-    assert!(ciede2000(p, Lab::new(95.0, 0.0, -2.0)) < 1e-9);
+    assert!(ciede2000(p, Lab::new(95.0, 0.0, -2.0)) < 0.2, "{p:?}");
 }

@@ -48,6 +48,7 @@ fn truth() -> ModelParams {
         tvi50: [0.16, 0.19, 0.15, 0.22],
         n: 2.3,
         black_surface: 0.03,
+        black_overprints: None,
     }
 }
 

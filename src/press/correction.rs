@@ -1,0 +1,498 @@
+//! A smooth correction of the physical model, fitted to measured patches: a
+//! 4-D lattice over nominal CMYK holding a CIELAB offset (ΔL*, Δa*, Δb*) at
+//! each node, evaluated by multilinear interpolation between the 16 nodes
+//! around a build.
+//!
+//! Why this form. The Yule–Nielsen Neugebauer model carries the physics
+//! (Beer-like filtering of the overprints, light scattering in the paper, the
+//! tone value increase) with a few dozen parameters, and on real press data it
+//! leaves residuals of about 1 ΔE2000 that vary slowly over the ink space:
+//! ink trapping that is not quite additive, a tone curve that is not exactly
+//! the one-parameter form, a wet-on-wet black that differs from its dry
+//! solid. A lattice fitted to those residuals by regularised least squares
+//! (a penalised regression spline of order one: Eilers & Marx, "Flexible
+//! smoothing with B-splines and penalties", Statistical Science 11, 1996, in
+//! four dimensions) takes them out without the ripples a polynomial would add:
+//!
+//! - the penalty on second differences of the node values along each ink
+//!   keeps the correction smooth (its slope changes little from one cell to
+//!   the next); its weight is chosen by cross-validation on the patches;
+//! - a small ridge penalty pulls nodes that no patch constrains toward zero,
+//!   so far from the data (a corner the chart does not print) the correction
+//!   fades and the physics carries the prediction, where an interpolant on
+//!   raw CMYK must extrapolate blindly;
+//! - evaluation reads 16 nodes and costs a few dozen multiplications, and the
+//!   derivative with respect to each ink is exact (piecewise constant along
+//!   the ink), so the model keeps its analytic Jacobian for the inversion.
+//!
+//! Monotonicity (more ink never raises L*) is held by [`Correction::hold_monotonic`]
+//! at the nodes and checked between them by the fit on a dense grid.
+
+use super::PressModel;
+use super::neugebauer::{NeugebauerModel, fast_lab};
+use crate::colour::{Lab, Xyz};
+use crate::ink::Cmyk;
+
+/// Bins of the lookup that finds the lattice cell of a coverage.
+const LOCATE_BINS: usize = 256;
+
+/// One axis of the lattice: node positions (fractions, ascending, 0 first and
+/// 1 last) and a lookup from coverage to cell.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Axis {
+    levels: Vec<f64>,
+    inv_width: Vec<f64>,
+    /// The cell that holds the start of each of the LOCATE_BINS bins.
+    bins: Vec<u16>,
+}
+
+impl Axis {
+    /// `levels` must be ascending, start at 0, end at 1 and hold 2 to 64 nodes.
+    pub fn new(levels: &[f64]) -> Option<Axis> {
+        let ok = levels.len() >= 2
+            && levels.len() <= 64
+            && levels[0] == 0.0
+            && levels[levels.len() - 1] == 1.0
+            && levels.windows(2).all(|w| w[1] - w[0] >= 1e-3);
+        if !ok {
+            return None;
+        }
+        let cells = levels.len() - 1;
+        let inv_width = levels.windows(2).map(|w| 1.0 / (w[1] - w[0])).collect();
+        let bins = (0..LOCATE_BINS)
+            .map(|b| {
+                let x = b as f64 / LOCATE_BINS as f64;
+                levels[1..cells].iter().filter(|&&l| l <= x).count() as u16
+            })
+            .collect();
+        Some(Axis {
+            levels: levels.to_vec(),
+            inv_width,
+            bins,
+        })
+    }
+
+    pub fn levels(&self) -> &[f64] {
+        &self.levels
+    }
+
+    pub fn len(&self) -> usize {
+        self.levels.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.levels.is_empty()
+    }
+
+    /// Cell index, position inside it (0..1) and 1 / cell width, for coverage `x`.
+    #[inline(always)]
+    fn locate(&self, x: f64) -> (usize, f64, f64) {
+        // `max` then `min` maps NaN to 0.
+        #[allow(clippy::manual_clamp)]
+        let x = x.max(0.0).min(1.0);
+        let b = ((x * LOCATE_BINS as f64) as usize).min(LOCATE_BINS - 1);
+        let mut i = self.bins[b] as usize;
+        let last = self.levels.len() - 2;
+        while i < last && x >= self.levels[i + 1] {
+            i += 1;
+        }
+        let w = self.inv_width[i];
+        (i, (x - self.levels[i]) * w, w)
+    }
+}
+
+/// A CIELAB offset per lattice node over CMYK.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Correction {
+    axes: [Axis; 4],
+    /// ΔL*, Δa*, Δb* per node; node (i, j, k, l) at `i·s0 + j·s1 + k·s2 + l`.
+    values: Vec<[f64; 3]>,
+    strides: [usize; 4],
+}
+
+impl Correction {
+    /// A zero correction on the given axes.
+    pub fn zero(axes: [Axis; 4]) -> Correction {
+        let n = [axes[0].len(), axes[1].len(), axes[2].len(), axes[3].len()];
+        let strides = [n[1] * n[2] * n[3], n[2] * n[3], n[3], 1];
+        Correction {
+            values: vec![[0.0; 3]; n.iter().product()],
+            axes,
+            strides,
+        }
+    }
+
+    /// A correction from its node values (in the order of [`Correction::values`]);
+    /// `None` when the count does not match the axes or a value is not finite.
+    pub fn new(axes: [Axis; 4], values: Vec<[f64; 3]>) -> Option<Correction> {
+        let mut c = Correction::zero(axes);
+        if values.len() != c.values.len() || values.iter().flatten().any(|v| !v.is_finite()) {
+            return None;
+        }
+        c.values = values;
+        Some(c)
+    }
+
+    pub fn axes(&self) -> &[Axis; 4] {
+        &self.axes
+    }
+
+    pub fn values(&self) -> &[[f64; 3]] {
+        &self.values
+    }
+
+    pub fn values_mut(&mut self) -> &mut [[f64; 3]] {
+        &mut self.values
+    }
+
+    pub fn strides(&self) -> [usize; 4] {
+        self.strides
+    }
+
+    /// The lowest node of the cell holding `ink`, the position inside the
+    /// cell per ink (0..1) and 1 / the cell's width per ink.
+    #[inline(always)]
+    fn cell(&self, ink: Cmyk) -> (usize, [f64; 4], [f64; 4]) {
+        let x = ink.to_array();
+        let mut base = 0;
+        let mut t = [0.0; 4];
+        let mut inv = [0.0; 4];
+        for a in 0..4 {
+            let (i, f, w) = self.axes[a].locate(x[a]);
+            base += i * self.strides[a];
+            t[a] = f;
+            inv[a] = w;
+        }
+        (base, t, inv)
+    }
+
+    /// The 16 nodes around `ink` (index) and their multilinear weights.
+    #[inline(always)]
+    pub fn weights(&self, ink: Cmyk) -> ([usize; 16], [f64; 16]) {
+        let (base, t, _) = self.cell(ink);
+        let mut idx = [0; 16];
+        let mut w = [0.0; 16];
+        for corner in 0..16 {
+            let mut weight = 1.0;
+            let mut at = base;
+            for a in 0..4 {
+                if corner >> (3 - a) & 1 == 1 {
+                    weight *= t[a];
+                    at += self.strides[a];
+                } else {
+                    weight *= 1.0 - t[a];
+                }
+            }
+            idx[corner] = at;
+            w[corner] = weight;
+        }
+        (idx, w)
+    }
+
+    /// The offset at `ink`.
+    #[inline(always)]
+    pub fn offset(&self, ink: Cmyk) -> [f64; 3] {
+        let (base, t, _) = self.cell(ink);
+        let s = self.strides;
+        let v = &self.values;
+        let lerp = |p: [f64; 3], q: [f64; 3], f: f64| [p[0] + f * (q[0] - p[0]), p[1] + f * (q[1] - p[1]), p[2] + f * (q[2] - p[2])];
+        // Interpolate along k, then y, m, c.
+        let mut acc = [[0.0; 3]; 8];
+        for (j, slot) in acc.iter_mut().enumerate() {
+            let at = base + (j >> 2 & 1) * s[0] + (j >> 1 & 1) * s[1] + (j & 1) * s[2];
+            *slot = lerp(v[at], v[at + s[3]], t[3]);
+        }
+        let y4: [[f64; 3]; 4] = std::array::from_fn(|j| lerp(acc[2 * j], acc[2 * j + 1], t[2]));
+        let m2 = [lerp(y4[0], y4[1], t[1]), lerp(y4[2], y4[3], t[1])];
+        lerp(m2[0], m2[1], t[0])
+    }
+
+    /// The offset and its derivative with respect to each ink (rows L*, a*,
+    /// b*; columns c, m, y, k). Inside a cell the derivative along an ink is
+    /// exact; on a node the cell above is used.
+    pub fn offset_with_derivative(&self, ink: Cmyk) -> ([f64; 3], [[f64; 4]; 3]) {
+        let (base, t, inv) = self.cell(ink);
+        let mut out = [0.0; 3];
+        let mut jac = [[0.0; 4]; 3];
+        for corner in 0..16 {
+            let mut at = base;
+            let mut f = [0.0; 4];
+            let mut sign = [0.0; 4];
+            for a in 0..4 {
+                if corner >> (3 - a) & 1 == 1 {
+                    f[a] = t[a];
+                    sign[a] = inv[a];
+                    at += self.strides[a];
+                } else {
+                    f[a] = 1.0 - t[a];
+                    sign[a] = -inv[a];
+                }
+            }
+            let w = f[0] * f[1] * f[2] * f[3];
+            let v = self.values[at];
+            let dw = [
+                sign[0] * f[1] * f[2] * f[3],
+                f[0] * sign[1] * f[2] * f[3],
+                f[0] * f[1] * sign[2] * f[3],
+                f[0] * f[1] * f[2] * sign[3],
+            ];
+            for ch in 0..3 {
+                out[ch] += w * v[ch];
+                for a in 0..4 {
+                    jac[ch][a] += dw[a] * v[ch];
+                }
+            }
+        }
+        (out, jac)
+    }
+
+    /// Lowers ΔL* at nodes so that the corrected L* never rises when any ink
+    /// is added. `drops[at][a]` is the least fall of the physical model's L*
+    /// along the lattice edge that ends at node `at` on ink `a`, scaled to the
+    /// whole edge (the edge's length times its smallest slope, from samples
+    /// along it): since the correction is linear along an edge, keeping its
+    /// rise on the edge below that fall (less `margin`) keeps the sum falling
+    /// everywhere on the edge, not only at the nodes. A node whose offset
+    /// rises more is lowered; lowering only, swept until nothing changes (each
+    /// sweep can only lower values, so it ends). Returns the number of nodes
+    /// changed.
+    pub fn hold_monotonic(&mut self, drops: &[[f64; 4]], margin: f64) -> usize {
+        let n: [usize; 4] = std::array::from_fn(|a| self.axes[a].len());
+        let mut changed = 0;
+        for _sweep in 0..1000 {
+            let mut any = false;
+            for at in 0..self.values.len() {
+                for a in 0..4 {
+                    if (at / self.strides[a]).is_multiple_of(n[a]) {
+                        continue;
+                    }
+                    let below = at - self.strides[a];
+                    let limit = self.values[below][0] + drops[at][a] - margin;
+                    if self.values[at][0] > limit {
+                        self.values[at][0] = limit;
+                        any = true;
+                        changed += 1;
+                    }
+                }
+            }
+            if !any {
+                break;
+            }
+        }
+        changed
+    }
+
+    /// The input of [`Correction::hold_monotonic`] for a physical model
+    /// giving L* at any build: along each edge, `samples` equal steps.
+    pub fn edge_drops(&self, lightness: impl Fn(Cmyk) -> f64, samples: usize) -> Vec<[f64; 4]> {
+        let n: [usize; 4] = std::array::from_fn(|a| self.axes[a].len());
+        let inks = self.node_inks();
+        (0..self.values.len())
+            .map(|at| {
+                std::array::from_fn(|a| {
+                    if (at / self.strides[a]).is_multiple_of(n[a]) {
+                        return 0.0;
+                    }
+                    let (lo, hi) = (inks[at - self.strides[a]].to_array(), inks[at].to_array());
+                    let mut least = f64::INFINITY;
+                    let mut prev = lightness(Cmyk::from_array(lo));
+                    for i in 1..=samples {
+                        let mut v = lo;
+                        v[a] = lo[a] + (hi[a] - lo[a]) * i as f64 / samples as f64;
+                        let l = lightness(Cmyk::from_array(v));
+                        least = least.min(prev - l);
+                        prev = l;
+                    }
+                    least * samples as f64
+                })
+            })
+            .collect()
+    }
+
+    /// The nominal CMYK of every node, in the order of [`Correction::values`].
+    pub fn node_inks(&self) -> Vec<Cmyk> {
+        let n: [usize; 4] = std::array::from_fn(|a| self.axes[a].len());
+        (0..self.values.len())
+            .map(|at| {
+                let i: [usize; 4] = std::array::from_fn(|a| at / self.strides[a] % n[a]);
+                Cmyk::new(
+                    self.axes[0].levels[i[0]],
+                    self.axes[1].levels[i[1]],
+                    self.axes[2].levels[i[2]],
+                    self.axes[3].levels[i[3]],
+                )
+            })
+            .collect()
+    }
+
+    /// Largest |ΔL*|, |Δa*|, |Δb*| over the nodes.
+    pub fn largest(&self) -> f64 {
+        self.values.iter().flatten().fold(0.0, |m: f64, v| m.max(v.abs()))
+    }
+}
+
+/// The physical model with an optional lattice correction applied in CIELAB.
+#[derive(Debug, Clone)]
+pub struct CorrectedModel {
+    base: NeugebauerModel,
+    correction: Option<std::sync::Arc<Correction>>,
+}
+
+impl CorrectedModel {
+    pub fn new(base: NeugebauerModel, correction: Option<std::sync::Arc<Correction>>) -> CorrectedModel {
+        CorrectedModel { base, correction }
+    }
+
+    pub fn base(&self) -> &NeugebauerModel {
+        &self.base
+    }
+
+    pub fn correction(&self) -> Option<&Correction> {
+        self.correction.as_deref()
+    }
+}
+
+impl PressModel for CorrectedModel {
+    #[inline]
+    fn xyz(&self, ink: Cmyk) -> Xyz {
+        match &self.correction {
+            None => self.base.xyz(ink),
+            Some(_) => self.lab(ink).to_xyz(),
+        }
+    }
+
+    #[inline]
+    fn lab(&self, ink: Cmyk) -> Lab {
+        let lab = fast_lab(self.base.xyz(ink));
+        match &self.correction {
+            None => lab,
+            Some(c) => {
+                let d = c.offset(ink.clamped());
+                Lab::new(lab.l + d[0], lab.a + d[1], lab.b + d[2])
+            }
+        }
+    }
+
+    fn lab_jacobian(&self, ink: Cmyk) -> (Lab, [[f64; 4]; 3]) {
+        let (lab, mut jac) = self.base.lab_jacobian(ink);
+        match &self.correction {
+            None => (lab, jac),
+            Some(c) => {
+                let (d, dj) = c.offset_with_derivative(ink.clamped());
+                for r in 0..3 {
+                    for k in 0..4 {
+                        jac[r][k] += dj[r][k];
+                    }
+                }
+                (Lab::new(lab.l + d[0], lab.a + d[1], lab.b + d[2]), jac)
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn axis(levels: &[f64]) -> Axis {
+        Axis::new(levels).unwrap()
+    }
+
+    fn sample() -> Correction {
+        let axes = [
+            axis(&[0.0, 0.3, 1.0]),
+            axis(&[0.0, 0.5, 1.0]),
+            axis(&[0.0, 0.1, 0.2, 1.0]),
+            axis(&[0.0, 1.0]),
+        ];
+        let mut c = Correction::zero(axes);
+        for (i, v) in c.values_mut().iter_mut().enumerate() {
+            let x = i as f64;
+            *v = [(x * 0.37).sin(), (x * 0.11).cos(), x * 0.01];
+        }
+        c
+    }
+
+    #[test]
+    fn locate_finds_the_cell_for_every_coverage() {
+        let a = axis(&[0.0, 0.1, 0.2, 0.3, 0.4, 0.55, 0.7, 0.85, 1.0]);
+        for i in 0..=1000 {
+            let x = i as f64 / 1000.0;
+            let (cell, t, _) = a.locate(x);
+            assert!(a.levels[cell] <= x + 1e-15 && (x <= a.levels[cell + 1] + 1e-15), "{x} {cell}");
+            assert!((0.0..=1.0 + 1e-12).contains(&t));
+        }
+    }
+
+    #[test]
+    fn nodes_are_reproduced_and_weights_sum_to_one() {
+        let c = sample();
+        for (ink, v) in c.node_inks().iter().zip(c.values()) {
+            let o = c.offset(*ink);
+            assert!((0..3).all(|k| (o[k] - v[k]).abs() < 1e-12), "{ink:?}");
+        }
+        let (_, w) = c.weights(Cmyk::new(0.17, 0.61, 0.15, 0.4));
+        assert!((w.iter().sum::<f64>() - 1.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn weights_give_the_same_offset_as_the_interpolation() {
+        let c = sample();
+        let ink = Cmyk::new(0.77, 0.21, 0.33, 0.64);
+        let (idx, w) = c.weights(ink);
+        let o = c.offset(ink);
+        for ch in 0..3 {
+            let s: f64 = idx.iter().zip(w).map(|(&i, w)| w * c.values()[i][ch]).sum();
+            assert!((s - o[ch]).abs() < 1e-12);
+        }
+    }
+
+    #[test]
+    fn derivative_matches_central_differences_inside_a_cell() {
+        let c = sample();
+        let ink = Cmyk::new(0.41, 0.27, 0.15, 0.66);
+        let (o, j) = c.offset_with_derivative(ink);
+        assert!((0..3).all(|k| (o[k] - c.offset(ink)[k]).abs() < 1e-12));
+        let h = 1e-6;
+        for a in 0..4 {
+            let mut lo = ink.to_array();
+            let mut hi = ink.to_array();
+            lo[a] -= h;
+            hi[a] += h;
+            let (pl, ph) = (c.offset(Cmyk::from_array(lo)), c.offset(Cmyk::from_array(hi)));
+            for ch in 0..3 {
+                let fd = (ph[ch] - pl[ch]) / (2.0 * h);
+                assert!((fd - j[ch][a]).abs() < 1e-6, "{a} {ch}: {fd} vs {}", j[ch][a]);
+            }
+        }
+    }
+
+    #[test]
+    fn bad_axes_are_refused() {
+        assert!(Axis::new(&[0.0]).is_none());
+        assert!(Axis::new(&[0.1, 1.0]).is_none());
+        assert!(Axis::new(&[0.0, 0.5, 0.5, 1.0]).is_none());
+        assert!(Axis::new(&[0.0, 0.9]).is_none());
+    }
+
+    #[test]
+    fn holding_monotonic_makes_node_lightness_non_increasing() {
+        let mut c = sample();
+        let lightness = |i: Cmyk| 90.0 - 20.0 * (i.c + i.m + i.y + i.k);
+        let base: Vec<f64> = c.node_inks().iter().map(|&i| lightness(i)).collect();
+        for v in c.values_mut() {
+            v[0] *= 30.0;
+        }
+        let drops = c.edge_drops(lightness, 4);
+        assert!(c.hold_monotonic(&drops, 0.0) > 0);
+        let n: [usize; 4] = std::array::from_fn(|a| c.axes()[a].len());
+        for at in 0..c.values().len() {
+            for a in 0..4 {
+                if !(at / c.strides()[a]).is_multiple_of(n[a]) {
+                    let below = at - c.strides()[a];
+                    assert!(base[at] + c.values()[at][0] <= base[below] + c.values()[below][0] + 1e-12);
+                }
+            }
+        }
+    }
+}
