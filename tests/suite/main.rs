@@ -29,6 +29,7 @@ mod raster_output;
 mod raster_read;
 mod raster_write;
 mod separation_engine;
+mod separation_perceptual;
 mod separation_properties;
 mod separation_reseparation;
 mod separation_table_direct;

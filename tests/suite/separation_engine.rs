@@ -268,7 +268,11 @@ fn primaries_separate_as_subtractive_mixing_predicts() {
         let green = build_of(&sep, [0, 255, 0]);
         assert!(green.c > 0.5 && green.y > 0.7 && green.m < 0.1, "{intent:?} green {green:?}");
         let blue = build_of(&sep, [0, 0, 255]);
-        assert!(blue.c > 0.7 && blue.m > 0.7 && blue.y < 0.1, "{intent:?} blue {blue:?}");
+        // Perceptual keeps the IPT hue of sRGB blue rather than turning it
+        // onto the process blue (C+M): 96 % cyan, 69 % magenta on coated
+        // offset (measured), still a two-colour blue.
+        let magenta = if intent == Intent::Perceptual { 0.6 } else { 0.7 };
+        assert!(blue.c > 0.7 && blue.m > magenta && blue.y < 0.1, "{intent:?} blue {blue:?}");
         let black = build_of(&sep, [0, 0, 0]);
         let s = sep.settings();
         assert!(black.k >= s.black.black_max - 0.02, "{intent:?} black {black:?}");
