@@ -500,7 +500,7 @@ impl Separator {
     /// the press black), where the inversion swings the plates widely for
     /// small colour differences.
     pub fn smooths_shadows_in_ink(&self) -> bool {
-        (self.settings.intent == Intent::Relative && self.settings.bpc) || self.settings.intent == Intent::Perceptual
+        self.settings.intent == Intent::Relative && self.settings.bpc
     }
 
     /// The printed red (M+Y), yellow, green (C+Y), cyan, blue (C+M) and

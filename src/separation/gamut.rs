@@ -355,7 +355,7 @@ impl CuspCurve {
 /// L* above the printable black over which the perceptual map tapers chroma.
 pub const SHADOW_TAPER_RANGE: f64 = 20.0;
 /// Share of chroma the taper keeps at the black point itself.
-pub const SHADOW_TAPER_FLOOR: f64 = 0.2;
+pub const SHADOW_TAPER_FLOOR: f64 = 0.05;
 
 /// The knee function of the chroma compression. `r` is a colour's distance
 /// from the focal point and `rs` the source boundary's along the same ray,
@@ -390,9 +390,9 @@ pub fn knee_compression(r: f64, rs: f64) -> f64 {
 ///
 /// 1. Lightness: the source black maps onto the press black, as black
 ///    point compensation does (ISO 18619:2015), but by a curve in L* that
-///    acts in the shadows only ([`shadow_lightness`]; a* and b* kept):
-///    the range from the source black up to about 1.5 times the difference
-///    of the blacks is compressed, the rest kept. ISO 18619's scaling in
+///    acts in the shadows only ([`shadow_lightness`]; IPT hue kept): the
+///    range from the source black up to about 1.9 times the difference of
+///    the blacks is compressed, the rest kept. ISO 18619's scaling in
 ///    XYZ would lift L* 30 by 2.6 and L* 50 by 1.1 on coated offset,
 ///    moving printable midtones.
 /// 2. Chroma, in IPT (Ebner & Fairchild 1998, see [`crate::colour::Ipt`]),
@@ -433,90 +433,75 @@ enum Extent<'a> {
     Picture(Vec<f64>),
 }
 
-/// Slope of [`shadow_lightness`] at the source black when the press black
-/// is lighter (shadow contrast kept at a third at least), and when it is
-/// darker (a re-separation onto a deeper black).
-const SHADOW_SLOPE_LIFT: f64 = 1.0 / 3.0;
-const SHADOW_SLOPE_DEEPEN: f64 = 2.0;
-/// L* over which the slope eases back to 1.
-const SHADOW_EASE: f64 = 10.0;
+/// Largest share of contrast [`shadow_lightness`] takes from the shadows:
+/// its slope falls to 1 − this at the middle of its span (0.2 for a
+/// lighter press black, 1.8 for a darker one).
+const SHADOW_DEPTH: f64 = 0.8;
 
-/// The pieces of [`shadow_lightness`]: source black, press black, slope at
-/// the black, the length of the constant-slope part and of the easing.
+/// The lightness curve of perceptual mapping, from the source black onto
+/// the press black (see [`shadow_lightness`]).
 struct ShadowCurve {
     source_black: f64,
     dest_black: f64,
-    slope: f64,
-    flat: f64,
-    ease: f64,
+    /// A in slope(u) = 1 − A·4u(1 − u), u = (L* − source black)/span.
+    depth: f64,
+    span: f64,
 }
 
 impl ShadowCurve {
     fn new(source_black: f64, dest_black: f64) -> ShadowCurve {
         let lift = dest_black - source_black;
-        let slope = if lift >= 0.0 { SHADOW_SLOPE_LIFT } else { SHADOW_SLOPE_DEEPEN };
-        // lift = (1 − slope)·(flat + ease/2)
-        let run = lift / (1.0 - slope);
-        let (flat, ease) = if run >= SHADOW_EASE / 2.0 {
-            (run - SHADOW_EASE / 2.0, SHADOW_EASE)
-        } else {
-            (0.0, 2.0 * run)
-        };
+        // lift = A·span·2/3
+        let depth = SHADOW_DEPTH.copysign(lift);
+        let span = 1.5 * lift.abs() / SHADOW_DEPTH;
         ShadowCurve {
             source_black,
             dest_black,
-            slope,
-            flat,
-            ease,
+            depth,
+            span,
         }
-    }
-
-    /// L* above the source black where the curve becomes the identity.
-    fn end(&self) -> f64 {
-        self.source_black + self.flat + self.ease
     }
 
     fn map(&self, l: f64) -> f64 {
         let x = l - self.source_black;
-        if l >= self.end() || self.ease <= 0.0 {
+        if x >= self.span || self.span <= 0.0 {
             return l;
         }
         if x <= 0.0 {
             return l + self.dest_black - self.source_black;
         }
-        if x <= self.flat {
-            return self.dest_black + self.slope * x;
-        }
-        let u = x - self.flat;
-        self.dest_black + self.slope * (self.flat + u) + (1.0 - self.slope) * u * u / (2.0 * self.ease)
+        let u = x / self.span;
+        self.dest_black + x - self.depth * self.span * (2.0 * u * u - 4.0 / 3.0 * u * u * u)
     }
 
+    /// The inverse, by bisection (the curve increases with slope ≥ 0.2).
     fn inverse(&self, y: f64) -> f64 {
-        if y >= self.end() || self.ease <= 0.0 {
+        let end = self.source_black + self.span;
+        if y >= end || self.span <= 0.0 {
             return y;
         }
         if y <= self.dest_black {
             return y - self.dest_black + self.source_black;
         }
-        let knee = self.dest_black + self.slope * self.flat;
-        if y <= knee {
-            return self.source_black + (y - self.dest_black) / self.slope;
+        let (mut lo, mut hi) = (self.source_black, end);
+        for _ in 0..48 {
+            let mid = 0.5 * (lo + hi);
+            if self.map(mid) < y {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
         }
-        let a = (1.0 - self.slope) / (2.0 * self.ease);
-        let r = y - knee;
-        let u = if a.abs() < 1e-12 {
-            r / self.slope
-        } else {
-            (-self.slope + (self.slope * self.slope + 4.0 * a * r).max(0.0).sqrt()) / (2.0 * a)
-        };
-        self.source_black + self.flat + u
+        0.5 * (lo + hi)
     }
 }
 
 /// The lightness curve of perceptual mapping: `source_black` onto
-/// `dest_black`, slope [`SHADOW_SLOPE_LIFT`] up from there, easing back to
-/// slope 1 over [`SHADOW_EASE`] L*, identity above (continuous in slope).
-/// On coated offset (black near L* 9) it ends near L* 23.
+/// `dest_black` with slope 1 there, the slope dipping to 1 − [`SHADOW_DEPTH`]
+/// midway and back to 1 at 1.5/[`SHADOW_DEPTH`] times the difference of the
+/// blacks above the source black, the identity above. On coated offset
+/// (black near L* 9) it ends near L* 17; the deepest shadows keep their
+/// contrast, so ramps into the press black separate smoothly.
 pub fn shadow_lightness(l: f64, source_black: f64, dest_black: f64) -> f64 {
     ShadowCurve::new(source_black, dest_black).map(l)
 }
@@ -710,15 +695,15 @@ mod tests {
         for (sb, db) in [(0.0, 9.0), (0.0, 28.0), (0.0, 2.0), (9.0, 14.0), (14.0, 9.0), (5.0, 5.0)] {
             let curve = ShadowCurve::new(sb, db);
             assert!((curve.map(sb) - db).abs() < 1e-12, "{sb} {db}");
-            let above = curve.end() + 0.1;
+            let above = sb + curve.span + 0.1;
             assert_eq!(curve.map(above), above);
             let mut prev = f64::MIN;
             for k in 0..=1000 {
                 let l = sb + k as f64 * 0.1;
                 let m = curve.map(l);
                 assert!(m > prev, "{sb} {db}: not increasing at {l}");
-                // continuous in value and slope where the pieces meet
-                assert!(k == 0 || m - prev < 0.1 * SHADOW_SLOPE_DEEPEN + 1e-9);
+                // slope between 0.2 and 1.8
+                assert!(k == 0 || (m - prev < 0.1 * 1.8 + 1e-9 && m - prev > 0.1 * 0.2 - 1e-9));
                 prev = m;
                 assert!((curve.inverse(m) - l).abs() < 1e-9, "{sb} {db} {l}: {}", curve.inverse(m));
             }

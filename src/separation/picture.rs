@@ -109,10 +109,7 @@ pub fn distinct_colours<T: RgbCode>(rgb: &[T]) -> Vec<[f64; 3]> {
     };
     let merged = rgb
         .par_chunks(3 * 4096)
-        .fold(
-            || vec![0u64; bins],
-            |acc, chunk| chunk.chunks_exact(3).fold(acc, &fold),
-        )
+        .fold(|| vec![0u64; bins], |acc, chunk| chunk.chunks_exact(3).fold(acc, &fold))
         .reduce(
             || vec![0u64; bins],
             |mut a, b| {

@@ -7,6 +7,8 @@
 mod jpeg;
 #[path = "../support/rng.rs"]
 mod rng;
+#[path = "../support/scene.rs"]
+mod scene;
 
 mod bad_inputs;
 mod cli_conditions;
