@@ -663,15 +663,20 @@ impl Workshop {
 /// of every node (a batch through the source's profile or named space), its
 /// gamut for the perceptual mapping.
 pub fn table_for_source(separator: &Separator, source: &RgbSource) -> SeparationTable {
+    let gamut = source.gamut();
+    table_with(separator, source, &separator.source_mapping(gamut.as_ref()))
+}
+
+/// The table of `separator` for an RGB source under a prepared mapping: the
+/// source colour of every node in one batch through the source.
+fn table_with(separator: &Separator, source: &RgbSource, mapping: &crate::separation::SourceMapping) -> SeparationTable {
     let n = separator.settings().table_grid;
     let labs = source.node_labs(n);
-    let gamut = source.gamut();
-    let mapping = separator.source_mapping(gamut.as_ref());
     let lookup = |rgb: [f64; 3]| {
         let idx = |v: f64| (v * (n - 1) as f64).round() as usize;
         labs[(idx(rgb[0]) * n + idx(rgb[1])) * n + idx(rgb[2])]
     };
-    SeparationTable::build(separator, &mapping, &lookup)
+    SeparationTable::build(separator, mapping, &lookup)
 }
 
 /// The separation table of `separator` for one picture: as
@@ -686,14 +691,7 @@ pub fn table_for_picture(separator: &Separator, source: &RgbSource, rgb: &Sample
         Samples::U16(v) => crate::separation::distinct_colours(v),
     };
     let picture = crate::separation::PictureGamut::from_colours(&source.labs_of(&distinct));
-    let n = separator.settings().table_grid;
-    let labs = source.node_labs(n);
-    let mapping = separator.picture_mapping(&picture);
-    let lookup = |rgb: [f64; 3]| {
-        let idx = |v: f64| (v * (n - 1) as f64).round() as usize;
-        labs[(idx(rgb[0]) * n + idx(rgb[1])) * n + idx(rgb[2])]
-    };
-    SeparationTable::build(separator, &mapping, &lookup)
+    table_with(separator, source, &separator.picture_mapping(&picture))
 }
 
 fn flatten_gray(g: f64, alpha: Option<f64>, max: f64) -> f64 {

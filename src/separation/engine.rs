@@ -520,7 +520,7 @@ impl Separator {
     /// none). See [`Separator::picture_mapping`] for a picture's own gamut.
     pub fn source_mapping<'a>(&'a self, source: &'a dyn SourceGamut) -> SourceMapping<'a> {
         let perceptual = (self.settings.intent == Intent::Perceptual)
-            .then(|| PerceptualMap::new(&self.gamut, &self.process_ridge(), self.black_point.l, source, 0.0));
+            .then(|| PerceptualMap::new(&self.gamut, &self.process_ridge(), self.black_point, source, 0.0));
         SourceMapping { perceptual }
     }
 
@@ -529,7 +529,7 @@ impl Separator {
     /// the picture's own gamut (`CompressFrom::Picture`).
     pub fn picture_mapping(&self, picture: &super::PictureGamut) -> SourceMapping<'_> {
         let perceptual = (self.settings.intent == Intent::Perceptual)
-            .then(|| PerceptualMap::for_picture(&self.gamut, &self.process_ridge(), self.black_point.l, picture, 0.0));
+            .then(|| PerceptualMap::for_picture(&self.gamut, &self.process_ridge(), self.black_point, picture, 0.0));
         SourceMapping { perceptual }
     }
 

@@ -421,6 +421,8 @@ pub struct PerceptualMap<'a> {
     dest: &'a GamutBoundary,
     dest_cusps: CuspCurve,
     shadows: ShadowCurve,
+    /// a*, b* of the press black point (slightly cool on offset).
+    black_tint: (f64, f64),
     source: Extent<'a>,
 }
 
@@ -529,19 +531,20 @@ impl Ray {
 impl<'a> PerceptualMap<'a> {
     /// Compresses from the whole of `source`. `dest_ridge`: samples of the
     /// press's cusp ridge (the edges of the ink cube without black),
-    /// media-relative. `dest_black`, `source_black`: L* (media-relative) of
-    /// the press black and the source black.
+    /// media-relative. `dest_black`: the press black point (media-relative);
+    /// `source_black`: L* of the source black.
     pub fn new(
         dest: &'a GamutBoundary,
         dest_ridge: &[Lab],
-        dest_black: f64,
+        dest_black: Lab,
         source: &'a dyn SourceGamut,
         source_black: f64,
     ) -> PerceptualMap<'a> {
         PerceptualMap {
             dest,
             dest_cusps: CuspCurve::from_ridge(dest_ridge),
-            shadows: ShadowCurve::new(source_black, dest_black),
+            shadows: ShadowCurve::new(source_black, dest_black.l),
+            black_tint: (dest_black.a, dest_black.b),
             source: Extent::Space(source),
         }
     }
@@ -557,7 +560,7 @@ impl<'a> PerceptualMap<'a> {
     pub fn for_picture(
         dest: &'a GamutBoundary,
         dest_ridge: &[Lab],
-        dest_black: f64,
+        dest_black: Lab,
         picture: &PictureGamut,
         source_black: f64,
     ) -> PerceptualMap<'a> {
@@ -565,7 +568,8 @@ impl<'a> PerceptualMap<'a> {
         let mut map = PerceptualMap {
             dest,
             dest_cusps: CuspCurve::from_ridge(dest_ridge),
-            shadows: ShadowCurve::new(source_black, dest_black),
+            shadows: ShadowCurve::new(source_black, dest_black.l),
+            black_tint: (dest_black.a, dest_black.b),
             source: Extent::Picture(Vec::new()),
         };
         let reach: Vec<(usize, f64)> = picture
@@ -597,12 +601,27 @@ impl<'a> PerceptualMap<'a> {
         map
     }
 
+    /// The lightness curve; neutrals also take on the press black point's
+    /// tint in proportion to how far the curve lifts them (all of it at the
+    /// source black, which so prints as the press black point itself).
+    fn lift(&self, lab: Lab) -> Lab {
+        let l = self.shadows.map(lab.l);
+        let lift = self.shadows.dest_black - self.shadows.source_black;
+        let w = if lift.abs() > 1e-9 {
+            ((l - lab.l) / lift).clamp(0.0, 1.0)
+        } else {
+            0.0
+        };
+        let neutral = (1.0 - lab.chroma() / 10.0).clamp(0.0, 1.0);
+        Lab::new(l, lab.a + w * neutral * self.black_tint.0, lab.b + w * neutral * self.black_tint.1)
+    }
+
     /// Step 1 and the ray of step 2; `None` for a neutral (it has no ray).
     fn ray(&self, lab: Lab) -> Option<Ray> {
         // The IPT hue of the source is kept (a* and b* kept as they are
         // would turn it slightly where L* changes).
         let (_, _, h) = working_polar(lab);
-        let lifted = Lab::new(self.shadows.map(lab.l), lab.a, lab.b);
+        let lifted = self.lift(lab);
         let (i, c, _) = working_polar(lifted);
         if c < 1e-6 {
             return None;
@@ -653,8 +672,12 @@ impl<'a> PerceptualMap<'a> {
     /// outside the printable gamut; the inversion clips the rest.
     pub fn map(&self, lab: Lab) -> Lab {
         // Steps 1 and 2.
+        // Neutrals stay on the axis (tinted toward the press black in the shadows).
+        if lab.chroma() < 1e-6 {
+            return self.lift(lab);
+        }
         let Some(ray) = self.ray(lab) else {
-            return Lab::new(self.shadows.map(lab.l), lab.a, lab.b);
+            return self.lift(lab);
         };
         let mapped = if ray.d <= KNEE * ray.d_dest || ray.d_dest <= 0.0 {
             ray.lab

@@ -176,7 +176,7 @@ impl ReseparationTable {
             Intent::Perceptual => NodeMapping::Perceptual(PerceptualMap::new(
                 target.gamut(),
                 &target.process_ridge(),
-                target_black.l,
+                target_black,
                 &source_gamut,
                 source_gamut.black_point().l,
             )),
