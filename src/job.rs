@@ -6,7 +6,7 @@ use crate::error::{Error, Result};
 use crate::ink::{Cmyk, Ink};
 use crate::raster::{CmykImage, Compression, Layout, Limits, OutputSet, Raster, ReadOptions, Resolution, Samples, TiffOptions};
 use crate::report::{SettingsReport, round_to};
-use crate::separation::{SeparationTable, Separator};
+use crate::separation::{CompressFrom, Intent, SeparationTable, Separator};
 use crate::source::RgbSource;
 use rayon::prelude::*;
 use serde::Serialize;
@@ -241,6 +241,9 @@ pub struct SeparatedFile {
     /// The RGB source the separation started from; `None` for CMYK input and
     /// for gray input put on the black plate only.
     pub rgb_source: Option<RgbSource>,
+    /// What the perceptual intent compressed from (`None` for the
+    /// colorimetric intents and for gray on the black plate only).
+    pub compressed_from: Option<CompressFrom>,
     /// How the summary names the source ("sRGB (assumed)", "embedded ICC profile", …).
     pub source_description: String,
     /// What was assumed or done on the way (flattened alpha, assumed space…).
@@ -302,6 +305,15 @@ impl Workshop {
             })
             .as_deref()
             .map_err(|e| Error::Internal(format!("the output profile could not be built: {e}")))
+    }
+
+    /// The settings echoed in the reports of one separated file: the run's,
+    /// with what its perceptual compression started from.
+    pub fn settings_of(&self, separated: &SeparatedFile) -> SettingsReport {
+        SettingsReport {
+            compress_from: separated.compressed_from.map(CompressFrom::name),
+            ..self.settings_report.clone()
+        }
     }
 
     /// The table for a source, built once per run.
@@ -376,6 +388,7 @@ impl Workshop {
         let gray = matches!(raster.layout, Layout::Gray | Layout::GrayAlpha);
         let black_only = self.options.gray == GrayMode::BlackOnly || raster.line_art;
         let mut rgb_source = None;
+        let mut compressed_from = None;
         let (image, table_ms, separate_ms) = match to_rgb(&raster, &mut notes) {
             Some(_) if gray && black_only => {
                 let cmyk = self.gray_to_black(&raster);
@@ -389,7 +402,14 @@ impl Workshop {
                     notes.push("gray separated as neutrals".into());
                 }
                 let (key, source) = self.source_of(&raster, path, &mut notes)?;
-                let table = self.table(&key, &source);
+                let settings = self.separator.settings();
+                let table = if settings.intent == Intent::Perceptual && settings.compress_from == CompressFrom::Picture {
+                    compressed_from = Some(CompressFrom::Picture);
+                    Arc::new(table_for_picture(&self.separator, &source, &rgb))
+                } else {
+                    compressed_from = (settings.intent == Intent::Perceptual).then_some(CompressFrom::Space);
+                    self.table(&key, &source)
+                };
                 let table_ms = ms(t);
                 let t2 = Instant::now();
                 let cmyk = self.apply(&table, &rgb, raster.width as usize);
@@ -397,6 +417,8 @@ impl Workshop {
                 (cmyk, table_ms, ms(t2))
             }
             None => {
+                // Re-separation compresses from the source condition's whole gamut.
+                compressed_from = (self.separator.settings().intent == Intent::Perceptual).then_some(CompressFrom::Space);
                 let table = self
                     .cmyk_table
                     .get_or_init(|| {
@@ -466,6 +488,7 @@ impl Workshop {
             raster,
             image,
             rgb_source,
+            compressed_from,
             source_description,
             notes,
             stats,
@@ -547,7 +570,7 @@ impl Workshop {
             input: format!("{} {:?} {}-bit", raster.format.name(), raster.layout, raster.bits),
             source: separated.source_description.clone(),
             notes: separated.notes.clone(),
-            settings: self.settings_report.clone(),
+            settings: self.settings_of(separated),
             bits: self.options.bits,
             plates: Ink::ALL
                 .iter()
@@ -659,15 +682,35 @@ impl Workshop {
 /// of every node (a batch through the source's profile or named space), its
 /// gamut for the perceptual mapping.
 pub fn table_for_source(separator: &Separator, source: &RgbSource) -> SeparationTable {
+    let gamut = source.gamut();
+    table_with(separator, source, &separator.source_mapping(gamut.as_ref()))
+}
+
+/// The table of `separator` for an RGB source under a prepared mapping: the
+/// source colour of every node in one batch through the source.
+fn table_with(separator: &Separator, source: &RgbSource, mapping: &crate::separation::SourceMapping) -> SeparationTable {
     let n = separator.settings().table_grid;
     let labs = source.node_labs(n);
-    let gamut = source.gamut();
-    let mapping = separator.source_mapping(gamut.as_ref());
     let lookup = |rgb: [f64; 3]| {
         let idx = |v: f64| (v * (n - 1) as f64).round() as usize;
         labs[(idx(rgb[0]) * n + idx(rgb[1])) * n + idx(rgb[2])]
     };
-    SeparationTable::build(separator, &mapping, &lookup)
+    SeparationTable::build(separator, mapping, &lookup)
+}
+
+/// The separation table of `separator` for one picture: as
+/// [`table_for_source`], but perceptual compression starts from the gamut
+/// of the picture's own colours (`rgb`: its interleaved RGB samples). The
+/// picture's distinct colours, their source colours and the map's reach per
+/// region depend on the picture; everything else (the press boundary, the
+/// node colours) does not.
+pub fn table_for_picture(separator: &Separator, source: &RgbSource, rgb: &Samples) -> SeparationTable {
+    let distinct = match rgb {
+        Samples::U8(v) => crate::separation::distinct_colours(v),
+        Samples::U16(v) => crate::separation::distinct_colours(v),
+    };
+    let picture = crate::separation::PictureGamut::from_colours(&source.labs_of(&distinct));
+    table_with(separator, source, &separator.picture_mapping(&picture))
 }
 
 fn flatten_gray(g: f64, alpha: Option<f64>, max: f64) -> f64 {

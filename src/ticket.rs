@@ -32,6 +32,9 @@ pub struct ModelSection {
     pub intent: Option<String>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub bpc: Option<bool>,
+    /// Where perceptual compression starts from: "picture" or "space".
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub compress_from: Option<String>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub tac: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -197,6 +200,7 @@ impl Ticket {
             }
         };
         choice("model", "intent", &m.intent, &["perceptual", "relative", "absolute"])?;
+        choice("model", "compress_from", &m.compress_from, &["picture", "space"])?;
         choice("model", "source_space", &m.source_space, &["srgb", "display-p3", "oprgb", "romm"])?;
         choice("model", "gray", &m.gray, &["neutral", "black-only"])?;
         choice("output", "plates", &self.output.plates, &["tiff", "png", "none"])?;

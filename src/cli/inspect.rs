@@ -197,14 +197,14 @@ pub fn text_summary(r: &InspectReport) -> String {
     let mut o = String::new();
     let _ = writeln!(
         o,
-        "{}: {} {} × {} px at {} ppi, for {} ({} intent)",
+        "{}: {} {} × {} px at {} ppi, for {} ({})",
         r.file,
         r.kind.to_uppercase(),
         r.width,
         r.height,
         r.resolution_ppi[0],
         r.condition,
-        r.settings.separation.intent
+        r.settings.separation.intent_phrase()
     );
     if let Some(g) = &r.gamut {
         let shares: Vec<String> = g

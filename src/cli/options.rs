@@ -4,7 +4,7 @@ use crate::colour::RgbSpace;
 use crate::error::{Error, Result};
 use crate::press::PrintingCondition;
 use crate::raster::Limits;
-use crate::separation::{Intent, SeparationSettings};
+use crate::separation::{CompressFrom, Intent, SeparationSettings};
 use crate::ticket::Ticket;
 use clap::{Args, ValueEnum};
 
@@ -44,6 +44,10 @@ pub struct ModelArgs {
     /// Black point compensation (ISO 18619) with the relative intent.
     #[arg(long)]
     pub bpc: bool,
+    /// What the perceptual intent compresses from: the colours of the picture
+    /// itself, or the whole source space. Default: picture.
+    #[arg(long, value_enum, value_name = "FROM")]
+    pub compress_from: Option<CompressFrom>,
     /// Total ink limit in percent (e.g. 300). Default: the condition's.
     #[arg(long, value_name = "PERCENT")]
     pub tac: Option<f64>,
@@ -97,6 +101,7 @@ impl ModelSetup {
             source_condition: self.ticket.model.source_condition.clone(),
             intent: Some(s.intent.name().to_string()),
             bpc: Some(s.bpc),
+            compress_from: Some(s.compress_from.name().to_string()),
             tac: Some(r(s.tac)),
             gcr: Some(r(s.black.gcr)),
             black_start: Some(r(s.black.black_start)),
@@ -142,6 +147,10 @@ impl ModelArgs {
             settings.intent =
                 Intent::from_str(i, true).map_err(|_| ticket.error_at("model", "intent", format!("= \"{i}\" is not an intent")))?;
         }
+        if let Some(f) = &t.compress_from {
+            settings.compress_from = CompressFrom::from_str(f, true)
+                .map_err(|_| ticket.error_at("model", "compress_from", format!("= \"{f}\" is not picture or space")))?;
+        }
         let pct = |v: f64| v / 100.0;
         settings.bpc = t.bpc.unwrap_or(settings.bpc);
         settings.tac = t.tac.map(pct).unwrap_or(settings.tac);
@@ -158,6 +167,9 @@ impl ModelArgs {
             settings.intent = i;
         }
         settings.bpc |= self.bpc;
+        if let Some(f) = self.compress_from {
+            settings.compress_from = f;
+        }
         if let Some(v) = self.tac {
             settings.tac = percent("tac", v, 100.0, 400.0)?;
         }

@@ -146,7 +146,12 @@ pub fn run(args: RecipeArgs) -> Result<i32> {
         delta_e: round_to(s.delta_e, 2),
         in_gamut: s.in_gamut,
         limited_by: s.limited_by.iter().map(|l| l.name()).collect(),
-        settings: SettingsReport::new(&setup.condition, &setup.settings, setup.source_space),
+        // One colour has no picture: perceptual compresses from the whole source space.
+        settings: SettingsReport {
+            compress_from: (setup.settings.intent == crate::separation::Intent::Perceptual)
+                .then_some(crate::separation::CompressFrom::Space.name()),
+            ..SettingsReport::new(&setup.condition, &setup.settings, setup.source_space)
+        },
         note: crate::report::PREDICTION_NOTE,
     };
     let text = if args.json {
@@ -179,10 +184,9 @@ fn text_report(r: &RecipeReport) -> String {
     }
     let _ = writeln!(
         o,
-        "settings    {} · {} intent{} · TAC {:.0} % · GCR {:.0} % · black start {:.0} % · black max {:.0} %",
+        "settings    {} · {} · TAC {:.0} % · GCR {:.0} % · black start {:.0} % · black max {:.0} %",
         r.settings.condition,
-        r.settings.intent,
-        if r.settings.bpc { " + BPC" } else { "" },
+        r.settings.intent_phrase(),
         r.settings.tac,
         r.settings.gcr,
         r.settings.black_start,

@@ -20,12 +20,13 @@
 //! - BToA0 (perceptual): the PCS black scaled back to L* 0 (the inverse of
 //!   the scaling a CMM applies to a v4 perceptual transform from a source
 //!   whose black is zero, as lcms2 does for matrix-shaper sources), then the
-//!   SGCK-based perceptual map of [`crate::separation::PerceptualMap`]
-//!   (CIE 156:2004, with GCUSP cusp alignment and hue alignment of the
-//!   primaries) from the sRGB gamut (IEC 61966-2-1): a profile cannot know
-//!   its source, and sRGB is the reference gamut that `separate` assumes for
-//!   untagged artwork. So an sRGB image converted through BToA0 by a CMM
-//!   prints as `separate --intent perceptual` separates it. Colours outside
+//!   perceptual map of [`crate::separation::PerceptualMap`] (shadow
+//!   lightness curve, knee compression at constant IPT hue toward the SGCK
+//!   focal point of CIE 156:2004) from the whole sRGB gamut (IEC
+//!   61966-2-1): a profile cannot know its source, let alone the picture,
+//!   and sRGB is the reference gamut that `separate` assumes for untagged
+//!   artwork. So an sRGB image converted through BToA0 by a CMM prints as
+//!   `separate --intent perceptual --compress-from space` separates it. Colours outside
 //!   the sRGB gamut map onto the press gamut boundary.
 //! - BToA2 (saturation): black point compensation (ISO 18619:2015) from the
 //!   PCS black to the press black point, then the same clipping as BToA1:

@@ -725,6 +725,7 @@ pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> 
             source: None,
             notes,
             source_description: "CMYK".into(),
+            compressed_from: None,
             read_ms,
             separate_ms: 0.0,
         };
@@ -757,6 +758,7 @@ pub fn inspect_separated(
             source: None,
             notes,
             source_description: s.source_description.clone(),
+            compressed_from: s.compressed_from,
             read_ms: s.read_ms,
             separate_ms,
         };
@@ -777,6 +779,7 @@ pub fn inspect_separated(
         source: Some(source),
         notes,
         source_description: s.source_description.clone(),
+        compressed_from: s.compressed_from,
         read_ms: s.read_ms,
         separate_ms,
     };
@@ -796,6 +799,8 @@ struct Subject<'a> {
     source: Option<&'a RgbSource>,
     notes: Vec<String>,
     source_description: String,
+    /// What the perceptual intent compressed from (see [`SeparatedFile`]).
+    compressed_from: Option<crate::separation::CompressFrom>,
     read_ms: f64,
     separate_ms: f64,
 }
@@ -809,6 +814,7 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
         source,
         notes,
         source_description,
+        compressed_from,
         read_ms,
         separate_ms,
     } = subject;
@@ -1028,7 +1034,10 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
         source: source_description,
         notes,
         settings: InspectSettings {
-            separation: workshop.settings_report.clone(),
+            separation: crate::report::SettingsReport {
+                compress_from: compressed_from.map(crate::separation::CompressFrom::name),
+                ..workshop.settings_report.clone()
+            },
             de_thresholds: opts.de_thresholds.clone(),
             region_de: opts.region_de,
             min_area_mm2: opts.min_area_mm2,

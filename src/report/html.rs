@@ -378,14 +378,14 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
     let _ = write!(h, "<h1>{}</h1>", escape(&file_name));
     let _ = write!(
         h,
-        "<p class='sub'>{} · {} × {} px · {} × {} ppi · for {} · {} intent · source {}</p>",
+        "<p class='sub'>{} · {} × {} px · {} × {} ppi · for {} · {} · source {}</p>",
         if r.kind == "rgb" { "RGB" } else { "CMYK" },
         r.width,
         r.height,
         r.resolution_ppi[0],
         r.resolution_ppi[1],
         escape(&r.condition),
-        r.settings.separation.intent,
+        escape(&r.settings.separation.intent_phrase()),
         escape(&r.source)
     );
     let failed: Vec<&str> = r.rules.iter().filter(|o| o.failed).map(|o| o.rule.as_str()).collect();

@@ -26,6 +26,11 @@ pub struct SettingsReport {
     pub condition: String,
     pub intent: &'static str,
     pub bpc: bool,
+    /// What the perceptual intent compressed from: "picture" (the colours of
+    /// the picture), "space" (the whole source space); absent for the
+    /// colorimetric intents.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub compress_from: Option<&'static str>,
     pub tac: f64,
     pub gcr: f64,
     pub black_start: f64,
@@ -38,11 +43,24 @@ pub struct SettingsReport {
 }
 
 impl SettingsReport {
+    /// The intent as reports name it: "perceptual intent, compressed from
+    /// the picture" (or "from the whole source space"), "relative intent +
+    /// BPC", "absolute intent".
+    pub fn intent_phrase(&self) -> String {
+        let from = match self.compress_from {
+            Some("picture") => ", compressed from the picture's colours",
+            Some(_) => ", compressed from the whole source space",
+            None => "",
+        };
+        format!("{} intent{}{from}", self.intent, if self.bpc { " + BPC" } else { "" })
+    }
+
     pub fn new(condition: &PrintingCondition, s: &SeparationSettings, source: RgbSpace) -> SettingsReport {
         SettingsReport {
             condition: condition.name.clone(),
             intent: s.intent.name(),
             bpc: s.bpc,
+            compress_from: (s.intent == crate::separation::Intent::Perceptual).then(|| s.compress_from.name()),
             tac: round_to(s.tac * 100.0, 2),
             gcr: round_to(s.black.gcr * 100.0, 2),
             black_start: round_to(s.black.black_start * 100.0, 2),

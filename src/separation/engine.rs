@@ -34,6 +34,28 @@ impl Intent {
     }
 }
 
+/// Which gamut the perceptual intent compresses from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default, Serialize, Deserialize, clap::ValueEnum)]
+#[serde(rename_all = "kebab-case")]
+pub enum CompressFrom {
+    /// The colours of the picture being separated: a picture that barely
+    /// leaves the press gamut is barely compressed.
+    #[default]
+    Picture,
+    /// The whole source space, whatever the picture holds (as an ICC
+    /// profile's perceptual table must).
+    Space,
+}
+
+impl CompressFrom {
+    pub fn name(self) -> &'static str {
+        match self {
+            CompressFrom::Picture => "picture",
+            CompressFrom::Space => "space",
+        }
+    }
+}
+
 /// What kept a colour from being printed as asked.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
@@ -69,6 +91,9 @@ pub struct SeparationSettings {
     pub keep_pure_black: bool,
     /// Nodes per axis of the separation table.
     pub table_grid: usize,
+    /// The gamut perceptual mapping compresses from.
+    #[serde(default)]
+    pub compress_from: CompressFrom,
 }
 
 impl SeparationSettings {
@@ -81,6 +106,7 @@ impl SeparationSettings {
             black: condition.black,
             keep_pure_black: false,
             table_grid: 33,
+            compress_from: CompressFrom::Picture,
         }
     }
 
@@ -467,13 +493,12 @@ impl Separator {
             .unwrap_or(low)
     }
 
-    /// True where the table smooths the deepest shadows in ink space:
-    /// relative colorimetric with black point compensation, which carries the
-    /// whole shadow range onto the press black point by a fixed scaling (ISO
-    /// 18619) and leaves no room to shape chroma there. The perceptual intent
-    /// shapes its shadows in the mapping itself (the shadow taper of
-    /// [`PerceptualMap`](super::gamut::PerceptualMap)), so its table equals
-    /// the direct separation.
+    /// True where the table smooths the deepest shadows in ink space: the
+    /// intents that carry the source black onto the press black (relative
+    /// colorimetric with black point compensation, ISO 18619, and
+    /// perceptual, whose lightness curve compresses the deep shadows toward
+    /// the press black), where the inversion swings the plates widely for
+    /// small colour differences.
     pub fn smooths_shadows_in_ink(&self) -> bool {
         self.settings.intent == Intent::Relative && self.settings.bpc
     }
@@ -490,11 +515,21 @@ impl Separator {
         super::gamut::ridge_samples(&PROCESS_CORNERS, &|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)))
     }
 
-    /// Prepares the mapping of colours from one source gamut (the perceptual
-    /// intent needs the source gamut; the colorimetric intents do not).
+    /// Prepares the mapping of colours from one whole source gamut (the
+    /// perceptual intent compresses from it; the colorimetric intents need
+    /// none). See [`Separator::picture_mapping`] for a picture's own gamut.
     pub fn source_mapping<'a>(&'a self, source: &'a dyn SourceGamut) -> SourceMapping<'a> {
         let perceptual = (self.settings.intent == Intent::Perceptual)
-            .then(|| PerceptualMap::new(&self.gamut, Some(self.process_primaries()), Some(self.process_ridge()), source, 0.0));
+            .then(|| PerceptualMap::new(&self.gamut, &self.process_ridge(), self.black_point, source, 0.0));
+        SourceMapping { perceptual }
+    }
+
+    /// Prepares the mapping of one picture's colours: as
+    /// [`Separator::source_mapping`], but perceptual compression starts from
+    /// the picture's own gamut (`CompressFrom::Picture`).
+    pub fn picture_mapping(&self, picture: &super::PictureGamut) -> SourceMapping<'_> {
+        let perceptual = (self.settings.intent == Intent::Perceptual)
+            .then(|| PerceptualMap::for_picture(&self.gamut, &self.process_ridge(), self.black_point, picture, 0.0));
         SourceMapping { perceptual }
     }
 

@@ -9,13 +9,17 @@
 //! the 4-D ink set onto 3-D colour space, the boundary of the printable
 //! colours is the image of those faces.
 //!
-//! Perceptual mapping follows the structure of SGCK, the reference algorithm
-//! of CIE 156:2004 ("Guidelines for the evaluation of gamut mapping
-//! algorithms"): chroma-dependent lightness compression and knee scaling,
-//! with a cusp alignment step after GCUSP (Morovič 1998). The differences
-//! from SGCK are named in [`PerceptualMap`].
+//! Perceptual mapping ([`PerceptualMap`]) keeps what the press can print:
+//! black point compensation (ISO 18619) for lightness, then compression of
+//! chroma in IPT (Ebner & Fairchild 1998), a hue-linear space, along rays
+//! from a focal point on the lightness axis as in SGCK, the reference
+//! algorithm of CIE 156:2004 ("Guidelines for the evaluation of gamut
+//! mapping algorithms"), with a knee near the press boundary. The source of
+//! the compression is either the whole source space or the gamut of the
+//! picture itself ([`PictureGamut`], segment maxima of its distinct colours).
 
-use crate::colour::{Lab, Lch};
+use super::picture::{BAND, BANDS, PictureGamut, SECTOR, SECTORS, cell_of};
+use crate::colour::{Ipt, Lab};
 
 const L_STEPS: usize = 201; // L* 0..100 in steps of 0.5
 const L_STEP: f64 = 0.5;
@@ -119,11 +123,6 @@ impl GamutBoundary {
     pub fn contains(&self, lab: Lab) -> bool {
         let lch = lab.to_lch();
         lch.l >= self.l_min && lch.l <= self.l_max && lch.c <= self.max_chroma(lch.l, lch.h)
-    }
-
-    /// Lightness and chroma of the cusp (largest chroma) at hue `h`.
-    pub fn cusp(&self, h: f64) -> (f64, f64) {
-        refine_cusp(self.l_min, self.l_max, &|l| self.max_chroma(l, h))
     }
 
     /// Volume in cubic CIELAB units, by integration over the segments.
@@ -252,17 +251,81 @@ pub fn ridge_samples(corners: &[[f64; 3]; 6], colour: &dyn Fn([f64; 3]) -> Lab) 
     out
 }
 
+/// Distance along a ray (`point(s)` at distance s) to the boundary of
+/// `inside`: the first exit, by steps of [`RAY_STEP`] then bisection.
+fn ray_extent(point: &dyn Fn(f64) -> Lab, max: f64, inside: &dyn Fn(Lab) -> bool) -> f64 {
+    let mut s = 0.0;
+    let mut last_inside = if inside(point(0.0)) { Some(0.0) } else { None };
+    while s < max {
+        let next = s + RAY_STEP;
+        if inside(point(next)) {
+            last_inside = Some(next);
+        } else if last_inside.is_some() {
+            break;
+        }
+        s = next;
+    }
+    let Some(lo) = last_inside else { return 0.0 };
+    if lo >= max {
+        return max;
+    }
+    let (mut lo, mut hi) = (lo, lo + RAY_STEP);
+    for _ in 0..RAY_BISECTIONS {
+        let mid = 0.5 * (lo + hi);
+        if inside(point(mid)) {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    lo
+}
+
+/// Step and bisections of [`ray_extent`]: 2 units, refined to 2/2¹² (below 0.001).
+const RAY_STEP: f64 = 2.0;
+const RAY_BISECTIONS: usize = 11;
+
+/// A source that reaches no further than this share beyond the described
+/// press boundary is not compressed: the segment-maxima description is
+/// itself that close (colours the inversion reproduces exactly read up to
+/// about 2 % beyond it, measured on coated offset).
+const REACH_SLACK: f64 = 0.03;
+
+/// Longest ray searched, in working units (IPT × 100): beyond any real gamut.
+const RAY_MAX: f64 = 160.0;
+
+/// The working space of the perceptual mapping: IPT (Ebner & Fairchild
+/// 1998) scaled by 100, so that lightness runs 0..100 like L*, in polar form
+/// (lightness, chroma, hue in degrees).
+pub fn working_polar(lab: Lab) -> (f64, f64, f64) {
+    let p = Ipt::from_lab(lab);
+    (100.0 * p.i, 100.0 * p.chroma(), p.hue())
+}
+
+/// The inverse of [`working_polar`].
+pub fn from_working_polar(i: f64, c: f64, h: f64) -> Lab {
+    Ipt::from_polar(i / 100.0, c.max(0.0) / 100.0, h).to_lab()
+}
+
 /// The cusp (lightness, chroma) of a gamut as a function of hue, from
 /// samples sorted by hue and interpolated linearly between neighbours.
 #[derive(Debug, Clone)]
-pub struct CuspCurve {
+struct CuspCurve {
     hues: Vec<f64>,
     points: Vec<(f64, f64)>,
 }
 
 impl CuspCurve {
-    fn from_points(mut samples: Vec<(f64, f64, f64)>) -> CuspCurve {
-        samples.retain(|s| s.0.is_finite() && s.1.is_finite() && s.2.is_finite());
+    /// From samples of the ridge that carries the cusps, in the working space.
+    fn from_ridge(ridge: &[Lab]) -> CuspCurve {
+        let mut samples: Vec<(f64, f64, f64)> = ridge
+            .iter()
+            .map(|&lab| {
+                let (i, c, h) = working_polar(lab);
+                (h, i, c)
+            })
+            .filter(|s| s.0.is_finite() && s.1.is_finite() && s.2.is_finite())
+            .collect();
         samples.sort_by(|a, b| a.0.total_cmp(&b.0));
         CuspCurve {
             hues: samples.iter().map(|s| s.0).collect(),
@@ -270,24 +333,7 @@ impl CuspCurve {
         }
     }
 
-    fn from_ridge(ridge: &[Lab]) -> CuspCurve {
-        CuspCurve::from_points(
-            ridge
-                .iter()
-                .map(|l| {
-                    let c = l.to_lch();
-                    (c.h, c.l, c.c)
-                })
-                .collect(),
-        )
-    }
-
-    fn from_table(table: &[(f64, f64)]) -> CuspCurve {
-        let n = table.len() as f64;
-        CuspCurve::from_points(table.iter().enumerate().map(|(i, &(l, c))| (i as f64 * 360.0 / n, l, c)).collect())
-    }
-
-    pub fn at(&self, h: f64) -> (f64, f64) {
+    fn at(&self, h: f64) -> (f64, f64) {
         let n = self.hues.len();
         if n == 0 {
             return (50.0, 0.0);
@@ -306,250 +352,349 @@ impl CuspCurve {
     }
 }
 
-/// Piecewise-linear hue mapping that carries six source anchor hues onto six
-/// destination anchor hues (red, yellow, green, cyan, blue, magenta), so that
-/// a source primary prints as the corresponding process colour rather than
-/// as its exact hue made with a third ink (the hue-alignment step of
-/// printing-oriented gamut mapping, cf. the hue mapping discussed in
-/// Morovič, "Color Gamut Mapping", Wiley 2008, ch. 10).
-#[derive(Debug, Clone)]
-pub struct HueAlignment {
-    source: [f64; 6],
-    dest: [f64; 6],
-}
-
-impl HueAlignment {
-    /// `None` when the anchors are not in the same circular order on both
-    /// sides (then no alignment is applied).
-    pub fn new(source: [Lab; 6], dest: [Lab; 6]) -> Option<HueAlignment> {
-        let s = source.map(|l| l.to_lch().h);
-        let d = dest.map(|l| l.to_lch().h);
-        let ordered = |h: &[f64; 6]| {
-            let total: f64 = (0..6).map(|i| (h[(i + 1) % 6] - h[i]).rem_euclid(360.0)).sum();
-            (total - 360.0).abs() < 1e-6
-        };
-        (ordered(&s) && ordered(&d)).then_some(HueAlignment { source: s, dest: d })
-    }
-
-    pub fn map(&self, h: f64) -> f64 {
-        for i in 0..6 {
-            let (s0, s1) = (self.source[i], self.source[(i + 1) % 6]);
-            let span = (s1 - s0).rem_euclid(360.0);
-            let offset = (h - s0).rem_euclid(360.0);
-            if offset <= span && span > 0.0 {
-                let (d0, d1) = (self.dest[i], self.dest[(i + 1) % 6]);
-                let dspan = (d1 - d0).rem_euclid(360.0);
-                return (d0 + offset / span * dspan).rem_euclid(360.0);
-            }
-        }
-        h
-    }
-}
-
-/// Distance from `origin` along the unit direction `dir` (in the L, C plane of
-/// one hue) to the last point inside `inside`, by stepping then bisection.
-fn boundary_distance(origin: (f64, f64), dir: (f64, f64), hue: f64, max: f64, inside: &dyn Fn(Lab) -> bool) -> f64 {
-    let point = |s: f64| Lch::new(origin.0 + s * dir.0, (origin.1 + s * dir.1).max(0.0), hue).to_lab();
-    let step = 1.0;
-    let mut s = 0.0;
-    while s < max && inside(point(s + step)) {
-        s += step;
-    }
-    if s >= max {
-        return max;
-    }
-    let (mut lo, mut hi) = (s, s + step);
-    for _ in 0..20 {
-        let mid = 0.5 * (lo + hi);
-        if inside(point(mid)) {
-            lo = mid;
-        } else {
-            hi = mid;
-        }
-    }
-    lo
-}
-
-/// Hue steps of the cusp tables (0.5°: cusps are sharp corners at the
-/// primaries, and lightness there is steep).
-const CUSP_STEPS: usize = 720;
-
-/// Lightness and chroma of the cusp per 0.5° of hue of a gamut.
-fn cusps_of(contains: &(dyn Fn(Lab) -> bool + Sync)) -> Vec<(f64, f64)> {
-    use rayon::prelude::*;
-    (0..CUSP_STEPS)
-        .into_par_iter()
-        .map(|hi| {
-            let h = hi as f64 * 360.0 / CUSP_STEPS as f64;
-            refine_cusp(0.0, 100.0, &|l| boundary_distance((l, 0.0), (0.0, 1.0), h, 250.0, contains))
-        })
-        .collect()
-}
-
-/// The lightness of largest chroma on [lo, hi]: a scan in steps of one
-/// unit, then golden-section search around the best step.
-fn refine_cusp(lo: f64, hi: f64, chroma: &dyn Fn(f64) -> f64) -> (f64, f64) {
-    let mut best = (0.5 * (lo + hi), f64::MIN);
-    let mut l = lo;
-    while l <= hi {
-        let c = chroma(l);
-        if c > best.1 {
-            best = (l, c);
-        }
-        l += 1.0;
-    }
-    let (mut a, mut b) = ((best.0 - 1.0).max(lo), (best.0 + 1.0).min(hi));
-    let g = (5f64.sqrt() - 1.0) / 2.0;
-    for _ in 0..30 {
-        let (x1, x2) = (b - g * (b - a), a + g * (b - a));
-        if chroma(x1) >= chroma(x2) {
-            b = x2;
-        } else {
-            a = x1;
-        }
-    }
-    let l = 0.5 * (a + b);
-    let c = chroma(l);
-    if c >= best.1 { (l, c) } else { best }
-}
-
 /// L* above the printable black over which the perceptual map tapers chroma.
 pub const SHADOW_TAPER_RANGE: f64 = 20.0;
 /// Share of chroma the taper keeps at the black point itself.
-pub const SHADOW_TAPER_FLOOR: f64 = 0.2;
+pub const SHADOW_TAPER_FLOOR: f64 = 0.05;
+
+/// The knee function of the chroma compression. `r` is a colour's distance
+/// from the focal point and `rs` the source boundary's along the same ray,
+/// both as shares of the destination boundary's distance. Up to [`KNEE`]
+/// nothing moves; the band [`KNEE`], `rs` is carried onto [`KNEE`], 1 by a
+/// curve whose slope is 1 at the knee (no crease where compression starts),
+/// falls linearly over the first 1/s of the band (s = its compression
+/// ratio) and stays constant beyond, at s/(2s − 1) of the linear map's
+/// slope: strictly increasing, so distinct colours stay distinct, and
+/// nowhere flatter than half the linear scaling of the band. Beyond `rs`
+/// (a colour outside the described source gamut) the boundary.
+pub fn knee_compression(r: f64, rs: f64) -> f64 {
+    if r <= KNEE || rs <= 1.0 {
+        return r;
+    }
+    let s = (rs - KNEE) / (1.0 - KNEE);
+    let x = ((r - KNEE) / (rs - KNEE)).min(1.0);
+    let delta = 1.0 / s;
+    let m = s / (2.0 * s - 1.0);
+    let g = if x <= delta {
+        s * x - (s - m) * x * x / (2.0 * delta)
+    } else {
+        delta * (s + m) / 2.0 + m * (x - delta)
+    };
+    KNEE + (1.0 - KNEE) * g.min(1.0)
+}
 
 /// Perceptual gamut mapping from one source gamut into the printable gamut.
 ///
-/// 1. Lightness: the source range [black, 100] maps linearly onto the
-///    printable [`l_min`, `l_max`], in full for neutrals and less for
-///    saturated colours (the chroma weighting of SGCK, CIE 156:2004).
-/// 2. Cusp alignment: colours move in lightness toward the destination cusp
-///    in proportion to their chroma relative to the source cusp, so that the
-///    source cusp lands at the destination cusp lightness (as in GCUSP,
-///    Morovič 1998, also described in CIE 156:2004).
-/// 3. Knee scaling of chroma at constant lightness (the knee function of
-///    SGCK, applied toward the lightness axis rather than toward the cusp
-///    lightness point, which keeps the deep shadows continuous with the
-///    neutral axis): chroma up to 90 % of the destination boundary stays; the
-///    rest of the source range is compressed linearly into the remaining 10 %.
+/// The steps, each chosen so that colours the press can print stay as they
+/// are (CIE 156:2004 names the criteria such an algorithm is judged by):
 ///
-/// 4. A shadow taper of our own (not part of SGCK or GCUSP): within
-///    [`SHADOW_TAPER_RANGE`] L* above the printable black, chroma is scaled
-///    down smoothly to [`SHADOW_TAPER_FLOOR`] of its value at the black
-///    point, where the gamut ends in a point. Without it, 8-bit ramps into
-///    the darkest shadows step by more than 3 % of a plate per code value
-///    (measured on the built-in coated condition, see tests/suite/separation_engine.rs).
+/// 1. Lightness: the source black maps onto the press black, as black
+///    point compensation does (ISO 18619:2015), but by a curve in L* that
+///    acts in the shadows only ([`shadow_lightness`]; IPT hue kept): the
+///    range from the source black up to about 1.9 times the difference of
+///    the blacks is compressed, the rest kept. ISO 18619's scaling in
+///    XYZ would lift L* 30 by 2.6 and L* 50 by 1.1 on coated offset,
+///    moving printable midtones.
+/// 2. Chroma, in IPT (Ebner & Fairchild 1998, see [`crate::colour::Ipt`]),
+///    which is hue-linear: a colour moves on its IPT hue plane, so a
+///    saturated blue does not turn purple as it would scaled in CIELAB.
+///    It moves along the ray from a focal point on the lightness axis at the
+///    lightness of the press cusp of its hue (the focal point of SGCK, CIE
+///    156:2004), by [`knee_compression`] of its distance: up to [`KNEE`] of
+///    the distance to the press boundary nothing moves, and the band beyond,
+///    out to the source boundary on the same ray, is compressed smoothly into
+///    the rest. The source is either the whole source space or the gamut of
+///    the picture ([`PictureGamut`]): a picture that barely leaves the press
+///    gamut is barely compressed.
+/// 3. No hue rotation: hue is kept in IPT.
+/// 4. A shadow taper of our own: within [`SHADOW_TAPER_RANGE`] L* above the
+///    printable black, chroma is scaled down smoothly to
+///    [`SHADOW_TAPER_FLOOR`] of its value at the black point, where the
+///    gamut ends in a point. Without it, 8-bit ramps into the darkest
+///    shadows step by more than 3 % of a plate per code value (see
+///    tests/suite/separation_engine.rs).
+///
+/// Which parts depend on the source: the press boundary, its cusps and the
+/// press black depend on the separator only; the source boundary distance
+/// along each ray depends on the source gamut (the picture's, by default).
 pub struct PerceptualMap<'a> {
     dest: &'a GamutBoundary,
-    hues: Option<HueAlignment>,
     dest_cusps: CuspCurve,
-    source: &'a dyn SourceGamut,
-    source_cusps: CuspCurve,
+    shadows: ShadowCurve,
+    /// a*, b* of the press black point (slightly cool on offset).
+    black_tint: (f64, f64),
+    source: Extent<'a>,
+}
+
+/// What the compression starts from.
+enum Extent<'a> {
+    /// A whole source gamut, searched along each ray.
+    Space(&'a dyn SourceGamut),
+    /// A picture's reach beyond the press boundary per lightness band and
+    /// hue sector ([`PerceptualMap::for_picture`]).
+    Picture(Vec<f64>),
+}
+
+/// Largest share of contrast [`shadow_lightness`] takes from the shadows:
+/// its slope falls to 1 − this at the middle of its span (0.2 for a
+/// lighter press black, 1.8 for a darker one).
+const SHADOW_DEPTH: f64 = 0.8;
+
+/// The lightness curve of perceptual mapping, from the source black onto
+/// the press black (see [`shadow_lightness`]).
+struct ShadowCurve {
     source_black: f64,
+    dest_black: f64,
+    /// A in slope(u) = 1 − A·4u(1 − u), u = (L* − source black)/span.
+    depth: f64,
+    span: f64,
+}
+
+impl ShadowCurve {
+    fn new(source_black: f64, dest_black: f64) -> ShadowCurve {
+        let lift = dest_black - source_black;
+        // lift = A·span·2/3
+        let depth = SHADOW_DEPTH.copysign(lift);
+        let span = 1.5 * lift.abs() / SHADOW_DEPTH;
+        ShadowCurve {
+            source_black,
+            dest_black,
+            depth,
+            span,
+        }
+    }
+
+    fn map(&self, l: f64) -> f64 {
+        let x = l - self.source_black;
+        if x >= self.span || self.span <= 0.0 {
+            return l;
+        }
+        if x <= 0.0 {
+            return l + self.dest_black - self.source_black;
+        }
+        let u = x / self.span;
+        self.dest_black + x - self.depth * self.span * (2.0 * u * u - 4.0 / 3.0 * u * u * u)
+    }
+
+    /// The inverse, by bisection (the curve increases with slope ≥ 0.2).
+    fn inverse(&self, y: f64) -> f64 {
+        let end = self.source_black + self.span;
+        if y >= end || self.span <= 0.0 {
+            return y;
+        }
+        if y <= self.dest_black {
+            return y - self.dest_black + self.source_black;
+        }
+        let (mut lo, mut hi) = (self.source_black, end);
+        for _ in 0..48 {
+            let mid = 0.5 * (lo + hi);
+            if self.map(mid) < y {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        0.5 * (lo + hi)
+    }
+}
+
+/// The lightness curve of perceptual mapping: `source_black` onto
+/// `dest_black` with slope 1 there, the slope dipping to 1 − [`SHADOW_DEPTH`]
+/// midway and back to 1 at 1.5/[`SHADOW_DEPTH`] times the difference of the
+/// blacks above the source black, the identity above. On coated offset
+/// (black near L* 9) it ends near L* 17; the deepest shadows keep their
+/// contrast, so ramps into the press black separate smoothly.
+pub fn shadow_lightness(l: f64, source_black: f64, dest_black: f64) -> f64 {
+    ShadowCurve::new(source_black, dest_black).map(l)
+}
+
+/// One colour on its way through the perceptual map: after the lightness
+/// curve, its ray from the focal point in the working space.
+struct Ray {
+    /// The colour after step 1.
+    lab: Lab,
+    /// Working lightness of the focal point, hue, unit direction.
+    focus: f64,
+    h: f64,
+    dir: (f64, f64),
+    /// Distance of the colour from the focal point, and of the press boundary.
+    d: f64,
+    d_dest: f64,
+}
+
+impl Ray {
+    fn point(&self, s: f64) -> Lab {
+        from_working_polar(self.focus + s * self.dir.0, s * self.dir.1, self.h)
+    }
 }
 
 impl<'a> PerceptualMap<'a> {
-    /// `dest_primaries`: the printed red, yellow, green, cyan, blue and
-    /// magenta of the press (media-relative), for hue alignment.
+    /// Compresses from the whole of `source`. `dest_ridge`: samples of the
+    /// press's cusp ridge (the edges of the ink cube without black),
+    /// media-relative. `dest_black`: the press black point (media-relative);
+    /// `source_black`: L* of the source black.
     pub fn new(
         dest: &'a GamutBoundary,
-        dest_primaries: Option<[Lab; 6]>,
-        dest_ridge: Option<Vec<Lab>>,
+        dest_ridge: &[Lab],
+        dest_black: Lab,
         source: &'a dyn SourceGamut,
         source_black: f64,
     ) -> PerceptualMap<'a> {
-        let dest_cusps = match dest_ridge {
-            Some(r) => CuspCurve::from_ridge(&r),
-            None => CuspCurve::from_table(
-                &(0..CUSP_STEPS)
-                    .map(|hi| dest.cusp(hi as f64 * 360.0 / CUSP_STEPS as f64))
-                    .collect::<Vec<_>>(),
-            ),
-        };
-        let hues = source.primaries().zip(dest_primaries).and_then(|(s, d)| HueAlignment::new(s, d));
-        let source_cusps = match source.ridge() {
-            Some(r) => CuspCurve::from_ridge(&r),
-            None => CuspCurve::from_table(&cusps_of(&|p| source.contains(p))),
-        };
         PerceptualMap {
             dest,
-            hues,
-            dest_cusps,
-            source,
-            source_cusps,
-            source_black,
+            dest_cusps: CuspCurve::from_ridge(dest_ridge),
+            shadows: ShadowCurve::new(source_black, dest_black.l),
+            black_tint: (dest_black.a, dest_black.b),
+            source: Extent::Space(source),
         }
     }
 
-    /// Step 1 and 2 are affine in L for a fixed chroma and hue: L' = α·L + β.
-    fn lightness_affine(&self, c: f64, h: f64, source_hue: f64) -> (f64, f64) {
-        self.lightness_affine_with(c, self.source_cusps.at(source_hue), self.dest_cusps.at(h))
+    /// Compresses from the gamut of one picture: each of its extreme colours
+    /// (one per lightness band and hue sector) gives how far beyond the press
+    /// boundary the picture reaches there, as a share of the press
+    /// boundary's distance along its ray; the share is widened by one band
+    /// and sector on each side and interpolated bilinearly between them.
+    /// Where it is at most 1, nothing is compressed. The only part of the
+    /// map that depends on the picture; it costs one boundary search per
+    /// extreme colour (at most 51 × 72).
+    pub fn for_picture(
+        dest: &'a GamutBoundary,
+        dest_ridge: &[Lab],
+        dest_black: Lab,
+        picture: &PictureGamut,
+        source_black: f64,
+    ) -> PerceptualMap<'a> {
+        use rayon::prelude::*;
+        let mut map = PerceptualMap {
+            dest,
+            dest_cusps: CuspCurve::from_ridge(dest_ridge),
+            shadows: ShadowCurve::new(source_black, dest_black.l),
+            black_tint: (dest_black.a, dest_black.b),
+            source: Extent::Picture(Vec::new()),
+        };
+        let reach: Vec<(usize, f64)> = picture
+            .extremes()
+            .par_iter()
+            .filter_map(|&lab| {
+                let ray = map.ray(lab)?;
+                let (i, _, _) = working_polar(ray.lab);
+                (ray.d_dest > 0.0).then(|| (cell_of(i, ray.h), ray.d / ray.d_dest))
+            })
+            .collect();
+        let mut raw = vec![0.0f64; BANDS * SECTORS];
+        for (cell, r) in reach {
+            raw[cell] = raw[cell].max(r);
+        }
+        let mut grid = vec![0.0f64; BANDS * SECTORS];
+        for b in 0..BANDS {
+            for s in 0..SECTORS {
+                let mut m = 0.0f64;
+                for nb in b.saturating_sub(1)..=(b + 1).min(BANDS - 1) {
+                    for ds in [SECTORS - 1, 0, 1] {
+                        m = m.max(raw[nb * SECTORS + (s + ds) % SECTORS]);
+                    }
+                }
+                grid[b * SECTORS + s] = m;
+            }
+        }
+        map.source = Extent::Picture(grid);
+        map
     }
 
-    /// [`PerceptualMap::lightness_affine`] with the cusps at the two hues
-    /// looked up once (they are constant along one colour's chroma line).
-    fn lightness_affine_with(&self, c: f64, source_cusp: (f64, f64), dest_cusp: (f64, f64)) -> (f64, f64) {
-        let d = self.dest;
-        let a = (d.l_max - d.l_min) / (100.0 - self.source_black);
-        let pc = 1.0 - (c.powi(3) / (c.powi(3) + 5e5)).sqrt();
-        // step 1: L1 = pc·(l_min + (L − sb)·a) + (1 − pc)·L
-        let alpha = pc * a + 1.0 - pc;
-        let mut beta = pc * (d.l_min - self.source_black * a);
-        // step 2: shift toward the destination cusp
-        let (ls, cs) = source_cusp;
-        let (ld, _) = dest_cusp;
-        if cs > 1e-6 {
-            let pcs = 1.0 - (cs.powi(3) / (cs.powi(3) + 5e5)).sqrt();
-            let ls1 = pcs * (d.l_min + (ls - self.source_black) * a) + (1.0 - pcs) * ls;
-            beta += (ld - ls1) * (c / cs).min(1.0);
+    /// The lightness curve; neutrals also take on the press black point's
+    /// tint in proportion to how far the curve lifts them (all of it at the
+    /// source black, which so prints as the press black point itself).
+    fn lift(&self, lab: Lab) -> Lab {
+        let l = self.shadows.map(lab.l);
+        let lift = self.shadows.dest_black - self.shadows.source_black;
+        let w = if lift.abs() > 1e-9 {
+            ((l - lab.l) / lift).clamp(0.0, 1.0)
+        } else {
+            0.0
+        };
+        let neutral = (1.0 - lab.chroma() / 10.0).clamp(0.0, 1.0);
+        Lab::new(l, lab.a + w * neutral * self.black_tint.0, lab.b + w * neutral * self.black_tint.1)
+    }
+
+    /// Step 1 and the ray of step 2; `None` for a neutral (it has no ray).
+    fn ray(&self, lab: Lab) -> Option<Ray> {
+        // The IPT hue of the source is kept (a* and b* kept as they are
+        // would turn it slightly where L* changes).
+        let (_, _, h) = working_polar(lab);
+        let lifted = self.lift(lab);
+        let (i, c, _) = working_polar(lifted);
+        if c < 1e-6 {
+            return None;
         }
-        (alpha, beta)
+        let lab = if lifted.l == lab.l { lab } else { from_working_polar(i, c, h) };
+        let (focus, _) = self.dest_cusps.at(h);
+        let (di, dc) = (i - focus, c);
+        let d = di.hypot(dc);
+        let mut ray = Ray {
+            lab,
+            focus,
+            h,
+            dir: (di / d, dc / d),
+            d,
+            d_dest: 0.0,
+        };
+        let shadow = ((lab.l - self.dest.l_min) / 20.0).clamp(0.0, 1.0);
+        let margin = BOUNDARY_MARGIN + (1.0 - BOUNDARY_MARGIN) * shadow;
+        ray.d_dest = margin * ray_extent(&|s| ray.point(s), RAY_MAX, &|p| self.dest.contains(p));
+        Some(ray)
+    }
+
+    /// The source's reach along a ray, as a share of the press boundary's distance.
+    fn source_reach(&self, ray: &Ray) -> f64 {
+        match &self.source {
+            Extent::Space(source) => {
+                let inside = |p: Lab| source.contains(Lab::new(self.shadows.inverse(p.l), p.a, p.b));
+                ray_extent(&|s| ray.point(s), RAY_MAX, &inside).max(ray.d) / ray.d_dest
+            }
+            Extent::Picture(grid) => {
+                let (i, _, _) = working_polar(ray.lab);
+                let bf = (i / BAND).clamp(0.0, (BANDS - 1) as f64);
+                let b0 = (bf.floor() as usize).min(BANDS - 2);
+                let tb = bf - b0 as f64;
+                let sf = ray.h.rem_euclid(360.0) / SECTOR;
+                let s0 = sf.floor() as usize % SECTORS;
+                let s1 = (s0 + 1) % SECTORS;
+                let ts = sf - sf.floor();
+                let at = |b: usize, s: usize| grid[b * SECTORS + s];
+                let low = at(b0, s0) * (1.0 - ts) + at(b0, s1) * ts;
+                let high = at(b0 + 1, s0) * (1.0 - ts) + at(b0 + 1, s1) * ts;
+                low * (1.0 - tb) + high * tb
+            }
+        }
     }
 
     /// Maps one media-relative colour. The result may still lie slightly
     /// outside the printable gamut; the inversion clips the rest.
     pub fn map(&self, lab: Lab) -> Lab {
-        let lch = lab.to_lch();
-        // 0. Hue alignment of the primaries; the source gamut is then looked up
-        //    at the hue the colour came from.
-        let source_hue = lch.h;
-        let lch = match &self.hues {
-            Some(a) => Lch::new(lch.l, lch.c, a.map(lch.h)),
-            None => lch,
-        };
-        let (alpha, beta) = self.lightness_affine(lch.c, lch.h, source_hue);
-        let l_mapped = (alpha * lch.l + beta).clamp(self.dest.l_min, self.dest.l_max);
-        if lch.c < 1e-6 {
-            return Lch::new(l_mapped, 0.0, lch.h).to_lab();
+        // Steps 1 and 2.
+        // Neutrals stay on the axis (tinted toward the press black in the shadows).
+        if lab.chroma() < 1e-6 {
+            return self.lift(lab);
         }
-        // Knee scaling of chroma at the mapped lightness.
-        let origin = (l_mapped, 0.0);
-        let dir = (0.0, 1.0);
-        let d = lch.c;
-        let shadow = ((l_mapped - self.dest.l_min) / 20.0).clamp(0.0, 1.0);
-        let margin = BOUNDARY_MARGIN + (1.0 - BOUNDARY_MARGIN) * shadow;
-        let d_dest = margin * boundary_distance(origin, dir, lch.h, 250.0, &|p| self.dest.contains(p));
-        // The source boundary at the same place, after steps 1 and 2.
-        let cusps = (self.source_cusps.at(source_hue), self.dest_cusps.at(lch.h));
-        let source_inside = |p: Lab| {
-            let q = p.to_lch();
-            let (a, b) = self.lightness_affine_with(q.c, cusps.0, cusps.1);
-            self.source.contains(Lch::new((q.l - b) / a, q.c, source_hue).to_lab())
+        let Some(ray) = self.ray(lab) else {
+            return self.lift(lab);
         };
-        let d_source = boundary_distance(origin, dir, lch.h, 250.0, &source_inside).max(d);
-        let knee = KNEE * d_dest;
-        let c_new = if d_source <= d_dest || d <= knee {
-            d.min(d_dest.max(knee))
+        let mapped = if ray.d <= KNEE * ray.d_dest || ray.d_dest <= 0.0 {
+            ray.lab
         } else {
-            knee + (d - knee) * (d_dest - knee) / (d_source - knee)
+            match self.source_reach(&ray) {
+                reach if reach <= 1.0 + REACH_SLACK => ray.lab,
+                reach => ray.point(ray.d_dest * knee_compression(ray.d / ray.d_dest, reach)),
+            }
         };
-        // 4. Shadow taper: toward the black point the printable gamut narrows
-        //    to a point, where small differences of chroma take large changes
-        //    of ink; chroma there is drawn toward the lightness axis so that
-        //    the deepest shadows separate smoothly.
-        let t = ((l_mapped - self.dest.l_min) / SHADOW_TAPER_RANGE).clamp(0.0, 1.0);
-        let c_new = c_new * (SHADOW_TAPER_FLOOR + (1.0 - SHADOW_TAPER_FLOOR) * t * t * (3.0 - 2.0 * t));
-        Lch::new(l_mapped, c_new, lch.h).to_lab()
+        // 4. Shadow taper, at constant IPT hue and lightness.
+        let t = ((mapped.l - self.dest.l_min) / SHADOW_TAPER_RANGE).clamp(0.0, 1.0);
+        let keep = SHADOW_TAPER_FLOOR + (1.0 - SHADOW_TAPER_FLOOR) * t * t * (3.0 - 2.0 * t);
+        if keep >= 1.0 {
+            return mapped;
+        }
+        let (i, c, h) = working_polar(mapped);
+        from_working_polar(i, c * keep, h)
     }
 }
 
@@ -562,4 +707,48 @@ pub fn black_point_compensation(lab: Lab, source_black_y: f64, dest_black_y: f64
     let scale = (1.0 - dest_black_y) / (1.0 - source_black_y);
     let f = |v: f64, wv: f64| (v - source_black_y * wv) * scale + dest_black_y * wv;
     Lab::from_xyz(crate::colour::Xyz::new(f(xyz.x, w.x), f(xyz.y, w.y), f(xyz.z, w.z)))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn shadow_lightness_maps_black_onto_black_and_inverts() {
+        for (sb, db) in [(0.0, 9.0), (0.0, 28.0), (0.0, 2.0), (9.0, 14.0), (14.0, 9.0), (5.0, 5.0)] {
+            let curve = ShadowCurve::new(sb, db);
+            assert!((curve.map(sb) - db).abs() < 1e-12, "{sb} {db}");
+            let above = sb + curve.span + 0.1;
+            assert_eq!(curve.map(above), above);
+            let mut prev = f64::MIN;
+            for k in 0..=1000 {
+                let l = sb + k as f64 * 0.1;
+                let m = curve.map(l);
+                assert!(m > prev, "{sb} {db}: not increasing at {l}");
+                // slope between 0.2 and 1.8
+                assert!(k == 0 || (m - prev < 0.1 * 1.8 + 1e-9 && m - prev > 0.1 * 0.2 - 1e-9));
+                prev = m;
+                assert!((curve.inverse(m) - l).abs() < 1e-9, "{sb} {db} {l}: {}", curve.inverse(m));
+            }
+        }
+    }
+
+    #[test]
+    fn knee_compression_is_increasing_and_ends_on_the_boundary() {
+        for rs in [1.05, 1.5, 2.0, 4.0] {
+            assert!((knee_compression(rs, rs) - 1.0).abs() < 1e-12, "{rs}");
+            assert_eq!(knee_compression(KNEE, rs), KNEE);
+            let mut prev = knee_compression(KNEE, rs);
+            let steps = 1000;
+            for k in 1..=steps {
+                let r = KNEE + (rs - KNEE) * k as f64 / steps as f64;
+                let v = knee_compression(r, rs);
+                assert!(v > prev, "rs {rs}: flat at {r}");
+                prev = v;
+            }
+            // The slope just past the knee is 1 (no crease).
+            let e = 1e-7;
+            assert!(((knee_compression(KNEE + e, rs) - KNEE) / e - 1.0).abs() < 1e-3);
+        }
+    }
 }

@@ -5,12 +5,14 @@
 mod black;
 mod engine;
 pub mod gamut;
+mod picture;
 mod reseparation;
 pub mod solve;
 mod table;
 
 pub use black::BlackGeneration;
-pub use engine::{IN_GAMUT_TOLERANCE, Intent, Limit, LimitSet, Separation, SeparationSettings, Separator, SourceMapping};
+pub use engine::{CompressFrom, IN_GAMUT_TOLERANCE, Intent, Limit, LimitSet, Separation, SeparationSettings, Separator, SourceMapping};
 pub use gamut::{GamutBoundary, PerceptualMap, RgbGamut, SourceGamut};
+pub use picture::{PictureGamut, RgbCode, distinct_colours};
 pub use reseparation::{BLACK_CURVE_STEPS, CmykSourceGamut, DEFAULT_RESEPARATION_GRID, RESEPARATION_GRID_RANGE, ReseparationTable};
 pub use table::SeparationTable;

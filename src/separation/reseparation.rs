@@ -175,8 +175,8 @@ impl ReseparationTable {
         let mapping = match settings.intent {
             Intent::Perceptual => NodeMapping::Perceptual(PerceptualMap::new(
                 target.gamut(),
-                Some(target.process_primaries()),
-                Some(target.process_ridge()),
+                &target.process_ridge(),
+                target_black,
                 &source_gamut,
                 source_gamut.black_point().l,
             )),

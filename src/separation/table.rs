@@ -236,10 +236,10 @@ const SHADOW_RANGE: f64 = 13.0;
 /// Smoothing passes in the shadows.
 const SHADOW_PASSES: usize = 3;
 
-/// Used with relative colorimetric with black point compensation, which
-/// carries the source black onto the press black point so that the whole
-/// shadow range is reproduced (see `Separator::smooths_shadows_in_ink`; the
-/// perceptual intent shapes its shadows in the mapping instead).
+/// Used with relative colorimetric with black point compensation and with
+/// perceptual, which carry the source black onto the press black point so
+/// that the whole shadow range is reproduced (see
+/// `Separator::smooths_shadows_in_ink`).
 ///
 /// Near the black point the press responds little to any ink but black: the
 /// exact inversion there swings the other plates widely for small colour

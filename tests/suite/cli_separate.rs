@@ -126,6 +126,40 @@ fn composite_and_plates_agree_and_respect_the_ink_limit() {
     assert_eq!(summary["tac"]["limit"], 280.0);
     assert!(summary["tac"]["max"].as_f64().unwrap() <= 281.0);
     assert!(summary["notes"][0].as_str().unwrap().contains("srgb assumed"));
+    // The default perceptual intent compressed from the picture's own colours.
+    assert_eq!(summary["settings"]["intent"], "perceptual");
+    assert_eq!(summary["settings"]["compress_from"], "picture", "{}", summary["settings"]);
+}
+
+/// `--compress-from space` is echoed in the summary and the printed ticket;
+/// a ticket with another value is refused, naming the file and the key.
+#[test]
+fn the_source_of_compression_is_a_setting() {
+    let o = Outputs::new();
+    let input = o.path("art.png");
+    write_png(&input, 8, 8, 3, 8, &picture(8, 8, 3, 255), None);
+    separate(&input, &o.path("out"), &["--compress-from", "space"]).success();
+    let s: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(o.path("out").join("art.summary.json")).unwrap()).unwrap();
+    assert_eq!(s["settings"]["compress_from"], "space");
+    let printed = platesmith()
+        .args(["separate", "--print-ticket", "--compress-from", "space"])
+        .assert()
+        .success();
+    assert!(String::from_utf8_lossy(&printed.get_output().stdout).contains("compress_from = \"space\""));
+    let ticket = o.path("job.toml");
+    std::fs::write(&ticket, "[model]\ncompress_from = \"everything\"\n").unwrap();
+    let bad = platesmith()
+        .arg("separate")
+        .arg(&input)
+        .arg("--ticket")
+        .arg(&ticket)
+        .arg("--out-dir")
+        .arg(o.path("bad"))
+        .assert()
+        .code(2);
+    let err = String::from_utf8_lossy(&bad.get_output().stderr).to_string();
+    assert!(err.contains("job.toml") && err.contains("compress_from"), "{err}");
+    assert!(!o.path("bad").exists());
 }
 
 #[test]
@@ -186,7 +220,9 @@ fn no_eight_bit_output_exceeds_the_ink_limit_or_maximum_black() {
     write_png(&rgb8, w, h, 3, 8, &dark.iter().map(|&v| v / 257).collect::<Vec<_>>(), None);
     let gray = o.path("gray.png");
     write_png(&gray, 16, 16, 1, 8, &picture(16, 16, 1, 255), None);
-    let limits = ["--tac", "280", "--black-max", "96"];
+    // Relative colorimetric carries every colour darker than the press black
+    // onto it, at the limit (perceptual keeps the shadows' gradation above it).
+    let limits = ["--tac", "280", "--black-max", "96", "--intent", "relative"];
     let (tac_codes, k_codes) = (714, 244); // floor(2.80 · 255), floor(0.96 · 255)
     separate(&rgb16, &out, &limits).success();
     separate(&rgb8, &out, &limits).success();

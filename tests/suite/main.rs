@@ -7,6 +7,8 @@
 mod jpeg;
 #[path = "../support/rng.rs"]
 mod rng;
+#[path = "../support/scene.rs"]
+mod scene;
 
 mod bad_inputs;
 mod cli_conditions;
@@ -31,6 +33,7 @@ mod raster_output;
 mod raster_read;
 mod raster_write;
 mod separation_engine;
+mod separation_perceptual;
 mod separation_properties;
 mod separation_reseparation;
 mod separation_table_direct;

@@ -183,21 +183,28 @@ fn ramps_separate_smoothly() {
 }
 
 /// The same on the other built-in conditions. Uncoated offset holds 3 %
-/// (measured 2.75 % perceptual, 1.96 % relative with BPC); so does newsprint
+/// with relative and BPC (1.96 %) but not perceptual (see below); so does newsprint
 /// with relative and BPC (2.35 %). Newsprint perceptual does not: at the
 /// saturated end of the red, green and blue ramps its 240 % limit makes
 /// black give way to the colour inks within a few input steps (blue 216 →
-/// 219: K 57 → 45 %, C 57 → 72 %), up to 6.27 % per step (measured). The
-/// printed colour moves smoothly there (on blue 200–255 at most 0.71 ΔE2000
-/// per input step, measured); the plates are steep. Held at 6.5 % so that a
-/// regression fails.
+/// 219: K 57 → 45 %, C 57 → 72 %), up to 6.27 % per step (measured before the
+/// shadow lightness curve, 7.45 % with it). The printed colour moves
+/// smoothly there (on blue 200–255 at most 0.71 ΔE2000 per input step,
+/// measured); the plates are steep. Held at 7.5 % so that a regression fails.
 #[test]
 fn ramps_separate_smoothly_on_the_other_builtin_conditions() {
     for (name, intent, bpc, limit) in [
-        ("uncoated-offset", Intent::Perceptual, false, 0.03),
+        // Perceptual's lightness curve carries the source black onto this
+        // press's black (L* 26) over a shorter span than the linear mapping it
+        // replaced: the green ramp steps by 3.53 % at code 27 and the red by
+        // 3.14 % at code 25, under K 78–95 % (measured; 2.75 % before). Held
+        // there so that a regression fails.
+        ("uncoated-offset", Intent::Perceptual, false, 0.036),
         ("uncoated-offset", Intent::Relative, true, 0.03),
         ("newsprint", Intent::Relative, true, 0.03),
-        ("newsprint", Intent::Perceptual, false, 0.065),
+        // 7.45 % measured (blue ramp, deep shadows under K 60–70 %) with the
+        // shadow lightness curve of the perceptual intent.
+        ("newsprint", Intent::Perceptual, false, 0.075),
     ] {
         let c = platesmith::press::builtin::by_name(name).unwrap();
         ramps_are_smooth(&table_on(c, intent, bpc), &format!("{name} {intent:?} bpc {bpc}"), limit);
@@ -268,7 +275,11 @@ fn primaries_separate_as_subtractive_mixing_predicts() {
         let green = build_of(&sep, [0, 255, 0]);
         assert!(green.c > 0.5 && green.y > 0.7 && green.m < 0.1, "{intent:?} green {green:?}");
         let blue = build_of(&sep, [0, 0, 255]);
-        assert!(blue.c > 0.7 && blue.m > 0.7 && blue.y < 0.1, "{intent:?} blue {blue:?}");
+        // Perceptual keeps the IPT hue of sRGB blue rather than turning it
+        // onto the process blue (C+M): 96 % cyan, 69 % magenta on coated
+        // offset (measured), still a two-colour blue.
+        let magenta = if intent == Intent::Perceptual { 0.6 } else { 0.7 };
+        assert!(blue.c > 0.7 && blue.m > magenta && blue.y < 0.1, "{intent:?} blue {blue:?}");
         let black = build_of(&sep, [0, 0, 0]);
         let s = sep.settings();
         assert!(black.k >= s.black.black_max - 0.02, "{intent:?} black {black:?}");
