@@ -8,8 +8,12 @@ use platesmith::icc::{IccVersion, OutputProfileSpec, build_output_profile};
 use platesmith::ink::Cmyk;
 use std::path::Path;
 
+/// `seed [DIR]`: writes into DIR/<target>/ (default: this crate's corpus folder).
 fn main() {
-    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("corpus");
+    let root = match std::env::args_os().nth(1) {
+        Some(dir) => std::path::PathBuf::from(dir),
+        None => Path::new(env!("CARGO_MANIFEST_DIR")).join("corpus"),
+    };
     let mut written = 0;
     let mut put = |target: &str, name: &str, bytes: &[u8]| {
         let dir = root.join(target);
@@ -86,6 +90,7 @@ fn profiles() -> Vec<(&'static str, Vec<u8>)> {
             gamut: &gamut,
             a2b_grid: 2,
             b2a_grid: 2,
+            float_b2d: None,
         };
         out.push((name, build_output_profile(&spec).expect("CMYK profile")));
     }
