@@ -18,6 +18,7 @@
 //! command line and the job ticket expose (maximum pixels a side, maximum memory).
 
 mod output;
+pub mod png_colour;
 mod read;
 mod sniff;
 mod write;
@@ -232,6 +233,8 @@ pub struct Raster {
     /// The embedded ICC profile, byte for byte.
     pub icc_profile: Option<Vec<u8>>,
     pub resolution: Option<Resolution>,
+    /// PNG sRGB, gAMA and cHRM chunks (`None` for other formats and for PNG without them).
+    pub colour_chunks: Option<png_colour::ColourChunks>,
     pub format: Format,
 }
 
