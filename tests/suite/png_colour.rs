@@ -255,3 +255,32 @@ fn a_linear_gray_file_puts_more_black_on_the_plate_than_the_same_bytes_as_srgb()
     assert!(lin[8] + 20 < srgb[8], "linear {} vs sRGB {}", lin[8], srgb[8]);
     assert!(summary(&out, "linear")["source"].as_str().unwrap().starts_with("PNG gAMA 1"));
 }
+
+/// The proof's original (the left half of --side-by-side) reads the chunks as
+/// `separate` does: the linear file shows as its sRGB equivalent, within 1 code
+/// (re-encoding 8-bit linear values into 8-bit sRGB).
+#[test]
+fn the_proof_shows_the_original_through_the_chunks() {
+    let dir = tempfile::tempdir().unwrap();
+    let proof = |name: &str| {
+        let out = dir.path().join(name);
+        Command::cargo_bin("platesmith")
+            .unwrap()
+            .args(["proof", "--side-by-side", "--table-grid", "9", "--out"])
+            .arg(&out)
+            .arg(fixture(name))
+            .assert()
+            .success();
+        let raster = read_raster(&out, &Limits::default()).unwrap();
+        let Samples::U8(v) = raster.samples else {
+            panic!("8-bit proof expected")
+        };
+        let row = raster.width as usize * 3;
+        // The left half of every row: the original.
+        v.chunks_exact(row).flat_map(|r| r[..row / 2].to_vec()).collect::<Vec<u8>>()
+    };
+    let (linear, equivalent, plain) = (proof("gama-1.png"), proof("gama-1-as-srgb.png"), proof("plain.png"));
+    let max = |a: &[u8], b: &[u8]| a.iter().zip(b).map(|(x, y)| x.abs_diff(*y)).max().unwrap();
+    assert!(max(&linear, &equivalent) <= 1, "{}", max(&linear, &equivalent));
+    assert!(max(&linear, &plain) > 40);
+}
