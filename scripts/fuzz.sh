@@ -9,6 +9,7 @@
 #   RUNS=1000000 scripts/fuzz.sh     # this many executions for every target
 #   KEEP=1 scripts/fuzz.sh           # merge inputs with new edges into fuzz/corpus/<target>/
 #   NICE=19 scripts/fuzz.sh          # at a low priority on a shared machine
+#   SEEDS=0 scripts/fuzz.sh          # use the committed seeds as they are (no seed build)
 #
 # Seeds are remade by code (fuzz/examples/seed.rs) into fuzz/corpus/<target>/;
 # each run works in fuzz/target/corpus-work/<target>/ so the kept corpus only
@@ -28,7 +29,9 @@ commit=$(git rev-parse --short=10 HEAD)
 if ! git diff --quiet HEAD -- .. 2>/dev/null; then
     commit="$commit+changes"
 fi
-cargo run --quiet --example seed
+if [ "${SEEDS:-1}" != 0 ]; then
+    cargo run --quiet --example seed
+fi
 
 summary=""
 for t in $targets; do
