@@ -61,7 +61,8 @@ for t in $targets; do
         echo "$t: the fuzzer gave no statistics (see fuzz/$log)" >&2
         exit 1
     fi
-    line="$t: $executed executions, no crash, $(( $(date +%s) - started )) s, commit $commit, $(date -u +%Y-%m-%d)"
+    rate=$(sed -n 's/^stat::average_exec_per_sec: *//p' "$log" | tail -n 1)
+    line="$t: $executed executions, no crash, $rate exec/s, $(( $(date +%s) - started )) s with the build, commit $commit, $(date -u +%Y-%m-%d)"
     echo "$line" >> target/fuzz-counts.txt
     summary="$summary$line
 "
