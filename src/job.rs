@@ -328,34 +328,61 @@ impl Workshop {
         table
     }
 
-    /// The RGB source of a file: its embedded profile, or the assumed space.
-    fn source_of(&self, raster: &Raster, path: &Path, notes: &mut Vec<String>) -> Result<(Vec<u8>, RgbSource)> {
-        let assumed = RgbSource::Named(self.options.source_space);
+    /// The RGB source of a file and how the summary names it: its embedded
+    /// profile (named by its description tag), else what its PNG colour chunks
+    /// say (sRGB, or gAMA and cHRM), else the assumed space. The first element
+    /// keys the table cache.
+    fn source_of(&self, raster: &Raster, path: &Path, notes: &mut Vec<String>) -> Result<(Vec<u8>, RgbSource, String)> {
+        let gray = matches!(raster.layout, Layout::Gray | Layout::GrayAlpha);
+        let assumed = self.options.source_space.name();
         match &raster.icc_profile {
-            Some(bytes) if raster.layout != Layout::Gray && raster.layout != Layout::GrayAlpha => match RgbSource::from_icc(bytes, path) {
-                Ok(s) => Ok((bytes.clone(), s)),
+            Some(bytes) if !gray => match RgbSource::from_icc(bytes, path) {
+                Ok(s) => {
+                    notes.extend(raster.colour_chunks.as_ref().and_then(|c| c.outranked_note()));
+                    let described = s.describe();
+                    Ok((bytes.clone(), s, described))
+                }
                 Err(e) if self.options.ignore_bad_profile => {
-                    notes.push(format!("{e}; ignored, {} assumed", self.options.source_space.name()));
-                    Ok((Vec::new(), assumed))
+                    notes.push(format!("{e}; ignored"));
+                    self.chunk_or_assumed_source(raster, path, notes, format!("{assumed} assumed"))
                 }
                 Err(e) => Err(Error::input(
                     path,
-                    format!(
-                        "{}; give --ignore-bad-profile to assume {} instead",
-                        strip_path(&e, path),
-                        self.options.source_space.name()
-                    ),
+                    format!("{}; give --ignore-bad-profile to assume {assumed} instead", strip_path(&e, path),),
                 )),
             },
             Some(_) => {
-                notes.push(format!("gray profile not used; {} gray assumed", self.options.source_space.name()));
-                Ok((Vec::new(), assumed))
+                notes.push("gray profile not used".into());
+                self.chunk_or_assumed_source(raster, path, notes, format!("{assumed} gray assumed"))
             }
-            None => {
-                notes.push(format!("no embedded profile; {} assumed", self.options.source_space.name()));
-                Ok((Vec::new(), assumed))
-            }
+            None => self.chunk_or_assumed_source(raster, path, notes, format!("no embedded profile; {assumed} assumed")),
         }
+    }
+
+    /// The space a file's PNG colour chunks give (noted, with what could not be
+    /// used), else the assumed space with the note `assumed_note`.
+    fn chunk_or_assumed_source(
+        &self,
+        raster: &Raster,
+        path: &Path,
+        notes: &mut Vec<String>,
+        assumed_note: String,
+    ) -> Result<(Vec<u8>, RgbSource, String)> {
+        let chunks = raster.colour_chunks.as_ref();
+        notes.extend(chunks.iter().flat_map(|c| c.notes.iter().cloned()));
+        if let Some(space) = chunks.and_then(|c| c.space.as_ref()) {
+            let (key, source) = RgbSource::from_chunks(space, path)?;
+            let built = if space.named().is_some() { "" } else { ", built with lcms2" };
+            notes.push(format!("source space from the PNG colour chunks: {}{built}", space.describe()));
+            return Ok((key, source, space.describe()));
+        }
+        notes.push(assumed_note);
+        let assumed = self.options.source_space;
+        Ok((
+            format!("named:{}", assumed.name()).into_bytes(),
+            RgbSource::Named(assumed),
+            format!("{} (assumed)", assumed.name()),
+        ))
     }
 
     /// Separates one file and writes its outputs.
@@ -389,9 +416,12 @@ impl Workshop {
         let black_only = self.options.gray == GrayMode::BlackOnly || raster.line_art;
         let mut rgb_source = None;
         let mut compressed_from = None;
+        let mut source_description = None;
         let (image, table_ms, separate_ms) = match to_rgb(&raster, &mut notes) {
             Some(_) if gray && black_only => {
-                let cmyk = self.gray_to_black(&raster);
+                let (_, source, described) = self.source_of(&raster, path, &mut notes)?;
+                source_description = Some(described);
+                let cmyk = self.gray_to_black(&raster, &source);
                 if !raster.line_art {
                     notes.push("gray input on the black plate only".into());
                 }
@@ -401,7 +431,8 @@ impl Workshop {
                 if gray {
                     notes.push("gray separated as neutrals".into());
                 }
-                let (key, source) = self.source_of(&raster, path, &mut notes)?;
+                let (key, source, described) = self.source_of(&raster, path, &mut notes)?;
+                source_description = Some(described);
                 let settings = self.separator.settings();
                 let table = if settings.intent == Intent::Perceptual && settings.compress_from == CompressFrom::Picture {
                     compressed_from = Some(CompressFrom::Picture);
@@ -477,12 +508,9 @@ impl Workshop {
         };
         let image = CmykImage::new(raster.width, raster.height, image)?;
         let stats = InkStats::of_samples(&image.samples, self.separator.settings().tac);
-        let source_description = if raster.layout == Layout::Cmyk {
-            format!("CMYK for {}", self.options.source_condition.name)
-        } else if notes.iter().any(|n| n.contains("assumed")) {
-            format!("{} (assumed)", self.options.source_space.name())
-        } else {
-            "embedded ICC profile".into()
+        let source_description = match source_description {
+            Some(d) => d,
+            None => format!("CMYK for {}", self.options.source_condition.name),
         };
         Ok(SeparatedFile {
             raster,
@@ -526,7 +554,7 @@ impl Workshop {
     pub fn write_outputs_in(&self, path: &Path, separated: &SeparatedFile, started: Instant, place: &OutputPlace) -> Result<JobSummary> {
         let SeparatedFile { raster, image, stats, .. } = separated;
         let t = Instant::now();
-        let stem = path.file_stem().and_then(|s| s.to_str()).unwrap_or("image").to_string();
+        let stem = output_stem(path).to_string();
         let mut out = OutputSet::new(place.dir, self.options.overwrite)?;
         out.protect([path]);
         let icc = self.output_profile()?;
@@ -631,17 +659,19 @@ impl Workshop {
         }
     }
 
-    /// Gray on black only: black whose printed lightness matches the gray's.
-    fn gray_to_black(&self, raster: &Raster) -> Samples {
+    /// Gray on black only: black whose printed lightness matches the gray's
+    /// (its lightness as a neutral of `source`).
+    fn gray_to_black(&self, raster: &Raster, source: &RgbSource) -> Samples {
         let sep = &self.separator;
-        let conv = self.options.source_space.converter();
+        let grays: Vec<[f64; 3]> = (0..=4095).map(|i| [i as f64 / 4095.0; 3]).collect();
+        let targets = source.labs_of(&grays);
         let k_max = sep.settings().black.black_max;
         // Lightness of black-only builds, to invert by bisection.
         let lightness_of = |k: f64| sep.printed_relative(Cmyk::new(0.0, 0.0, 0.0, k)).l;
-        let curve: Vec<f64> = (0..=4095)
-            .map(|i| {
-                let g = i as f64 / 4095.0;
-                let target = conv.to_lab(crate::colour::EncodedRgb([g, g, g])).l;
+        let curve: Vec<f64> = targets
+            .iter()
+            .map(|lab| {
+                let target = lab.l;
                 let (mut lo, mut hi) = (0.0, k_max);
                 for _ in 0..40 {
                     let mid = 0.5 * (lo + hi);
@@ -718,6 +748,12 @@ fn flatten_gray(g: f64, alpha: Option<f64>, max: f64) -> f64 {
         Some(a) => g * a / max + max * (1.0 - a / max),
         None => g,
     }
+}
+
+/// The stem every output of `input` is named after: the file stem when it is
+/// UTF-8, else `image`.
+pub fn output_stem(input: &Path) -> &str {
+    input.file_stem().and_then(|s| s.to_str()).unwrap_or("image")
 }
 
 /// The error text without the leading path (for wrapping with advice).

@@ -246,10 +246,17 @@ impl Proofer {
                     t.transform_pixels(&rgb, &mut out);
                     out
                 }
-                None => {
-                    let conv = space.converter();
-                    rgb.iter().map(|&v| conv.to_lab(EncodedRgb(v)).to_array()).collect()
-                }
+                // No profile: the PNG colour chunks (sRGB, gAMA/cHRM) as `separate` reads them, else the assumed space.
+                None => match raster.colour_chunks.as_ref().and_then(|c| c.space.as_ref()) {
+                    Some(chunks) => {
+                        let (_, source) = crate::source::RgbSource::from_chunks(chunks, path)?;
+                        source.labs_of(&rgb).into_iter().map(|l| l.to_array()).collect()
+                    }
+                    None => {
+                        let conv = space.converter();
+                        rgb.iter().map(|&v| conv.to_lab(EncodedRgb(v)).to_array()).collect()
+                    }
+                },
             }
         };
         let mut out = vec![0u8; pixels * 3];

@@ -1,5 +1,6 @@
-//! Where source RGB colour comes from: a named RGB space, or the ICC profile
-//! embedded in the file, read through lcms2.
+//! Where source RGB colour comes from: a named RGB space, the ICC profile
+//! embedded in the file, or the space a PNG file's gAMA and cHRM chunks
+//! describe, both of the latter through lcms2.
 //!
 //! Both give CIELAB D50 in the ICC profile connection space (media-relative
 //! colorimetry, ICC.1:2022 §6.3) for the nodes of the separation table, and a
@@ -7,12 +8,17 @@
 
 use crate::colour::{EncodedRgb, Lab, RgbSpace};
 use crate::error::{Error, Result};
+use crate::raster::png_colour::{Chromaticities, ChunkSpace};
 use crate::separation::{RgbGamut, SourceGamut};
-use lcms2::{CIExyY, ColorSpaceSignature, DisallowCache, Flags, GlobalContext, Intent, PixelFormat, Profile, Transform};
+use lcms2::{
+    CIExyY, CIExyYTRIPLE, ColorSpaceSignature, DisallowCache, Flags, GlobalContext, Intent, PixelFormat, Profile, ToneCurve, Transform,
+};
 use std::path::Path;
 
 /// An ICC-described RGB source, shareable across threads.
 pub struct IccRgb {
+    /// How the summary names it: the embedded profile by its description tag, or
+    /// the PNG chunks it was built from.
     description: String,
     to_lab: Transform<[f64; 3], [f64; 3], GlobalContext, DisallowCache>,
     from_lab: Transform<[f64; 3], [f64; 3], GlobalContext, DisallowCache>,
@@ -33,11 +39,54 @@ impl RgbSource {
             let space = format!("{:?}", profile.color_space());
             return Err(bad(&format!("describes {} data, not RGB", space.trim_end_matches("Data"))));
         }
+        let description = profile
+            .info(lcms2::InfoType::Description, lcms2::Locale::none())
+            .filter(|d| !d.trim().is_empty())
+            .unwrap_or_else(|| "unnamed".to_string());
+        Self::from_profile(&profile, format!("embedded ICC profile \"{description}\""), &bad)
+    }
+
+    /// The space that PNG gAMA and cHRM chunks describe (`ChunkSpace::Described`),
+    /// built as a matrix/TRC profile by lcms2 (`cmsCreateRGBProfile`: the primaries
+    /// adapted to D50 by Bradford, ICC.1:2022 Annex E); a missing chunk stands in
+    /// with sRGB's primaries or its transfer function. A named space (the sRGB
+    /// chunk) is returned as such. Together with the profile's ICC bytes, which key
+    /// the table cache.
+    pub fn from_chunks(space: &ChunkSpace, file: &Path) -> Result<(Vec<u8>, RgbSource)> {
+        let (gamma, chromaticities) = match space {
+            ChunkSpace::Described { gamma, chromaticities } => (*gamma, chromaticities.unwrap_or(Chromaticities::SRGB)),
+            other => {
+                let named = other.named().unwrap_or(RgbSpace::Srgb);
+                return Ok((format!("named:{}", named.name()).into_bytes(), RgbSource::Named(named)));
+            }
+        };
+        let bad = |what: &str| Error::input(file, format!("PNG colour chunks {what}"));
+        let xyy = |p: [f64; 2]| CIExyY { x: p[0], y: p[1], Y: 1.0 };
+        let white = xyy(chromaticities.white);
+        let primaries = CIExyYTRIPLE {
+            Red: xyy(chromaticities.red),
+            Green: xyy(chromaticities.green),
+            Blue: xyy(chromaticities.blue),
+        };
+        let curve = match gamma {
+            // gAMA is the encoding exponent (ISO/IEC 15948 §11.3.3.2): decode with its inverse.
+            Some(g) => ToneCurve::new(1.0 / g),
+            // The sRGB transfer function (IEC 61966-2-1) as ICC parametric curve type 4.
+            None => ToneCurve::new_parametric(4, &[2.4, 1.0 / 1.055, 0.055 / 1.055, 1.0 / 12.92, 0.04045])
+                .map_err(|e| Error::Internal(format!("sRGB tone curve: {e}")))?,
+        };
+        let profile =
+            Profile::new_rgb(&white, &primaries, &[&curve, &curve, &curve]).map_err(|e| bad(&format!("give no colour space ({e})")))?;
+        let key = profile.icc().map_err(|e| Error::Internal(format!("PNG chunk profile: {e}")))?;
+        Ok((key, Self::from_profile(&profile, space.describe(), &bad)?))
+    }
+
+    fn from_profile(profile: &Profile, description: String, bad: &dyn Fn(&str) -> Error) -> Result<RgbSource> {
         let lab = Profile::new_lab4_context(GlobalContext::new(), CIExyY::d50()).map_err(|e| Error::Internal(e.to_string()))?;
         let intent = Intent::RelativeColorimetric;
         let to_lab = Transform::new_flags_context(
             GlobalContext::new(),
-            &profile,
+            profile,
             PixelFormat::RGB_DBL,
             &lab,
             PixelFormat::Lab_DBL,
@@ -49,16 +98,12 @@ impl RgbSource {
             GlobalContext::new(),
             &lab,
             PixelFormat::Lab_DBL,
-            &profile,
+            profile,
             PixelFormat::RGB_DBL,
             intent,
             Flags::NO_CACHE,
         )
         .map_err(|e| bad(&format!("cannot convert from CIELAB ({e})")))?;
-        let description = profile
-            .info(lcms2::InfoType::Description, lcms2::Locale::none())
-            .filter(|d| !d.trim().is_empty())
-            .unwrap_or_else(|| "unnamed".to_string());
         Ok(RgbSource::Icc(Box::new(IccRgb {
             description,
             to_lab,
@@ -70,7 +115,7 @@ impl RgbSource {
     pub fn describe(&self) -> String {
         match self {
             RgbSource::Named(s) => s.name().to_string(),
-            RgbSource::Icc(p) => format!("embedded ICC profile \"{}\"", p.description),
+            RgbSource::Icc(p) => p.description.clone(),
         }
     }
 

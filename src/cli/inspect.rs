@@ -140,7 +140,7 @@ pub fn options(args: &InspectArgs, ticket_rules: &[String]) -> Result<InspectOpt
 /// Writes the report folder of one file as one set (all files or none).
 pub fn write_report_dir(dir: &Path, overwrite: bool, input: &Path, inspection: &Inspection, separator: &Separator) -> Result<Vec<PathBuf>> {
     let r = &inspection.report;
-    let stem = input.file_stem().and_then(|s| s.to_str()).unwrap_or("image").to_string();
+    let stem = super::output_names::output_stem(input).to_string();
     let maps = inspection
         .maps
         .as_ref()
@@ -340,6 +340,14 @@ pub fn run(args: InspectArgs) -> Result<i32> {
         source_condition: setup.condition.clone(),
         keep_pure_black_cmyk: true,
     };
+    if let Some(dir) = &args.report {
+        super::output_names::check_unique(&args.inputs, dir, "reports", |stem| {
+            ["inspect.json", "regions.csv", "de-map.png", "ink-map.png", "inspect.html"]
+                .iter()
+                .map(|suffix| format!("{stem}.{suffix}"))
+                .collect()
+        })?;
+    }
     let workshop = Workshop::new(separator, report_settings, options);
     let (mut reports, mut bad, mut failed) = (Vec::new(), 0usize, 0usize);
     for input in &args.inputs {

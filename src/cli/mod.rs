@@ -6,6 +6,7 @@ mod fit;
 pub mod hotfolder;
 pub mod inspect;
 pub mod options;
+mod output_names;
 pub mod profile;
 pub mod proof;
 pub mod recipe;

@@ -219,6 +219,18 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
         crate::error::write_stdout(&ticket.to_toml()?)?;
         return Ok(0);
     }
+    super::output_names::check_unique(&args.inputs, out_dir, "outputs", |stem| {
+        let plates: &[&str] = match plates {
+            PlateFormat::Tiff => &["c.tif", "m.tif", "y.tif", "k.tif"],
+            PlateFormat::Png => &["c.png", "m.png", "y.png", "k.png"],
+            PlateFormat::None => &[],
+        };
+        ["cmyk.tif", "summary.json"]
+            .iter()
+            .chain(plates)
+            .map(|suffix| format!("{stem}.{suffix}"))
+            .collect()
+    })?;
     let workshop = build_workshop(&args, r)?;
     let progress = progress_bar(args.inputs.len() as u64);
     let (mut done, mut failed) = (0usize, 0usize);

@@ -20,6 +20,7 @@
 mod jpeg_scan;
 mod orient;
 mod output;
+pub mod png_colour;
 mod read;
 mod sniff;
 mod tiff_in;
@@ -271,6 +272,8 @@ pub struct Raster {
     /// The embedded ICC profile, byte for byte.
     pub icc_profile: Option<Vec<u8>>,
     pub resolution: Option<Resolution>,
+    /// PNG sRGB, gAMA and cHRM chunks (`None` for other formats and for PNG without them).
+    pub colour_chunks: Option<png_colour::ColourChunks>,
     pub format: Format,
     /// What reading did or found that the summary reports (orientation applied, further
     /// pages, damaged data accepted, float samples encoded, alpha un-premultiplied…).

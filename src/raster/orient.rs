@@ -171,6 +171,7 @@ mod tests {
                 x_ppi: 300.0,
                 y_ppi: 150.0,
             }),
+            colour_chunks: None,
             format: crate::raster::Format::Tiff,
             notes: Vec::new(),
             line_art: false,

@@ -13,7 +13,8 @@ use crate::{Error, Result};
 /// Reads an image, refusing from its header anything over `limits`.
 ///
 /// PNG: gray, gray+alpha, RGB, RGBA at 8 or 16 bit; palette and low-bit gray are expanded
-/// to 8 bit (a tRNS chunk becomes an alpha channel); pHYs and iCCP are read.
+/// to 8 bit (a tRNS chunk becomes an alpha channel); pHYs, iCCP and the colour chunks
+/// (sRGB, gAMA, cHRM: [`super::png_colour`]) are read.
 /// TIFF: gray (BlackIsZero or WhiteIsZero, returned as gray level), gray+alpha, RGB, RGBA and
 /// CMYK (Separated, InkSet CMYK) at 8 or 16 bit, any compression the tiff crate decodes;
 /// XResolution/YResolution/ResolutionUnit and the ICC profile tag (34675) are read.
@@ -189,6 +190,7 @@ fn read_png<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> R
         png::Unit::Unspecified => None,
     });
     let icc_profile = reader.info().icc_profile.as_ref().map(|p| p.to_vec());
+    let colour_chunks = super::png_colour::ColourChunks::from_info(reader.info());
     let size = reader
         .output_buffer_size()
         .ok_or_else(|| Error::input(path, "PNG dimensions overflow memory size"))?;
@@ -210,6 +212,7 @@ fn read_png<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> R
         samples,
         icc_profile,
         resolution,
+        colour_chunks,
         format: Format::Png,
         notes: Vec::new(),
         line_art: false,
@@ -369,6 +372,7 @@ fn read_jpeg<R: BufRead + Seek>(path: &Path, mut reader: R, file_len: u64, optio
         samples: Samples::U8(buf),
         icc_profile,
         resolution: header.resolution,
+        colour_chunks: None,
         format: Format::Jpeg,
         notes,
         line_art: false,

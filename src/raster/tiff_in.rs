@@ -298,6 +298,7 @@ fn read_page<R: std::io::Read + Seek>(
         samples,
         icc_profile,
         resolution,
+        colour_chunks: None,
         format: Format::Tiff,
         notes,
         line_art,

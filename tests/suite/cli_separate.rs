@@ -306,7 +306,12 @@ fn an_embedded_profile_changes_the_separation_as_lcms2_predicts() {
     // lcms2 says the tagged green is more saturated than sRGB's: it needs at least as much cyan+yellow
     // and lies further out of gamut, so the summary's source line names the profile.
     let s: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("tagged.summary.json")).unwrap()).unwrap();
-    assert_eq!(s["source"], "embedded ICC profile");
+    // Named by its description tag, as lcms2 reads it from the profile.
+    let description = lcms2::Profile::new_icc(&wide_profile())
+        .unwrap()
+        .info(lcms2::InfoType::Description, lcms2::Locale::none())
+        .unwrap();
+    assert_eq!(s["source"], format!("embedded ICC profile \"{description}\""));
 }
 
 #[test]
