@@ -301,15 +301,17 @@ fn fixtures() -> Vec<Fixture> {
         f("binary.txt", (0..=255u8).cycle().take(600).collect()),
         f(
             "no-solids.txt",
-            cgats("SAMPLE_ID CMYK_C CMYK_M CMYK_Y CMYK_K LAB_L LAB_A LAB_B", &NO_SOLIDS).into_bytes(),
+            cgats("CMYK_C CMYK_M CMYK_Y CMYK_K LAB_L LAB_A LAB_B", &NO_SOLIDS).into_bytes(),
         ),
     ]
 }
 
-/// Forty patches of paper and light tints: enough rows to fit, but no ink's solid.
+/// Forty patches of paper and light tints: enough rows to fit, but no ink's
+/// solid. No SAMPLE_ID column: patches are then named by their row, so none
+/// is measured twice.
 const NO_SOLIDS: [&str; 40] = {
-    const ROW: &str = "1 0 0 0 0 95 0 -2";
-    const TINT: &str = "2 20 20 20 20 70 0 -1";
+    const ROW: &str = "0 0 0 0 95 0 -2";
+    const TINT: &str = "20 20 20 20 70 0 -1";
     let mut rows = [ROW; 40];
     let mut i = 1;
     while i < 40 {
