@@ -4,6 +4,7 @@
 //! person or a script reads shows percent (0–100), and total ink (TAC) is the
 //! sum in percent, e.g. 300.
 
+use crate::settings::{Coverage, Percent};
 use serde::{Deserialize, Serialize};
 
 /// Coverage of cyan, magenta, yellow and black as fractions 0..1.
@@ -79,12 +80,12 @@ impl Cmyk {
 
     /// From percent values (0–100 each).
     pub fn from_percent(p: [f64; 4]) -> Cmyk {
-        Cmyk::from_array(p.map(|v| v / 100.0))
+        Cmyk::from_array(p.map(|v| Percent(v).coverage().0))
     }
 
     /// Percent values (0–100 each).
     pub fn to_percent(self) -> [f64; 4] {
-        self.to_array().map(|v| v * 100.0)
+        self.to_array().map(|v| Coverage(v).percent().0)
     }
 
     /// Total ink as a fraction (0..4).
@@ -95,7 +96,7 @@ impl Cmyk {
 
     /// Total ink in percent (0–400), the TAC of this build.
     pub fn total_percent(self) -> f64 {
-        self.total() * 100.0
+        Coverage(self.total()).percent().0
     }
 
     pub fn get(self, ink: Ink) -> f64 {

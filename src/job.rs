@@ -7,6 +7,7 @@ use crate::ink::{Cmyk, Ink};
 use crate::raster::{CmykImage, Compression, Layout, Limits, OutputSet, Raster, ReadOptions, Resolution, Samples, TiffOptions};
 use crate::report::{SettingsReport, round_to};
 use crate::separation::{CompressFrom, Intent, SeparationTable, Separator};
+use crate::settings::Coverage;
 use crate::source::RgbSource;
 use rayon::prelude::*;
 use serde::Serialize;
@@ -17,7 +18,7 @@ use std::sync::{Arc, Mutex};
 use std::time::Instant;
 
 /// What to do with the plates.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum PlateFormat {
     /// One single-ink TIFF per plate (WhiteIsZero: the sample is the ink value).
@@ -29,7 +30,7 @@ pub enum PlateFormat {
 }
 
 /// How grayscale input is separated.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum GrayMode {
     /// As neutral RGB through the full separation.
@@ -609,7 +610,7 @@ impl Workshop {
                 })
                 .collect(),
             tac: TacSummary {
-                limit: round_to(self.separator.settings().tac * 100.0, 1),
+                limit: round_to(Coverage(self.separator.settings().tac).percent().0, 1),
                 max: round_to(stats.tac_max * 100.0, 1),
                 p99: stats.tac_quantile(0.99),
                 mean: round_to(stats.tac_sum / px * 100.0, 1),

@@ -19,6 +19,8 @@ pub mod proof;
 pub mod raster;
 pub mod report;
 pub mod separation;
+pub mod settings;
+pub mod setup;
 pub mod source;
 pub mod ticket;
 

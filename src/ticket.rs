@@ -16,6 +16,7 @@
 //! ```
 
 use crate::error::{Error, Result};
+use crate::settings::{Origin, Percent, Setting};
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 
@@ -36,17 +37,17 @@ pub struct ModelSection {
     #[serde(skip_serializing_if = "Option::is_none")]
     pub compress_from: Option<String>,
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub tac: Option<f64>,
+    pub tac: Option<Percent>,
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub gcr: Option<f64>,
+    pub gcr: Option<Percent>,
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub black_start: Option<f64>,
+    pub black_start: Option<Percent>,
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub black_max: Option<f64>,
+    pub black_max: Option<Percent>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub black_shape: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub uca: Option<f64>,
+    pub uca: Option<Percent>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub keep_pure_black: Option<bool>,
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -169,28 +170,31 @@ impl Ticket {
         }
     }
 
+    /// Checks `[model] key = value` through the one table of ranges.
+    fn check(&self, key: &str, value: Option<f64>, setting: Setting) -> Result<()> {
+        let Some(v) = value else { return Ok(()) };
+        let name = format!("model.{key}");
+        let origin = match &self.source {
+            Some((path, text)) => Origin::File {
+                path,
+                key: &name,
+                line: line_of(text, "model", key),
+            },
+            None => Origin::Key(&name),
+        };
+        setting.check(v, origin).map(|_| ())
+    }
+
     fn validate(&self) -> Result<()> {
         let m = &self.model;
-        let ranges = [
-            ("tac", m.tac, 100.0, 400.0),
-            ("gcr", m.gcr, 0.0, 100.0),
-            ("black_start", m.black_start, 0.0, 99.0),
-            ("black_max", m.black_max, 0.0, 100.0),
-            ("black_shape", m.black_shape, 0.2, 5.0),
-            ("uca", m.uca, 0.0, 100.0),
-        ];
-        for (key, value, lo, hi) in ranges {
-            if let Some(v) = value
-                && !(v.is_finite() && (lo..=hi).contains(&v))
-            {
-                return Err(self.error_at("model", key, format!("= {v}: allowed range is {lo}–{hi}")));
-            }
-        }
-        if let Some(n) = m.table_grid
-            && !(5..=129).contains(&n)
-        {
-            return Err(self.error_at("model", "table_grid", format!("= {n}: allowed range is 5–129")));
-        }
+        let p = |v: Option<Percent>| v.map(|p| p.0);
+        self.check("tac", p(m.tac), Setting::Tac)?;
+        self.check("gcr", p(m.gcr), Setting::Gcr)?;
+        self.check("black_start", p(m.black_start), Setting::BlackStart)?;
+        self.check("black_max", p(m.black_max), Setting::BlackMax)?;
+        self.check("black_shape", m.black_shape, Setting::BlackShape)?;
+        self.check("uca", p(m.uca), Setting::Uca)?;
+        self.check("table_grid", m.table_grid.map(|n| n as f64), Setting::TableGrid)?;
         let choice = |section: &str, key: &str, value: &Option<String>, allowed: &[&str]| -> Result<()> {
             match value {
                 Some(v) if !allowed.contains(&v.as_str()) => {

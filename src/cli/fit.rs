@@ -7,6 +7,7 @@ use crate::press::condition_file::{parse_condition, to_toml};
 use crate::press::fit::Residuals;
 use crate::press::{PressModel, builtin};
 use crate::raster::OutputSet;
+use crate::settings::{Origin, Percent, Setting};
 use clap::Args;
 use std::fmt::Write as _;
 use std::io::Write as _;
@@ -80,10 +81,8 @@ pub fn run(args: FitArgs) -> Result<i32> {
             builtin::names().join(", ")
         ))
     })?;
-    match args.tac {
-        Some(t) if (100.0..=400.0).contains(&t) => base.tac = t / 100.0,
-        Some(t) => return Err(Error::usage(format!("--tac {t}: allowed 100–400 %"))),
-        None => {}
+    if let Some(t) = args.tac {
+        base.tac = Percent(Setting::Tac.check(t, Origin::Flag("--tac"))?).coverage().0;
     }
     let options = characterize::Options {
         correction: !args.physical_only,

@@ -4,10 +4,9 @@
 use super::options::{InputArgs, ModelArgs};
 use crate::error::{Error, Result};
 use crate::inspect::{InspectOptions, InspectReport, Inspection, rules};
-use crate::job::{JobOptions, PlateFormat, Workshop};
-use crate::raster::{Compression, OutputSet};
-use crate::report::SettingsReport;
+use crate::raster::OutputSet;
 use crate::separation::Separator;
+use crate::setup::{JobInput, JobKind};
 use clap::Args;
 use std::path::{Path, PathBuf};
 
@@ -319,27 +318,14 @@ pub fn run(args: InspectArgs) -> Result<i32> {
     let setup = args.model.resolve()?;
     let t = &setup.ticket;
     let opts = options(&args, &t.checks.fail_if)?;
-    let bits: u8 = match &args.bits {
-        Some(b) => b.parse().map_err(|_| Error::usage("--bits takes 8 or 16"))?,
-        None => t.output.bits.unwrap_or(8),
-    };
-    let report_settings = SettingsReport::new(&setup.condition, &setup.settings, setup.source_space);
-    let separator = Separator::new(setup.condition.clone(), setup.settings.clone())?;
-    let options = JobOptions {
-        out_dir: args.report.clone().unwrap_or_else(|| PathBuf::from(".")),
-        bits,
-        plates: PlateFormat::None,
-        compression: Compression::None,
+    let input = JobInput {
+        out_dir: args.report.clone(),
+        bits: super::separate::bits_flag(&args.bits)?,
         overwrite: args.force,
-        limits: args.input.limits(t)?,
-        accept_damaged: args.input.accept_damaged(t),
-        page: args.input.page,
-        gray: super::separate::gray_mode(None, t),
-        ignore_bad_profile: args.input.ignore_bad_profile,
-        source_space: setup.source_space,
-        source_condition: setup.condition.clone(),
-        keep_pure_black_cmyk: true,
+        read: args.input.read(),
+        ..JobInput::default()
     };
+    let job = input.resolve(JobKind::Inspect, setup)?;
     if let Some(dir) = &args.report {
         super::output_names::check_unique(&args.inputs, dir, "reports", |stem| {
             ["inspect.json", "regions.csv", "de-map.png", "ink-map.png", "inspect.html"]
@@ -348,7 +334,7 @@ pub fn run(args: InspectArgs) -> Result<i32> {
                 .collect()
         })?;
     }
-    let workshop = Workshop::new(separator, report_settings, options);
+    let workshop = job.workshop()?;
     let (mut reports, mut bad, mut failed) = (Vec::new(), 0usize, 0usize);
     for input in &args.inputs {
         let result = crate::inspect::inspect_file(&workshop, input, &opts).and_then(|inspection| {

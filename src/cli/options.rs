@@ -1,12 +1,11 @@
 //! Options shared by every command that separates or checks colour.
 
 use crate::colour::RgbSpace;
-use crate::error::{Error, Result};
-use crate::press::PrintingCondition;
-use crate::raster::Limits;
-use crate::separation::{CompressFrom, Intent, SeparationSettings};
-use crate::ticket::Ticket;
-use clap::{Args, ValueEnum};
+use crate::error::Result;
+use crate::separation::{CompressFrom, Intent};
+use crate::settings::Percent;
+use crate::setup::{ModelInput, ModelSetup, ReadInput};
+use clap::Args;
 
 /// Named source RGB spaces, as typed on the command line.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
@@ -28,6 +27,48 @@ impl From<SourceSpaceArg> for RgbSpace {
     }
 }
 
+/// Rendering intents as ICC.1:2022 §6.2.2 defines them, as typed on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum IntentArg {
+    /// Compress the source gamut into the printable gamut, keeping relations.
+    Perceptual,
+    /// Media-relative colorimetric: paper white is the white; out-of-gamut
+    /// colours are clipped to the nearest printable colour of the same hue.
+    Relative,
+    /// Absolute colorimetric: the colour as measured, paper tint included.
+    Absolute,
+}
+
+impl From<IntentArg> for Intent {
+    fn from(i: IntentArg) -> Intent {
+        match i {
+            IntentArg::Perceptual => Intent::Perceptual,
+            IntentArg::Relative => Intent::Relative,
+            IntentArg::Absolute => Intent::Absolute,
+        }
+    }
+}
+
+/// Which gamut the perceptual intent compresses from, as typed on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum CompressFromArg {
+    /// The colours of the picture being separated: a picture that barely
+    /// leaves the press gamut is barely compressed.
+    Picture,
+    /// The whole source space, whatever the picture holds (as an ICC
+    /// profile's perceptual table must).
+    Space,
+}
+
+impl From<CompressFromArg> for CompressFrom {
+    fn from(c: CompressFromArg) -> CompressFrom {
+        match c {
+            CompressFromArg::Picture => CompressFrom::Picture,
+            CompressFromArg::Space => CompressFrom::Space,
+        }
+    }
+}
+
 /// The printing condition, rendering intent, ink limit and black generation.
 #[derive(Debug, Clone, Default, Args)]
 pub struct ModelArgs {
@@ -40,33 +81,33 @@ pub struct ModelArgs {
     pub condition: Option<String>,
     /// Rendering intent. Default: perceptual.
     #[arg(long, value_enum)]
-    pub intent: Option<Intent>,
+    pub intent: Option<IntentArg>,
     /// Black point compensation (ISO 18619) with the relative intent.
     #[arg(long)]
     pub bpc: bool,
     /// What the perceptual intent compresses from: the colours of the picture
     /// itself, or the whole source space. Default: picture.
     #[arg(long, value_enum, value_name = "FROM")]
-    pub compress_from: Option<CompressFrom>,
+    pub compress_from: Option<CompressFromArg>,
     /// Total ink limit in percent (e.g. 300). Default: the condition's.
     #[arg(long, value_name = "PERCENT")]
-    pub tac: Option<f64>,
+    pub tac: Option<Percent>,
     /// Gray component replacement in percent (0 = skeleton black, 100 = black
     /// carries the neutral component as far as the limits allow).
     #[arg(long, value_name = "PERCENT")]
-    pub gcr: Option<f64>,
+    pub gcr: Option<Percent>,
     /// Darkness of the neutral component, in percent, at which black begins.
     #[arg(long, value_name = "PERCENT")]
-    pub black_start: Option<f64>,
+    pub black_start: Option<Percent>,
     /// Maximum black in percent.
     #[arg(long, value_name = "PERCENT")]
-    pub black_max: Option<f64>,
+    pub black_max: Option<Percent>,
     /// Exponent of the black curve above black start (1 linear, larger rises faster).
     #[arg(long, value_name = "EXPONENT")]
     pub black_shape: Option<f64>,
     /// Under colour addition in the deepest shadows, percent.
     #[arg(long, value_name = "PERCENT")]
-    pub uca: Option<f64>,
+    pub uca: Option<Percent>,
     /// Source pure black prints as black ink only, at the maximum black (black text stays one plate).
     #[arg(long)]
     pub keep_pure_black: bool,
@@ -78,137 +119,30 @@ pub struct ModelArgs {
     pub source_space: Option<SourceSpaceArg>,
 }
 
-/// A validated model configuration.
-#[derive(Debug, Clone)]
-pub struct ModelSetup {
-    pub condition: PrintingCondition,
-    /// The name or file the condition came from, as given.
-    pub condition_spec: String,
-    pub settings: SeparationSettings,
-    pub source_space: RgbSpace,
-    /// The ticket the job was read from (empty when none).
-    pub ticket: Ticket,
-}
-
-impl ModelSetup {
-    /// The effective model settings as a ticket section (percent), so a job
-    /// can be repeated exactly.
-    pub fn model_section(&self) -> crate::ticket::ModelSection {
-        let s = &self.settings;
-        let r = |v: f64| crate::report::round_to(v * 100.0, 4);
-        crate::ticket::ModelSection {
-            condition: Some(self.condition_spec.clone()),
-            source_condition: self.ticket.model.source_condition.clone(),
-            intent: Some(s.intent.name().to_string()),
-            bpc: Some(s.bpc),
-            compress_from: Some(s.compress_from.name().to_string()),
-            tac: Some(r(s.tac)),
-            gcr: Some(r(s.black.gcr)),
-            black_start: Some(r(s.black.black_start)),
-            black_max: Some(r(s.black.black_max)),
-            black_shape: Some(s.black.shape),
-            uca: Some(r(s.black.uca)),
-            keep_pure_black: Some(s.keep_pure_black),
-            table_grid: Some(s.table_grid),
-            source_space: Some(self.source_space.name().to_string()),
-            gray: self.ticket.model.gray.clone(),
+impl ModelArgs {
+    /// The flags as the settings layer's input (no merging yet).
+    pub fn input(&self) -> ModelInput {
+        ModelInput {
+            ticket: self.ticket.clone(),
+            condition: self.condition.clone(),
+            intent: self.intent.map(Intent::from),
+            bpc: self.bpc,
+            compress_from: self.compress_from.map(CompressFrom::from),
+            tac: self.tac,
+            gcr: self.gcr,
+            black_start: self.black_start,
+            black_max: self.black_max,
+            black_shape: self.black_shape,
+            uca: self.uca,
+            keep_pure_black: self.keep_pure_black,
+            table_grid: self.table_grid,
+            source_space: self.source_space.map(RgbSpace::from),
         }
     }
-}
 
-fn percent(name: &str, value: f64, lo: f64, hi: f64) -> Result<f64> {
-    if value.is_finite() && (lo..=hi).contains(&value) {
-        Ok(value / 100.0)
-    } else {
-        Err(Error::usage(format!("--{name} {value}: allowed range is {lo}–{hi} %")))
-    }
-}
-
-impl ModelArgs {
     /// Resolves the condition and applies the ticket, then the flags, over its defaults.
     pub fn resolve(&self) -> Result<ModelSetup> {
-        let ticket = match &self.ticket {
-            Some(path) => Ticket::load(path)?,
-            None => Ticket::default(),
-        };
-        let t = &ticket.model;
-        let condition_spec = self
-            .condition
-            .clone()
-            .or_else(|| t.condition.clone())
-            .unwrap_or_else(|| crate::press::builtin::DEFAULT.to_string());
-        let condition = crate::press::load_condition(&condition_spec).map_err(|e| match (&self.condition, &self.ticket) {
-            (None, Some(_)) if t.condition.is_some() => ticket.error_at("model", "condition", format!("= \"{condition_spec}\": {e}")),
-            _ => e,
-        })?;
-        let mut settings = SeparationSettings::for_condition(&condition);
-        // The ticket first (its values were range-checked when it was read)…
-        if let Some(i) = &t.intent {
-            settings.intent =
-                Intent::from_str(i, true).map_err(|_| ticket.error_at("model", "intent", format!("= \"{i}\" is not an intent")))?;
-        }
-        if let Some(f) = &t.compress_from {
-            settings.compress_from = CompressFrom::from_str(f, true)
-                .map_err(|_| ticket.error_at("model", "compress_from", format!("= \"{f}\" is not picture or space")))?;
-        }
-        let pct = |v: f64| v / 100.0;
-        settings.bpc = t.bpc.unwrap_or(settings.bpc);
-        settings.tac = t.tac.map(pct).unwrap_or(settings.tac);
-        settings.black.gcr = t.gcr.map(pct).unwrap_or(settings.black.gcr);
-        settings.black.black_start = t.black_start.map(pct).unwrap_or(settings.black.black_start);
-        settings.black.black_max = t.black_max.map(pct).unwrap_or(settings.black.black_max);
-        settings.black.shape = t.black_shape.unwrap_or(settings.black.shape);
-        settings.black.uca = t.uca.map(pct).unwrap_or(settings.black.uca);
-        settings.keep_pure_black = t.keep_pure_black.unwrap_or(settings.keep_pure_black);
-        settings.table_grid = t.table_grid.unwrap_or(settings.table_grid);
-        let mut source_space = t.source_space.as_deref().and_then(RgbSpace::from_name).unwrap_or(RgbSpace::Srgb);
-        // …then the flags.
-        if let Some(i) = self.intent {
-            settings.intent = i;
-        }
-        settings.bpc |= self.bpc;
-        if let Some(f) = self.compress_from {
-            settings.compress_from = f;
-        }
-        if let Some(v) = self.tac {
-            settings.tac = percent("tac", v, 100.0, 400.0)?;
-        }
-        if let Some(v) = self.gcr {
-            settings.black.gcr = percent("gcr", v, 0.0, 100.0)?;
-        }
-        if let Some(v) = self.black_start {
-            settings.black.black_start = percent("black-start", v, 0.0, 99.0)?;
-        }
-        if let Some(v) = self.black_max {
-            settings.black.black_max = percent("black-max", v, 0.0, 100.0)?;
-        }
-        if let Some(v) = self.black_shape {
-            if !(v.is_finite() && (0.2..=5.0).contains(&v)) {
-                return Err(Error::usage(format!("--black-shape {v}: allowed range is 0.2–5")));
-            }
-            settings.black.shape = v;
-        }
-        if let Some(v) = self.uca {
-            settings.black.uca = percent("uca", v, 0.0, 100.0)?;
-        }
-        settings.keep_pure_black |= self.keep_pure_black;
-        if let Some(n) = self.table_grid {
-            if !(5..=129).contains(&n) {
-                return Err(Error::usage(format!("--table-grid {n}: allowed range is 5–129")));
-            }
-            settings.table_grid = n;
-        }
-        if let Some(s) = self.source_space {
-            source_space = s.into();
-        }
-        settings.validate()?;
-        Ok(ModelSetup {
-            condition,
-            condition_spec,
-            settings,
-            source_space,
-            ticket,
-        })
+        self.input().resolve()
     }
 }
 
@@ -235,30 +169,14 @@ pub struct InputArgs {
 }
 
 impl InputArgs {
-    /// Whether damaged JPEG data is accepted: the flag, else the ticket's `[limits] accept_damaged`.
-    pub fn accept_damaged(&self, t: &Ticket) -> bool {
-        self.accept_damaged || t.limits.accept_damaged.unwrap_or(false)
-    }
-
-    /// Reading limits: the flags, else the ticket's, else the defaults. A zero
-    /// side and a zero or overflowing memory budget are refused.
-    pub fn limits(&self, t: &Ticket) -> Result<Limits> {
-        let mut limits = Limits::default();
-        if let Some(side) = self.max_side.or(t.limits.max_side) {
-            if side == 0 {
-                return Err(Error::usage(
-                    "--max-side is 0; give the largest image side to accept, in pixels (at least 1)",
-                ));
-            }
-            limits.max_width = side;
-            limits.max_height = side;
+    /// The flags as the settings layer's input; the ticket's `[limits]` fills the rest.
+    pub fn read(&self) -> ReadInput {
+        ReadInput {
+            ignore_bad_profile: self.ignore_bad_profile,
+            max_side: self.max_side,
+            max_memory_mib: self.max_memory,
+            accept_damaged: self.accept_damaged,
+            page: self.page,
         }
-        if let Some(mib) = self.max_memory.or(t.limits.max_memory_mib) {
-            limits.max_bytes = match mib.checked_mul(1 << 20) {
-                Some(bytes) if mib > 0 => bytes,
-                _ => return Err(Error::usage(format!("--max-memory is {mib} MiB; give 1 to {} MiB", u64::MAX >> 20))),
-            };
-        }
-        Ok(limits)
     }
 }

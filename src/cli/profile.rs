@@ -5,6 +5,7 @@ use super::options::ModelArgs;
 use crate::error::{Error, Result};
 use crate::icc::{IccVersion, ProfileOptions, profile_for};
 use crate::raster::OutputSet;
+use crate::settings::InkEcho;
 use clap::Args;
 use std::path::{Path, PathBuf};
 use std::time::Instant;
@@ -68,15 +69,16 @@ pub fn run(args: ProfileArgs) -> Result<i32> {
     let path = out.stage(&name, |w| std::io::Write::write_all(w, &bytes))?;
     out.commit()?;
     let s = &setup.settings;
+    let e = InkEcho::new(s.tac, &s.black);
     eprintln!(
         "{}: ICC {:.1} output profile{} for {} (TAC {:.0} %, GCR {:.0} %, maximum black {:.0} %), {} KiB, {:.1} s",
         path.display(),
         version.number(),
         if float_tables { " with floating-point BToD tables" } else { "" },
         setup.condition.name,
-        s.tac * 100.0,
-        s.black.gcr * 100.0,
-        s.black.black_max * 100.0,
+        e.tac.0,
+        e.gcr.0,
+        e.black_max.0,
         bytes.len().div_ceil(1024),
         started.elapsed().as_secs_f64()
     );

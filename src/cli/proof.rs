@@ -7,11 +7,9 @@
 use super::options::{InputArgs, ModelArgs};
 use super::profile::output_place;
 use crate::error::{Error, Result};
-use crate::job::{JobOptions, PlateFormat, Workshop};
 use crate::proof::{PROGRESSIVES, Proofer, side_by_side, write_png};
-use crate::raster::{Compression, Layout, OutputSet};
-use crate::report::SettingsReport;
-use crate::separation::Separator;
+use crate::raster::{Layout, OutputSet};
+use crate::setup::{JobInput, JobKind};
 use clap::Args;
 use std::path::PathBuf;
 
@@ -45,9 +43,15 @@ pub struct ProofArgs {
 
 pub fn run(args: ProofArgs) -> Result<i32> {
     let setup = args.model.resolve()?;
-    let t = &setup.ticket;
-    let limits = args.input_args.limits(t)?;
+    let mut job = JobInput {
+        overwrite: args.force,
+        read: args.input_args.read(),
+        ..JobInput::default()
+    }
+    .resolve(JobKind::Proof, setup)?;
     let (dir, name) = output_place(&args.out)?;
+    job.out_dir = dir.clone();
+    let setup = &job.model;
     let stem = name.strip_suffix(".png").unwrap_or(&name).to_string();
     let mut out = OutputSet::new(&dir, args.force)?;
     out.protect([&args.input]);
@@ -65,27 +69,7 @@ pub fn run(args: ProofArgs) -> Result<i32> {
         )),
         None => None,
     };
-    let separator = Separator::new(setup.condition.clone(), setup.settings.clone())?;
-    let options = JobOptions {
-        out_dir: dir.clone(),
-        bits: 8,
-        plates: PlateFormat::None,
-        compression: Compression::None,
-        overwrite: args.force,
-        limits,
-        accept_damaged: args.input_args.accept_damaged(t),
-        page: args.input_args.page,
-        gray: super::separate::gray_mode(None, t),
-        ignore_bad_profile: args.input_args.ignore_bad_profile,
-        source_space: setup.source_space,
-        source_condition: setup.condition.clone(),
-        keep_pure_black_cmyk: true,
-    };
-    let workshop = Workshop::new(
-        separator,
-        SettingsReport::new(&setup.condition, &setup.settings, setup.source_space),
-        options,
-    );
+    let workshop = job.workshop()?;
     let raster = crate::raster::read_raster_with(&args.input, &workshop.options.read_options())?;
     // CMYK is proofed as it is; other input is separated as `separate` would.
     let (raster, cmyk) = if raster.layout == Layout::Cmyk {

@@ -7,6 +7,7 @@ use crate::error::{Error, Result};
 use crate::ink::Cmyk;
 use crate::report::{SettingsReport, round_to};
 use crate::separation::{RgbGamut, Separation, Separator};
+use crate::settings::Coverage;
 use clap::Args;
 use serde::Serialize;
 
@@ -140,7 +141,7 @@ pub fn run(args: RecipeArgs) -> Result<i32> {
         target_lab: lab3(s.target),
         cmyk: s.cmyk.to_percent().map(|v| round_to(v, 1)),
         tac: round_to(s.cmyk.total_percent(), 1),
-        tac_limit: round_to(setup.settings.tac * 100.0, 1),
+        tac_limit: round_to(Coverage(setup.settings.tac).percent().0, 1),
         printed_lab: lab3(s.printed),
         printed_lab_absolute: lab3(s.printed_absolute),
         delta_e: round_to(s.delta_e, 2),

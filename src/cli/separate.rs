@@ -1,21 +1,75 @@
 //! `platesmith separate INPUT...`: rasters in, composite CMYK TIFF, plates
 //! and a summary out.
 
-use super::options::{InputArgs, ModelArgs, ModelSetup};
+use super::options::{InputArgs, ModelArgs};
 use crate::error::{Error, Result};
-use crate::job::{GrayMode, JobOptions, PlateFormat, Workshop};
-use crate::raster::{Compression, Limits};
-use crate::report::SettingsReport;
-use crate::separation::Separator;
-use crate::ticket::{LimitsSection, OutputSection, Ticket};
+use crate::job::{GrayMode, PlateFormat};
+use crate::raster::Compression;
+use crate::setup::{JobInput, JobKind, JobSetup};
 use clap::Args;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
 pub enum CompressionArg {
     None,
     Lzw,
     Deflate,
+}
+
+impl From<CompressionArg> for Compression {
+    fn from(c: CompressionArg) -> Compression {
+        match c {
+            CompressionArg::None => Compression::None,
+            CompressionArg::Lzw => Compression::Lzw,
+            CompressionArg::Deflate => Compression::Deflate,
+        }
+    }
+}
+
+/// What to do with the plates, as typed on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum PlateFormatArg {
+    /// One single-ink TIFF per plate (WhiteIsZero: the sample is the ink value).
+    Tiff,
+    /// One 8-bit PNG preview per plate, ink dark on white.
+    Png,
+    /// No plate files, the composite only.
+    None,
+}
+
+impl From<PlateFormatArg> for PlateFormat {
+    fn from(p: PlateFormatArg) -> PlateFormat {
+        match p {
+            PlateFormatArg::Tiff => PlateFormat::Tiff,
+            PlateFormatArg::Png => PlateFormat::Png,
+            PlateFormatArg::None => PlateFormat::None,
+        }
+    }
+}
+
+/// How grayscale input is separated, as typed on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum GrayModeArg {
+    /// As neutral RGB through the full separation.
+    Neutral,
+    /// On the black plate only, matching lightness.
+    BlackOnly,
+}
+
+impl From<GrayModeArg> for GrayMode {
+    fn from(g: GrayModeArg) -> GrayMode {
+        match g {
+            GrayModeArg::Neutral => GrayMode::Neutral,
+            GrayModeArg::BlackOnly => GrayMode::BlackOnly,
+        }
+    }
+}
+
+/// `--bits` as a number (the parser admits 8 and 16 only).
+pub(crate) fn bits_flag(bits: &Option<String>) -> Result<Option<u8>> {
+    bits.as_deref()
+        .map(|b| b.parse().map_err(|_| Error::usage("--bits takes 8 or 16")))
+        .transpose()
 }
 
 #[derive(Debug, Args)]
@@ -33,13 +87,13 @@ pub struct SeparateArgs {
     pub bits: Option<String>,
     /// Plate files to write. Default: tiff.
     #[arg(long, value_enum)]
-    pub plates: Option<PlateFormat>,
+    pub plates: Option<PlateFormatArg>,
     /// TIFF compression. Default: lzw.
     #[arg(long, value_enum)]
     pub compression: Option<CompressionArg>,
     /// Grayscale input: separate as neutrals, or on the black plate only. Default: neutral.
     #[arg(long, value_enum)]
-    pub gray: Option<GrayMode>,
+    pub gray: Option<GrayModeArg>,
     /// CMYK input: the printing condition it was separated for (a name or a
     /// file). Default: the target condition.
     #[arg(long, value_name = "NAME|FILE")]
@@ -57,168 +111,31 @@ pub struct SeparateArgs {
     pub print_ticket: bool,
 }
 
-fn compression_name(c: Compression) -> &'static str {
-    match c {
-        Compression::None => "none",
-        Compression::Lzw => "lzw",
-        Compression::Deflate => "deflate",
-    }
-}
-
 /// The job settings of a `separate` command line: the ticket, then the flags,
 /// over the condition's defaults.
-struct Resolved {
-    setup: ModelSetup,
-    out_dir: PathBuf,
-    bits: u8,
-    plates: PlateFormat,
-    compression: Compression,
-    gray: GrayMode,
-    limits: Limits,
-}
-
-/// The gray mode: the flag, else the ticket's, else neutral.
-pub(crate) fn gray_mode(flag: Option<GrayMode>, t: &Ticket) -> GrayMode {
-    flag.unwrap_or(match t.model.gray.as_deref() {
-        Some("black-only") => GrayMode::BlackOnly,
-        _ => GrayMode::Neutral,
-    })
-}
-
-fn resolve(args: &SeparateArgs) -> Result<Resolved> {
-    let setup = args.model.resolve()?;
-    let t = &setup.ticket;
-    let out_dir = args
-        .out_dir
-        .clone()
-        .or_else(|| t.output.out_dir.clone())
-        .unwrap_or_else(|| PathBuf::from("separated"));
-    let bits: u8 = match &args.bits {
-        Some(b) => b.parse().map_err(|_| Error::usage("--bits takes 8 or 16"))?,
-        None => t.output.bits.unwrap_or(8),
-    };
-    let plates = args.plates.unwrap_or(match t.output.plates.as_deref() {
-        Some("png") => PlateFormat::Png,
-        Some("none") => PlateFormat::None,
-        _ => PlateFormat::Tiff,
-    });
-    let compression = match args.compression {
-        Some(CompressionArg::None) => Compression::None,
-        Some(CompressionArg::Lzw) => Compression::Lzw,
-        Some(CompressionArg::Deflate) => Compression::Deflate,
-        None => match t.output.compression.as_deref() {
-            Some("none") => Compression::None,
-            Some("deflate") => Compression::Deflate,
-            _ => Compression::Lzw,
-        },
-    };
-    let gray = gray_mode(args.gray, t);
-    let limits = args.input.limits(t)?;
-    Ok(Resolved {
-        setup,
-        out_dir,
-        bits,
-        plates,
-        compression,
-        gray,
-        limits,
-    })
-}
-
-/// The [`Workshop`] of `platesmith separate --ticket FILE` (no other flags), or
-/// of the built-in defaults when there is no ticket; the ticket as read is
-/// returned beside it (its `[checks]` rules, for callers that check).
-pub fn ticket_workshop(ticket: Option<&Path>) -> Result<(Workshop, Ticket)> {
-    let args = SeparateArgs {
-        inputs: Vec::new(),
-        out_dir: None,
-        model: ModelArgs {
-            ticket: ticket.map(Path::to_path_buf),
-            ..ModelArgs::default()
-        },
-        bits: None,
-        plates: None,
-        compression: None,
-        gray: None,
-        source_condition: None,
-        reseparate_pure_black: false,
-        force: false,
-        input: InputArgs::default(),
-        print_ticket: false,
-    };
-    let resolved = resolve(&args)?;
-    let ticket = resolved.setup.ticket.clone();
-    Ok((build_workshop(&args, resolved)?, ticket))
-}
-
-fn build_workshop(args: &SeparateArgs, r: Resolved) -> Result<Workshop> {
-    let Resolved {
-        setup,
-        out_dir,
-        bits,
-        plates,
-        compression,
-        gray,
-        limits,
-    } = r;
-    let t = &setup.ticket;
-    let report = SettingsReport::new(&setup.condition, &setup.settings, setup.source_space);
-    let separator = Separator::new(setup.condition.clone(), setup.settings.clone())?;
-    let source_condition = match args.source_condition.as_deref().or(t.model.source_condition.as_deref()) {
-        Some(spec) => crate::press::load_condition(spec)?,
-        None => setup.condition.clone(),
-    };
-    let options = JobOptions {
-        out_dir,
-        bits,
-        plates,
-        compression,
+fn resolve(args: &SeparateArgs) -> Result<JobSetup> {
+    let model = args.model.resolve()?;
+    let input = JobInput {
+        out_dir: args.out_dir.clone(),
+        bits: bits_flag(&args.bits)?,
+        plates: args.plates.map(PlateFormat::from),
+        compression: args.compression.map(Compression::from),
+        gray: args.gray.map(GrayMode::from),
+        source_condition: args.source_condition.clone(),
+        reseparate_pure_black: args.reseparate_pure_black,
         overwrite: args.force,
-        limits,
-        accept_damaged: args.input.accept_damaged(t),
-        page: args.input.page,
-        gray,
-        ignore_bad_profile: args.input.ignore_bad_profile,
-        source_space: setup.source_space,
-        source_condition,
-        keep_pure_black_cmyk: !args.reseparate_pure_black,
+        read: args.input.read(),
     };
-    Ok(Workshop::new(separator, report, options))
+    input.resolve(JobKind::Separate, model)
 }
 
 pub fn run(args: SeparateArgs) -> Result<i32> {
-    let r = resolve(&args)?;
-    let (setup, out_dir, bits, plates, compression, gray, limits) =
-        (&r.setup, &r.out_dir, r.bits, r.plates, r.compression, r.gray, &r.limits);
-    let t = &setup.ticket;
+    let job = resolve(&args)?;
     if args.print_ticket {
-        let mut model = setup.model_section();
-        if args.source_condition.is_some() {
-            model.source_condition = args.source_condition.clone();
-        }
-        model.gray = Some(match gray {
-            GrayMode::Neutral => "neutral".into(),
-            GrayMode::BlackOnly => "black-only".into(),
-        });
-        let ticket = Ticket {
-            model,
-            output: OutputSection {
-                out_dir: Some(out_dir.clone()),
-                bits: Some(bits),
-                plates: Some(format!("{plates:?}").to_lowercase()),
-                compression: Some(compression_name(compression).into()),
-            },
-            limits: LimitsSection {
-                max_side: Some(limits.max_width),
-                max_memory_mib: Some(limits.max_bytes >> 20),
-                accept_damaged: args.input.accept_damaged(t).then_some(true),
-            },
-            checks: t.checks.clone(),
-            source: None,
-        };
-        crate::error::write_stdout(&ticket.to_toml()?)?;
+        crate::error::write_stdout(&job.effective_ticket().to_toml()?)?;
         return Ok(0);
     }
+    let (out_dir, plates) = (&job.out_dir, job.plates);
     super::output_names::check_unique(&args.inputs, out_dir, "outputs", |stem| {
         let plates: &[&str] = match plates {
             PlateFormat::Tiff => &["c.tif", "m.tif", "y.tif", "k.tif"],
@@ -231,7 +148,7 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
             .map(|suffix| format!("{stem}.{suffix}"))
             .collect()
     })?;
-    let workshop = build_workshop(&args, r)?;
+    let workshop = job.workshop()?;
     let progress = progress_bar(args.inputs.len() as u64);
     let (mut done, mut failed) = (0usize, 0usize);
     for input in &args.inputs {

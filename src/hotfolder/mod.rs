@@ -171,7 +171,7 @@ pub fn run(settings: &Settings, stop: &AtomicBool) -> Result<RunSummary> {
         .ticket
         .clone()
         .or_else(|| Some(folders.root.join("ticket.toml")).filter(|p| p.is_file()));
-    let (workshop, ticket) = crate::cli::separate::ticket_workshop(ticket_path.as_deref())?;
+    let (workshop, ticket) = crate::setup::ticket_workshop(ticket_path.as_deref())?;
     let steps = steps::pipeline(Arc::new(workshop), &ticket)?;
     folders.create()?;
     let id = folders::instance_id();

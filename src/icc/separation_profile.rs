@@ -125,14 +125,14 @@ pub fn black_scaling(from: Xyz, to: Xyz) -> XyzScaling {
 /// shape its separation.
 pub fn profile_description(separator: &Separator) -> String {
     let s = separator.settings();
-    let b = &s.black;
+    let e = crate::settings::InkEcho::new(s.tac, &s.black);
     format!(
         "{}; TAC {:.0} %, GCR {:.0} %, black start {:.0} %, maximum black {:.0} %",
         default_description(&separator.condition().name),
-        s.tac * 100.0,
-        b.gcr * 100.0,
-        b.black_start * 100.0,
-        b.black_max * 100.0
+        e.tac.0,
+        e.gcr.0,
+        e.black_start.0,
+        e.black_max.0
     )
 }
 

@@ -974,7 +974,7 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
         distinct_values: if m.dense.is_some() { m.distinct } else { 0 },
     });
     let tac = TacSummary {
-        limit: round_to(tac_limit * 100.0, 1),
+        limit: round_to(crate::settings::Coverage(tac_limit).percent().0, 1),
         max: round_to(stats.tac_max * 100.0, 1),
         p99: stats.tac_quantile(0.99),
         mean: round_to(stats.tac_sum / px * 100.0, 1),

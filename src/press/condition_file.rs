@@ -65,7 +65,7 @@
 use super::{AIM_NAMES, Aims, Axis, BLACK_OVERPRINT_NAMES, Correction, DEFAULT_INK_FILM, ModelParams, PrintingCondition, builtin};
 use crate::colour::Lab;
 use crate::error::{Error, Result};
-use crate::separation::BlackGeneration;
+use crate::settings::{BlackGeneration, InkEcho, Origin, Percent, Setting};
 use serde::Deserialize;
 use std::fmt::Write as _;
 use std::ops::Range;
@@ -165,21 +165,22 @@ impl Checker<'_> {
         Error::input(self.path, format!("line {}: `{key}`: {problem}", line_of(self.text, span.start)))
     }
 
-    /// A number within `lo..=hi` (in the file's unit, `unit` for messages).
-    fn range(&self, v: &Num, key: &str, lo: f64, hi: f64, unit: &str) -> Result<f64> {
-        let x = *v.get_ref();
-        if !x.is_finite() || x < lo || x > hi {
-            return Err(self.error(v.span(), key, format!("{x} is out of range; allowed {lo}–{hi}{unit}")));
-        }
-        Ok(x)
+    /// A number within the setting's range (in the file's unit), checked through the one table.
+    fn range(&self, v: &Num, key: &str, setting: Setting) -> Result<f64> {
+        let origin = Origin::File {
+            path: self.path,
+            key,
+            line: Some(line_of(self.text, v.span().start)),
+        };
+        setting.check(*v.get_ref(), origin)
     }
 
-    fn per_ink(&self, v: &PerInk, table: &str, lo: f64, hi: f64, unit: &str) -> Result<[f64; 4]> {
+    fn per_ink(&self, v: &PerInk, table: &str, setting: Setting) -> Result<[f64; 4]> {
         Ok([
-            self.range(&v.cyan, &format!("{table}.cyan"), lo, hi, unit)?,
-            self.range(&v.magenta, &format!("{table}.magenta"), lo, hi, unit)?,
-            self.range(&v.yellow, &format!("{table}.yellow"), lo, hi, unit)?,
-            self.range(&v.black, &format!("{table}.black"), lo, hi, unit)?,
+            self.range(&v.cyan, &format!("{table}.cyan"), setting)?,
+            self.range(&v.magenta, &format!("{table}.magenta"), setting)?,
+            self.range(&v.yellow, &format!("{table}.yellow"), setting)?,
+            self.range(&v.black, &format!("{table}.black"), setting)?,
         ])
     }
 
@@ -206,25 +207,26 @@ pub fn parse_condition(text: &str, path: &Path) -> Result<PrintingCondition> {
     })?;
     let ck = Checker { path, text };
 
-    let tac = ck.range(&file.tac, "tac", 100.0, 400.0, " %")? / 100.0;
+    let pct = |v: f64| Percent(v).coverage().0;
+    let tac = pct(ck.range(&file.tac, "tac", Setting::Tac)?);
     let min_dot = match &file.min_dot {
-        Some(v) => ck.range(v, "min_dot", 0.0, 20.0, " %")? / 100.0,
+        Some(v) => pct(ck.range(v, "min_dot", Setting::MinDot)?),
         None => 0.02,
     };
-    let n = ck.range(&file.yule_nielsen_n, "yule_nielsen_n", 1.0, 10.0, "")?;
-    let surface = ck.range(&file.black_surface, "black_surface", 0.0, 20.0, " % of paper")? / 100.0;
-    let tvi50 = ck.per_ink(&file.tvi, "tvi", 0.0, 30.0, " %")?.map(|v| v / 100.0);
+    let n = ck.range(&file.yule_nielsen_n, "yule_nielsen_n", Setting::YuleNielsenN)?;
+    let surface = pct(ck.range(&file.black_surface, "black_surface", Setting::BlackSurface)?);
+    let tvi50 = ck.per_ink(&file.tvi, "tvi", Setting::Tvi)?.map(pct);
     let ink_film = match &file.ink_film {
-        Some(v) => ck.per_ink(v, "ink_film", 0.0, 5.0, " g/m²")?,
+        Some(v) => ck.per_ink(v, "ink_film", Setting::InkFilm)?,
         None => DEFAULT_INK_FILM,
     };
     let black = match &file.black_generation {
         Some(b) => BlackGeneration {
-            gcr: ck.range(&b.gcr, "black_generation.gcr", 0.0, 100.0, " %")? / 100.0,
-            black_start: ck.range(&b.black_start, "black_generation.black_start", 0.0, 100.0, " %")? / 100.0,
-            black_max: ck.range(&b.black_max, "black_generation.black_max", 0.0, 100.0, " %")? / 100.0,
-            shape: ck.range(&b.shape, "black_generation.shape", 0.2, 10.0, "")?,
-            uca: ck.range(&b.uca, "black_generation.uca", 0.0, 100.0, " %")? / 100.0,
+            gcr: pct(ck.range(&b.gcr, "black_generation.gcr", Setting::Gcr)?),
+            black_start: pct(ck.range(&b.black_start, "black_generation.black_start", Setting::BlackStart)?),
+            black_max: pct(ck.range(&b.black_max, "black_generation.black_max", Setting::BlackMax)?),
+            shape: ck.range(&b.shape, "black_generation.shape", Setting::BlackShape)?,
+            uca: pct(ck.range(&b.uca, "black_generation.uca", Setting::Uca)?),
         },
         None => BlackGeneration::default(),
     };
@@ -538,7 +540,8 @@ pub fn to_toml(condition: &PrintingCondition, header: &[String]) -> Result<Strin
     if !condition.source.is_empty() {
         let _ = writeln!(s, "source = \"{}\"", esc(&condition.source));
     }
-    let _ = writeln!(s, "tac = {}  # percent", num(condition.tac * 100.0, 1));
+    let b = InkEcho::new(condition.tac, &condition.black);
+    let _ = writeln!(s, "tac = {}  # percent", num(b.tac.0, 1));
     let _ = writeln!(s, "min_dot = {}  # percent", num(condition.min_dot * 100.0, 2));
     let _ = writeln!(s, "yule_nielsen_n = {}", num(p.n, 4));
     let _ = writeln!(s, "black_surface = {}  # percent of paper", num(p.black_surface * 100.0, 3));
@@ -551,13 +554,12 @@ pub fn to_toml(condition: &PrintingCondition, header: &[String]) -> Result<Strin
     for (i, ink) in inks.iter().enumerate() {
         let _ = writeln!(s, "{ink} = {}", num(condition.ink_film[i], 3));
     }
-    let b = &condition.black;
     let _ = writeln!(s, "\n[black_generation]  # percent, except shape");
-    let _ = writeln!(s, "gcr = {}", num(b.gcr * 100.0, 2));
-    let _ = writeln!(s, "black_start = {}", num(b.black_start * 100.0, 2));
-    let _ = writeln!(s, "black_max = {}", num(b.black_max * 100.0, 2));
-    let _ = writeln!(s, "shape = {}", num(b.shape, 3));
-    let _ = writeln!(s, "uca = {}", num(b.uca * 100.0, 2));
+    let _ = writeln!(s, "gcr = {}", num(b.gcr.0, 2));
+    let _ = writeln!(s, "black_start = {}", num(b.black_start.0, 2));
+    let _ = writeln!(s, "black_max = {}", num(b.black_max.0, 2));
+    let _ = writeln!(s, "shape = {}", num(b.black_shape, 3));
+    let _ = writeln!(s, "uca = {}", num(b.uca.0, 2));
     let _ = writeln!(s, "\n[aims]  # CIELAB D50 [L*, a*, b*]");
     for (name, lab) in AIM_NAMES.iter().zip(p.aims.to_array()) {
         let _ = writeln!(s, "{name} = [{}, {}, {}]", num(lab.l, 2), num(lab.a, 2), num(lab.b, 2));

@@ -196,21 +196,22 @@ impl ConditionReport {
             None => Vec::new(),
         };
         let gamut = gamut_volume(model, c.tac, options);
+        let echo = crate::settings::InkEcho::new(c.tac, &c.black);
         ConditionReport {
             name: c.name.clone(),
             description: c.description.clone(),
             source: c.source.clone(),
             default: c.name == builtin::DEFAULT,
             built_in: builtin::names().contains(&c.name.as_str()) && builtin::by_name(&c.name).map(|b| b.params) == Some(c.params),
-            tac_percent: c.tac * 100.0,
+            tac_percent: echo.tac.0,
             min_dot_percent: c.min_dot * 100.0,
             ink_film_g_per_m2: c.ink_film,
             black_generation: BlackPercent {
-                gcr: c.black.gcr * 100.0,
-                black_start: c.black.black_start * 100.0,
-                black_max: c.black.black_max * 100.0,
-                shape: c.black.shape,
-                uca: c.black.uca * 100.0,
+                gcr: echo.gcr.0,
+                black_start: echo.black_start.0,
+                black_max: echo.black_max.0,
+                shape: echo.black_shape,
+                uca: echo.uca.0,
             },
             model: c.params.map(|p| ModelFigures {
                 kind: if c.correction.is_some() {

@@ -13,6 +13,7 @@ use crate::cgats::CgatsFile;
 use crate::colour::{Lab, Xyz, ciede2000};
 use crate::error::{Error, Result};
 use crate::ink::Cmyk;
+use crate::settings::{Percent, Setting};
 use serde::Serialize;
 use std::path::Path;
 
@@ -315,7 +316,8 @@ fn bounds(i: usize) -> (f64, f64) {
     match i {
         0..27 | 33.. if i.is_multiple_of(3) => (1.0, 100.0),
         0..27 | 33.. => (-128.0, 128.0),
-        27..31 => (0.0, 0.30),
+        // Tone value increase at 50 %: the range a condition file accepts.
+        27..31 => (0.0, Percent(Setting::Tvi.range().hi).coverage().0),
         31 => (1.0, 8.0),
         _ => (0.0, 0.95),
     }

@@ -15,7 +15,7 @@
 use super::{MediaWhite, PressModel, PrintingCondition};
 use crate::colour::{D50, Lab, Xyz};
 use crate::ink::Cmyk;
-use crate::separation::BlackGeneration;
+use crate::settings::BlackGeneration;
 use crate::{Error, Result};
 use lcms2::{
     CIExyY, ColorSpaceSignature, Flags, GlobalContext, InfoType, Intent, Locale, PixelFormat, Profile, ProfileClassSignature, Tag,

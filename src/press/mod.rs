@@ -25,7 +25,7 @@ pub use params::{AIM_INKS, AIM_NAMES, Aims, BLACK_OVERPRINT_INKS, BLACK_OVERPRIN
 
 use crate::colour::{D50, Lab, Xyz};
 use crate::ink::Cmyk;
-use crate::separation::BlackGeneration;
+use crate::settings::BlackGeneration;
 use std::fmt::Debug;
 use std::sync::Arc;
 

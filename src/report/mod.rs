@@ -56,17 +56,18 @@ impl SettingsReport {
     }
 
     pub fn new(condition: &PrintingCondition, s: &SeparationSettings, source: RgbSpace) -> SettingsReport {
+        let e = crate::settings::InkEcho::new(s.tac, &s.black);
         SettingsReport {
             condition: condition.name.clone(),
             intent: s.intent.name(),
             bpc: s.bpc,
             compress_from: (s.intent == crate::separation::Intent::Perceptual).then(|| s.compress_from.name()),
-            tac: round_to(s.tac * 100.0, 2),
-            gcr: round_to(s.black.gcr * 100.0, 2),
-            black_start: round_to(s.black.black_start * 100.0, 2),
-            black_max: round_to(s.black.black_max * 100.0, 2),
-            black_shape: s.black.shape,
-            uca: round_to(s.black.uca * 100.0, 2),
+            tac: round_to(e.tac.0, 2),
+            gcr: round_to(e.gcr.0, 2),
+            black_start: round_to(e.black_start.0, 2),
+            black_max: round_to(e.black_max.0, 2),
+            black_shape: e.black_shape,
+            uca: round_to(e.uca.0, 2),
             keep_pure_black: s.keep_pure_black,
             table_grid: s.table_grid,
             source_space: source.name(),

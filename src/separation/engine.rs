@@ -5,14 +5,14 @@ use super::BlackGeneration;
 use super::gamut::{GamutBoundary, PerceptualMap, SourceGamut, black_point_compensation};
 use super::solve::{InkBounds, Problem, Solution};
 use crate::colour::{Lab, Mat3, ciede2000};
-use crate::error::{Error, Result};
+use crate::error::Result;
 use crate::ink::Cmyk;
 use crate::press::{MediaWhite, PressModel, PrintingCondition};
 use serde::{Deserialize, Serialize};
 use std::sync::Arc;
 
 /// Rendering intents as ICC.1:2022 §6.2.2 defines them.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, clap::ValueEnum)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Intent {
     /// Compress the source gamut into the printable gamut, keeping relations.
@@ -35,7 +35,7 @@ impl Intent {
 }
 
 /// Which gamut the perceptual intent compresses from.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default, Serialize, Deserialize, clap::ValueEnum)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum CompressFrom {
     /// The colours of the picture being separated: a picture that barely
@@ -110,34 +110,17 @@ impl SeparationSettings {
         }
     }
 
-    /// Checks every value against its allowed range.
+    /// Checks every value against its allowed range (`crate::settings::Setting`).
     pub fn validate(&self) -> Result<()> {
-        let pct = |name: &str, v: f64, lo: f64, hi: f64| {
-            if !(v.is_finite() && v >= lo && v <= hi) {
-                Err(Error::usage(format!(
-                    "{name} is {:.4}; allowed range is {}–{} %",
-                    v * 100.0,
-                    lo * 100.0,
-                    hi * 100.0
-                )))
-            } else {
-                Ok(())
-            }
-        };
-        pct("TAC", self.tac, 1.0, 4.0)?;
-        pct("GCR", self.black.gcr, 0.0, 1.0)?;
-        pct("black start", self.black.black_start, 0.0, 0.99)?;
-        pct("maximum black", self.black.black_max, 0.0, 1.0)?;
-        pct("UCA", self.black.uca, 0.0, 1.0)?;
-        if !(self.black.shape.is_finite() && (0.2..=5.0).contains(&self.black.shape)) {
-            return Err(Error::usage(format!("black shape is {}; allowed range is 0.2–5", self.black.shape)));
-        }
-        if !(5..=129).contains(&self.table_grid) {
-            return Err(Error::usage(format!(
-                "table grid is {}; allowed range is 5–129 nodes per axis",
-                self.table_grid
-            )));
-        }
+        use crate::settings::{Coverage, Origin, Setting};
+        let pct = |v: f64| Coverage(v).percent().0;
+        Setting::Tac.check(pct(self.tac), Origin::Key("TAC"))?;
+        Setting::Gcr.check(pct(self.black.gcr), Origin::Key("GCR"))?;
+        Setting::BlackStart.check(pct(self.black.black_start), Origin::Key("black start"))?;
+        Setting::BlackMax.check(pct(self.black.black_max), Origin::Key("maximum black"))?;
+        Setting::Uca.check(pct(self.black.uca), Origin::Key("UCA"))?;
+        Setting::BlackShape.check(self.black.shape, Origin::Key("black shape"))?;
+        Setting::TableGrid.check_count(self.table_grid, Origin::Key("table grid"))?;
         Ok(())
     }
 }

@@ -114,7 +114,7 @@ fn invalid_condition_file_error_reaches_the_user() {
     assert_eq!(out.status.code(), Some(2));
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(
-        err.contains("tac-out-of-range.toml") && err.contains("`tac`") && err.contains("line 4"),
+        err.contains("tac-out-of-range.toml") && err.contains("line 4: tac = 450: allowed range is 100–400 %"),
         "{err}"
     );
 }

@@ -39,3 +39,4 @@ mod separation_perceptual;
 mod separation_properties;
 mod separation_reseparation;
 mod separation_table_direct;
+mod settings_ranges;
