@@ -3,7 +3,8 @@
 
 use super::BlackGeneration;
 use super::gamut::{GamutBoundary, PerceptualMap, SourceGamut, black_point_compensation};
-use super::solve::{InkBounds, Problem, Solution};
+use super::limits::InkBounds;
+use super::solve::{Problem, Solution};
 use crate::colour::{Lab, Mat3, ciede2000};
 use crate::error::{Error, Result};
 use crate::ink::Cmyk;
@@ -208,11 +209,11 @@ const HUE_WEIGHT: f64 = 3.0;
 #[derive(Debug, Clone)]
 pub struct Separator {
     condition: PrintingCondition,
-    settings: SeparationSettings,
+    pub(super) settings: SeparationSettings,
     model: Arc<dyn PressModel>,
     media: MediaWhite,
-    bounds: InkBounds,
-    black_point: Lab,
+    pub(super) bounds: InkBounds,
+    pub(super) black_point: Lab,
     black_point_ink: Cmyk,
     gamut: Arc<GamutBoundary>,
     relative_from_absolute: Mat3,
@@ -385,23 +386,7 @@ impl Separator {
         }
     }
 
-    /// Darkness of the neutral component: 0 at paper, 1 at the black point.
-    fn darkness(&self, target: Lab) -> f64 {
-        ((100.0 - target.l) / (100.0 - self.black_point.l).max(1.0)).clamp(0.0, 1.0)
-    }
-
-    /// The share of the replaceable neutral component that black carries.
-    pub fn black_share(&self, darkness: f64) -> f64 {
-        let b = &self.settings.black;
-        let u = ((darkness - b.black_start) / (1.0 - b.black_start)).clamp(0.0, 1.0);
-        let ramp = 1.0 - (1.0 - u).powf(b.shape);
-        let skeleton = ((darkness - 0.5) / 0.5).clamp(0.0, 1.0).powi(2);
-        let s = ((darkness - 0.85) / 0.15).clamp(0.0, 1.0);
-        let shadow = s * s * (3.0 - 2.0 * s);
-        ramp * (b.gcr + (1.0 - b.gcr) * skeleton) * (1.0 - b.uca * shadow)
-    }
-
-    fn solve_exact(&self, target: Lab, k_aim: f64, bounds: InkBounds, start: [f64; 4]) -> Option<Solution> {
+    pub(super) fn solve_exact(&self, target: Lab, k_aim: f64, bounds: InkBounds, start: [f64; 4]) -> Option<Solution> {
         let forward = |x: [f64; 4]| self.forward(x);
         Problem {
             forward: &forward,
@@ -469,28 +454,7 @@ impl Separator {
                 self.solve_exact(target, 0.0, self.bounds, clipped.x).unwrap_or(clipped)
             }
         };
-        let share = self.black_share(self.darkness(target));
-        if share <= 0.0 {
-            return low;
-        }
-        let mut raised = low.x;
-        raised[3] = (low.x[3] + 0.1).min(self.bounds.k_max);
-        let high = [low.x, raised, [0.2, 0.15, 0.15, self.bounds.k_max * 0.8]]
-            .into_iter()
-            .find_map(|start| self.solve_exact(target, self.bounds.k_max, self.bounds, start))
-            .unwrap_or(low);
-        let k = low.x[3] + share * (high.x[3] - low.x[3]);
-        let mid: [f64; 4] = std::array::from_fn(|i| low.x[i] + share * (high.x[i] - low.x[i]));
-        let held = self.bounds.with_black(k);
-        let mut from_low = low.x;
-        from_low[3] = k;
-        let mut from_high = high.x;
-        from_high[3] = k;
-        [mid, from_low, from_high]
-            .into_iter()
-            .find_map(|start| self.solve_exact(target, k, held, start))
-            .or_else(|| self.solve_exact(target, k, self.bounds, mid))
-            .unwrap_or(low)
+        self.generate_black(target, low)
     }
 
     /// True where the table smooths the deepest shadows in ink space: the
@@ -571,13 +535,7 @@ impl Separator {
     /// kept as it is, but reported against the limits.
     pub fn describe_build(&self, cmyk: Cmyk) -> Separation {
         let printed = self.printed_in_frame(cmyk);
-        let mut limited_by = LimitSet::default();
-        if cmyk.total() > self.bounds.tac + 1e-9 {
-            limited_by.insert(Limit::InkLimit);
-        }
-        if cmyk.k > self.bounds.k_max + 1e-9 {
-            limited_by.insert(Limit::MaximumBlack);
-        }
+        let limited_by = self.bounds.broken_by(cmyk);
         Separation {
             cmyk,
             target: printed,
