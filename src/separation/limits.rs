@@ -28,7 +28,7 @@
 //! is (a recipe) breaks.
 
 use super::engine::{Limit, LimitSet};
-use super::table::Sample;
+use super::kernel::Sample;
 use crate::ink::Cmyk;
 use rayon::prelude::*;
 

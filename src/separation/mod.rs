@@ -5,15 +5,22 @@
 mod black;
 mod engine;
 pub mod gamut;
+mod intent;
+mod inversion;
+mod kernel;
 pub(crate) mod limits;
 mod picture;
+mod printable;
 mod reseparation;
+mod shadows;
 pub mod solve;
 mod table;
 
 pub use black::{BLACK_CURVE_STEPS, BlackGeneration, BlackOnlyCurve};
-pub use engine::{CompressFrom, IN_GAMUT_TOLERANCE, Intent, Limit, LimitSet, Separation, SeparationSettings, Separator, SourceMapping};
+pub use engine::{CompressFrom, Intent, Limit, LimitSet, Separation, SeparationSettings, Separator};
 pub use gamut::{GamutBoundary, PerceptualMap, RgbGamut, SourceGamut};
+pub use intent::SourceMapping;
 pub use picture::{PictureGamut, RgbCode, distinct_colours};
+pub use printable::IN_GAMUT_TOLERANCE;
 pub use reseparation::{CmykSourceGamut, DEFAULT_RESEPARATION_GRID, RESEPARATION_GRID_RANGE, ReseparationTable};
 pub use table::SeparationTable;
