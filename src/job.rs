@@ -1,13 +1,13 @@
 //! One separation job: an image in, a composite CMYK TIFF, one plate per ink
 //! and a JSON summary out, written as a set (all files or none).
 
-use crate::colour::RgbSpace;
+use crate::colour::{EncodedRgb, RgbSpace};
 use crate::error::{Error, Result};
 use crate::ink::Ink;
 use crate::raster::{CmykImage, Compression, Layout, Limits, OutputSet, Raster, ReadOptions, Resolution, Samples, TiffOptions};
 use crate::report::{SettingsReport, round_to};
 use crate::separation::limits::InkCaps;
-use crate::separation::{BLACK_CURVE_STEPS, BlackOnlyCurve, CompressFrom, Intent, SeparationTable, Separator};
+use crate::separation::{BLACK_CURVE_STEPS, BlackOnlyCurve, CompressFrom, Intent, IntentLab, SeparationTable, Separator};
 use crate::source::RgbSource;
 use rayon::prelude::*;
 use serde::Serialize;
@@ -709,9 +709,9 @@ pub fn table_for_source(separator: &Separator, source: &RgbSource) -> Separation
 fn table_with(separator: &Separator, source: &RgbSource, mapping: &crate::separation::SourceMapping) -> SeparationTable {
     let n = separator.settings().table_grid;
     let labs = source.node_labs(n);
-    let lookup = |rgb: [f64; 3]| {
+    let lookup = |EncodedRgb(rgb): EncodedRgb| {
         let idx = |v: f64| (v * (n - 1) as f64).round() as usize;
-        labs[(idx(rgb[0]) * n + idx(rgb[1])) * n + idx(rgb[2])]
+        IntentLab::new(labs[(idx(rgb[0]) * n + idx(rgb[1])) * n + idx(rgb[2])])
     };
     SeparationTable::build(separator, mapping, &lookup)
 }

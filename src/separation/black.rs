@@ -144,7 +144,7 @@ impl BlackOnlyCurve {
     /// maximum black.
     pub fn new(separator: &Separator, lightness: &[Option<f64>]) -> BlackOnlyCurve {
         let k_max = separator.settings().black.black_max;
-        let press_l = |k: f64| separator.printed_relative(Cmyk::new(0.0, 0.0, 0.0, k)).l;
+        let press_l = |k: f64| separator.printed_relative(Cmyk::new(0.0, 0.0, 0.0, k)).lab().l;
         let (paper, darkest) = (press_l(0.0), press_l(k_max));
         let mut coverage: Vec<f64> = lightness
             .par_iter()

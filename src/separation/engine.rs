@@ -5,10 +5,11 @@
 //! black), `printable` (black point, gamut boundary, gamut check).
 
 use super::BlackGeneration;
+use super::frame::{AbsoluteLab, IntentLab, RelativeLab};
 use super::gamut::GamutBoundary;
 use super::intent::SourceMapping;
 use super::limits::InkBounds;
-use crate::colour::{Lab, Mat3, ciede2000};
+use crate::colour::{Lab, Mat3};
 use crate::error::{Error, Result};
 use crate::ink::Cmyk;
 use crate::press::{MediaWhite, PressModel, PrintingCondition};
@@ -152,11 +153,11 @@ pub struct Separation {
     pub cmyk: Cmyk,
     /// The requested colour in the frame of the intent (media-relative for
     /// perceptual and relative, absolute for absolute).
-    pub target: Lab,
+    pub target: IntentLab,
     /// The printed colour of `cmyk` in the same frame.
-    pub printed: Lab,
+    pub printed: IntentLab,
     /// The printed colour as an instrument would read it off the sheet.
-    pub printed_absolute: Lab,
+    pub printed_absolute: AbsoluteLab,
     /// CIEDE2000 between `target` and `printed`.
     pub delta_e: f64,
     /// True when the requested colour is printable under the limits.
@@ -240,8 +241,8 @@ impl Separator {
     }
 
     /// The darkest printable neutral (media-relative) and its ink build.
-    pub fn black_point(&self) -> (Lab, Cmyk) {
-        (self.black_point, self.black_point_ink)
+    pub fn black_point(&self) -> (RelativeLab, Cmyk) {
+        (RelativeLab::new(self.black_point), self.black_point_ink)
     }
 
     pub fn gamut(&self) -> &GamutBoundary {
@@ -250,23 +251,23 @@ impl Separator {
 
     /// The printed colour, media-relative.
     #[inline]
-    pub fn printed_relative(&self, ink: Cmyk) -> Lab {
-        self.media.relative_lab(self.model.xyz(ink))
+    pub fn printed_relative(&self, ink: Cmyk) -> RelativeLab {
+        RelativeLab::new(self.media.relative_lab(self.model.xyz(ink)))
     }
 
     /// The printed colour, absolute (as measured).
     #[inline]
-    pub fn printed_absolute(&self, ink: Cmyk) -> Lab {
-        self.model.lab(ink)
+    pub fn printed_absolute(&self, ink: Cmyk) -> AbsoluteLab {
+        AbsoluteLab::new(self.model.lab(ink))
     }
 
     /// The printed colour in the frame of the configured intent.
     #[inline]
-    pub fn printed_in_frame(&self, ink: Cmyk) -> Lab {
-        match self.settings.intent {
-            Intent::Absolute => self.printed_absolute(ink),
-            _ => self.printed_relative(ink),
-        }
+    pub fn printed_in_frame(&self, ink: Cmyk) -> IntentLab {
+        IntentLab::new(match self.settings.intent {
+            Intent::Absolute => self.printed_absolute(ink).lab(),
+            _ => self.printed_relative(ink).lab(),
+        })
     }
 
     /// True where the table smooths the deepest shadows in ink space: the
@@ -279,9 +280,10 @@ impl Separator {
         self.settings.intent == Intent::Relative && self.settings.bpc
     }
 
-    /// Separates one source colour (media-relative CIELAB D50) with a full
-    /// account: printed colour, ΔE, gamut membership and limits.
-    pub fn separate(&self, source: Lab, mapping: &SourceMapping) -> Separation {
+    /// Separates one source colour (CIELAB D50, the ICC PCS, in the frame
+    /// the intent reads) with a full account: printed colour, ΔE, gamut
+    /// membership and limits.
+    pub fn separate(&self, source: IntentLab, mapping: &SourceMapping) -> Separation {
         let target = self.intent_target(source, mapping);
         let solution = self.invert(target, None);
         let cmyk = Cmyk::from_array(solution.x);
@@ -293,7 +295,7 @@ impl Separator {
             target: requested,
             printed,
             printed_absolute: self.printed_absolute(cmyk),
-            delta_e: ciede2000(requested, printed),
+            delta_e: requested.delta_e(printed),
             in_gamut,
             limited_by,
         }

@@ -4,8 +4,8 @@
 //! gamut, absolute colorimetric.
 
 use super::engine::{Intent, Separator};
+use super::frame::{IntentLab, RelativeLab};
 use super::gamut::{PerceptualMap, SourceGamut, black_point_compensation};
-use crate::colour::Lab;
 
 /// The prepared mapping from one source gamut; see [`Separator::source_mapping`].
 pub struct SourceMapping<'a> {
@@ -14,11 +14,11 @@ pub struct SourceMapping<'a> {
 
 impl Separator {
     /// Converts a colour from the intent frame to the working (media-relative) frame.
-    pub(super) fn to_working(&self, lab: Lab) -> Lab {
-        match self.settings.intent {
-            Intent::Absolute => self.media.relative_lab_from_absolute(lab),
-            _ => lab,
-        }
+    pub(super) fn to_working(&self, lab: IntentLab) -> RelativeLab {
+        RelativeLab::new(match self.settings.intent {
+            Intent::Absolute => self.media.relative_lab_from_absolute(lab.lab()),
+            _ => lab.lab(),
+        })
     }
 
     /// Prepares the mapping of colours from one whole source gamut (the
@@ -40,9 +40,11 @@ impl Separator {
     }
 
     /// The colour the intent asks for, in the working frame, for a source
-    /// colour given as media-relative CIELAB D50 (the ICC PCS).
-    pub fn intent_target(&self, source: Lab, mapping: &SourceMapping) -> Lab {
-        match self.settings.intent {
+    /// colour given as CIELAB D50 (the ICC PCS) in the frame the intent
+    /// reads (media-relative, or absolute for the absolute intent).
+    pub fn intent_target(&self, source: IntentLab, mapping: &SourceMapping) -> RelativeLab {
+        let source = source.lab();
+        RelativeLab::new(match self.settings.intent {
             Intent::Relative if self.settings.bpc => black_point_compensation(source, 0.0, self.black_point.to_xyz().y),
             Intent::Relative => source,
             Intent::Perceptual => match &mapping.perceptual {
@@ -50,6 +52,6 @@ impl Separator {
                 None => source,
             },
             Intent::Absolute => self.media.relative_lab_from_absolute(source),
-        }
+        })
     }
 }

@@ -5,6 +5,7 @@
 //! ([`super::black`]).
 
 use super::engine::Separator;
+use super::frame::RelativeLab;
 use super::limits::InkBounds;
 use super::solve::{Problem, Solution};
 use crate::colour::{Lab, Mat3};
@@ -151,8 +152,8 @@ impl Separator {
     /// possible value; black generation picks
     /// K = Kmin + share·(Kmax − Kmin), where the share grows with the
     /// darkness of the target past black start (see [`Separator::black_share`]).
-    pub fn invert(&self, target: Lab, start: Option<[f64; 4]>) -> Solution {
-        let target = self.clamp_lightness(target);
+    pub fn invert(&self, target: RelativeLab, start: Option<[f64; 4]>) -> Solution {
+        let target = self.clamp_lightness(target.lab());
         let cold = Self::cold_start(target);
         let first = start.unwrap_or(cold);
         let low = self

@@ -4,6 +4,7 @@
 
 mod black;
 mod engine;
+pub mod frame;
 pub mod gamut;
 mod intent;
 mod inversion;
@@ -18,6 +19,7 @@ mod table;
 
 pub use black::{BLACK_CURVE_STEPS, BlackGeneration, BlackOnlyCurve};
 pub use engine::{CompressFrom, Intent, Limit, LimitSet, Separation, SeparationSettings, Separator};
+pub use frame::{AbsoluteLab, IntentLab, LabIn, RelativeLab};
 pub use gamut::{GamutBoundary, PerceptualMap, RgbGamut, SourceGamut};
 pub use intent::SourceMapping;
 pub use picture::{PictureGamut, RgbCode, distinct_colours};

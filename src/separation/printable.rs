@@ -4,6 +4,7 @@
 //! the limit keeping a colour out.
 
 use super::engine::{Limit, LimitSet, Separator};
+use super::frame::RelativeLab;
 use super::gamut::GamutBoundary;
 use super::limits::InkBounds;
 use super::solve::Problem;
@@ -27,19 +28,20 @@ impl Separator {
     /// The printed red (M+Y), yellow, green (C+Y), cyan, blue (C+M) and
     /// magenta solids, media-relative.
     pub fn process_primaries(&self) -> [Lab; 6] {
-        PROCESS_CORNERS.map(|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)))
+        PROCESS_CORNERS.map(|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)).lab())
     }
 
     /// Dense samples along the edges of the ink cube (no black) joining the
     /// process colours: the ridge of the printable gamut that holds its cusps.
     pub fn process_ridge(&self) -> Vec<Lab> {
-        super::gamut::ridge_samples(&PROCESS_CORNERS, &|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)))
+        super::gamut::ridge_samples(&PROCESS_CORNERS, &|[c, m, y]| self.printed_relative(Cmyk::new(c, m, y, 0.0)).lab())
     }
 
     /// Whether a working-frame colour is printable under the limits and, if
     /// not, which limits keep it out: relaxing a limit that lets the colour
     /// be reached names that limit; if none does, the inks themselves.
-    pub fn gamut_check(&self, target: Lab) -> (bool, LimitSet) {
+    pub fn gamut_check(&self, target: RelativeLab) -> (bool, LimitSet) {
+        let target = target.lab();
         let mut limits = LimitSet::default();
         let reach = |bounds: InkBounds| {
             let mut best = self.solve_with(target, 0.0, bounds, Self::cold_start(target));
@@ -95,7 +97,7 @@ impl Separator {
         let rest = ((self.bounds.tac - k) / 3.0).clamp(0.0, 1.0);
         let s = problem.solve([rest, rest, rest, k]);
         let ink = Cmyk::from_array(s.x);
-        (ink, self.printed_relative(ink))
+        (ink, self.printed_relative(ink).lab())
     }
 
     /// Samples the boundary of the feasible ink set and describes the
@@ -192,7 +194,7 @@ impl Separator {
                     } else if x.iter().sum::<f64>() > b.tac + 1e-12 {
                         continue;
                     }
-                    out.push(self.printed_relative(Cmyk::from_array(x)));
+                    out.push(self.printed_relative(Cmyk::from_array(x)).lab());
                 }
                 out
             })
@@ -211,7 +213,7 @@ impl Separator {
                     x[axis] = t;
                     x[3] *= b.k_max;
                     let x = b.project(x);
-                    samples.push(self.printed_relative(Cmyk::from_array(x)));
+                    samples.push(self.printed_relative(Cmyk::from_array(x)).lab());
                 }
             }
         }

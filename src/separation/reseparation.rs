@@ -43,6 +43,7 @@
 use super::SeparationSettings;
 use super::black::{BLACK_CURVE_STEPS, BlackOnlyCurve};
 use super::engine::{Intent, Separator};
+use super::frame::{AbsoluteLab, IntentLab, RelativeLab};
 use super::gamut::{GamutBoundary, PerceptualMap, SourceGamut, black_point_compensation};
 use super::kernel::{PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, position, simplex, step_table, steps};
 use super::limits::{InkCaps, narrow_within, quantize};
@@ -91,17 +92,17 @@ impl CmykSourceGamut {
 
     /// The darkest neutral the source prints (media-relative): black and the
     /// other inks at full coverage, balanced neutral to slightly cool.
-    pub fn black_point(&self) -> Lab {
+    pub fn black_point(&self) -> RelativeLab {
         self.separator.black_point().0
     }
 
     /// The source's printed colour, media-relative.
-    pub fn printed_relative(&self, ink: Cmyk) -> Lab {
+    pub fn printed_relative(&self, ink: Cmyk) -> RelativeLab {
         self.separator.printed_relative(ink)
     }
 
     /// The source's printed colour, absolute.
-    pub fn printed_absolute(&self, ink: Cmyk) -> Lab {
+    pub fn printed_absolute(&self, ink: Cmyk) -> AbsoluteLab {
         self.separator.printed_absolute(ink)
     }
 }
@@ -173,28 +174,37 @@ impl ReseparationTable {
             Intent::Perceptual => NodeMapping::Perceptual(PerceptualMap::new(
                 target.gamut(),
                 &target.process_ridge(),
-                target_black,
+                target_black.lab(),
                 &source_gamut,
-                source_gamut.black_point().l,
+                source_gamut.black_point().lab().l,
             )),
             Intent::Relative if settings.bpc => NodeMapping::Bpc {
-                source_black_y: source_gamut.black_point().to_xyz().y,
-                target_black_y: target_black.to_xyz().y,
+                source_black_y: source_gamut.black_point().lab().to_xyz().y,
+                target_black_y: target_black.lab().to_xyz().y,
             },
             intent => NodeMapping::Direct {
                 absolute: intent == Intent::Absolute,
                 mapping: target.source_mapping(&source_gamut),
             },
         };
-        let aim = |ink: Cmyk| -> Lab {
+        // The source's printed colour in the frame the intent reads.
+        let aim = |ink: Cmyk| -> RelativeLab {
             match &mapping {
-                NodeMapping::Direct { absolute: true, mapping } => target.intent_target(source_gamut.printed_absolute(ink), mapping),
-                NodeMapping::Direct { absolute: false, mapping } => target.intent_target(source_gamut.printed_relative(ink), mapping),
+                NodeMapping::Direct { absolute: true, mapping } => {
+                    target.intent_target(IntentLab::new(source_gamut.printed_absolute(ink).lab()), mapping)
+                }
+                NodeMapping::Direct { absolute: false, mapping } => {
+                    target.intent_target(IntentLab::new(source_gamut.printed_relative(ink).lab()), mapping)
+                }
                 NodeMapping::Bpc {
                     source_black_y,
                     target_black_y,
-                } => black_point_compensation(source_gamut.printed_relative(ink), *source_black_y, *target_black_y),
-                NodeMapping::Perceptual(map) => map.map(source_gamut.printed_relative(ink)),
+                } => RelativeLab::new(black_point_compensation(
+                    source_gamut.printed_relative(ink).lab(),
+                    *source_black_y,
+                    *target_black_y,
+                )),
+                NodeMapping::Perceptual(map) => RelativeLab::new(map.map(source_gamut.printed_relative(ink).lab())),
             }
         };
 
@@ -213,14 +223,14 @@ impl ReseparationTable {
                         let t = aim(Cmyk::new(coord(c), coord(m), coord(y), coord(k)));
                         let s = target.invert(t, start);
                         start = Some(s.x);
-                        (s.x, t.l)
+                        (s.x, t.lab().l)
                     })
                     .collect()
             })
             .collect();
         let (mut inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = lines.into_iter().flatten().unzip();
         if target.smooths_shadows_in_ink() {
-            smooth_shadows(&mut inks, &lightness, n, 4, target_black.l);
+            smooth_shadows(&mut inks, &lightness, n, 4, target_black.lab().l);
         }
         let (tac, k_max) = (settings.tac, settings.black.black_max);
         let caps = InkCaps::new(tac, k_max);
@@ -419,7 +429,7 @@ fn black_only_curve(source: &CmykSourceGamut, target: &Separator, caps: InkCaps)
     let lightness: Vec<Option<f64>> = (0..BLACK_CURVE_STEPS)
         .map(|i| {
             let s = i as f64 / (BLACK_CURVE_STEPS - 1) as f64;
-            (s > 0.0).then(|| source.printed_relative(Cmyk::new(0.0, 0.0, 0.0, s)).l)
+            (s > 0.0).then(|| source.printed_relative(Cmyk::new(0.0, 0.0, 0.0, s)).lab().l)
         })
         .collect();
     let curve = BlackOnlyCurve::new(target, &lightness);

@@ -9,11 +9,12 @@
 //! limit and the maximum black hold exactly between nodes as well.
 
 use super::engine::Separator;
+use super::frame::IntentLab;
 use super::intent::SourceMapping;
 use super::kernel::{PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, position, simplex, step_table, steps};
 use super::limits::{InkCaps, narrow_within, quantize};
 use super::shadows::smooth_shadows;
-use crate::colour::Lab;
+use crate::colour::EncodedRgb;
 use crate::ink::Cmyk;
 use rayon::prelude::*;
 
@@ -39,7 +40,7 @@ impl SeparationTable {
     /// CIELAB D50, the ICC PCS) of each grid node from its encoded RGB
     /// (0..1): a named space's conversion, or a batch transform through the
     /// embedded profile.
-    pub fn build(separator: &Separator, mapping: &SourceMapping, node_lab: &(dyn Fn([f64; 3]) -> Lab + Sync)) -> SeparationTable {
+    pub fn build(separator: &Separator, mapping: &SourceMapping, node_lab: &(dyn Fn(EncodedRgb) -> IntentLab + Sync)) -> SeparationTable {
         let n = separator.settings().table_grid;
         let coord = |i: usize| i as f64 / (n - 1) as f64;
         // One line of nodes along blue per (red, green); each line is solved
@@ -52,18 +53,18 @@ impl SeparationTable {
                 let mut start = None;
                 (0..n)
                     .map(|b| {
-                        let lab = node_lab([coord(r), coord(g), coord(b)]);
+                        let lab = node_lab(EncodedRgb([coord(r), coord(g), coord(b)]));
                         let target = separator.intent_target(lab, mapping);
                         let s = separator.invert(target, start);
                         start = Some(s.x);
-                        (s.x, target.l)
+                        (s.x, target.lab().l)
                     })
                     .collect()
             })
             .collect();
         let (mut inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = lines.into_iter().flatten().unzip();
         if separator.smooths_shadows_in_ink() {
-            smooth_shadows(&mut inks, &lightness, n, 3, separator.black_point().0.l);
+            smooth_shadows(&mut inks, &lightness, n, 3, separator.black_point().0.lab().l);
         }
         let (tac, k_max) = (separator.settings().tac, separator.settings().black.black_max);
         let caps = InkCaps::new(tac, k_max);
@@ -127,7 +128,8 @@ impl SeparationTable {
     }
 
     /// CMYK for one encoded RGB value (0..1 per channel), interpolated.
-    pub fn lookup(&self, rgb: [f64; 3]) -> Cmyk {
+    pub fn lookup(&self, rgb: EncodedRgb) -> Cmyk {
+        let rgb = rgb.0;
         if let (Some(k), true) = (self.pure_black, rgb.iter().all(|&v| v <= 0.0)) {
             return Cmyk::new(0.0, 0.0, 0.0, k as f64 / 65535.0);
         }
