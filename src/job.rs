@@ -676,7 +676,7 @@ impl Workshop {
         let bits = self.options.bits;
         let pure = sep.settings().keep_pure_black;
         // Rounded to the nearest code, but never over the maximum black.
-        let caps = InkCaps::new(sep.settings().tac, k_max);
+        let caps = InkCaps::of(sep.settings());
         let gray: Vec<f64> = match &raster.samples {
             Samples::U8(v) => v
                 .chunks_exact(channels)

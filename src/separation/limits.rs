@@ -6,7 +6,7 @@
 //!    {0 ≤ c, m, y ≤ 1, 0 ≤ k ≤ maximum black, c + m + y + k ≤ TAC}, and
 //!    every trial point is projected onto it ([`InkBounds::project`]), so
 //!    every solved build meets both limits.
-//! 2. **Nodes** ([`quantize`]): a table node is rounded to 16 bits, and
+//! 2. **Nodes** ([`InkCaps::quantize_nodes`], [`quantize`]): a table node is rounded to 16 bits, and
 //!    channels rounded up are taken back, largest rounding first, until the
 //!    total and black fit the 16-bit caps ([`InkCaps::new`]: the limits
 //!    rounded down to the code).
@@ -19,15 +19,16 @@
 //! 5. **Narrowing** ([`narrow_within`], [`round_within`]): 16-bit CMYK
 //!    written at 8 bits rounds down the plates rounded up the most where a
 //!    pixel would go over.
-//! 6. **Black only** ([`InkCaps::black_code`], [`InkCaps::black_from_16`]):
-//!    builds on the black plate alone (gray input, pure black) are rounded
-//!    to the nearest code and never over the maximum black.
+//! 6. **Black only** ([`InkCaps::black_code`], [`InkCaps::black_from_16`],
+//!    [`InkCaps::black_sample`]): builds on the black plate alone (gray
+//!    input, pure black) are rounded to the nearest code, or down, and never
+//!    over the maximum black.
 //!
 //! Either way no written pixel exceeds the ink limit or the maximum black by
 //! one code. [`InkBounds::broken_by`] names the limits a build given as it
 //! is (a recipe) breaks.
 
-use super::engine::{Limit, LimitSet};
+use super::engine::{Limit, LimitSet, SeparationSettings};
 use super::kernel::Sample;
 use crate::ink::Cmyk;
 use rayon::prelude::*;
@@ -151,6 +152,26 @@ impl InkCaps {
         }
     }
 
+    /// The caps of a separation's ink limit and maximum black.
+    pub(crate) fn of(settings: &SeparationSettings) -> InkCaps {
+        InkCaps::new(settings.tac, settings.black.black_max)
+    }
+
+    /// A table's nodes (fractions) quantised under these caps, and the same
+    /// nodes quantised under [`InkCaps::for_8_bit_nodes`] for 8-bit output.
+    pub(crate) fn quantize_nodes(self, inks: Vec<[f64; 4]>) -> (Vec<[u16; 4]>, Vec<[u16; 4]>) {
+        let caps8 = self.for_8_bit_nodes();
+        let nodes8: Vec<[u16; 4]> = inks.iter().map(|&x| quantize(x, caps8)).collect();
+        let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, self)).collect();
+        (nodes, nodes8)
+    }
+
+    /// The maximum black as a sample of type `S`, rounded down.
+    #[inline]
+    pub(crate) fn black_sample<S: Sample>(self) -> S {
+        S::from_16_down(self.black)
+    }
+
     /// The maximum black in 16-bit units (what pure black prints at).
     #[inline]
     pub(crate) fn black16(self) -> u16 {
@@ -254,15 +275,7 @@ fn held<S: Sample>(v: [u32; 4], caps: PixelCaps) -> [S; 4] {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    /// splitmix64 (Steele, Lea & Flood, OOPSLA 2014), for reproducible inputs.
-    fn splitmix(state: &mut u64) -> u64 {
-        *state = state.wrapping_add(0x9E3779B97F4A7C15);
-        let mut z = *state;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58476D1CE4E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D049BB133111EB);
-        z ^ (z >> 31)
-    }
+    use crate::separation::kernel::splitmix;
 
     /// Rounding to 8 bits never puts a pixel over the caps, changes nothing
     /// where plain rounding fits, and otherwise only rounds channels down

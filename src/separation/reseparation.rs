@@ -46,7 +46,7 @@ use super::engine::{Intent, Separator};
 use super::frame::{AbsoluteLab, IntentLab, RelativeLab};
 use super::gamut::{GamutBoundary, PerceptualMap, SourceGamut, black_point_compensation};
 use super::kernel::{PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, position, simplex, step_table, steps};
-use super::limits::{InkCaps, narrow_within, quantize};
+use super::limits::{InkCaps, narrow_within};
 use super::shadows::smooth_shadows;
 use crate::colour::Lab;
 use crate::error::{Error, Result};
@@ -232,11 +232,8 @@ impl ReseparationTable {
         if target.smooths_shadows_in_ink() {
             smooth_shadows(&mut inks, &lightness, n, 4, target_black.lab().l);
         }
-        let (tac, k_max) = (settings.tac, settings.black.black_max);
-        let caps = InkCaps::new(tac, k_max);
-        let caps8 = caps.for_8_bit_nodes();
-        let nodes8: Vec<[u16; 4]> = inks.iter().map(|&x| quantize(x, caps8)).collect();
-        let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, caps)).collect();
+        let caps = InkCaps::of(settings);
+        let (nodes, nodes8) = caps.quantize_nodes(inks);
 
         let (black_curve, black_curve8) = if keep_pure_black {
             let curve = black_only_curve(&source_gamut, target, caps);

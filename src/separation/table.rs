@@ -12,7 +12,7 @@ use super::engine::Separator;
 use super::frame::IntentLab;
 use super::intent::SourceMapping;
 use super::kernel::{PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, position, simplex, step_table, steps};
-use super::limits::{InkCaps, narrow_within, quantize};
+use super::limits::{InkCaps, narrow_within};
 use super::shadows::smooth_shadows;
 use crate::colour::EncodedRgb;
 use crate::ink::Cmyk;
@@ -66,11 +66,8 @@ impl SeparationTable {
         if separator.smooths_shadows_in_ink() {
             smooth_shadows(&mut inks, &lightness, n, 3, separator.black_point().0.lab().l);
         }
-        let (tac, k_max) = (separator.settings().tac, separator.settings().black.black_max);
-        let caps = InkCaps::new(tac, k_max);
-        let caps8 = caps.for_8_bit_nodes();
-        let nodes8: Vec<[u16; 4]> = inks.iter().map(|&x| quantize(x, caps8)).collect();
-        let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, caps)).collect();
+        let caps = InkCaps::of(separator.settings());
+        let (nodes, nodes8) = caps.quantize_nodes(inks);
         SeparationTable {
             grid: n,
             packed: PackedNodes::new(&nodes),
@@ -157,7 +154,7 @@ impl SeparationTable {
         let n = self.grid as u32;
         let strides = [n * n, n, 1];
         let table = step_table::<S, 3>(self.grid, strides);
-        let black = self.pure_black.map(|k| S::from_16_down(k as u32));
+        let black = self.pure_black.map(|_| self.caps.black_sample::<S>());
         let zero = S::from_16(0);
         // 8-bit pixels come from nodes that rounding cannot take over the
         // limits; 16-bit pixels are not rounded.
@@ -185,15 +182,7 @@ impl SeparationTable {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    /// splitmix64 (Steele, Lea & Flood, OOPSLA 2014), for reproducible inputs.
-    fn splitmix(state: &mut u64) -> u64 {
-        *state = state.wrapping_add(0x9E3779B97F4A7C15);
-        let mut z = *state;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58476D1CE4E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D049BB133111EB);
-        z ^ (z >> 31)
-    }
+    use crate::separation::kernel::splitmix;
 
     /// The packed, branch-free kernel gives exactly what the plain
     /// tetrahedral interpolation (Kasson et al. 1995, the case table of
