@@ -8,8 +8,9 @@
 //! photograph's neighbouring pixels mostly reuse the same table cells).
 
 use criterion::{BenchmarkId, Criterion, Throughput, criterion_group, criterion_main};
-use platesmith::colour::{EncodedRgb, RgbSpace};
+use platesmith::colour::RgbSpace;
 use platesmith::press::builtin::coated_offset;
+use platesmith::separation::IntentLab;
 use platesmith::separation::{RgbGamut, SeparationSettings, SeparationTable, Separator};
 use std::time::Duration;
 
@@ -36,7 +37,7 @@ fn default_table() -> SeparationTable {
     let conv = RgbSpace::Srgb.converter();
     let gamut = RgbGamut(conv);
     let mapping = sep.source_mapping(&gamut);
-    SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)))
+    SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)))
 }
 
 fn apply(c: &mut Criterion) {

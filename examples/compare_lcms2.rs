@@ -32,10 +32,11 @@
 //! `scripts/bench.sh`) and exits.
 
 use lcms2::{Flags, Intent, PixelFormat, Profile, Transform};
-use platesmith::colour::{EncodedRgb, Lab, RgbSpace, ciede2000};
+use platesmith::colour::{Lab, RgbSpace, ciede2000};
 use platesmith::icc::{IccVersion, OutputProfileSpec, build_output_profile, default_description};
 use platesmith::ink::Cmyk;
 use platesmith::press::builtin::coated_offset;
+use platesmith::separation::{IntentLab, RelativeLab};
 use platesmith::separation::{RgbGamut, SeparationSettings, SeparationTable, Separator};
 use rayon::prelude::*;
 use std::path::PathBuf;
@@ -125,9 +126,15 @@ fn best_cpu_of(repeat: usize, mut run: impl FnMut()) -> Option<f64> {
 /// BToA (all three intents) the separator's colorimetric inversion, the gamut
 /// tag the CIEDE2000 between a colour and the print of its inversion.
 fn stand_in_profile(sep: &Separator) -> Result<Vec<u8>, String> {
-    let a2b = |ink: Cmyk| sep.printed_relative(ink);
-    let b2a = |lab: Lab| Cmyk::from_array(sep.invert(lab, None).x);
-    let gamut = |lab: Lab| ciede2000(lab, sep.printed_relative(Cmyk::from_array(sep.invert(lab, None).x)));
+    let a2b = |ink: Cmyk| sep.printed_relative(ink).lab();
+    let b2a = |lab: Lab| Cmyk::from_array(sep.invert(RelativeLab::new(lab), None).x);
+    let gamut = |lab: Lab| {
+        ciede2000(
+            lab,
+            sep.printed_relative(Cmyk::from_array(sep.invert(RelativeLab::new(lab), None).x))
+                .lab(),
+        )
+    };
     let spec = OutputProfileSpec {
         description: default_description("coated-offset"),
         copyright: "stand-in for the speed comparison".into(),
@@ -174,7 +181,7 @@ fn run() -> Result<(), String> {
     let t = Instant::now();
     let cpu0 = process_cpu_seconds();
     let mapping = sep.source_mapping(&gamut);
-    let table = SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)));
+    let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
     let table_s = t.elapsed().as_secs_f64();
     let table_cpu_s = cpu0.zip(process_cpu_seconds()).map(|(a, b)| b - a);
 

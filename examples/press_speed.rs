@@ -4,9 +4,10 @@
 //!
 //!     cargo run --release --example press_speed
 
-use platesmith::colour::{EncodedRgb, RgbSpace};
+use platesmith::colour::RgbSpace;
 use platesmith::ink::Cmyk;
 use platesmith::press::{CorrectedModel, PressModel, builtin};
+use platesmith::separation::IntentLab;
 use platesmith::separation::{Intent, RgbGamut, SeparationSettings, SeparationTable, Separator};
 use std::hint::black_box;
 use std::time::Instant;
@@ -63,7 +64,7 @@ fn main() {
     for _ in 0..3 {
         let start = Instant::now();
         let mapping = sep.source_mapping(&gamut);
-        let table = SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)));
+        let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
         black_box(&table);
         println!(
             "default table build (coated-offset, perceptual, grid 33): {:.3} s",

@@ -1,12 +1,13 @@
 //! One separation job: an image in, a composite CMYK TIFF, one plate per ink
 //! and a JSON summary out, written as a set (all files or none).
 
-use crate::colour::RgbSpace;
+use crate::colour::{EncodedRgb, RgbSpace};
 use crate::error::{Error, Result};
-use crate::ink::{Cmyk, Ink};
+use crate::ink::Ink;
 use crate::raster::{CmykImage, Compression, Layout, Limits, OutputSet, Raster, ReadOptions, Resolution, Samples, TiffOptions};
 use crate::report::{SettingsReport, round_to};
-use crate::separation::{CompressFrom, Intent, SeparationTable, Separator};
+use crate::separation::limits::InkCaps;
+use crate::separation::{BLACK_CURVE_STEPS, BlackOnlyCurve, CompressFrom, Intent, IntentLab, SeparationTable, Separator};
 use crate::settings::Coverage;
 use crate::source::RgbSource;
 use rayon::prelude::*;
@@ -664,32 +665,19 @@ impl Workshop {
     /// (its lightness as a neutral of `source`).
     fn gray_to_black(&self, raster: &Raster, source: &RgbSource) -> Samples {
         let sep = &self.separator;
-        let grays: Vec<[f64; 3]> = (0..=4095).map(|i| [i as f64 / 4095.0; 3]).collect();
-        let targets = source.labs_of(&grays);
+        let top = BLACK_CURVE_STEPS - 1;
+        let grays: Vec<[f64; 3]> = (0..=top).map(|i| [i as f64 / top as f64; 3]).collect();
+        // The curve runs from paper (white) toward black.
+        let lightness: Vec<Option<f64>> = source.labs_of(&grays).iter().rev().map(|lab| Some(lab.l)).collect();
+        let curve = BlackOnlyCurve::new(sep, &lightness);
         let k_max = sep.settings().black.black_max;
-        // Lightness of black-only builds, to invert by bisection.
-        let lightness_of = |k: f64| sep.printed_relative(Cmyk::new(0.0, 0.0, 0.0, k)).l;
-        let curve: Vec<f64> = targets
-            .iter()
-            .map(|lab| {
-                let target = lab.l;
-                let (mut lo, mut hi) = (0.0, k_max);
-                for _ in 0..40 {
-                    let mid = 0.5 * (lo + hi);
-                    if lightness_of(mid) > target { lo = mid } else { hi = mid }
-                }
-                0.5 * (lo + hi)
-            })
-            .collect();
         let max_in = raster.max_value() as f64;
         let channels = raster.channels();
-        let k_at = |v: f64| curve[((v / max_in) * 4095.0).round() as usize];
+        let k_at = |v: f64| curve.coverage(top - ((v / max_in) * top as f64).round() as usize);
         let bits = self.options.bits;
         let pure = sep.settings().keep_pure_black;
-        let scale = if bits == 8 { 255.0 } else { 65535.0 };
         // Rounded to the nearest code, but never over the maximum black.
-        let k_top = (k_max * scale + 1e-6).floor();
-        let k_code = |k: f64| (k * scale).round().min(k_top);
+        let caps = InkCaps::of(sep.settings());
         let gray: Vec<f64> = match &raster.samples {
             Samples::U8(v) => v
                 .chunks_exact(channels)
@@ -702,9 +690,9 @@ impl Workshop {
         };
         let k: Vec<f64> = gray.par_iter().map(|&g| if pure && g == 0.0 { k_max } else { k_at(g) }).collect();
         if bits == 8 {
-            Samples::U8(k.iter().flat_map(|&k| [0, 0, 0, k_code(k) as u8]).collect())
+            Samples::U8(k.iter().flat_map(|&k| [0, 0, 0, caps.black_code::<u8>(k) as u8]).collect())
         } else {
-            Samples::U16(k.iter().flat_map(|&k| [0, 0, 0, k_code(k) as u16]).collect())
+            Samples::U16(k.iter().flat_map(|&k| [0, 0, 0, caps.black_code::<u16>(k) as u16]).collect())
         }
     }
 }
@@ -722,9 +710,9 @@ pub fn table_for_source(separator: &Separator, source: &RgbSource) -> Separation
 fn table_with(separator: &Separator, source: &RgbSource, mapping: &crate::separation::SourceMapping) -> SeparationTable {
     let n = separator.settings().table_grid;
     let labs = source.node_labs(n);
-    let lookup = |rgb: [f64; 3]| {
+    let lookup = |EncodedRgb(rgb): EncodedRgb| {
         let idx = |v: f64| (v * (n - 1) as f64).round() as usize;
-        labs[(idx(rgb[0]) * n + idx(rgb[1])) * n + idx(rgb[2])]
+        IntentLab::new(labs[(idx(rgb[0]) * n + idx(rgb[1])) * n + idx(rgb[2])])
     };
     SeparationTable::build(separator, mapping, &lookup)
 }

@@ -6,7 +6,7 @@ use crate::colour::{EncodedRgb, Lab, RgbSpace};
 use crate::error::{Error, Result};
 use crate::ink::Cmyk;
 use crate::report::{SettingsReport, round_to};
-use crate::separation::{RgbGamut, Separation, Separator};
+use crate::separation::{IntentLab, RgbGamut, Separation, Separator};
 use crate::settings::Coverage;
 use clap::Args;
 use serde::Serialize;
@@ -115,18 +115,18 @@ pub fn recipe(spec: ColourSpec, separator: &Separator, source_space: RgbSpace) -
     match spec {
         ColourSpec::Rgb(rgb) => {
             let lab = converter.to_lab(EncodedRgb(rgb.map(|v| v as f64 / 255.0)));
-            let mut s = separator.separate(lab, &mapping);
+            let mut s = separator.separate(IntentLab::new(lab), &mapping);
             if separator.settings().keep_pure_black && rgb == [0, 0, 0] {
                 let pure = separator.describe_build(Cmyk::new(0.0, 0.0, 0.0, separator.settings().black.black_max));
                 s = Separation {
                     target: s.target,
-                    delta_e: crate::colour::ciede2000(s.target, pure.printed),
+                    delta_e: s.target.delta_e(pure.printed),
                     ..pure
                 };
             }
             s
         }
-        ColourSpec::Lab(lab) => separator.separate(lab, &mapping),
+        ColourSpec::Lab(lab) => separator.separate(IntentLab::new(lab), &mapping),
         ColourSpec::Cmyk(c) => separator.describe_build(c),
     }
 }
@@ -138,12 +138,12 @@ pub fn run(args: RecipeArgs) -> Result<i32> {
     let s = recipe(spec, &separator, setup.source_space);
     let report = RecipeReport {
         input: args.colour.clone(),
-        target_lab: lab3(s.target),
+        target_lab: lab3(s.target.lab()),
         cmyk: s.cmyk.to_percent().map(|v| round_to(v, 1)),
         tac: round_to(s.cmyk.total_percent(), 1),
         tac_limit: round_to(Coverage(setup.settings.tac).percent().0, 1),
-        printed_lab: lab3(s.printed),
-        printed_lab_absolute: lab3(s.printed_absolute),
+        printed_lab: lab3(s.printed.lab()),
+        printed_lab_absolute: lab3(s.printed_absolute.lab()),
         delta_e: round_to(s.delta_e, 2),
         in_gamut: s.in_gamut,
         limited_by: s.limited_by.iter().map(|l| l.name()).collect(),

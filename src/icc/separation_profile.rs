@@ -51,7 +51,7 @@ use crate::colour::{D50, Lab, RgbSpace, Xyz, ciede2000};
 use crate::error::Result;
 use crate::ink::Cmyk;
 use crate::press::PrintingCondition;
-use crate::separation::{Intent, RgbGamut, SeparationSettings, Separator};
+use crate::separation::{Intent, IntentLab, RelativeLab, RgbGamut, SeparationSettings, Separator};
 use rayon::prelude::*;
 
 /// Black of the perceptual reference medium in PCSXYZ (ICC.1:2022 §6.2.4.3;
@@ -152,7 +152,7 @@ pub fn profile_for_separator(separator: &Separator, options: &ProfileOptions) ->
     let source = RgbGamut(RgbSpace::Srgb.converter());
     let mapping = perceptual.source_mapping(&source);
     let pcs_black = perceptual_pcs_black(version);
-    let press_black = colorimetric.black_point().0.to_xyz();
+    let press_black = colorimetric.black_point().0.lab().to_xyz();
     let zero = Xyz::new(0.0, 0.0, 0.0);
 
     // The three BToA intents and the gamut measure, solved once per node.
@@ -160,7 +160,9 @@ pub fn profile_for_separator(separator: &Separator, options: &ProfileOptions) ->
     let mut nodes = solve_grid(&colorimetric, n, &|[li, ai, bi]| {
         let lab = grid_lab([li, ai, bi].map(|i| i as u32), n as u32, version);
         [
-            perceptual.intent_target(scale_black(lab, pcs_black, zero), &mapping),
+            perceptual
+                .intent_target(IntentLab::new(scale_black(lab, pcs_black, zero)), &mapping)
+                .lab(),
             lab,
             scale_black(lab, pcs_black, press_black),
         ]
@@ -168,7 +170,7 @@ pub fn profile_for_separator(separator: &Separator, options: &ProfileOptions) ->
     repair_black_outliers(&colorimetric, &mut nodes, n);
     nodes.par_iter_mut().enumerate().for_each(|(i, node)| {
         let lab = grid_lab([(i / (n * n)) as u32, (i / n % n) as u32, (i % n) as u32], n as u32, version);
-        node.gamut = ciede2000(lab, colorimetric.printed_relative(Cmyk::from_array(node.ink[1])));
+        node.gamut = ciede2000(lab, colorimetric.printed_relative(Cmyk::from_array(node.ink[1])).lab());
     });
     // The writer asks for each node's colour by its grid position; find the
     // node again from the colour, and solve afresh for any other colour.
@@ -181,11 +183,13 @@ pub fn profile_for_separator(separator: &Separator, options: &ProfileOptions) ->
             Some(node) => Cmyk::from_array(node.ink[intent]),
             None => {
                 let target = match intent {
-                    0 => perceptual.intent_target(scale_black(lab, pcs_black, zero), &mapping),
+                    0 => perceptual
+                        .intent_target(IntentLab::new(scale_black(lab, pcs_black, zero)), &mapping)
+                        .lab(),
                     1 => lab,
                     _ => scale_black(lab, pcs_black, press_black),
                 };
-                Cmyk::from_array(colorimetric.invert(target, None).x)
+                Cmyk::from_array(colorimetric.invert(RelativeLab::new(target), None).x)
             }
         }
     };
@@ -194,7 +198,7 @@ pub fn profile_for_separator(separator: &Separator, options: &ProfileOptions) ->
     let b2a2 = |lab: Lab| b2a(2, lab);
     let gamut = |lab: Lab| match node_of(lab) {
         Some(node) => node.gamut,
-        None => ciede2000(lab, colorimetric.printed_relative(b2a1(lab))),
+        None => ciede2000(lab, colorimetric.printed_relative(b2a1(lab)).lab()),
     };
     // The same intents on a grid in sRGB coordinates, for the floating-point
     // tables: the PCS colour of a node is that of its sRGB value, seen
@@ -205,7 +209,7 @@ pub fn profile_for_separator(separator: &Separator, options: &ProfileOptions) ->
             let float_nodes = solve_grid(&colorimetric, frame.grid(), &|index| {
                 let source = Lab::from_xyz(frame.node_xyz(index));
                 [
-                    perceptual.intent_target(source, &mapping),
+                    perceptual.intent_target(IntentLab::new(source), &mapping).lab(),
                     source,
                     scale_black(source, zero, press_black),
                 ]
@@ -224,8 +228,8 @@ pub fn profile_for_separator(separator: &Separator, options: &ProfileOptions) ->
         }
         _ => None,
     };
-    let a2b = |ink: Cmyk| colorimetric.printed_relative(ink);
-    let a2b_perceptual = |ink: Cmyk| scale_black(colorimetric.printed_relative(ink), press_black, pcs_black);
+    let a2b = |ink: Cmyk| colorimetric.printed_relative(ink).lab();
+    let a2b_perceptual = |ink: Cmyk| scale_black(colorimetric.printed_relative(ink).lab(), press_black, pcs_black);
     let spec = OutputProfileSpec {
         description: options.description.clone().unwrap_or_else(|| profile_description(separator)),
         copyright: options.copyright.clone().unwrap_or_else(|| DEFAULT_COPYRIGHT.to_string()),
@@ -256,7 +260,7 @@ fn solve_grid(separator: &Separator, n: usize, targets_of: &(dyn Fn([usize; 3]) 
                 .map(|last| {
                     let targets = targets_of([line / n, line % n, last]);
                     let ink: [[f64; 4]; 3] = std::array::from_fn(|i| {
-                        let s = separator.invert(targets[i], starts[i]);
+                        let s = separator.invert(RelativeLab::new(targets[i]), starts[i]);
                         starts[i] = Some(s.x);
                         s.x
                     });
@@ -334,7 +338,7 @@ fn repair_black_outliers(separator: &Separator, nodes: &mut [Node], n: usize) {
                         continue;
                     }
                     let target = nodes[i].targets[intent];
-                    let error = |x: [f64; 4]| ciede2000(target, separator.printed_relative(Cmyk::from_array(x)));
+                    let error = |x: [f64; 4]| ciede2000(target, separator.printed_relative(Cmyk::from_array(x)).lab());
                     let own_error = error(own);
                     if own_error > EXACT {
                         continue;

@@ -22,13 +22,13 @@
 pub mod regions;
 pub mod rules;
 
-use crate::colour::{Lab, RgbSpace, ciede2000};
+use crate::colour::{EncodedRgb, Lab, RgbSpace, ciede2000};
 use crate::error::Result;
 use crate::ink::{Cmyk, Ink};
 use crate::job::{InkStats, SeparatedFile, TacSummary, Workshop, table_for_source};
 use crate::raster::{Layout, Raster, Resolution, Samples};
 use crate::report::{SettingsReport, round_to};
-use crate::separation::{Intent, SeparationTable, Separator};
+use crate::separation::{Intent, RelativeLab, SeparationTable, Separator};
 use crate::source::RgbSource;
 use rayon::prelude::*;
 use regions::{Region, RowRuns, Run};
@@ -626,11 +626,11 @@ impl<'a> DeModel<'a> {
             let mut printed = (u64::MAX, Lab::default());
             for ((&(ink, key), lab), rgb) in group.iter().zip(labs).zip(&rgb) {
                 if printed.0 != ink {
-                    printed = (ink, separator.printed_in_frame(cmyk_of_key(ink)));
+                    printed = (ink, separator.printed_in_frame(cmyk_of_key(ink)).lab());
                 }
                 first[key as usize].store((ciede2000(lab, printed.1) as f32).to_bits(), Ordering::Relaxed);
                 if let Some((reach, o)) = &outside {
-                    let d = ciede2000(lab, separator.printed_relative(reach.lookup(*rgb)));
+                    let d = ciede2000(lab, separator.printed_relative(reach.lookup(EncodedRgb(*rgb))).lab());
                     o[key as usize].store((d as f32).to_bits(), Ordering::Relaxed);
                 }
             }
@@ -645,9 +645,9 @@ impl<'a> DeModel<'a> {
     fn compute(&self, i: usize) -> (f32, f32) {
         let rgb = rgb_at(self.rgb, i);
         let lab = self.source.labs_of(&[rgb])[0];
-        let de = ciede2000(lab, self.separator.printed_in_frame(cmyk_of_key(cmyk_key(self.cmyk, i)))) as f32;
+        let de = ciede2000(lab, self.separator.printed_in_frame(cmyk_of_key(cmyk_key(self.cmyk, i))).lab()) as f32;
         let outside = match &self.reach {
-            Some(reach) => ciede2000(lab, self.separator.printed_relative(reach.lookup(rgb))) as f32,
+            Some(reach) => ciede2000(lab, self.separator.printed_relative(reach.lookup(EncodedRgb(rgb))).lab()) as f32,
             None => de,
         };
         (de, outside)
@@ -907,7 +907,7 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
             let (x, y) = r.max_at;
             let i = y as usize * w + x as usize;
             let ink = cmyk_of_key(cmyk_key(cmyk, i));
-            let printed = separator.printed_in_frame(ink);
+            let printed = separator.printed_in_frame(ink).lab();
             let (source_value, lab) = match (rgb, source) {
                 (Some(rgb), Some(src)) => {
                     let max = if rgb.bits() == 8 { 255.0 } else { 65535.0 };
@@ -917,7 +917,7 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
                 _ => (ink.to_percent().iter().map(|&v| round_to(v, 1)).collect(), printed),
             };
             let (in_gamut, limited_by) = if *k == 0 {
-                let (inside, limits) = separator.gamut_check(working(lab));
+                let (inside, limits) = separator.gamut_check(RelativeLab::new(working(lab)));
                 (Some(inside), Some(limits.iter().map(|l| l.name()).collect()))
             } else {
                 (None, None)
@@ -1009,7 +1009,7 @@ fn analyse(workshop: &Workshop, path: &Path, subject: Subject, opts: &InspectOpt
             .map(|c| {
                 let n = c.n.max(1) as f64;
                 let ink = Cmyk::new(c.ink[0] as f64 / n, c.ink[1] as f64 / n, c.ink[2] as f64 / n, c.ink[3] as f64 / n);
-                let rgb = srgb.from_lab(separator.printed_relative(ink)).0;
+                let rgb = srgb.from_lab(separator.printed_relative(ink).lab()).0;
                 rgb.map(|v| (v.clamp(0.0, 1.0) * 255.0).round() as u8)
             })
             .collect();

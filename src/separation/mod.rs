@@ -4,15 +4,25 @@
 
 mod black;
 mod engine;
+pub mod frame;
 pub mod gamut;
+mod intent;
+mod inversion;
+mod kernel;
+pub(crate) mod limits;
 mod picture;
+mod printable;
 mod reseparation;
+mod shadows;
 pub mod solve;
 mod table;
 
-pub use black::BlackGeneration;
-pub use engine::{CompressFrom, IN_GAMUT_TOLERANCE, Intent, Limit, LimitSet, Separation, SeparationSettings, Separator, SourceMapping};
+pub use black::{BLACK_CURVE_STEPS, BlackGeneration, BlackOnlyCurve};
+pub use engine::{CompressFrom, Intent, Limit, LimitSet, Separation, SeparationSettings, Separator};
+pub use frame::{AbsoluteLab, IntentLab, LabIn, RelativeLab};
 pub use gamut::{GamutBoundary, PerceptualMap, RgbGamut, SourceGamut};
+pub use intent::SourceMapping;
 pub use picture::{PictureGamut, RgbCode, distinct_colours};
-pub use reseparation::{BLACK_CURVE_STEPS, CmykSourceGamut, DEFAULT_RESEPARATION_GRID, RESEPARATION_GRID_RANGE, ReseparationTable};
+pub use printable::IN_GAMUT_TOLERANCE;
+pub use reseparation::{CmykSourceGamut, DEFAULT_RESEPARATION_GRID, RESEPARATION_GRID_RANGE, ReseparationTable};
 pub use table::SeparationTable;

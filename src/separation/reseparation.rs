@@ -41,20 +41,18 @@
 //! the RGB path takes L* 0 for the source black.
 
 use super::SeparationSettings;
+use super::black::{BLACK_CURVE_STEPS, BlackOnlyCurve};
 use super::engine::{Intent, Separator};
+use super::frame::{AbsoluteLab, IntentLab, RelativeLab};
 use super::gamut::{GamutBoundary, PerceptualMap, SourceGamut, black_point_compensation};
-use super::table::{
-    InkCaps, PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, narrow_within, position, quantize, simplex, smooth_shadows,
-    step_table, steps,
-};
+use super::kernel::{PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, position, simplex, step_table, steps};
+use super::limits::{InkCaps, narrow_within};
+use super::shadows::smooth_shadows;
 use crate::colour::Lab;
 use crate::error::{Error, Result};
 use crate::ink::Cmyk;
 use crate::press::PrintingCondition;
 use rayon::prelude::*;
-
-/// Entries of the black-only curve for pure-black pixels.
-pub const BLACK_CURVE_STEPS: usize = 4096;
 
 /// Default nodes per axis of a re-separation table.
 pub const DEFAULT_RESEPARATION_GRID: usize = 17;
@@ -94,17 +92,17 @@ impl CmykSourceGamut {
 
     /// The darkest neutral the source prints (media-relative): black and the
     /// other inks at full coverage, balanced neutral to slightly cool.
-    pub fn black_point(&self) -> Lab {
+    pub fn black_point(&self) -> RelativeLab {
         self.separator.black_point().0
     }
 
     /// The source's printed colour, media-relative.
-    pub fn printed_relative(&self, ink: Cmyk) -> Lab {
+    pub fn printed_relative(&self, ink: Cmyk) -> RelativeLab {
         self.separator.printed_relative(ink)
     }
 
     /// The source's printed colour, absolute.
-    pub fn printed_absolute(&self, ink: Cmyk) -> Lab {
+    pub fn printed_absolute(&self, ink: Cmyk) -> AbsoluteLab {
         self.separator.printed_absolute(ink)
     }
 }
@@ -176,28 +174,37 @@ impl ReseparationTable {
             Intent::Perceptual => NodeMapping::Perceptual(PerceptualMap::new(
                 target.gamut(),
                 &target.process_ridge(),
-                target_black,
+                target_black.lab(),
                 &source_gamut,
-                source_gamut.black_point().l,
+                source_gamut.black_point().lab().l,
             )),
             Intent::Relative if settings.bpc => NodeMapping::Bpc {
-                source_black_y: source_gamut.black_point().to_xyz().y,
-                target_black_y: target_black.to_xyz().y,
+                source_black_y: source_gamut.black_point().lab().to_xyz().y,
+                target_black_y: target_black.lab().to_xyz().y,
             },
             intent => NodeMapping::Direct {
                 absolute: intent == Intent::Absolute,
                 mapping: target.source_mapping(&source_gamut),
             },
         };
-        let aim = |ink: Cmyk| -> Lab {
+        // The source's printed colour in the frame the intent reads.
+        let aim = |ink: Cmyk| -> RelativeLab {
             match &mapping {
-                NodeMapping::Direct { absolute: true, mapping } => target.intent_target(source_gamut.printed_absolute(ink), mapping),
-                NodeMapping::Direct { absolute: false, mapping } => target.intent_target(source_gamut.printed_relative(ink), mapping),
+                NodeMapping::Direct { absolute: true, mapping } => {
+                    target.intent_target(IntentLab::new(source_gamut.printed_absolute(ink).lab()), mapping)
+                }
+                NodeMapping::Direct { absolute: false, mapping } => {
+                    target.intent_target(IntentLab::new(source_gamut.printed_relative(ink).lab()), mapping)
+                }
                 NodeMapping::Bpc {
                     source_black_y,
                     target_black_y,
-                } => black_point_compensation(source_gamut.printed_relative(ink), *source_black_y, *target_black_y),
-                NodeMapping::Perceptual(map) => map.map(source_gamut.printed_relative(ink)),
+                } => RelativeLab::new(black_point_compensation(
+                    source_gamut.printed_relative(ink).lab(),
+                    *source_black_y,
+                    *target_black_y,
+                )),
+                NodeMapping::Perceptual(map) => RelativeLab::new(map.map(source_gamut.printed_relative(ink).lab())),
             }
         };
 
@@ -216,27 +223,23 @@ impl ReseparationTable {
                         let t = aim(Cmyk::new(coord(c), coord(m), coord(y), coord(k)));
                         let s = target.invert(t, start);
                         start = Some(s.x);
-                        (s.x, t.l)
+                        (s.x, t.lab().l)
                     })
                     .collect()
             })
             .collect();
         let (mut inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = lines.into_iter().flatten().unzip();
         if target.smooths_shadows_in_ink() {
-            smooth_shadows(&mut inks, &lightness, n, 4, target_black.l);
+            smooth_shadows(&mut inks, &lightness, n, 4, target_black.lab().l);
         }
-        let (tac, k_max) = (settings.tac, settings.black.black_max);
-        let caps = InkCaps::new(tac, k_max);
-        let caps8 = caps.for_8_bit_nodes();
-        let nodes8: Vec<[u16; 4]> = inks.iter().map(|&x| quantize(x, caps8)).collect();
-        let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, caps)).collect();
+        let caps = InkCaps::of(settings);
+        let (nodes, nodes8) = caps.quantize_nodes(inks);
 
         let (black_curve, black_curve8) = if keep_pure_black {
-            let curve = black_only_curve(&source_gamut, target);
+            let curve = black_only_curve(&source_gamut, target, caps);
             // Rounded, but never over the maximum black in 8-bit codes.
-            let k_codes = caps.codes::<u8>().black();
             let curve8: Vec<u8> = (0..256u32)
-                .map(|v| to_8bit(curve_at(&curve, v, 255) as u32).min(k_codes as u8))
+                .map(|v| caps.black_from_16::<u8>(curve_at(&curve, v, 255) as u32) as u8)
                 .collect();
             (Some(curve), Some(curve8))
         } else {
@@ -401,11 +404,6 @@ impl ReseparationTable {
     }
 }
 
-#[inline]
-fn to_8bit(v16: u32) -> u8 {
-    ((v16 * 255 + 32767) / 65535) as u8
-}
-
 /// The black-only curve at source black `value / max`, interpolated linearly
 /// between entries (which keeps it monotone and under the black cap).
 #[inline]
@@ -421,45 +419,18 @@ fn curve_at(curve: &[u16], value: u32, max: u32) -> u16 {
     ((a * (max as u64 - rem) + b * rem + max as u64 / 2) / max as u64) as u16
 }
 
-/// For each source black coverage, the target black-only coverage of the
-/// same media-relative L*, by bisection on the target's black-only tone
-/// scale (which darkens with coverage), clamped to the target's maximum black
-/// and made monotone.
-fn black_only_curve(source: &CmykSourceGamut, target: &Separator) -> Vec<u16> {
-    let k_max = target.settings().black.black_max;
-    let target_l = |k: f64| target.printed_relative(Cmyk::new(0.0, 0.0, 0.0, k)).l;
-    let darkest = target_l(k_max);
-    let k_cap = (k_max * 65535.0 + 1e-6).floor() as u16;
-    let mut curve: Vec<u16> = (0..BLACK_CURVE_STEPS)
-        .into_par_iter()
+/// For each source black coverage i / (len − 1), the target black-only
+/// coverage of the same media-relative L* ([`BlackOnlyCurve`]), rounded to
+/// 16 bits, never over the target's maximum black.
+fn black_only_curve(source: &CmykSourceGamut, target: &Separator, caps: InkCaps) -> Vec<u16> {
+    let lightness: Vec<Option<f64>> = (0..BLACK_CURVE_STEPS)
         .map(|i| {
             let s = i as f64 / (BLACK_CURVE_STEPS - 1) as f64;
-            let l = source.printed_relative(Cmyk::new(0.0, 0.0, 0.0, s)).l;
-            let k = if s == 0.0 || l >= target_l(0.0) {
-                0.0
-            } else if l <= darkest {
-                k_max
-            } else {
-                let (mut lo, mut hi) = (0.0, k_max);
-                for _ in 0..48 {
-                    let mid = 0.5 * (lo + hi);
-                    if target_l(mid) > l {
-                        lo = mid;
-                    } else {
-                        hi = mid;
-                    }
-                }
-                0.5 * (lo + hi)
-            };
-            ((k * 65535.0).round() as u16).min(k_cap)
+            (s > 0.0).then(|| source.printed_relative(Cmyk::new(0.0, 0.0, 0.0, s)).lab().l)
         })
         .collect();
-    let mut running = 0u16;
-    for v in &mut curve {
-        running = running.max(*v);
-        *v = running;
-    }
-    curve
+    let curve = BlackOnlyCurve::new(target, &lightness);
+    curve.coverages().iter().map(|&k| caps.black_code::<u16>(k) as u16).collect()
 }
 
 #[cfg(test)]

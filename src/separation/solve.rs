@@ -17,65 +17,8 @@
 //! equality constraints while the damped Gauss–Newton step is solved from its
 //! KKT system; every trial point is projected back onto the feasible set.
 
+pub use super::limits::InkBounds;
 use crate::colour::Mat3;
-
-/// The feasible set of coverages.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct InkBounds {
-    /// Total ink limit as a fraction (3.2 = 320 %).
-    pub tac: f64,
-    /// Maximum black as a fraction.
-    pub k_max: f64,
-    /// Minimum black (equal to `k_max` to hold black at one value).
-    pub k_min: f64,
-}
-
-impl InkBounds {
-    /// The usual bounds: no black floor.
-    pub fn new(tac: f64, k_max: f64) -> InkBounds {
-        InkBounds { tac, k_max, k_min: 0.0 }
-    }
-
-    /// The same bounds with black held at `k`.
-    pub fn with_black(self, k: f64) -> InkBounds {
-        let k = k.clamp(0.0, self.k_max);
-        InkBounds {
-            k_min: k,
-            k_max: k,
-            ..self
-        }
-    }
-
-    #[inline]
-    fn upper(&self, i: usize) -> f64 {
-        if i == 3 { self.k_max } else { 1.0 }
-    }
-
-    #[inline]
-    fn lower(&self, i: usize) -> f64 {
-        if i == 3 { self.k_min } else { 0.0 }
-    }
-
-    /// Euclidean projection onto {0 ≤ xᵢ ≤ uᵢ, Σxᵢ ≤ TAC}: clamp(x − τ) with
-    /// the smallest τ ≥ 0 that meets the ink limit.
-    pub fn project(&self, x: [f64; 4]) -> [f64; 4] {
-        let clamp = |x: [f64; 4], tau: f64| std::array::from_fn(|i| (x[i] - tau).clamp(self.lower(i), self.upper(i)));
-        let first: [f64; 4] = clamp(x, 0.0);
-        if first.iter().sum::<f64>() <= self.tac {
-            return first;
-        }
-        let (mut lo, mut hi) = (0.0, x.iter().cloned().fold(0.0, f64::max).max(0.0));
-        for _ in 0..60 {
-            let mid = 0.5 * (lo + hi);
-            if clamp(x, mid).iter().sum::<f64>() > self.tac {
-                lo = mid;
-            } else {
-                hi = mid;
-            }
-        }
-        clamp(x, hi)
-    }
-}
 
 /// One inversion problem.
 pub struct Problem<'a> {

@@ -8,14 +8,15 @@
 //! interpolated value keeps the linear constraints each node meets: the ink
 //! limit and the maximum black hold exactly between nodes as well.
 
-use super::engine::{Separator, SourceMapping};
-use crate::colour::Lab;
+use super::engine::Separator;
+use super::frame::IntentLab;
+use super::intent::SourceMapping;
+use super::kernel::{PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, position, simplex, step_table, steps};
+use super::limits::{InkCaps, narrow_within};
+use super::shadows::smooth_shadows;
+use crate::colour::EncodedRgb;
 use crate::ink::Cmyk;
 use rayon::prelude::*;
-
-/// Fixed-point scale of interpolation weights.
-pub(crate) const WEIGHT_BITS: u32 = 15;
-pub(crate) const WEIGHT_ONE: u32 = 1 << WEIGHT_BITS;
 
 /// A 3-D table from source RGB (encoded, 0..1 on each axis) to CMYK.
 #[derive(Debug, Clone)]
@@ -34,395 +35,12 @@ pub struct SeparationTable {
     /// 8 bits must not break either.
     caps: InkCaps,
 }
-
-/// Index and fixed-point fraction of one input code value on the grid.
-#[derive(Debug, Clone, Copy)]
-pub(crate) struct Position {
-    pub(crate) index: u32,
-    pub(crate) fraction: u32,
-}
-
-pub(crate) fn position(value: u32, max: u32, grid: usize) -> Position {
-    let scaled = value as u64 * (grid as u64 - 1);
-    let mut index = (scaled / max as u64) as u32;
-    let mut fraction = (((scaled % max as u64) << WEIGHT_BITS) + max as u64 / 2) / max as u64;
-    if index as usize >= grid - 1 {
-        index = grid as u32 - 2;
-        fraction = WEIGHT_ONE as u64;
-    }
-    Position {
-        index,
-        fraction: fraction as u32,
-    }
-}
-
-/// Sample types of the pixel buffers the tables apply to: 8- and 16-bit codes.
-pub(crate) trait Sample: Copy + Send + Sync + 'static {
-    /// The largest code (full ink or full channel).
-    const MAX: u32;
-    /// What [`from_16`](Sample::from_16) adds before dividing by 65535 to
-    /// round: `from_16(v) = (v · MAX + HALF) / 65535`.
-    const HALF: u32;
-    fn code(self) -> u32;
-    /// A 16-bit table value (0..65535) as this sample type, rounded.
-    fn from_16(v: u32) -> Self;
-    /// A 16-bit table value as this sample type, rounded down (for values
-    /// that must not exceed a limit, such as the maximum black).
-    fn from_16_down(v: u32) -> Self;
-}
-
-impl Sample for u8 {
-    const MAX: u32 = 255;
-    const HALF: u32 = 32767;
-    #[inline(always)]
-    fn code(self) -> u32 {
-        self as u32
-    }
-    /// `(v · 255 + 32767) / 65535`, which is `(v + 128) / 257` (65535 =
-    /// 255 · 257, and no multiple of 257 lies between v + 128 and
-    /// v + 128.498), computed as a multiply and a shift: x · 65281 / 2^24 is
-    /// x / 257 + x / (257 · 2^24) (65281 · 257 = 2^24 + 1), and the excess,
-    /// below 1/257 for x below 2^24, never carries past an integer; and
-    /// (65535 + 128) · 65281 fits in 32 bits. Equal for every 16-bit value
-    /// (unit test).
-    #[inline(always)]
-    fn from_16(v: u32) -> u8 {
-        (((v + 128) * 65281) >> 24) as u8
-    }
-    /// `v · 255 / 65535`, that is `v / 257`, as in [`from_16`](Sample::from_16).
-    #[inline(always)]
-    fn from_16_down(v: u32) -> u8 {
-        ((v * 65281) >> 24) as u8
-    }
-}
-
-impl Sample for u16 {
-    const MAX: u32 = 65535;
-    const HALF: u32 = 0;
-    #[inline(always)]
-    fn code(self) -> u32 {
-        self as u32
-    }
-    #[inline(always)]
-    fn from_16(v: u32) -> u16 {
-        v as u16
-    }
-    #[inline(always)]
-    fn from_16_down(v: u32) -> u16 {
-        v as u16
-    }
-}
-
-/// Table nodes packed two channels to a 64-bit word (C | M << 32 and
-/// Y | K << 32), so that one multiply weights two channels at once: a weight
-/// (at most 2^15) times a 16-bit value, summed over vertices whose weights add
-/// up to 2^15, stays below 2^31 in each 32-bit lane, so the lanes never carry
-/// into each other and the result is exactly the per-channel sum.
-#[derive(Debug, Clone, PartialEq)]
-pub(crate) struct PackedNodes(Vec<[u64; 2]>);
-
-impl PackedNodes {
-    pub(crate) fn new(nodes: &[[u16; 4]]) -> PackedNodes {
-        PackedNodes(
-            nodes
-                .iter()
-                .map(|v| [v[0] as u64 | (v[1] as u64) << 32, v[2] as u64 | (v[3] as u64) << 32])
-                .collect(),
-        )
-    }
-
-    /// The weighted sum of the nodes at `at` (weights summing to
-    /// `WEIGHT_ONE`), rounded to 16 bits per channel.
-    #[inline(always)]
-    pub(crate) fn blend<const V: usize>(&self, at: [u32; V], w: [u32; V]) -> [u32; 4] {
-        const HALF: u64 = (WEIGHT_ONE as u64 >> 1) | ((WEIGHT_ONE as u64 >> 1) << 32);
-        let (mut lo, mut hi) = (HALF, HALF);
-        for i in 0..V {
-            let node = &self.0[at[i] as usize];
-            lo += w[i] as u64 * node[0];
-            hi += w[i] as u64 * node[1];
-        }
-        let lane = |v: u64| ((v & 0xFFFF_FFFF) >> WEIGHT_BITS) as u32;
-        [lane(lo), lane(lo >> 32), lane(hi), lane(hi >> 32)]
-    }
-}
-
-/// Where one code value of one axis falls on the grid: the node offset of
-/// its cell (index × the axis's node stride) and the sort key of the axis in
-/// that cell (fraction << 32 | node stride).
-#[derive(Debug, Clone, Copy)]
-pub(crate) struct AxisStep {
-    pub(crate) offset: u32,
-    pub(crate) key: u64,
-}
-
-impl AxisStep {
-    #[inline(always)]
-    pub(crate) fn new(p: Position, stride: u32) -> AxisStep {
-        AxisStep {
-            offset: p.index * stride,
-            key: ((p.fraction as u64) << 32) | stride as u64,
-        }
-    }
-}
-
-/// Per-axis steps of every code of a sample type, when there are few codes
-/// (8 bits: 256 per axis); empty for 16 bits, whose steps are computed.
-pub(crate) fn step_table<S: Sample, const A: usize>(grid: usize, strides: [u32; A]) -> Vec<[AxisStep; A]> {
-    if S::MAX > 255 {
-        return Vec::new();
-    }
-    (0..=S::MAX)
-        .map(|v| {
-            let p = position(v, S::MAX, grid);
-            strides.map(|s| AxisStep::new(p, s))
-        })
-        .collect()
-}
-
-/// The steps of one pixel: from the table for 8 bits, computed for 16 bits.
-#[inline(always)]
-pub(crate) fn steps<S: Sample, const A: usize>(table: &[[AxisStep; A]], px: &[S], grid: usize, strides: [u32; A]) -> [AxisStep; A] {
-    if S::MAX <= 255 {
-        std::array::from_fn(|a| table[px[a].code() as usize][a])
-    } else {
-        std::array::from_fn(|a| AxisStep::new(position(px[a].code(), S::MAX, grid), strides[a]))
-    }
-}
-
-/// Simplex (tetrahedral for 3 axes) interpolation in the cell at the
-/// pixel's steps: the axes in order of decreasing fraction by a sorting
-/// network of compare-exchanges (min/max, no branches), then the walk from
-/// the cell's base node along the axes in that order. Ties take either
-/// order; their weight is zero, so the result is the same.
-#[inline(always)]
-pub(crate) fn simplex<const A: usize, const V: usize>(nodes: &PackedNodes, steps: [AxisStep; A]) -> [u32; 4] {
-    let mut k = steps.map(|s| s.key);
-    let base: u32 = steps.iter().map(|s| s.offset).sum();
-    let cx = |k: &mut [u64; A], a: usize, b: usize| {
-        let (hi, lo) = (k[a].max(k[b]), k[a].min(k[b]));
-        k[a] = hi;
-        k[b] = lo;
-    };
-    match A {
-        3 => {
-            cx(&mut k, 0, 1);
-            cx(&mut k, 1, 2);
-            cx(&mut k, 0, 1);
-        }
-        4 => {
-            cx(&mut k, 0, 1);
-            cx(&mut k, 2, 3);
-            cx(&mut k, 0, 2);
-            cx(&mut k, 1, 3);
-            cx(&mut k, 1, 2);
-        }
-        _ => k.sort_unstable_by(|a, b| b.cmp(a)),
-    }
-    let fraction = |i: usize| (k[i] >> 32) as u32;
-    let mut at = [base; V];
-    let mut w = [0u32; V];
-    w[0] = WEIGHT_ONE - fraction(0);
-    for i in 0..A {
-        at[i + 1] = at[i] + k[i] as u32;
-        w[i + 1] = if i + 1 < A { fraction(i) - fraction(i + 1) } else { fraction(i) };
-    }
-    nodes.blend(at, w)
-}
-
-/// Lightness range above the black point over which the table is smoothed.
-const SHADOW_RANGE: f64 = 13.0;
-
-/// Smoothing passes in the shadows.
-const SHADOW_PASSES: usize = 3;
-
-/// Used with relative colorimetric with black point compensation and with
-/// perceptual, which carry the source black onto the press black point so
-/// that the whole shadow range is reproduced (see
-/// `Separator::smooths_shadows_in_ink`).
-///
-/// Near the black point the press responds little to any ink but black: the
-/// exact inversion there swings the other plates widely for small colour
-/// differences, which would band in dark gradients. Since those swings cost
-/// little colour, the table is smoothed in ink space over the deepest
-/// shadows: a few passes of a [1 2 1]/4 kernel along each axis, blended in
-/// with a weight that is 1 at the black point and 0 at `SHADOW_RANGE` above
-/// it. Every node stays a convex combination of in-limit builds, so the ink
-/// limit and maximum black still hold.
-/// `axes` is the number of grid dimensions (3 for RGB, 4 for CMYK input).
-pub(crate) fn smooth_shadows(inks: &mut [[f64; 4]], lightness: &[f64], n: usize, axes: u32, black_l: f64) {
-    let weight: Vec<f64> = lightness
-        .iter()
-        .map(|&l| {
-            let t = ((l - black_l) / SHADOW_RANGE).clamp(0.0, 1.0);
-            1.0 - t * t * (3.0 - 2.0 * t)
-        })
-        .collect();
-    if weight.iter().all(|&w| w == 0.0) {
-        return;
-    }
-    let strides: Vec<usize> = (0..axes).rev().map(|a| n.pow(a)).collect();
-    for _ in 0..SHADOW_PASSES {
-        for &d in &strides {
-            let src = inks.to_vec();
-            for i in 0..inks.len() {
-                let w = weight[i];
-                if w == 0.0 {
-                    continue;
-                }
-                let pos = (i / d) % n;
-                let lo = if pos > 0 { i - d } else { i };
-                let hi = if pos + 1 < n { i + d } else { i };
-                for ch in 0..4 {
-                    let blurred = 0.25 * src[lo][ch] + 0.5 * src[i][ch] + 0.25 * src[hi][ch];
-                    inks[i][ch] = (1.0 - w) * src[i][ch] + w * blurred;
-                }
-            }
-        }
-    }
-}
-
-/// Rounds a node to 16 bits without letting rounding break the limits:
-/// channels rounded up are taken back, largest rounding first, until the
-/// total and black fit.
-pub(crate) fn quantize(x: [f64; 4], caps: InkCaps) -> [u16; 4] {
-    let scale = 65535.0;
-    let mut q = x.map(|v| (v * scale).round().clamp(0.0, scale) as i64);
-    q[3] = q[3].min(caps.black as i64);
-    let cap = caps.total as i64;
-    while q.iter().sum::<i64>() > cap {
-        let i = (0..4)
-            .filter(|&i| q[i] > 0)
-            .max_by(|&a, &b| (q[a] as f64 - x[a] * scale).total_cmp(&(q[b] as f64 - x[b] * scale)))
-            .unwrap_or(0);
-        q[i] -= 1;
-    }
-    q.map(|v| v as u16)
-}
-
-/// The limits a table's nodes are quantised to ([`quantize`]), in 16-bit
-/// units: total ink and black.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub(crate) struct InkCaps {
-    total: u32,
-    black: u32,
-}
-
-impl InkCaps {
-    /// The limits for the nodes that 8-bit pixels are interpolated from:
-    /// low enough that no pixel between them, each plate rounded to the
-    /// nearest code, can go over the limits in 8-bit codes (at 330 %, nodes
-    /// hold at most 840.0 codes and pixels at most 841). The cost is one code
-    /// of total ink at nodes on the limit; the kernel needs no check.
-    pub(crate) fn for_8_bit_nodes(self) -> InkCaps {
-        let c = self.codes::<u8>();
-        InkCaps {
-            total: c.safe_total,
-            black: c.safe_black,
-        }
-    }
-
-    pub(crate) fn new(tac: f64, k_max: f64) -> InkCaps {
-        let cap = |v: f64| (v * 65535.0 + 1e-6).floor().clamp(0.0, 4.0 * 65535.0) as u32;
-        InkCaps {
-            total: cap(tac),
-            black: cap(k_max).min(65535),
-        }
-    }
-
-    /// The same limits in codes of the sample type, rounded down, with the
-    /// sums of 16-bit values below which rounding cannot break them.
-    pub(crate) fn codes<S: Sample>(self) -> PixelCaps {
-        let down = |v: u32| (v as u64 * S::MAX as u64 / 65535) as u32;
-        let (total, black) = (down(self.total), down(self.black));
-        // Rounding gives floor((v · MAX + HALF) / 65535) per channel, so a
-        // code sum over `total` needs Σv · MAX + 4 · HALF ≥ (total + 1) · 65535.
-        let safe = |cap: u32, channels: u64| (((cap as u64 + 1) * 65535 - channels * S::HALF as u64 - 1) / S::MAX as u64) as u32;
-        PixelCaps {
-            total,
-            black,
-            safe_total: safe(total, 4),
-            safe_black: safe(black, 1),
-        }
-    }
-}
-
-/// [`InkCaps`] for one sample type ([`InkCaps::codes`]).
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub(crate) struct PixelCaps {
-    /// Most total ink and black, in codes.
-    total: u32,
-    black: u32,
-    /// Largest sum of the four 16-bit values, and largest 16-bit black,
-    /// whose rounding always fits.
-    safe_total: u32,
-    safe_black: u32,
-}
-
-impl PixelCaps {
-    /// The most black, in codes.
-    pub(crate) fn black(self) -> u32 {
-        self.black
-    }
-}
-
-/// An interpolated pixel (16-bit channels, each within the caps, as
-/// interpolation between nodes that are) rounded to the sample type without
-/// letting rounding break the limits. Where rounding up would put black or
-/// the total over its cap, the channels rounded up the most are rounded down
-/// instead, one code each; the floors always fit, so this ends. The common
-/// case costs one sum and two compares on the 16-bit values.
-#[inline(always)]
-pub(crate) fn round_within<S: Sample>(v: [u32; 4], caps: PixelCaps, out: &mut [S]) {
-    // At 16 bits nothing is rounded: interpolation between nodes within the
-    // caps stays within them, and the constant test drops the check.
-    if S::MAX < 65535 && (v[0] + v[1] + v[2] + v[3] > caps.safe_total || v[3] > caps.safe_black) {
-        out.copy_from_slice(&held(v, caps));
-        return;
-    }
-    for ch in 0..4 {
-        out[ch] = S::from_16(v[ch]);
-    }
-}
-
-/// 16-bit CMYK from a table with these caps, rounded to 8 bits with
-/// [`round_within`], in parallel.
-pub(crate) fn narrow_within(caps: InkCaps, cmyk16: &[u16]) -> Vec<u8> {
-    let caps = caps.codes::<u8>();
-    let mut out = vec![0u8; cmyk16.len()];
-    out.par_chunks_mut(4 * 4096)
-        .zip(cmyk16.par_chunks(4 * 4096))
-        .for_each(|(dst, src)| {
-            for (o, px) in dst.chunks_exact_mut(4).zip(src.chunks_exact(4)) {
-                round_within([0, 1, 2, 3].map(|i| px[i] as u32), caps, o);
-            }
-        });
-    out
-}
-
-#[cold]
-fn held<S: Sample>(v: [u32; 4], caps: PixelCaps) -> [S; 4] {
-    let mut q = v.map(S::from_16);
-    // How far each channel was rounded up, in units of 1 / (65535 · MAX).
-    let up = |q: &[S; 4], i: usize| q[i].code() as i64 * 65535 - v[i] as i64 * S::MAX as i64;
-    if q[3].code() > caps.black {
-        q[3] = S::from_16_down(v[3]);
-    }
-    while q.iter().map(|s| s.code()).sum::<u32>() > caps.total {
-        let Some(i) = (0..4).filter(|&i| up(&q, i) > 0).max_by_key(|&i| (up(&q, i), std::cmp::Reverse(i))) else {
-            break;
-        };
-        q[i] = S::from_16_down(v[i]);
-    }
-    q
-}
-
 impl SeparationTable {
     /// Builds the table. `node_lab` gives the source colour (media-relative
     /// CIELAB D50, the ICC PCS) of each grid node from its encoded RGB
     /// (0..1): a named space's conversion, or a batch transform through the
     /// embedded profile.
-    pub fn build(separator: &Separator, mapping: &SourceMapping, node_lab: &(dyn Fn([f64; 3]) -> Lab + Sync)) -> SeparationTable {
+    pub fn build(separator: &Separator, mapping: &SourceMapping, node_lab: &(dyn Fn(EncodedRgb) -> IntentLab + Sync)) -> SeparationTable {
         let n = separator.settings().table_grid;
         let coord = |i: usize| i as f64 / (n - 1) as f64;
         // One line of nodes along blue per (red, green); each line is solved
@@ -435,31 +53,28 @@ impl SeparationTable {
                 let mut start = None;
                 (0..n)
                     .map(|b| {
-                        let lab = node_lab([coord(r), coord(g), coord(b)]);
+                        let lab = node_lab(EncodedRgb([coord(r), coord(g), coord(b)]));
                         let target = separator.intent_target(lab, mapping);
                         let s = separator.invert(target, start);
                         start = Some(s.x);
-                        (s.x, target.l)
+                        (s.x, target.lab().l)
                     })
                     .collect()
             })
             .collect();
         let (mut inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = lines.into_iter().flatten().unzip();
         if separator.smooths_shadows_in_ink() {
-            smooth_shadows(&mut inks, &lightness, n, 3, separator.black_point().0.l);
+            smooth_shadows(&mut inks, &lightness, n, 3, separator.black_point().0.lab().l);
         }
-        let (tac, k_max) = (separator.settings().tac, separator.settings().black.black_max);
-        let caps = InkCaps::new(tac, k_max);
-        let caps8 = caps.for_8_bit_nodes();
-        let nodes8: Vec<[u16; 4]> = inks.iter().map(|&x| quantize(x, caps8)).collect();
-        let nodes: Vec<[u16; 4]> = inks.into_iter().map(|x| quantize(x, caps)).collect();
+        let caps = InkCaps::of(separator.settings());
+        let (nodes, nodes8) = caps.quantize_nodes(inks);
         SeparationTable {
             grid: n,
             packed: PackedNodes::new(&nodes),
             packed8: PackedNodes::new(&nodes8),
             nodes,
             caps,
-            pure_black: separator.settings().keep_pure_black.then_some(caps.black as u16),
+            pure_black: separator.settings().keep_pure_black.then_some(caps.black16()),
         }
     }
 
@@ -510,7 +125,8 @@ impl SeparationTable {
     }
 
     /// CMYK for one encoded RGB value (0..1 per channel), interpolated.
-    pub fn lookup(&self, rgb: [f64; 3]) -> Cmyk {
+    pub fn lookup(&self, rgb: EncodedRgb) -> Cmyk {
+        let rgb = rgb.0;
         if let (Some(k), true) = (self.pure_black, rgb.iter().all(|&v| v <= 0.0)) {
             return Cmyk::new(0.0, 0.0, 0.0, k as f64 / 65535.0);
         }
@@ -538,7 +154,7 @@ impl SeparationTable {
         let n = self.grid as u32;
         let strides = [n * n, n, 1];
         let table = step_table::<S, 3>(self.grid, strides);
-        let black = self.pure_black.map(|k| S::from_16_down(k as u32));
+        let black = self.pure_black.map(|_| self.caps.black_sample::<S>());
         let zero = S::from_16(0);
         // 8-bit pixels come from nodes that rounding cannot take over the
         // limits; 16-bit pixels are not rounded.
@@ -566,15 +182,7 @@ impl SeparationTable {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    /// splitmix64 (Steele, Lea & Flood, OOPSLA 2014), for reproducible inputs.
-    fn splitmix(state: &mut u64) -> u64 {
-        *state = state.wrapping_add(0x9E3779B97F4A7C15);
-        let mut z = *state;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58476D1CE4E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D049BB133111EB);
-        z ^ (z >> 31)
-    }
+    use crate::separation::kernel::splitmix;
 
     /// The packed, branch-free kernel gives exactly what the plain
     /// tetrahedral interpolation (Kasson et al. 1995, the case table of
@@ -618,101 +226,5 @@ mod tests {
                 assert_eq!(out, &want[..], "grid {grid}, pixel {px:?}");
             }
         }
-    }
-
-    /// Rounding to 8 bits never puts a pixel over the caps, changes nothing
-    /// where plain rounding fits, and otherwise only rounds channels down
-    /// that plain rounding took up. Random in-cap pixels with every channel
-    /// just over half a code make plain rounding overshoot often.
-    #[test]
-    fn rounding_to_8_bits_holds_the_ink_limit_and_black() {
-        let mut state = 11u64;
-        let (tac, k_max) = (3.3, 0.96);
-        let caps = InkCaps::new(tac, k_max);
-        let codes = caps.codes::<u8>();
-        assert_eq!((codes.total, codes.black), (841, 244), "floor(3.3 · 255) and floor(0.96 · 255)");
-        let (mut held_total, mut held_black) = (0, 0);
-        for _ in 0..200_000 {
-            // Codes c + 0.5 … c + 0.99 in 16-bit units, scaled into the caps.
-            let raw: [f64; 4] = std::array::from_fn(|_| {
-                let c = (splitmix(&mut state) % 255) as f64;
-                c + 0.5 + (splitmix(&mut state) % 490) as f64 / 1000.0
-            });
-            let mut v = raw.map(|c| (c * 65535.0 / 255.0) as u32);
-            v[3] = v[3].min(caps.black);
-            let sum: u32 = v.iter().sum();
-            if sum > caps.total {
-                let over = sum - caps.total;
-                v[0] = v[0].saturating_sub(over);
-                if v.iter().sum::<u32>() > caps.total {
-                    continue;
-                }
-            }
-            let plain = v.map(u8::from_16);
-            let mut out = [0u8; 4];
-            round_within(v, codes, &mut out);
-            let total: u32 = out.iter().map(|&c| c as u32).sum();
-            assert!(total <= codes.total && out[3] as u32 <= codes.black, "{v:?} → {out:?}");
-            let plain_total: u32 = plain.iter().map(|&c| c as u32).sum();
-            if plain_total <= codes.total && plain[3] as u32 <= codes.black {
-                assert_eq!(out, plain, "{v:?}: nothing to hold");
-            } else {
-                held_total += (plain_total > codes.total) as u32;
-                held_black += (plain[3] as u32 > codes.black) as u32;
-                for i in 0..4 {
-                    assert!(
-                        out[i] == plain[i] || out[i] == u8::from_16_down(v[i]),
-                        "{v:?} → {out:?} (plain {plain:?})"
-                    );
-                }
-            }
-        }
-        assert!(
-            held_total > 1000 && held_black > 100,
-            "the check fired {held_total} / {held_black} times"
-        );
-        // Sixteen bits: nothing is rounded, so nothing changes.
-        let mut out16 = [0u16; 4];
-        round_within([54_000, 54_000, 54_000, caps.total - 162_000], caps.codes::<u16>(), &mut out16);
-        assert_eq!(out16, [54_000, 54_000, 54_000, (caps.total - 162_000) as u16]);
-    }
-
-    /// Nodes at the 8-bit node caps, interpolated anyhow and rounded per
-    /// plate, stay within the 8-bit limits: the worst case rounds all four
-    /// plates up by half a code.
-    #[test]
-    fn eight_bit_node_caps_leave_room_for_rounding() {
-        for (tac, k_max) in [(3.3, 0.96), (2.4, 0.9), (2.8, 1.0), (4.0, 1.0), (2.0, 0.5)] {
-            let caps = InkCaps::new(tac, k_max);
-            let codes = caps.codes::<u8>();
-            let caps8 = caps.for_8_bit_nodes();
-            let (t16, k16) = (caps8.total, caps8.black);
-            // Σ round(v) ≤ (Σv · 255 + 4 · 32767) / 65535 and round(k) alike.
-            assert!((t16 as u64 * 255 + 4 * 32767) / 65535 <= codes.total as u64, "{tac}: {t16}");
-            assert!(u8::from_16(k16) as u32 <= codes.black, "{k_max}: {k16}");
-            // And the room taken is one code of total ink.
-            assert!(codes.total as f64 - t16 as f64 * 255.0 / 65535.0 <= 1.01, "{tac}: {t16}");
-        }
-    }
-
-    /// The multiply-and-shift rounding to 8 bits is the division it stands
-    /// for, at every 16-bit value.
-    #[test]
-    fn eight_bit_rounding_is_exact() {
-        for v in 0..=65535u32 {
-            assert_eq!(u8::from_16(v) as u32, (v * 255 + 32767) / 65535, "{v}");
-            assert_eq!(u8::from_16_down(v) as u32, v * 255 / 65535, "{v}");
-        }
-    }
-
-    #[test]
-    fn positions_cover_the_grid() {
-        let p = position(0, 255, 33);
-        assert_eq!((p.index, p.fraction), (0, 0));
-        let p = position(255, 255, 33);
-        assert_eq!((p.index, p.fraction), (31, WEIGHT_ONE));
-        let p = position(128, 255, 33);
-        // 128·32/255 = 16.06…
-        assert_eq!(p.index, 16);
     }
 }

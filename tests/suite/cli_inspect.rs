@@ -204,7 +204,7 @@ fn out_of_gamut_patches_are_found_where_they_are_with_the_delta_e_of_a_direct_co
                 px[2] as f64 / 255.0,
                 px[3] as f64 / 255.0,
             );
-            let p = separator.printed_in_frame(ink);
+            let p = separator.printed_in_frame(ink).lab();
             src.cie2000_delta_e(&CIELab { L: p.l, a: p.a, b: p.b }, 1.0, 1.0, 1.0)
         })
         .collect();

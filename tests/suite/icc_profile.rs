@@ -19,6 +19,7 @@ use platesmith::icc::{IccVersion, OutputProfileSpec, build_output_profile, defau
 use platesmith::ink::Cmyk;
 use platesmith::press::icc_model::{DEFAULT_MODEL_GRID, IccColorimetry, IccModelOptions, IccPressModel, condition_from_icc};
 use platesmith::press::{MediaWhite, PressModel, builtin::coated_offset};
+use platesmith::separation::RelativeLab;
 use rayon::prelude::*;
 use std::collections::HashMap;
 use std::path::Path;
@@ -511,7 +512,7 @@ mod separation_profile {
         let gamut = source.gamut();
         let mapping = sep.source_mapping(gamut.as_ref());
         let conv = platesmith::colour::RgbSpace::Srgb.converter();
-        SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(platesmith::colour::EncodedRgb(rgb)))
+        SeparationTable::build(&sep, &mapping, &|rgb| platesmith::separation::IntentLab::new(conv.to_lab(rgb)))
     }
 
     /// Share within 1 % ink, 99th percentile, mean and worst (with where) of
@@ -529,7 +530,7 @@ mod separation_profile {
             .iter()
             .zip(theirs)
             .map(|(v, lc)| {
-                let ours = table.lookup(*v).to_percent();
+                let ours = table.lookup(platesmith::colour::EncodedRgb(*v)).to_percent();
                 let d = (0..4).map(|i| (ours[i] - lc[i]).abs()).fold(0.0, f64::max);
                 if d > worst.0 {
                     worst = (d, *v);
@@ -805,11 +806,11 @@ mod separation_profile {
             let absolute = cmyk_to_lab(&p, Intent::AbsoluteColorimetric);
             let rel: Vec<f64> = inks
                 .iter()
-                .map(|&ink| ciede2000(lcms2_lab(&relative, ink), sep.printed_relative(ink)))
+                .map(|&ink| ciede2000(lcms2_lab(&relative, ink), sep.printed_relative(ink).lab()))
                 .collect();
             let abs: Vec<f64> = inks
                 .iter()
-                .map(|&ink| ciede2000(lcms2_lab(&absolute, ink), sep.printed_absolute(ink)))
+                .map(|&ink| ciede2000(lcms2_lab(&absolute, ink), sep.printed_absolute(ink).lab()))
                 .collect();
             let ((rm, rx), (am, ax)) = (stats(&rel), stats(&abs));
             println!("{version:?}: AToB1 vs press model ΔE2000 mean {rm:.3} max {rx:.3}; absolute mean {am:.3} max {ax:.3}");
@@ -841,7 +842,11 @@ mod separation_profile {
                 }
                 IccVersion::V2 => 0.0,
             };
-            println!("{version:?}: press black L* {:.2} → perceptual PCS L* {:.2}", bp_lab.l, black.l);
+            println!(
+                "{version:?}: press black L* {:.2} → perceptual PCS L* {:.2}",
+                bp_lab.lab().l,
+                black.l
+            );
             // The black build lies between nodes of the 17⁴ table, where CIELAB
             // bends most (near L* 0 it turns linear): 0.6 L* of interpolation.
             assert!((black.l - want).abs() < 0.6, "{version:?}: {black:?}");
@@ -864,7 +869,7 @@ mod separation_profile {
                 gamut.eval(&encode_lab(lab, version), &mut out);
                 out[0]
             };
-            let printed = sep.printed_relative(Cmyk::new(0.4, 0.3, 0.2, 0.1));
+            let printed = sep.printed_relative(Cmyk::new(0.4, 0.3, 0.2, 0.1)).lab();
             assert_eq!(code(printed), 0, "{version:?}");
             assert_eq!(code(Lab::new(50.0, 0.0, 0.0)), 0, "{version:?}");
             // sRGB blue (lcms2 gives L* 29.6 a* 68.3 b* −112.0 relative to D50) lies
@@ -873,7 +878,11 @@ mod separation_profile {
                 .converter()
                 .to_lab(platesmith::colour::EncodedRgb([0.0, 0.0, 1.0]));
             let outside = code(blue);
-            let measured = ciede2000(blue, sep.printed_relative(Cmyk::from_array(sep.invert(blue, None).x)));
+            let measured = ciede2000(
+                blue,
+                sep.printed_relative(Cmyk::from_array(sep.invert(RelativeLab::new(blue), None).x))
+                    .lab(),
+            );
             println!("{version:?}: sRGB blue gamut code {outside}, ΔE2000 to the clipped print {measured:.1}");
             assert!(
                 outside >= 5 && (outside as f64 - measured).abs() <= 3.0,

@@ -8,6 +8,7 @@ use platesmith::colour::{EncodedRgb, Lab, RgbSpace, ciede2000};
 use platesmith::ink::Cmyk;
 use platesmith::press::builtin::coated_offset;
 use platesmith::separation::{BlackGeneration, Intent, RgbGamut, SeparationSettings, SeparationTable, Separator};
+use platesmith::separation::{IntentLab, RelativeLab};
 use std::sync::OnceLock;
 
 use crate::rng::SplitMix64 as Rng;
@@ -31,7 +32,7 @@ fn relative_table() -> &'static SeparationTable {
         let conv = RgbSpace::Srgb.converter();
         let gamut = RgbGamut(conv);
         let mapping = sep.source_mapping(&gamut);
-        SeparationTable::build(sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)))
+        SeparationTable::build(sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)))
     })
 }
 
@@ -54,9 +55,9 @@ fn in_gamut_targets_are_reproduced() {
             let s = tac / x.total();
             x = Cmyk::new(x.c * s, x.m * s, x.y * s, x.k * s);
         }
-        let target = sep.printed_relative(x);
-        let s = sep.invert(target, None);
-        errors.push(ciede2000(target, sep.printed_relative(Cmyk::from_array(s.x))));
+        let target = sep.printed_relative(x).lab();
+        let s = sep.invert(RelativeLab::new(target), None);
+        errors.push(ciede2000(target, sep.printed_relative(Cmyk::from_array(s.x)).lab()));
     }
     let mean = errors.iter().sum::<f64>() / errors.len() as f64;
     let p99 = percentile(errors.clone(), 0.99);
@@ -88,11 +89,11 @@ fn table_agrees(sep: &Separator, table: &SeparationTable, label: &str) -> (f64, 
     let mut errors = Vec::new();
     for _ in 0..10_000 {
         let rgb = [rng.next_f64(), rng.next_f64(), rng.next_f64()];
-        let direct = sep.invert(sep.intent_target(conv.to_lab(EncodedRgb(rgb)), &mapping), None);
-        let via_table = table.lookup(rgb);
+        let direct = sep.invert(sep.intent_target(IntentLab::new(conv.to_lab(EncodedRgb(rgb))), &mapping), None);
+        let via_table = table.lookup(EncodedRgb(rgb));
         errors.push(ciede2000(
-            sep.printed_relative(Cmyk::from_array(direct.x)),
-            sep.printed_relative(via_table),
+            sep.printed_relative(Cmyk::from_array(direct.x)).lab(),
+            sep.printed_relative(via_table).lab(),
         ));
     }
     let mean = errors.iter().sum::<f64>() / errors.len() as f64;
@@ -134,11 +135,16 @@ fn limits_hold_for_every_node_and_pixel() {
         s.table_grid = if round == 0 { 65 } else { 17 };
         let sep = Separator::new(c, s.clone()).unwrap();
         let mapping = sep.source_mapping(&gamut);
-        let table = SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)));
+        let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
         let n = s.table_grid;
         for i in 0..n * n * n {
             let rgb = [(i / (n * n)) as f64, ((i / n) % n) as f64, (i % n) as f64].map(|v| v / (n - 1) as f64);
-            check_limits(table.lookup(rgb), s.tac, s.black.black_max, &format!("node {rgb:?} with {s:?}"));
+            check_limits(
+                table.lookup(EncodedRgb(rgb)),
+                s.tac,
+                s.black.black_max,
+                &format!("node {rgb:?} with {s:?}"),
+            );
         }
         let pixels: Vec<u8> = (0..25_000 * 3).map(|_| (rng.next_f64() * 256.0) as u8).collect();
         let mut out = vec![0u8; 25_000 * 4];
@@ -168,7 +174,7 @@ fn table_on(c: platesmith::press::PrintingCondition, intent: Intent, bpc: bool) 
     let conv = RgbSpace::Srgb.converter();
     let gamut = RgbGamut(conv);
     let mapping = sep.source_mapping(&gamut);
-    SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)))
+    SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)))
 }
 
 /// Every plate along 8-bit ramps moves by at most 3 % per input step, for
@@ -248,8 +254,8 @@ fn neutrals_print_neutral() {
     let sep = relative();
     let mut worst = 0.0f64;
     for l in (20..=95).step_by(5) {
-        let s = sep.invert(Lab::new(l as f64, 0.0, 0.0), None);
-        let p = sep.printed_relative(Cmyk::from_array(s.x));
+        let s = sep.invert(RelativeLab::new(Lab::new(l as f64, 0.0, 0.0)), None);
+        let p = sep.printed_relative(Cmyk::from_array(s.x)).lab();
         worst = worst.max(p.a.abs()).max(p.b.abs());
         assert!(p.a.abs() <= 1.5 && p.b.abs() <= 1.5, "L* {l}: printed {p:?}");
     }
@@ -260,7 +266,8 @@ fn build_of(sep: &Separator, rgb: [u8; 3]) -> Cmyk {
     let conv = RgbSpace::Srgb.converter();
     let gamut = RgbGamut(conv);
     let mapping = sep.source_mapping(&gamut);
-    sep.separate(conv.to_lab(EncodedRgb(rgb.map(|v| v as f64 / 255.0))), &mapping).cmyk
+    sep.separate(IntentLab::new(conv.to_lab(EncodedRgb(rgb.map(|v| v as f64 / 255.0)))), &mapping)
+        .cmyk
 }
 
 /// Facts of subtractive mixing (common practice).
@@ -309,11 +316,11 @@ fn more_gcr_means_more_black_for_the_same_colour() {
         Lab::new(35.0, -15.0, -20.0),
         Lab::new(60.0, 5.0, 5.0),
     ] {
-        let a = Cmyk::from_array(low.invert(lab, None).x);
-        let b = Cmyk::from_array(high.invert(lab, None).x);
+        let a = Cmyk::from_array(low.invert(RelativeLab::new(lab), None).x);
+        let b = Cmyk::from_array(high.invert(RelativeLab::new(lab), None).x);
         assert!(b.k > a.k + 0.02, "{lab:?}: {a:?} vs {b:?}");
         assert!(b.c + b.m + b.y < a.c + a.m + a.y, "{lab:?}: {a:?} vs {b:?}");
-        let de = ciede2000(low.printed_relative(a), high.printed_relative(b));
+        let de = ciede2000(low.printed_relative(a).lab(), high.printed_relative(b).lab());
         assert!(de <= 1.0, "{lab:?}: ΔE {de}");
     }
 }
@@ -322,7 +329,7 @@ fn more_gcr_means_more_black_for_the_same_colour() {
 #[test]
 fn no_black_below_black_start() {
     let sep = relative();
-    let s = sep.invert(Lab::new(90.0, 0.0, 0.0), None);
+    let s = sep.invert(RelativeLab::new(Lab::new(90.0, 0.0, 0.0)), None);
     assert!(s.x[3] < 1e-6, "{:?}", s.x);
 }
 
@@ -338,7 +345,7 @@ fn table_is_independent_of_thread_count() {
         pool.install(|| {
             let mut c = sep.clone();
             let _ = &mut c;
-            let t = SeparationTable::build(sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)));
+            let t = SeparationTable::build(sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
             let rgb: Vec<u8> = (0..30_000u32).map(|i| (i.wrapping_mul(2654435761) >> 24) as u8).collect();
             let mut out = vec![0u8; 40_000];
             t.apply_rgb8(&rgb, &mut out, 100);
@@ -362,7 +369,7 @@ fn table_agrees_with_direct_separation_on_every_builtin_condition() {
         let conv = RgbSpace::Srgb.converter();
         let gamut = RgbGamut(conv);
         let mapping = sep.source_mapping(&gamut);
-        let table = SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)));
+        let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
         let (mean, p99, max) = table_agrees(&sep, &table, name);
         // Newsprint's 240 % limit leaves dark colours two far-apart builds
         // (more cyan or more black) at nearly the same cost; where neighbouring
@@ -373,7 +380,7 @@ fn table_agrees_with_direct_separation_on_every_builtin_condition() {
             mean <= 0.5 && p99 <= 1.5 && max <= max_allowed,
             "{name}: mean {mean} p99 {p99} max {max}"
         );
-        let near_white = table.lookup([1.0, 1.0, 240.0 / 255.0]);
+        let near_white = table.lookup(EncodedRgb([1.0, 1.0, 240.0 / 255.0]));
         assert!(
             near_white.total() < 0.15,
             "{name}: sRGB (255, 255, 240) separates to {near_white:?}"
@@ -389,9 +396,9 @@ fn table_agrees_with_direct_separation_on_every_builtin_condition() {
 fn near_neutral_colours_keep_the_neutral_black() {
     let sep = relative();
     for l in (20..=80).map(|v| v as f64 + 0.1) {
-        let k_neutral = sep.invert(Lab::new(l, 0.0, 0.0), None).x[3];
+        let k_neutral = sep.invert(RelativeLab::new(Lab::new(l, 0.0, 0.0)), None).x[3];
         for (a, b) in [(-0.25, 0.0), (0.25, 0.0), (0.0, -0.25), (0.0, 0.25), (-0.5, 0.3), (0.4, -0.4)] {
-            let s = sep.invert(Lab::new(l, a, b), None);
+            let s = sep.invert(RelativeLab::new(Lab::new(l, a, b)), None);
             assert!(
                 (s.x[3] - k_neutral).abs() < 0.05,
                 "L* {l} a* {a} b* {b}: black {:.3} beside the neutral's {k_neutral:.3}",

@@ -10,6 +10,7 @@
 
 use platesmith::colour::{EncodedRgb, Ipt, Lab, RgbSpace, ciede2000};
 use platesmith::press::builtin;
+use platesmith::separation::IntentLab;
 use platesmith::separation::{Intent, PictureGamut, RgbGamut, SeparationSettings, Separator};
 
 use crate::rng::SplitMix64 as Rng;
@@ -81,10 +82,10 @@ fn printable_colours_stay() {
         while errors.len() < 400 && tried < 20_000 {
             tried += 1;
             let lab = conv.to_lab(EncodedRgb([rng.next_f64(), rng.next_f64(), rng.next_f64()]));
-            if lab.l < 25.0 || relative.separate(lab, &rel_map).delta_e >= 0.5 {
+            if lab.l < 25.0 || relative.separate(IntentLab::new(lab), &rel_map).delta_e >= 0.5 {
                 continue;
             }
-            let printed = perceptual.separate(lab, &per_map).printed;
+            let printed = perceptual.separate(IntentLab::new(lab), &per_map).printed.lab();
             errors.push(ciede2000(lab, printed));
 
             lightness = lightness.max((printed.l - lab.l).abs());
@@ -92,7 +93,7 @@ fn printable_colours_stay() {
                 turns.push(hue_difference(lab.to_lch().h, printed.to_lch().h));
             }
         }
-        eprintln!("{name}: press black L* {:.2}", perceptual.black_point().0.l);
+        eprintln!("{name}: press black L* {:.2}", perceptual.black_point().0.lab().l);
         assert!(errors.len() >= 200, "{name}: only {} printable colours in {tried}", errors.len());
         let mean = errors.iter().sum::<f64>() / errors.len() as f64;
         let p95 = percentile(errors.clone(), 0.95);
@@ -150,12 +151,12 @@ fn out_of_gamut_colours_keep_their_hue() {
         let (rel_map, per_map) = (relative.source_mapping(&space), perceptual.source_mapping(&space));
         let (mut worst_hue, mut excess, mut outside) = (0.0f64, Vec::new(), 0);
         for &lab in &colours {
-            let clip = relative.separate(lab, &rel_map);
+            let clip = relative.separate(IntentLab::new(lab), &rel_map);
             if clip.in_gamut {
                 continue;
             }
             outside += 1;
-            let printed = perceptual.separate(lab, &per_map).printed;
+            let printed = perceptual.separate(IntentLab::new(lab), &per_map).printed.lab();
             let turn = hue_difference(Ipt::from_lab(lab).hue(), Ipt::from_lab(printed).hue());
             worst_hue = worst_hue.max(turn);
             assert!(turn <= 3.0, "{name}: {lab:?} printed {printed:?}: IPT hue turned {turn:.2}°");
@@ -197,8 +198,8 @@ fn a_printable_picture_separates_as_relative() {
             let lab = conv.to_lab(EncodedRgb([rng.next_f64(), rng.next_f64(), rng.next_f64()]));
             // Above L* 30 and above the lightness curve's reach (which is
             // higher where the press black is lighter than coated offset's).
-            let curve_free = platesmith::separation::gamut::shadow_lightness(lab.l, 0.0, perceptual.black_point().0.l) == lab.l;
-            if lab.l >= 30.0 && curve_free && relative.separate(lab, &rel_map).delta_e < 0.5 {
+            let curve_free = platesmith::separation::gamut::shadow_lightness(lab.l, 0.0, perceptual.black_point().0.lab().l) == lab.l;
+            if lab.l >= 30.0 && curve_free && relative.separate(IntentLab::new(lab), &rel_map).delta_e < 0.5 {
                 labs.push(lab);
             }
         }
@@ -212,9 +213,9 @@ fn a_printable_picture_separates_as_relative() {
         };
         let (mut worst, mut worst_bpc) = (0.0f64, 0.0f64);
         for &lab in &labs {
-            let p = perceptual.separate(lab, &per_map).cmyk.to_array();
-            worst = worst.max(codes(relative.separate(lab, &rel_map).cmyk.to_array(), p));
-            worst_bpc = worst_bpc.max(codes(with_bpc.separate(lab, &bpc_map).cmyk.to_array(), p));
+            let p = perceptual.separate(IntentLab::new(lab), &per_map).cmyk.to_array();
+            worst = worst.max(codes(relative.separate(IntentLab::new(lab), &rel_map).cmyk.to_array(), p));
+            worst_bpc = worst_bpc.max(codes(with_bpc.separate(IntentLab::new(lab), &bpc_map).cmyk.to_array(), p));
         }
         eprintln!(
             "{name}: printable picture, perceptual against relative: largest difference {worst} codes \
@@ -276,9 +277,11 @@ fn the_coastal_scene_keeps_its_printable_colours_and_its_ramp() {
                     let ink: [u8; 4] = cmyk[i * 4..][..4].try_into().unwrap();
                     let de = *memo.entry((px, ink)).or_insert_with(|| {
                         let lab = conv.to_lab(EncodedRgb(px.map(|v| v as f64 / 255.0)));
-                        let printed = perceptual.printed_relative(platesmith::ink::Cmyk::from_array(ink.map(|v| v as f64 / 255.0)));
+                        let printed = perceptual
+                            .printed_relative(platesmith::ink::Cmyk::from_array(ink.map(|v| v as f64 / 255.0)))
+                            .lab();
                         let de = ciede2000(lab, printed);
-                        (relative.separate(lab, &rel_map).delta_e <= 1.0).then_some(de)
+                        (relative.separate(IntentLab::new(lab), &rel_map).delta_e <= 1.0).then_some(de)
                     });
                     if let Some(de) = de {
                         sum += de;

@@ -16,6 +16,7 @@ use platesmith::colour::{EncodedRgb, Lab, RgbSpace};
 use platesmith::ink::Cmyk;
 use platesmith::press::builtin::coated_offset;
 use platesmith::separation::{BlackGeneration, Intent, RgbGamut, SeparationSettings, SeparationTable, Separator};
+use platesmith::separation::{IntentLab, RelativeLab};
 use proptest::prelude::*;
 use std::ops::RangeInclusive;
 
@@ -117,12 +118,12 @@ proptest! {
         let gamut = RgbGamut(conv);
         let mapping = sep.source_mapping(&gamut);
         for &target in &labs {
-            check_limits(sep.separate(target, &mapping).cmyk, &s, &format!("separate {target:?}"))?;
-            check_limits(Cmyk::from_array(sep.invert(target, None).x), &s, &format!("invert {target:?}"))?;
+            check_limits(sep.separate(IntentLab::new(target), &mapping).cmyk, &s, &format!("separate {target:?}"))?;
+            check_limits(Cmyk::from_array(sep.invert(RelativeLab::new(target), None).x), &s, &format!("invert {target:?}"))?;
         }
         for &rgb in &rgbs {
             let source = conv.to_lab(EncodedRgb(rgb));
-            check_limits(sep.separate(source, &mapping).cmyk, &s, &format!("separate sRGB {rgb:?}"))?;
+            check_limits(sep.separate(IntentLab::new(source), &mapping).cmyk, &s, &format!("separate sRGB {rgb:?}"))?;
         }
     }
 
@@ -145,7 +146,7 @@ proptest! {
         let conv = RgbSpace::Srgb.converter();
         let gamut = RgbGamut(conv);
         let mapping = sep.source_mapping(&gamut);
-        let table = SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)));
+        let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
 
         let rgb8: Vec<u8> = pixels.iter().flatten().copied().collect();
         let mut cmyk8 = vec![0u8; pixels.len() * 4];
@@ -156,7 +157,7 @@ proptest! {
             prop_assert!(total <= tac_codes, "{px:?} → {out:?}: total over TAC {}", s.tac);
             prop_assert!(out[3] as u32 <= k_codes, "{px:?} → {out:?}: black over maximum {}", s.black.black_max);
             let slack = if total + 1 >= tac_codes || out[3] as u32 + 1 >= k_codes { 2 } else { 1 };
-            let direct = table.lookup(px.map(|v| v as f64 / 255.0));
+            let direct = table.lookup(EncodedRgb(px.map(|v| v as f64 / 255.0)));
             for (&got, want) in out.iter().zip(direct.to_array()) {
                 let want = (want * 255.0).round() as i32;
                 prop_assert!((got as i32 - want).abs() <= slack, "{px:?}: applied {out:?}, lookup {direct:?}");
@@ -167,7 +168,7 @@ proptest! {
         let mut cmyk16 = vec![0u16; wide.len() * 4];
         table.apply_rgb16(&rgb16, &mut cmyk16, 8);
         for (px, out) in wide.iter().zip(cmyk16.chunks_exact(4)) {
-            let direct = table.lookup(px.map(|v| v as f64 / 65535.0));
+            let direct = table.lookup(EncodedRgb(px.map(|v| v as f64 / 65535.0)));
             for (&got, want) in out.iter().zip(direct.to_array()) {
                 let want = (want * 65535.0).round() as i32;
                 prop_assert!((got as i32 - want).abs() <= 3, "{px:?}: applied {out:?}, lookup {direct:?}");
@@ -189,9 +190,9 @@ proptest! {
         let gamut = RgbGamut(conv);
         let (m1, m2) = (first.source_mapping(&gamut), second.source_mapping(&gamut));
         for &target in &labs {
-            let a = first.separate(target, &m1);
-            let b = first.separate(target, &m1);
-            let c = second.separate(target, &m2);
+            let a = first.separate(IntentLab::new(target), &m1);
+            let b = first.separate(IntentLab::new(target), &m1);
+            let c = second.separate(IntentLab::new(target), &m2);
             prop_assert_eq!(a, b, "one separator, {:?}", target);
             prop_assert_eq!(a, c, "fresh separator, {:?}", target);
         }
@@ -212,7 +213,7 @@ fn pure_black_option_respects_maximum_black() {
     let conv = RgbSpace::Srgb.converter();
     let gamut = RgbGamut(conv);
     let mapping = sep.source_mapping(&gamut);
-    let table = SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)));
+    let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
     let mut out8 = [0u8; 4];
     table.apply_rgb8(&[0, 0, 0], &mut out8, 1);
     assert_eq!(&out8[..3], &[0, 0, 0], "pure black carries C, M or Y: {out8:?}");

@@ -93,7 +93,7 @@ fn reseparation_to_the_same_condition_keeps_the_printed_colour() {
     let mut rng = Rng(11);
     let mut errors: Vec<f64> = in_limit_builds(&mut rng, 5000, tac, kmax)
         .into_iter()
-        .map(|x| ciede2000(printed(&condition, x), sep.printed_relative(table.lookup(x))))
+        .map(|x| ciede2000(printed(&condition, x), sep.printed_relative(table.lookup(x)).lab()))
         .collect();
     errors.sort_by(f64::total_cmp);
     let mean = errors.iter().sum::<f64>() / errors.len() as f64;
@@ -153,14 +153,14 @@ fn black_curve_matches_source_lightness() {
     let source = coated_with_tvi(0.24);
     let table = ReseparationTable::build(sep, &source, true, 5).unwrap();
     let kmax = sep.settings().black.black_max;
-    let target_darkest = sep.printed_relative(Cmyk::new(0.0, 0.0, 0.0, kmax)).l;
+    let target_darkest = sep.printed_relative(Cmyk::new(0.0, 0.0, 0.0, kmax)).lab().l;
     let mut worst = 0.0f64;
     for i in 0..=50 {
         let k = i as f64 / 50.0;
         let source_l = printed(&source, Cmyk::new(0.0, 0.0, 0.0, k)).l;
         let out = table.lookup(Cmyk::new(0.0, 0.0, 0.0, k));
         assert_eq!([out.c, out.m, out.y], [0.0, 0.0, 0.0]);
-        let l = sep.printed_relative(out).l;
+        let l = sep.printed_relative(out).lab().l;
         if source_l >= target_darkest + 0.05 {
             worst = worst.max((l - source_l).abs());
             assert!((l - source_l).abs() <= 0.05, "source K {k}: L* {source_l} vs {l}");
@@ -289,7 +289,7 @@ fn source_dot_gain_moves_the_builds_the_expected_way() {
         for (name, tint, ch) in tints {
             let out = table.lookup(tint);
             let v = out.to_array()[ch];
-            let de = ciede2000(printed(&source, tint), sep.printed_relative(out));
+            let de = ciede2000(printed(&source, tint), sep.printed_relative(out).lab());
             eprintln!(
                 "source TVI {:.0} %: {name} 50 % -> {:.1} % (ΔE2000 {de:.2})",
                 tvi * 100.0,
@@ -310,7 +310,7 @@ fn source_dot_gain_moves_the_builds_the_expected_way() {
         let gray = Cmyk::new(0.4, 0.3, 0.3, 0.0);
         let same = identity_table().lookup(gray);
         let out = table.lookup(gray);
-        let de = ciede2000(printed(&source, gray), sep.printed_relative(out));
+        let de = ciede2000(printed(&source, gray), sep.printed_relative(out).lab());
         assert!(de <= 1.0, "TVI {tvi}: gray ΔE {de}");
         if more {
             assert!(out.total() > same.total() + 0.05, "TVI {tvi}: gray {out:?} vs {same:?}");
@@ -362,7 +362,7 @@ fn near_pure_black_builds_keep_their_colour() {
                 rng.next_f64() * 0.06,
                 rng.next_f64() * 0.95,
             );
-            ciede2000(printed(&condition, x), sep.printed_relative(table.lookup(x)))
+            ciede2000(printed(&condition, x), sep.printed_relative(table.lookup(x)).lab())
         })
         .collect();
     let mean = errors.iter().sum::<f64>() / errors.len() as f64;

@@ -13,6 +13,7 @@
 
 use platesmith::colour::{EncodedRgb, RgbSpace, ciede2000};
 use platesmith::press::builtin::coated_offset;
+use platesmith::separation::IntentLab;
 use platesmith::separation::{RgbGamut, SeparationSettings, SeparationTable, Separator};
 use proptest::prelude::*;
 
@@ -39,13 +40,13 @@ proptest! {
         let conv = RgbSpace::Srgb.converter();
         let gamut = RgbGamut(conv);
         let mapping = sep.source_mapping(&gamut);
-        let table = SeparationTable::build(&sep, &mapping, &|rgb| conv.to_lab(EncodedRgb(rgb)));
+        let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
         let mut errors: Vec<f64> = rgbs
             .iter()
             .map(|&rgb| {
-                let direct = sep.separate(conv.to_lab(EncodedRgb(rgb)), &mapping).cmyk;
-                let via_table = table.lookup(rgb);
-                ciede2000(sep.printed_relative(direct), sep.printed_relative(via_table))
+                let direct = sep.separate(IntentLab::new(conv.to_lab(EncodedRgb(rgb))), &mapping).cmyk;
+                let via_table = table.lookup(EncodedRgb(rgb));
+                ciede2000(sep.printed_relative(direct).lab(), sep.printed_relative(via_table).lab())
             })
             .collect();
         prop_assert!(errors.iter().all(|e| e.is_finite()), "NaN in ΔE2000");
