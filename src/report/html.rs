@@ -4,7 +4,10 @@
 //! colours, the region table, the rules and the settings. Charts are inline
 //! SVG; the page loads nothing from elsewhere.
 
+use super::export::Exporter;
+use super::folder::InspectionFiles;
 use crate::colour::RgbSpace;
+use crate::error::Result;
 use crate::inspect::{DE_BIN, Inspection};
 use crate::report::maps::de_colour;
 use crate::separation::Separator;
@@ -603,6 +606,20 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
     }
     let _ = writeln!(h, "<p class='note'>{}</p></main></body></html>", escape(r.note));
     h
+}
+
+/// The HTML page as a file of the report folder, with the maps embedded.
+pub struct Page;
+
+impl Exporter<InspectionFiles<'_>> for Page {
+    fn suffix(&self) -> &'static str {
+        "inspect.html"
+    }
+
+    fn export(&self, files: &InspectionFiles) -> Result<Option<Vec<u8>>> {
+        let html = page(files.inspection, files.separator, files.de_png()?, files.ink_png()?);
+        Ok(Some(html.into_bytes()))
+    }
 }
 
 #[cfg(test)]
