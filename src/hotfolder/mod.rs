@@ -591,7 +591,7 @@ fn out_name(shared: &Shared, dir: &Path) -> String {
 /// One job: the steps into a staging folder, the record, the commit, the move.
 fn process(shared: &Shared, claimed: &Claimed) -> Outcome {
     let started = Instant::now();
-    let taken = log::rfc3339(SystemTime::now());
+    let taken = crate::calendar::rfc3339(SystemTime::now());
     let name = claimed.name.to_string_lossy().to_string();
     let stem = Path::new(&claimed.name)
         .file_stem()
@@ -657,7 +657,7 @@ fn process(shared: &Shared, claimed: &Claimed) -> Outcome {
             result: if reasons.is_empty() { "done" } else { "failed" }.into(),
             reasons: reasons.clone(),
             taken,
-            finished: log::rfc3339(SystemTime::now()),
+            finished: crate::calendar::rfc3339(SystemTime::now()),
             outputs: Vec::new(),
             note: crate::report::PREDICTION_NOTE.into(),
         },
@@ -721,7 +721,7 @@ fn finish_done(shared: &Shared, claimed: &Claimed, out: &str, started: Instant) 
 fn fail(shared: &Shared, claimed: &Claimed, reasons: &[String], out: Option<&str>, started: Instant) -> Outcome {
     let shown = claimed.name.to_string_lossy().to_string();
     let failed = &shared.folders.failed;
-    let mut text = format!("{shown} failed ({}):\n", log::rfc3339(SystemTime::now()));
+    let mut text = format!("{shown} failed ({}):\n", crate::calendar::rfc3339(SystemTime::now()));
     for r in reasons {
         text.push_str(&format!("  {r}\n"));
     }
