@@ -588,7 +588,7 @@ impl Workshop {
         let res = raster.resolution.unwrap_or(Resolution::DEFAULT);
         let listed = |name: &std::ffi::OsStr| place.listed_dir.join(name).display().to_string();
         let mut outputs: Vec<String> = out.staged().iter().filter_map(|p| p.file_name().map(listed)).collect();
-        let summary_name = format!("{stem}.summary.json");
+        let summary_name = crate::report::export::SUMMARY_JSON.file_name(&stem);
         outputs.push(listed(summary_name.as_ref()));
         let px = stats.pixels.max(1) as f64;
         let mut summary = JobSummary {
@@ -628,8 +628,7 @@ impl Workshop {
         };
         summary.timings.write_ms = ms(t);
         summary.timings.total_ms = ms(started);
-        let json = serde_json::to_string_pretty(&summary).map_err(|e| Error::Internal(e.to_string()))?;
-        out.stage(&summary_name, |w| std::io::Write::write_all(w, json.as_bytes()))?;
+        crate::report::export::stage(&mut out, &stem, &summary, &crate::report::export::SUMMARY_JSON)?;
         out.commit()?;
         Ok(summary)
     }

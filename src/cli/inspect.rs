@@ -3,12 +3,13 @@
 
 use super::options::{InputArgs, ModelArgs};
 use crate::error::{Error, Result};
-use crate::inspect::{InspectOptions, InspectReport, Inspection, rules};
-use crate::raster::OutputSet;
-use crate::separation::Separator;
+use crate::inspect::{InspectOptions, rules};
+use crate::report::export::{INSPECT_JSON, print};
+use crate::report::folder::write_report_dir;
+use crate::report::text::TextSummary;
 use crate::setup::{JobInput, JobKind};
 use clap::Args;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 #[derive(Debug, Args)]
 pub struct InspectArgs {
@@ -136,184 +137,6 @@ pub fn options(args: &InspectArgs, ticket_rules: &[String]) -> Result<InspectOpt
     Ok(o)
 }
 
-/// Writes the report folder of one file as one set (all files or none).
-pub fn write_report_dir(dir: &Path, overwrite: bool, input: &Path, inspection: &Inspection, separator: &Separator) -> Result<Vec<PathBuf>> {
-    let r = &inspection.report;
-    let stem = super::output_names::output_stem(input).to_string();
-    let maps = inspection
-        .maps
-        .as_ref()
-        .ok_or_else(|| Error::Internal("report folder without maps".into()))?;
-    // Regions numbered as in the table; outlined on the map of their kind.
-    let numbered: Vec<(usize, &crate::inspect::RegionReport)> = r.regions.iter().enumerate().map(|(i, g)| (i + 1, g)).collect();
-    // At most MAP_OUTLINES boxes per map (the largest of each kind first), so the map stays legible.
-    const MAP_OUTLINES: usize = 40;
-    let on = |kinds: &[&str]| {
-        numbered
-            .iter()
-            .filter(|(_, g)| kinds.contains(&g.kind))
-            .take(MAP_OUTLINES)
-            .map(|(n, g)| (*n, g.bbox))
-            .collect::<Vec<_>>()
-    };
-    let de_png = match maps.de {
-        Some(_) => Some(crate::report::maps::de_map_png(
-            maps,
-            &r.settings.de_thresholds,
-            &on(&[crate::inspect::KIND_OUT_OF_GAMUT]),
-        )?),
-        None => None,
-    };
-    let ink_png = crate::report::maps::ink_map_png(
-        maps,
-        r.tac.limit,
-        &on(&[
-            crate::inspect::KIND_OVER_INK,
-            crate::inspect::KIND_RICH_BLACK,
-            crate::inspect::KIND_SMALL_DOT,
-        ]),
-    )?;
-    let json = serde_json::to_string_pretty(r).map_err(|e| Error::Internal(e.to_string()))? + "\n";
-    let csv = crate::report::region_table::regions_csv(r)?;
-    let html = crate::report::html::page(inspection, separator, de_png.as_deref(), &ink_png);
-    std::fs::create_dir_all(dir).map_err(|e| Error::output(dir, format!("cannot create the folder: {e}")))?;
-    let mut out = OutputSet::new(dir, overwrite)?;
-    out.protect([input]);
-    let put = |out: &mut OutputSet, name: String, bytes: &[u8]| out.stage(&name, |w| std::io::Write::write_all(w, bytes));
-    put(&mut out, format!("{stem}.inspect.json"), json.as_bytes())?;
-    put(&mut out, format!("{stem}.regions.csv"), &csv)?;
-    if let Some(png) = &de_png {
-        put(&mut out, format!("{stem}.de-map.png"), png)?;
-    }
-    put(&mut out, format!("{stem}.ink-map.png"), &ink_png)?;
-    put(&mut out, format!("{stem}.inspect.html"), html.as_bytes())?;
-    out.commit()
-}
-
-/// The short text summary of one report.
-pub fn text_summary(r: &InspectReport) -> String {
-    use std::fmt::Write;
-    let mut o = String::new();
-    let _ = writeln!(
-        o,
-        "{}: {} {} × {} px at {} ppi, for {} ({})",
-        r.file,
-        r.kind.to_uppercase(),
-        r.width,
-        r.height,
-        r.resolution_ppi[0],
-        r.condition,
-        r.settings.separation.intent_phrase()
-    );
-    if let Some(g) = &r.gamut {
-        let shares: Vec<String> = g
-            .over
-            .iter()
-            .map(|s| format!("{:.2} % over {}", s.fraction * 100.0, s.threshold))
-            .collect();
-        let _ = writeln!(
-            o,
-            "  ΔE2000      mean {:.2}  p95 {:.2}  max {:.2}  ({})",
-            g.mean_de,
-            g.p95_de,
-            g.max_de,
-            shares.join(", ")
-        );
-        let _ = writeln!(
-            o,
-            "  gamut       {:.2} % of the image lies more than ΔE {} outside the press gamut (largest {:.2})",
-            g.outside_fraction * 100.0,
-            g.threshold,
-            g.outside_max_de
-        );
-    }
-    let _ = writeln!(
-        o,
-        "  total ink   max {:.1} %  p99 {:.1} %  mean {:.1} %  (limit {:.0} %; {:.3} % of the image over)",
-        r.tac.max,
-        r.tac.p99,
-        r.tac.mean,
-        r.tac.limit,
-        r.tac.over_fraction * 100.0
-    );
-    let plates: Vec<String> = r
-        .plates
-        .iter()
-        .zip(["C", "M", "Y", "K"])
-        .map(|(p, letter)| format!("{letter} {:.1}", p.mean_percent))
-        .collect();
-    let dots = r.plates.iter().map(|p| p.below_min_dot_fraction).fold(0.0, f64::max);
-    let _ = writeln!(
-        o,
-        "  plates      {} % mean; up to {:.2} % of the image with dots below {} %",
-        plates.join("  "),
-        dots * 100.0,
-        r.settings.min_dot_percent
-    );
-    let _ = writeln!(
-        o,
-        "  ink         {:.2} kg for {} copies of a {} × {} mm sheet (estimate)",
-        r.ink_use.run_total_kg, r.ink_use.copies, r.ink_use.sheet_mm[0], r.ink_use.sheet_mm[1]
-    );
-    let counts: Vec<String> = r
-        .regions_by_kind
-        .iter()
-        .filter(|(_, n)| **n > 0)
-        .map(|(k, n)| format!("{n} {k}"))
-        .collect();
-    let _ = writeln!(
-        o,
-        "  regions     {}",
-        if counts.is_empty() { "none".to_string() } else { counts.join(", ") }
-    );
-    // The three largest of each kind, numbered as in the report.
-    let mut shown = std::collections::BTreeMap::new();
-    for (i, g) in r.regions.iter().enumerate() {
-        let n = shown.entry(g.kind).or_insert(0usize);
-        *n += 1;
-        if *n > 3 {
-            continue;
-        }
-        let limits = g
-            .limited_by
-            .as_ref()
-            .map(|l| {
-                if l.is_empty() {
-                    " (in gamut; moved by the intent)".to_string()
-                } else {
-                    format!(" (limited by {})", l.join(", "))
-                }
-            })
-            .unwrap_or_default();
-        let _ = writeln!(
-            o,
-            "    #{} {} at {},{} {}×{} px, {:.2} mm², worst {} {}, mean {}{}",
-            i + 1,
-            g.kind,
-            g.bbox[0],
-            g.bbox[1],
-            g.bbox[2],
-            g.bbox[3],
-            g.area_mm2,
-            g.max,
-            g.unit,
-            g.mean,
-            limits
-        );
-    }
-    let listed: usize = shown.values().map(|&n| n.min(3)).sum();
-    if r.regions_total > listed {
-        let _ = writeln!(o, "    … {} more (see --json or --report)", r.regions_total - listed);
-    }
-    let verdict: Vec<String> = r
-        .rules
-        .iter()
-        .map(|o| format!("{} {}", o.rule, if o.failed { "FAILED" } else { "passed" }))
-        .collect();
-    let _ = writeln!(o, "  result      {} ({})", if r.pass { "pass" } else { "fail" }, verdict.join("; "));
-    o
-}
-
 pub fn run(args: InspectArgs) -> Result<i32> {
     let setup = args.model.resolve()?;
     let t = &setup.ticket;
@@ -327,12 +150,7 @@ pub fn run(args: InspectArgs) -> Result<i32> {
     };
     let job = input.resolve(JobKind::Inspect, setup)?;
     if let Some(dir) = &args.report {
-        super::output_names::check_unique(&args.inputs, dir, "reports", |stem| {
-            ["inspect.json", "regions.csv", "de-map.png", "ink-map.png", "inspect.html"]
-                .iter()
-                .map(|suffix| format!("{stem}.{suffix}"))
-                .collect()
-        })?;
+        super::output_names::check_unique(&args.inputs, dir, "reports", crate::report::folder::file_names)?;
     }
     let workshop = job.workshop()?;
     let (mut reports, mut bad, mut failed) = (Vec::new(), 0usize, 0usize);
@@ -353,7 +171,7 @@ pub fn run(args: InspectArgs) -> Result<i32> {
                     failed += 1;
                 }
                 if !args.json {
-                    crate::error::write_stdout(&text_summary(&report))?;
+                    print(&report, &TextSummary)?;
                 }
                 reports.push(report);
             }
@@ -364,17 +182,11 @@ pub fn run(args: InspectArgs) -> Result<i32> {
         }
     }
     if args.json {
-        let text = if args.inputs.len() == 1 {
-            match reports.first() {
-                Some(r) => serde_json::to_string_pretty(r),
-                None => Ok(String::new()),
-            }
-        } else {
-            serde_json::to_string_pretty(&reports)
-        }
-        .map_err(|e| Error::Internal(e.to_string()))?;
-        if !text.is_empty() {
-            crate::error::write_stdout(&(text + "\n"))?;
+        // One input: its report; several: an array of the reports read.
+        if args.inputs.len() != 1 {
+            print(&reports, &INSPECT_JSON)?;
+        } else if let Some(r) = reports.first() {
+            print(r, &INSPECT_JSON)?;
         }
     } else {
         crate::error::write_stdout(&format!("{}\n", crate::report::PREDICTION_NOTE))?;

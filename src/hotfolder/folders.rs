@@ -1,7 +1,7 @@
 //! The folders under the hot folder, the instance's claim on `work/`, the
 //! detection of work left by instances that are gone, and the moves that
 //! never replace an existing file (see the protocol in the module docs of
-//! [`crate::hotfolder`]).
+//! [`crate::hotfolder::recovery`]).
 
 use crate::error::{Error, Result};
 use std::ffi::{OsStr, OsString};

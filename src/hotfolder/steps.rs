@@ -8,11 +8,11 @@
 //! failed: the outputs (with the check's report) are kept in `out/<stem>/` and
 //! the input goes to `failed/` with the reasons in its `.error.txt`.
 
-use crate::cli::inspect::write_report_dir;
 use crate::error::{Error, Result};
 use crate::inspect::rules::parse_all;
 use crate::inspect::{InspectOptions, inspect_separated};
 use crate::job::{OutputPlace, SeparatedFile, Workshop};
+use crate::report::folder::write_report_dir;
 use crate::ticket::Ticket;
 use std::path::Path;
 use std::sync::Arc;

@@ -217,7 +217,7 @@ fn stamp_creation_date(bytes: &mut [u8], epoch: i64) {
         return;
     }
     let (days, secs) = (epoch.div_euclid(86_400), epoch.rem_euclid(86_400));
-    let (year, month, day) = crate::hotfolder::log::civil_from_days(days);
+    let (year, month, day) = crate::calendar::civil_from_days(days);
     let fields = [
         year as u16,
         month as u16,
@@ -316,8 +316,8 @@ mod tests {
     #[test]
     fn creation_date_is_written_as_icc_date_time_number() {
         // 2026-01-01T00:00:00Z and the instant 1234567890 =
-        // 2009-02-13T23:31:30Z (from memory; the hot folder's log tests check
-        // the same conversion against the system date tool).
+        // 2009-02-13T23:31:30Z (from memory; `calendar`'s tests check the
+        // same conversion against Python's datetime and the system date tool).
         let mut header = vec![0u8; 128];
         stamp_creation_date(&mut header, FIXED_CREATION_EPOCH);
         assert_eq!(&header[24..36], &[0x07, 0xEA, 0, 1, 0, 1, 0, 0, 0, 0, 0, 0]);

@@ -201,6 +201,21 @@ pub fn parse_all<S: AsRef<str>>(texts: &[S]) -> Result<Vec<Rule>> {
     texts.iter().map(|t| Rule::parse(t.as_ref())).collect()
 }
 
+/// Judges a report by `rules` (none: [`DEFAULT_RULE`]): the outcome of each
+/// and whether it passes all.
+pub fn judge(report: &mut InspectReport, rules: &[Rule]) -> Result<()> {
+    let default_rule;
+    let applied: &[Rule] = if rules.is_empty() {
+        default_rule = [Rule::parse(DEFAULT_RULE)?];
+        &default_rule
+    } else {
+        rules
+    };
+    report.rules = applied.iter().map(|r| r.evaluate(report)).collect();
+    report.pass = report.rules.iter().all(|o| !o.failed);
+    Ok(())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

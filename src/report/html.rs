@@ -4,8 +4,11 @@
 //! colours, the region table, the rules and the settings. Charts are inline
 //! SVG; the page loads nothing from elsewhere.
 
+use super::export::Exporter;
+use super::folder::InspectionFiles;
 use crate::colour::RgbSpace;
-use crate::inspect::{DE_BIN, Inspection};
+use crate::error::Result;
+use crate::inspect::{DE_BIN, InspectReport, Inspection};
 use crate::report::maps::de_colour;
 use crate::separation::Separator;
 use std::fmt::Write;
@@ -366,6 +369,21 @@ fn ab_chart(inspection: &Inspection, separator: &Separator) -> String {
 pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]>, ink_png: &[u8]) -> String {
     let r = &inspection.report;
     let mut h = String::with_capacity(1 << 20);
+    header(&mut h, r);
+    figures(&mut h, r);
+    maps(&mut h, r, de_png, ink_png);
+    distributions(&mut h, inspection, separator);
+    regions(&mut h, r);
+    plates(&mut h, r);
+    rules(&mut h, r);
+    settings(&mut h, r);
+    notes(&mut h, r);
+    let _ = writeln!(h, "<p class='note'>{}</p></main></body></html>", escape(r.note));
+    h
+}
+
+/// The title, the line under it, the verdict and the prediction note.
+fn header(h: &mut String, r: &InspectReport) {
     let file_name = std::path::Path::new(&r.file)
         .file_name()
         .map(|n| n.to_string_lossy().to_string())
@@ -395,6 +413,10 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
         let _ = write!(h, "<span class='verdict fail'>FAILS: {}</span>", escape(&failed.join(", ")));
     }
     let _ = write!(h, "<p class='note'>{}</p>", escape(r.note));
+}
+
+/// The key figures, one box each.
+fn figures(h: &mut String, r: &InspectReport) {
     h.push_str("<h2>Figures</h2><div class='figures'>");
     let fig = |h: &mut String, value: String, what: &str| {
         let _ = write!(
@@ -405,42 +427,45 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
         );
     };
     if let Some(g) = &r.gamut {
-        fig(&mut h, format!("{:.2}", g.mean_de), "mean ΔE2000");
-        fig(&mut h, format!("{:.2}", g.p95_de), "95th percentile ΔE2000");
-        fig(&mut h, format!("{:.2}", g.max_de), "largest ΔE2000");
+        fig(h, format!("{:.2}", g.mean_de), "mean ΔE2000");
+        fig(h, format!("{:.2}", g.p95_de), "95th percentile ΔE2000");
+        fig(h, format!("{:.2}", g.max_de), "largest ΔE2000");
         for o in &g.over {
             fig(
-                &mut h,
+                h,
                 format!("{:.2} %", o.fraction * 100.0),
                 &format!("of the image over ΔE {}", o.threshold),
             );
         }
         fig(
-            &mut h,
+            h,
             format!("{:.2} %", g.outside_fraction * 100.0),
             &format!("of the image more than ΔE {} outside the press gamut", g.threshold),
         );
     }
     fig(
-        &mut h,
+        h,
         format!("{:.1} %", r.tac.max),
         &format!("largest total ink (limit {} %)", r.tac.limit),
     );
-    fig(&mut h, format!("{:.1} %", r.tac.p99), "total ink, 99th percentile");
-    fig(&mut h, format!("{:.1} %", r.tac.mean), "mean total ink");
+    fig(h, format!("{:.1} %", r.tac.p99), "total ink, 99th percentile");
+    fig(h, format!("{:.1} %", r.tac.mean), "mean total ink");
     fig(
-        &mut h,
+        h,
         format!("{:.3} %", r.tac.over_fraction * 100.0),
         "of the image over the ink limit",
     );
-    fig(&mut h, format!("{}", r.regions_total), "regions found");
+    fig(h, format!("{}", r.regions_total), "regions found");
     fig(
-        &mut h,
+        h,
         format!("{:.2} kg", r.ink_use.run_total_kg),
         &format!("ink for {} copies", r.ink_use.copies),
     );
     h.push_str("</div>");
+}
 
+/// The ΔE and total ink maps, embedded as PNG.
+fn maps(h: &mut String, r: &InspectReport, de_png: Option<&[u8]>, ink_png: &[u8]) {
     h.push_str("<h2>Maps</h2><div class='maps'>");
     if let Some(png) = de_png {
         let _ = write!(
@@ -456,7 +481,11 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
         r.tac.limit
     );
     h.push_str("</div>");
+}
 
+/// The histograms and, with ΔE, the a*b* chart of the press gamut.
+fn distributions(h: &mut String, inspection: &Inspection, separator: &Separator) {
+    let r = &inspection.report;
     h.push_str("<h2>Distributions</h2><div class='charts'>");
     if let (Some(hist), Some(g)) = (&inspection.de_hist, &r.gamut) {
         h.push_str(&de_histogram(hist, &r.settings.de_thresholds, g.p95_de));
@@ -468,7 +497,10 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
         h.push_str(&ab_chart(inspection, separator));
         h.push_str("</div>");
     }
+}
 
+/// The region table (the first [`TABLE_ROWS`] regions).
+fn regions(h: &mut String, r: &InspectReport) {
     let _ = write!(
         h,
         "<h2>Regions</h2><p class='sub'>{} found after dropping specks under {} mm²; {} listed in the JSON and the CSV (the largest of each kind), the first {} here.</p>",
@@ -529,7 +561,10 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
         }
         h.push_str("</table>");
     }
+}
 
+/// Plates and ink, with the assumptions of the ink estimate.
+fn plates(h: &mut String, r: &InspectReport) {
     h.push_str("<h2>Plates and ink</h2><table><tr><th>plate</th><th>mean tone value</th><th>area with ≥ 1 %</th><th>area with a dot below the minimum</th><th>ink per copy</th><th>ink for the run</th></tr>");
     for (i, p) in r.plates.iter().enumerate() {
         let _ = write!(
@@ -556,7 +591,10 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
         u.film_basis,
         u.assumption
     );
+}
 
+/// The rules and their outcomes.
+fn rules(h: &mut String, r: &InspectReport) {
     h.push_str("<h2>Rules</h2><table><tr><th>rule (fails when true)</th><th>measured</th><th>result</th></tr>");
     for o in &r.rules {
         let value = o
@@ -573,7 +611,10 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
         );
     }
     h.push_str("</table>");
+}
 
+/// The settings echo, one row per setting.
+fn settings(h: &mut String, r: &InspectReport) {
     h.push_str("<h2>Settings</h2><table>");
     if let Ok(serde_json::Value::Object(map)) = serde_json::to_value(&r.settings) {
         for (k, v) in map {
@@ -594,6 +635,10 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
         }
     }
     h.push_str("</table>");
+}
+
+/// What was assumed or done on the way, when anything was.
+fn notes(h: &mut String, r: &InspectReport) {
     if !r.notes.is_empty() {
         h.push_str("<h2>Notes</h2><ul>");
         for n in &r.notes {
@@ -601,8 +646,20 @@ pub fn page(inspection: &Inspection, separator: &Separator, de_png: Option<&[u8]
         }
         h.push_str("</ul>");
     }
-    let _ = writeln!(h, "<p class='note'>{}</p></main></body></html>", escape(r.note));
-    h
+}
+
+/// The HTML page as a file of the report folder, with the maps embedded.
+pub struct Page;
+
+impl Exporter<InspectionFiles<'_>> for Page {
+    fn suffix(&self) -> &'static str {
+        "inspect.html"
+    }
+
+    fn export(&self, files: &InspectionFiles) -> Result<Option<Vec<u8>>> {
+        let html = page(files.inspection, files.separator, files.de_png()?, files.ink_png()?);
+        Ok(Some(html.into_bytes()))
+    }
 }
 
 #[cfg(test)]

@@ -6,8 +6,10 @@
 //! ink violet; total ink from paper through sand and sea green to deep blue,
 //! with ink over the limit hatched in marigold and near-black stripes.
 
+use super::export::Exporter;
+use super::folder::InspectionFiles;
 use crate::error::{Error, Result};
-use crate::inspect::MapData;
+use crate::inspect::{InspectReport, KIND_OUT_OF_GAMUT, KIND_OVER_INK, KIND_RICH_BLACK, KIND_SMALL_DOT, MapData};
 use crate::report::font;
 
 type Rgb = [u8; 3];
@@ -320,6 +322,65 @@ pub fn ink_map_png(maps: &MapData, limit: f64, regions: &[(usize, [u32; 4])]) ->
     c.text(sx + 56 * s, bar_y + 12 * s, s, "INK LIMIT", TEXT);
     c.text(x0 + 200 * s, top + 8 * s, s, "BOXES: REGIONS (NUMBERS AS IN THE TABLE)", OUTLINE);
     c.png()
+}
+
+/// Regions outlined on one map, at most this many (the largest of each kind
+/// first), so the map stays legible.
+const MAP_OUTLINES: usize = 40;
+
+/// The regions of `kinds`, numbered as in the report's table, to outline on a map.
+fn outlines(report: &InspectReport, kinds: &[&str]) -> Vec<(usize, [u32; 4])> {
+    report
+        .regions
+        .iter()
+        .enumerate()
+        .filter(|(_, g)| kinds.contains(&g.kind))
+        .take(MAP_OUTLINES)
+        .map(|(i, g)| (i + 1, g.bbox))
+        .collect()
+}
+
+/// The ΔE map of a report, with its out-of-gamut regions (`None` without ΔE: CMYK input).
+pub fn de_map_for(maps: &MapData, report: &InspectReport) -> Result<Option<Vec<u8>>> {
+    match maps.de {
+        Some(_) => de_map_png(maps, &report.settings.de_thresholds, &outlines(report, &[KIND_OUT_OF_GAMUT])).map(Some),
+        None => Ok(None),
+    }
+}
+
+/// The total ink map of a report, with its over-ink, rich black and small dot regions.
+pub fn ink_map_for(maps: &MapData, report: &InspectReport) -> Result<Vec<u8>> {
+    ink_map_png(
+        maps,
+        report.tac.limit,
+        &outlines(report, &[KIND_OVER_INK, KIND_RICH_BLACK, KIND_SMALL_DOT]),
+    )
+}
+
+/// The ΔE map as a PNG file of the report folder.
+pub struct DeMap;
+
+impl Exporter<InspectionFiles<'_>> for DeMap {
+    fn suffix(&self) -> &'static str {
+        "de-map.png"
+    }
+
+    fn export(&self, files: &InspectionFiles) -> Result<Option<Vec<u8>>> {
+        Ok(files.de_png()?.map(<[u8]>::to_vec))
+    }
+}
+
+/// The total ink map as a PNG file of the report folder.
+pub struct InkMap;
+
+impl Exporter<InspectionFiles<'_>> for InkMap {
+    fn suffix(&self) -> &'static str {
+        "ink-map.png"
+    }
+
+    fn export(&self, files: &InspectionFiles) -> Result<Option<Vec<u8>>> {
+        Ok(Some(files.ink_png()?.to_vec()))
+    }
 }
 
 #[cfg(test)]

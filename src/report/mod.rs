@@ -1,9 +1,17 @@
-//! Reports for people and scripts.
+//! Reports for people and scripts, every format behind one interface
+//! ([`export::Exporter`]): JSON ([`export::Json`]: the job summary, the
+//! inspection report), the text summary ([`text`]), the CSV region table
+//! ([`region_table`]), the PNG maps ([`maps`], drawn in [`font`]) and the HTML
+//! page ([`html`]); the inspection's report folder gathers them ([`folder`]).
+//! Also the settings echo and the prediction note every report carries.
 
+pub mod export;
+pub mod folder;
 pub mod font;
 pub mod html;
 pub mod maps;
 pub mod region_table;
+pub mod text;
 
 use crate::colour::RgbSpace;
 use crate::press::PrintingCondition;

@@ -1,6 +1,8 @@
 //! The regions of an inspection as CSV (RFC 4180), one row per region,
 //! numbered as on the maps and in the HTML page.
 
+use super::export::Exporter;
+use super::folder::InspectionFiles;
 use crate::error::{Error, Result};
 use crate::inspect::InspectReport;
 
@@ -72,4 +74,17 @@ pub fn regions_csv(report: &InspectReport) -> Result<Vec<u8>> {
         w.write_record(&record).map_err(err)?;
     }
     w.into_inner().map_err(|e| Error::Internal(format!("region table: {e}")))
+}
+
+/// The region table as a CSV file of the report folder.
+pub struct RegionTable;
+
+impl Exporter<InspectionFiles<'_>> for RegionTable {
+    fn suffix(&self) -> &'static str {
+        "regions.csv"
+    }
+
+    fn export(&self, files: &InspectionFiles) -> Result<Option<Vec<u8>>> {
+        regions_csv(&files.inspection.report).map(Some)
+    }
 }
