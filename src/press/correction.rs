@@ -29,19 +29,9 @@
 //! at the nodes and checked between them by the fit on a dense grid.
 
 use super::PressModel;
-use super::neugebauer::{NeugebauerModel, fast_lab};
+use super::neugebauer::{NeugebauerModel, fast_lab, lerp3, sub3};
 use crate::colour::{Lab, Xyz};
 use crate::ink::Cmyk;
-
-#[inline(always)]
-fn lerp3(a: [f64; 3], b: [f64; 3], t: f64) -> [f64; 3] {
-    [a[0] + t * (b[0] - a[0]), a[1] + t * (b[1] - a[1]), a[2] + t * (b[2] - a[2])]
-}
-
-#[inline(always)]
-fn sub3(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
-    [a[0] - b[0], a[1] - b[1], a[2] - b[2]]
-}
 
 /// Bins of the lookup that finds the lattice cell of a coverage. Finer than
 /// the closest node spacing [`Axis::new`] allows (1e-3), so that a bin holds
@@ -224,7 +214,11 @@ impl Correction {
     #[inline(always)]
     fn corners(&self, base: usize) -> [[f64; 3]; 16] {
         let s = self.strides;
-        std::array::from_fn(|j| self.values[base + (j >> 3 & 1) * s[0] + (j >> 2 & 1) * s[1] + (j >> 1 & 1) * s[2] + (j & 1) * s[3]])
+        let mut v = [[0.0; 3]; 16];
+        for (j, slot) in v.iter_mut().enumerate() {
+            *slot = self.values[base + (j >> 3 & 1) * s[0] + (j >> 2 & 1) * s[1] + (j >> 1 & 1) * s[2] + (j & 1) * s[3]];
+        }
+        v
     }
 
     /// The offset at `ink`: 15 linear interpolations, along black, then

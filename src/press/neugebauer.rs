@@ -302,13 +302,15 @@ pub struct NeugebauerModel {
     curves: [ToneCurve; 4],
 }
 
+/// a + t·(b − a) per coordinate.
 #[inline(always)]
-fn lerp3(a: [f64; 3], b: [f64; 3], t: f64) -> [f64; 3] {
+pub(super) fn lerp3(a: [f64; 3], b: [f64; 3], t: f64) -> [f64; 3] {
     [a[0] + t * (b[0] - a[0]), a[1] + t * (b[1] - a[1]), a[2] + t * (b[2] - a[2])]
 }
 
+/// a − b per coordinate.
 #[inline(always)]
-fn sub3(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
+pub(super) fn sub3(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
     [a[0] - b[0], a[1] - b[1], a[2] - b[2]]
 }
 
