@@ -29,45 +29,65 @@
 //! at the nodes and checked between them by the fit on a dense grid.
 
 use super::PressModel;
-use super::neugebauer::{NeugebauerModel, fast_lab};
+use super::neugebauer::{NeugebauerModel, fast_lab, lerp3, sub3};
 use crate::colour::{Lab, Xyz};
 use crate::ink::Cmyk;
 
-/// Bins of the lookup that finds the lattice cell of a coverage.
-const LOCATE_BINS: usize = 256;
+/// Bins of the lookup that finds the lattice cell of a coverage. Finer than
+/// the closest node spacing [`Axis::new`] allows (1e-3), so that a bin holds
+/// at most one node and one comparison finishes the look-up.
+const LOCATE_BINS: usize = 1024;
+
+/// Most nodes per axis.
+const MAX_NODES: usize = 64;
 
 /// One axis of the lattice: node positions (fractions, ascending, 0 first and
 /// 1 last) and a lookup from coverage to cell.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Axis {
     levels: Vec<f64>,
-    inv_width: Vec<f64>,
+    /// Per cell: its lower node, 1 / its width, and the node that ends it
+    /// (infinite for the last cell, so that coverage 1 stays in it).
+    cells: Box<[CellBounds; MAX_NODES]>,
     /// The cell that holds the start of each of the LOCATE_BINS bins.
-    bins: Vec<u16>,
+    bins: Box<[u8; LOCATE_BINS]>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+struct CellBounds {
+    lower: f64,
+    inv_width: f64,
+    upper: f64,
 }
 
 impl Axis {
     /// `levels` must be ascending, start at 0, end at 1 and hold 2 to 64 nodes.
     pub fn new(levels: &[f64]) -> Option<Axis> {
         let ok = levels.len() >= 2
-            && levels.len() <= 64
+            && levels.len() <= MAX_NODES
             && levels[0] == 0.0
             && levels[levels.len() - 1] == 1.0
             && levels.windows(2).all(|w| w[1] - w[0] >= 1e-3);
         if !ok {
             return None;
         }
-        let cells = levels.len() - 1;
-        let inv_width = levels.windows(2).map(|w| 1.0 / (w[1] - w[0])).collect();
-        let bins = (0..LOCATE_BINS)
-            .map(|b| {
-                let x = b as f64 / LOCATE_BINS as f64;
-                levels[1..cells].iter().filter(|&&l| l <= x).count() as u16
-            })
-            .collect();
+        let last = levels.len() - 2;
+        let mut cells = Box::new([CellBounds::default(); MAX_NODES]);
+        for (i, w) in levels.windows(2).enumerate() {
+            cells[i] = CellBounds {
+                lower: w[0],
+                inv_width: 1.0 / (w[1] - w[0]),
+                upper: if i == last { f64::INFINITY } else { w[1] },
+            };
+        }
+        let mut bins = Box::new([0u8; LOCATE_BINS]);
+        for (b, slot) in bins.iter_mut().enumerate() {
+            let x = b as f64 / LOCATE_BINS as f64;
+            *slot = levels[1..=last].iter().filter(|&&l| l <= x).count() as u8;
+        }
         Some(Axis {
             levels: levels.to_vec(),
-            inv_width,
+            cells,
             bins,
         })
     }
@@ -84,20 +104,19 @@ impl Axis {
         self.levels.is_empty()
     }
 
-    /// Cell index, position inside it (0..1) and 1 / cell width, for coverage `x`.
+    /// Cell index, position inside it (0..1) and 1 / cell width, for coverage
+    /// `x`: one table read and one comparison, no branch on the data.
     #[inline(always)]
     fn locate(&self, x: f64) -> (usize, f64, f64) {
         // `max` then `min` maps NaN to 0.
         #[allow(clippy::manual_clamp)]
         let x = x.max(0.0).min(1.0);
         let b = ((x * LOCATE_BINS as f64) as usize).min(LOCATE_BINS - 1);
-        let mut i = self.bins[b] as usize;
-        let last = self.levels.len() - 2;
-        while i < last && x >= self.levels[i + 1] {
-            i += 1;
-        }
-        let w = self.inv_width[i];
-        (i, (x - self.levels[i]) * w, w)
+        let i = self.bins[b] as usize & (MAX_NODES - 1);
+        // A bin is narrower than the closest two nodes: at most one more step.
+        let i = (i + (x >= self.cells[i].upper) as usize) & (MAX_NODES - 1);
+        let cell = self.cells[i];
+        (i, (x - cell.lower) * cell.inv_width, cell.inv_width)
     }
 }
 
@@ -189,60 +208,57 @@ impl Correction {
         (idx, w)
     }
 
-    /// The offset at `ink`.
+    /// The values at the 16 corners of the cell whose lowest node is `base`,
+    /// black varying fastest, then yellow, magenta, cyan (corner bit 0 black,
+    /// bit 3 cyan).
+    #[inline(always)]
+    fn corners(&self, base: usize) -> [[f64; 3]; 16] {
+        let s = self.strides;
+        let mut v = [[0.0; 3]; 16];
+        for (j, slot) in v.iter_mut().enumerate() {
+            *slot = self.values[base + (j >> 3 & 1) * s[0] + (j >> 2 & 1) * s[1] + (j >> 1 & 1) * s[2] + (j & 1) * s[3]];
+        }
+        v
+    }
+
+    /// The offset at `ink`: 15 linear interpolations, along black, then
+    /// yellow, magenta and cyan.
     #[inline(always)]
     pub fn offset(&self, ink: Cmyk) -> [f64; 3] {
         let (base, t, _) = self.cell(ink);
-        let s = self.strides;
-        let v = &self.values;
-        let lerp = |p: [f64; 3], q: [f64; 3], f: f64| [p[0] + f * (q[0] - p[0]), p[1] + f * (q[1] - p[1]), p[2] + f * (q[2] - p[2])];
-        // Interpolate along k, then y, m, c.
-        let mut acc = [[0.0; 3]; 8];
-        for (j, slot) in acc.iter_mut().enumerate() {
-            let at = base + (j >> 2 & 1) * s[0] + (j >> 1 & 1) * s[1] + (j & 1) * s[2];
-            *slot = lerp(v[at], v[at + s[3]], t[3]);
-        }
-        let y4: [[f64; 3]; 4] = std::array::from_fn(|j| lerp(acc[2 * j], acc[2 * j + 1], t[2]));
-        let m2 = [lerp(y4[0], y4[1], t[1]), lerp(y4[2], y4[3], t[1])];
-        lerp(m2[0], m2[1], t[0])
+        let v = self.corners(base);
+        let k8: [[f64; 3]; 8] = std::array::from_fn(|j| lerp3(v[2 * j], v[2 * j + 1], t[3]));
+        let y4: [[f64; 3]; 4] = std::array::from_fn(|j| lerp3(k8[2 * j], k8[2 * j + 1], t[2]));
+        let m2 = [lerp3(y4[0], y4[1], t[1]), lerp3(y4[2], y4[3], t[1])];
+        lerp3(m2[0], m2[1], t[0])
     }
 
     /// The offset and its derivative with respect to each ink (rows L*, a*,
     /// b*; columns c, m, y, k). Inside a cell the derivative along an ink is
-    /// exact; on a node the cell above is used.
+    /// exact; on a node the cell above is used. The same cascade of
+    /// interpolations as [`Correction::offset`]: the derivative along an ink
+    /// is the difference across that ink, interpolated along the inks after it.
+    #[inline(always)]
     pub fn offset_with_derivative(&self, ink: Cmyk) -> ([f64; 3], [[f64; 4]; 3]) {
         let (base, t, inv) = self.cell(ink);
-        let mut out = [0.0; 3];
-        let mut jac = [[0.0; 4]; 3];
-        for corner in 0..16 {
-            let mut at = base;
-            let mut f = [0.0; 4];
-            let mut sign = [0.0; 4];
-            for a in 0..4 {
-                if corner >> (3 - a) & 1 == 1 {
-                    f[a] = t[a];
-                    sign[a] = inv[a];
-                    at += self.strides[a];
-                } else {
-                    f[a] = 1.0 - t[a];
-                    sign[a] = -inv[a];
-                }
-            }
-            let w = f[0] * f[1] * f[2] * f[3];
-            let v = self.values[at];
-            let dw = [
-                sign[0] * f[1] * f[2] * f[3],
-                f[0] * sign[1] * f[2] * f[3],
-                f[0] * f[1] * sign[2] * f[3],
-                f[0] * f[1] * f[2] * sign[3],
-            ];
-            for ch in 0..3 {
-                out[ch] += w * v[ch];
-                for a in 0..4 {
-                    jac[ch][a] += dw[a] * v[ch];
-                }
-            }
-        }
+        let v = self.corners(base);
+        let k8: [[f64; 3]; 8] = std::array::from_fn(|j| lerp3(v[2 * j], v[2 * j + 1], t[3]));
+        let dk8: [[f64; 3]; 8] = std::array::from_fn(|j| sub3(v[2 * j + 1], v[2 * j]));
+        let y4: [[f64; 3]; 4] = std::array::from_fn(|j| lerp3(k8[2 * j], k8[2 * j + 1], t[2]));
+        let dk4: [[f64; 3]; 4] = std::array::from_fn(|j| lerp3(dk8[2 * j], dk8[2 * j + 1], t[2]));
+        let dy4: [[f64; 3]; 4] = std::array::from_fn(|j| sub3(k8[2 * j + 1], k8[2 * j]));
+        let m2 = [lerp3(y4[0], y4[1], t[1]), lerp3(y4[2], y4[3], t[1])];
+        let dk2 = [lerp3(dk4[0], dk4[1], t[1]), lerp3(dk4[2], dk4[3], t[1])];
+        let dy2 = [lerp3(dy4[0], dy4[1], t[1]), lerp3(dy4[2], dy4[3], t[1])];
+        let dm2 = [sub3(y4[1], y4[0]), sub3(y4[3], y4[2])];
+        let out = lerp3(m2[0], m2[1], t[0]);
+        let d = [
+            sub3(m2[1], m2[0]),
+            lerp3(dm2[0], dm2[1], t[0]),
+            lerp3(dy2[0], dy2[1], t[0]),
+            lerp3(dk2[0], dk2[1], t[0]),
+        ];
+        let jac = std::array::from_fn(|ch| std::array::from_fn(|a| d[a][ch] * inv[a]));
         (out, jac)
     }
 
@@ -421,6 +437,41 @@ mod tests {
             let (cell, t, _) = a.locate(x);
             assert!(a.levels[cell] <= x + 1e-15 && (x <= a.levels[cell + 1] + 1e-15), "{x} {cell}");
             assert!((0.0..=1.0 + 1e-12).contains(&t));
+        }
+    }
+
+    #[test]
+    fn locate_finds_the_cell_between_the_closest_nodes_allowed() {
+        // Nodes 1e-3 apart (the closest Axis::new accepts), around bin edges.
+        let a = axis(&[0.0, 0.2495, 0.2505, 0.2515, 0.5, 0.999, 1.0]);
+        for i in 0..=100_000 {
+            let x = i as f64 / 100_000.0;
+            let (cell, t, w) = a.locate(x);
+            let (lo, hi) = (a.levels[cell], a.levels[cell + 1]);
+            assert!(lo <= x && (x < hi || (x == 1.0 && hi == 1.0)), "{x} in cell {cell}");
+            assert!((t - (x - lo) / (hi - lo)).abs() < 1e-9 && (w - 1.0 / (hi - lo)).abs() < 1e-6);
+        }
+    }
+
+    #[test]
+    fn derivative_cascade_gives_the_offset_and_uses_the_cell_above_on_a_node() {
+        let c = sample();
+        for ink in [
+            Cmyk::new(0.3, 0.5, 0.1, 0.0),
+            Cmyk::new(0.77, 0.21, 0.33, 0.64),
+            Cmyk::new(1.0, 1.0, 1.0, 1.0),
+        ] {
+            let (o, _) = c.offset_with_derivative(ink);
+            assert_eq!(o, c.offset(ink));
+        }
+        // On the cyan node at 0.3 the slope along cyan is that of the cell 0.3..1.
+        let ink = Cmyk::new(0.3, 0.25, 0.15, 0.5);
+        let (_, j) = c.offset_with_derivative(ink);
+        let h = 1e-7;
+        let up = c.offset(Cmyk::new(0.3 + h, 0.25, 0.15, 0.5));
+        let o = c.offset(ink);
+        for ch in 0..3 {
+            assert!(((up[ch] - o[ch]) / h - j[ch][0]).abs() < 1e-5);
         }
     }
 
