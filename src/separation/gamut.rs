@@ -291,6 +291,24 @@ const RAY_BISECTIONS: usize = 11;
 /// about 2 % beyond it, measured on coated offset).
 const REACH_SLACK: f64 = 0.03;
 
+/// For a colour lighter than the press cusp of its hue, the focal point
+/// of the compression lies this share of the way from the cusp's lightness
+/// to the colour's own: rays from the cusp (SGCK) pull light colours down to
+/// the cusp's lightness, so the lightest out-of-gamut yellows of a sunset
+/// printed darker than the printable yellows below them (a dull band, seen
+/// in the demo proof); horizontal rays would give up more chroma. The rise
+/// levels off at [`LIGHT_FOCUS_RISE_MAX`] (working units): sRGB green lies
+/// far above the press green's cusp, and a focal point that far up prints
+/// it as a pale green (C 48 %, Y 57 % on coated offset without the limit,
+/// Y 69 % with a limit of 5; measured).
+const LIGHT_FOCUS_RISE: f64 = 0.7;
+const LIGHT_FOCUS_RISE_MAX: f64 = 2.0;
+
+/// Reach beyond the press boundary (as a share of its distance, past
+/// [`REACH_SLACK`]) over which the shadow taper of a picture's mapping
+/// fades in.
+const TAPER_FADE: f64 = 0.1;
+
 /// Longest ray searched, in working units (IPT × 100): beyond any real gamut.
 const RAY_MAX: f64 = 160.0;
 
@@ -357,24 +375,43 @@ pub const SHADOW_TAPER_RANGE: f64 = 20.0;
 /// Share of chroma the taper keeps at the black point itself.
 pub const SHADOW_TAPER_FLOOR: f64 = 0.05;
 
+/// Slope of [`knee_compression`] over most of the compressed band, as a
+/// share of the linear scaling of the band onto the rest of the boundary
+/// distance (0.5 made the gray-to-blue ramp of the coastal scene print 10
+/// codes alike on newsprint; measured).
+const KNEE_SLOPE: f64 = 0.7;
+
+/// The share of the press boundary's distance (along a colour's ray from
+/// the focal point) the shadow taper leaves to a colour `above` L* units
+/// above the printable black: [`SHADOW_TAPER_FLOOR`]
+/// at the black, rising smoothly (smoothstep of t = above /
+/// [`SHADOW_TAPER_RANGE`]) to all of it.
+pub fn shadow_taper_keep(above: f64) -> f64 {
+    let t = (above / SHADOW_TAPER_RANGE).clamp(0.0, 1.0);
+    SHADOW_TAPER_FLOOR + (1.0 - SHADOW_TAPER_FLOOR) * t * t * (3.0 - 2.0 * t)
+}
+
 /// The knee function of the chroma compression. `r` is a colour's distance
 /// from the focal point and `rs` the source boundary's along the same ray,
 /// both as shares of the destination boundary's distance. Up to [`KNEE`]
 /// nothing moves; the band [`KNEE`], `rs` is carried onto [`KNEE`], 1 by a
 /// curve whose slope is 1 at the knee (no crease where compression starts),
-/// falls linearly over the first 1/s of the band (s = its compression
-/// ratio) and stays constant beyond, at s/(2s − 1) of the linear map's
-/// slope: strictly increasing, so distinct colours stay distinct, and
-/// nowhere flatter than half the linear scaling of the band. Beyond `rs`
-/// (a colour outside the described source gamut) the boundary.
+/// falls linearly over the first 2(1 − m)/(s − m) of the band (s = its
+/// compression ratio) and stays constant beyond, at m = [`KNEE_SLOPE`] of
+/// the linear map's slope (2 − s when the ratio is below 2 − m): strictly
+/// increasing, so distinct colours stay distinct, and nowhere flatter than
+/// m times the linear scaling of the band, so an 8-bit ramp leaving the
+/// gamut keeps its steps. Beyond `rs` (a colour outside the described
+/// source gamut) the boundary.
 pub fn knee_compression(r: f64, rs: f64) -> f64 {
     if r <= KNEE || rs <= 1.0 {
         return r;
     }
     let s = (rs - KNEE) / (1.0 - KNEE);
     let x = ((r - KNEE) / (rs - KNEE)).min(1.0);
-    let delta = 1.0 / s;
-    let m = s / (2.0 * s - 1.0);
+    // The slope falls from s to m over [0, delta], with g(1) = 1.
+    let m = if s >= 2.0 - KNEE_SLOPE { KNEE_SLOPE } else { 2.0 - s };
+    let delta = if s - m > 1e-12 { (2.0 * (1.0 - m) / (s - m)).min(1.0) } else { 1.0 };
     let g = if x <= delta {
         s * x - (s - m) * x * x / (2.0 * delta)
     } else {
@@ -392,7 +429,8 @@ pub fn knee_compression(r: f64, rs: f64) -> f64 {
 ///    point compensation does (ISO 18619:2015), but by a curve in L* that
 ///    acts in the shadows only ([`shadow_lightness`]; IPT hue kept): the
 ///    range from the source black up to about 1.9 times the difference of
-///    the blacks is compressed, the rest kept. ISO 18619's scaling in
+///    the blacks, or at most [`SHADOW_REACH`] above the press black, is
+///    compressed, the rest kept. ISO 18619's scaling in
 ///    XYZ would lift L* 30 by 2.6 and L* 50 by 1.1 on coated offset,
 ///    moving printable midtones.
 /// 2. Chroma, in IPT (Ebner & Fairchild 1998, see [`crate::colour::Ipt`]),
@@ -400,7 +438,8 @@ pub fn knee_compression(r: f64, rs: f64) -> f64 {
 ///    saturated blue does not turn purple as it would scaled in CIELAB.
 ///    It moves along the ray from a focal point on the lightness axis at the
 ///    lightness of the press cusp of its hue (the focal point of SGCK, CIE
-///    156:2004), by [`knee_compression`] of its distance: up to [`KNEE`] of
+///    156:2004; raised toward the colour's own lightness above the cusp, by
+///    at most [`LIGHT_FOCUS_RISE_MAX`]), by [`knee_compression`] of its distance: up to [`KNEE`] of
 ///    the distance to the press boundary nothing moves, and the band beyond,
 ///    out to the source boundary on the same ray, is compressed smoothly into
 ///    the rest. The source is either the whole source space or the gamut of
@@ -408,11 +447,16 @@ pub fn knee_compression(r: f64, rs: f64) -> f64 {
 ///    gamut is barely compressed.
 /// 3. No hue rotation: hue is kept in IPT.
 /// 4. A shadow taper of our own: within [`SHADOW_TAPER_RANGE`] L* above the
-///    printable black, chroma is scaled down smoothly to
-///    [`SHADOW_TAPER_FLOOR`] of its value at the black point, where the
-///    gamut ends in a point. Without it, 8-bit ramps into the darkest
-///    shadows step by more than 3 % of a plate per code value (see
-///    tests/suite/separation_engine.rs).
+///    printable black, the press boundary's chroma is narrowed smoothly to
+///    [`SHADOW_TAPER_FLOOR`] of itself at the black point, where the gamut
+///    ends in a point ([`shadow_taper_keep`]), and chroma beyond
+///    [`KNEE`] of the narrowed boundary is carried into it by
+///    [`knee_compression`] (at constant IPT hue and lightness). Without it,
+///    8-bit ramps into the darkest shadows step by more than 3 % of a plate
+///    per code value (see tests/suite/separation_engine.rs). Dark printable
+///    colours inside the knee of the narrowed boundary do not move (an
+///    earlier taper scaled every chroma there, moving printable colours up
+///    to 20 L* above the black point).
 ///
 /// Which parts depend on the source: the press boundary, its cusps and the
 /// press black depend on the separator only; the source boundary distance
@@ -435,31 +479,64 @@ enum Extent<'a> {
     Picture(Vec<f64>),
 }
 
-/// Largest share of contrast [`shadow_lightness`] takes from the shadows:
-/// its slope falls to 1 − this at the middle of its span (0.2 for a
-/// lighter press black, 1.8 for a darker one).
+/// Largest share of contrast [`shadow_lightness`] takes from the shadows
+/// where its span is 1.5/this times the difference of the blacks: its
+/// slope falls to 1 − this at the middle of its span (0.2 for a lighter
+/// press black, 1.8 for a darker one).
 const SHADOW_DEPTH: f64 = 0.8;
+
+/// The lightness curve rejoins the identity at most this far (L*) above
+/// the press black. The curve of slope 1 at both ends ([`SHADOW_DEPTH`])
+/// needs 1.9 times the difference of the blacks: L* 20 on coated offset,
+/// but L* 55 on uncoated offset (press black near L* 30) and 83 on
+/// newsprint (near L* 44), where it moved printable midtones by up to 11
+/// and 20 L*. Beyond this reach the curve takes its contrast from the
+/// deepest shadows instead (see [`ShadowCurve::new`]).
+pub const SHADOW_REACH: f64 = 10.0;
+
+/// Slope of the steeper lightness curve at the source black, as a share of
+/// its mean slope below the press black + [`SHADOW_REACH`].
+const SHADOW_FLOOR_SLOPE: f64 = 0.6;
 
 /// The lightness curve of perceptual mapping, from the source black onto
 /// the press black (see [`shadow_lightness`]).
 struct ShadowCurve {
     source_black: f64,
     dest_black: f64,
-    /// A in slope(u) = 1 − A·4u(1 − u), u = (L* − source black)/span.
-    depth: f64,
+    shape: ShadowShape,
     span: f64,
+}
+
+enum ShadowShape {
+    /// slope(u) = 1 − depth·4u(1 − u), u = (L* − source black)/span.
+    Cubic { depth: f64 },
+    /// y = press black + (span − lift)·(a·t + (1 − a)·tᵖ), t = (L* − source
+    /// black)/span, with p chosen so that the slope is 1 where it ends.
+    Power { p: f64 },
 }
 
 impl ShadowCurve {
     fn new(source_black: f64, dest_black: f64) -> ShadowCurve {
         let lift = dest_black - source_black;
-        // lift = A·span·2/3
-        let depth = SHADOW_DEPTH.copysign(lift);
+        // lift = depth·span·2/3
         let span = 1.5 * lift.abs() / SHADOW_DEPTH;
+        if lift > 0.0 && span > lift + SHADOW_REACH {
+            let span = lift + SHADOW_REACH;
+            let a = SHADOW_FLOOR_SLOPE;
+            let p = (span / SHADOW_REACH - a) / (1.0 - a);
+            return ShadowCurve {
+                source_black,
+                dest_black,
+                shape: ShadowShape::Power { p },
+                span,
+            };
+        }
         ShadowCurve {
             source_black,
             dest_black,
-            depth,
+            shape: ShadowShape::Cubic {
+                depth: SHADOW_DEPTH.copysign(lift),
+            },
             span,
         }
     }
@@ -473,10 +550,17 @@ impl ShadowCurve {
             return l + self.dest_black - self.source_black;
         }
         let u = x / self.span;
-        self.dest_black + x - self.depth * self.span * (2.0 * u * u - 4.0 / 3.0 * u * u * u)
+        match self.shape {
+            ShadowShape::Cubic { depth } => self.dest_black + x - depth * self.span * (2.0 * u * u - 4.0 / 3.0 * u * u * u),
+            ShadowShape::Power { p } => {
+                let a = SHADOW_FLOOR_SLOPE;
+                let rest = self.span - (self.dest_black - self.source_black);
+                self.dest_black + rest * (a * u + (1.0 - a) * u.powf(p))
+            }
+        }
     }
 
-    /// The inverse, by bisection (the curve increases with slope ≥ 0.2).
+    /// The inverse, by bisection (the curve increases).
     fn inverse(&self, y: f64) -> f64 {
         let end = self.source_black + self.span;
         if y >= end || self.span <= 0.0 {
@@ -502,8 +586,12 @@ impl ShadowCurve {
 /// `dest_black` with slope 1 there, the slope dipping to 1 − [`SHADOW_DEPTH`]
 /// midway and back to 1 at 1.5/[`SHADOW_DEPTH`] times the difference of the
 /// blacks above the source black, the identity above. On coated offset
-/// (black near L* 9) it ends near L* 17; the deepest shadows keep their
-/// contrast, so ramps into the press black separate smoothly.
+/// (black near L* 10.7) it ends near L* 20; the deepest shadows keep their
+/// contrast, so ramps into the press black separate smoothly. Where that
+/// would end more than [`SHADOW_REACH`] above the press black (a press
+/// black lighter than about L* 11.4), the curve ends there instead and
+/// compresses the deepest shadows the most: printable colours above the
+/// press black + [`SHADOW_REACH`] keep their lightness.
 pub fn shadow_lightness(l: f64, source_black: f64, dest_black: f64) -> f64 {
     ShadowCurve::new(source_black, dest_black).map(l)
 }
@@ -627,7 +715,15 @@ impl<'a> PerceptualMap<'a> {
             return None;
         }
         let lab = if lifted.l == lab.l { lab } else { from_working_polar(i, c, h) };
-        let (focus, _) = self.dest_cusps.at(h);
+        // Above the cusp the focal point rises with the colour (a light
+        // yellow aimed at the cusp of the press yellow, L* near 89, would
+        // print darker than the printable yellows below it).
+        let (cusp, _) = self.dest_cusps.at(h);
+        let focus = if i > cusp {
+            cusp + LIGHT_FOCUS_RISE_MAX * (LIGHT_FOCUS_RISE * (i - cusp) / LIGHT_FOCUS_RISE_MAX).tanh()
+        } else {
+            cusp
+        };
         let (di, dc) = (i - focus, c);
         let d = di.hypot(dc);
         let mut ray = Ray {
@@ -687,14 +783,42 @@ impl<'a> PerceptualMap<'a> {
                 reach => ray.point(ray.d_dest * knee_compression(ray.d / ray.d_dest, reach)),
             }
         };
-        // 4. Shadow taper, at constant IPT hue and lightness.
-        let t = ((mapped.l - self.dest.l_min) / SHADOW_TAPER_RANGE).clamp(0.0, 1.0);
-        let keep = SHADOW_TAPER_FLOOR + (1.0 - SHADOW_TAPER_FLOOR) * t * t * (3.0 - 2.0 * t);
+        // 4. Shadow taper, at constant IPT hue and lightness: in full where
+        // the source reaches beyond the press boundary, fading out where a
+        // picture stays inside it (a whole source space always reaches
+        // beyond it in the shadows).
+        let keep = shadow_taper_keep(mapped.l - self.dest.l_min);
         if keep >= 1.0 {
             return mapped;
         }
+        let keep = match &self.source {
+            Extent::Space(_) => keep,
+            Extent::Picture(_) => {
+                let beyond = ((self.source_reach(&ray) - 1.0 - REACH_SLACK) / TAPER_FADE).clamp(0.0, 1.0);
+                1.0 - beyond * (1.0 - keep)
+            }
+        };
+        if keep >= 1.0 {
+            return mapped;
+        }
+        // The colour's distance from the focal point as a share of the
+        // press boundary's along its ray (after step 2).
+        let q = if ray.d <= KNEE * ray.d_dest || ray.d_dest <= 0.0 {
+            ray.d / ray.d_dest.max(1e-9)
+        } else {
+            let (i, c, _) = working_polar(mapped);
+            (i - ray.focus).hypot(c) / ray.d_dest
+        };
+        let scale = if q > 1e-9 && ray.d_dest > 0.0 {
+            keep * knee_compression(q / keep, (1.0 / keep).max(q / keep)) / q
+        } else {
+            keep
+        };
+        if scale >= 1.0 {
+            return mapped;
+        }
         let (i, c, h) = working_polar(mapped);
-        from_working_polar(i, c * keep, h)
+        from_working_polar(i, c * scale, h)
     }
 }
 
@@ -715,18 +839,33 @@ mod tests {
 
     #[test]
     fn shadow_lightness_maps_black_onto_black_and_inverts() {
-        for (sb, db) in [(0.0, 9.0), (0.0, 28.0), (0.0, 2.0), (9.0, 14.0), (14.0, 9.0), (5.0, 5.0)] {
+        for (sb, db) in [
+            (0.0, 9.0),
+            (0.0, 28.0),
+            (0.0, 44.0),
+            (0.0, 2.0),
+            (9.0, 14.0),
+            (14.0, 9.0),
+            (5.0, 5.0),
+        ] {
             let curve = ShadowCurve::new(sb, db);
             assert!((curve.map(sb) - db).abs() < 1e-12, "{sb} {db}");
             let above = sb + curve.span + 0.1;
             assert_eq!(curve.map(above), above);
+            assert!(curve.span <= (db - sb).abs().max(0.0) * 1.875 + 1e-9 && (db <= sb || curve.span <= db - sb + SHADOW_REACH + 1e-9));
+            // Slope 1 where it rejoins the identity.
+            let e = 1e-6;
+            assert!(
+                ((curve.map(sb + curve.span) - curve.map(sb + curve.span - e)) / e - 1.0).abs() < 1e-3,
+                "{sb} {db}"
+            );
             let mut prev = f64::MIN;
             for k in 0..=1000 {
                 let l = sb + k as f64 * 0.1;
                 let m = curve.map(l);
                 assert!(m > prev, "{sb} {db}: not increasing at {l}");
-                // slope between 0.2 and 1.8
-                assert!(k == 0 || (m - prev < 0.1 * 1.8 + 1e-9 && m - prev > 0.1 * 0.2 - 1e-9));
+                // slope at most 1.8
+                assert!(k == 0 || m - prev < 0.1 * 1.8 + 1e-9);
                 prev = m;
                 assert!((curve.inverse(m) - l).abs() < 1e-9, "{sb} {db} {l}: {}", curve.inverse(m));
             }

@@ -30,22 +30,20 @@ fn separator(condition: &str, intent: Intent, bpc: bool) -> Separator {
 /// unnoticed; everywhere else it is held at the requirement.
 fn bound(check: &str, condition: &str, requirement: f64) -> f64 {
     let gap = match (check, condition) {
-        // Press blacks near L* 30 (FOGRA29L, FOGRA30L) and a light one on
-        // super-calendered paper: the black point curve reaches up into
-        // printable colours. Measured p95 2.92, 3.19 and 3.05.
-        ("printable p95", "uncoated-offset") => Some(3.0),
-        ("printable p95", "uncoated-yellowish") => Some(3.2),
-        ("printable p95", "supercalendered") => Some(3.1),
-        // Largest hue turn of a printable colour: measured 3.58° and 4.66°.
-        ("printable hue max", "web-offset-lwc") => Some(3.6),
-        ("printable hue max", "supercalendered") => Some(4.7),
-        // A printable picture is still compressed: measured 35 and 15 codes.
-        ("printable picture codes", "web-offset-lwc") => Some(35.0),
-        ("printable picture codes", "supercalendered") => Some(15.0),
-        // The saturated ramp flattens over more codes: measured 10 (from the
-        // whole space) and 9 (from the picture).
-        ("ramp run", "newsprint") => Some(10.0),
-        ("ramp run", "uncoated-yellowish") => Some(9.0),
+        // Newsprint's press black is near L* 44: the lightness curve moves
+        // the printable colours up to 10 L* above it. Measured p95 4.66 and
+        // a largest hue turn of 3.60°, in the shadows.
+        ("printable p95", "newsprint") => Some(4.7),
+        ("printable hue max", "newsprint") => Some(3.65),
+        // Dark printable colours near the boundary, within 20 L* of the
+        // press black, narrowed by the shadow taper at constant IPT hue:
+        // measured 5.15°.
+        ("printable hue max", "supercalendered") => Some(5.2),
+        // A printable picture is still compressed where the segment-maxima
+        // boundary reads colours relative colorimetric reproduces as lying
+        // beyond it: measured 3 and 11 codes.
+        ("printable picture codes", "uncoated-offset") => Some(3.0),
+        ("printable picture codes", "newsprint") => Some(11.0),
         _ => None,
     };
     gap.unwrap_or(requirement)
@@ -66,7 +64,6 @@ fn hue_difference(a: f64, b: f64) -> f64 {
 /// of 1.0 and a 95th percentile of 2.5 ΔE2000 of themselves, and with
 /// chroma above 10 their CIELAB hue turns by at most 1° on average and 3°
 /// at most. Mapped from the whole sRGB space (the larger compression).
-/// Newsprint (press black near L* 37) holds the hue only (see below).
 #[test]
 fn printable_colours_stay() {
     let conv = RgbSpace::Srgb.converter();
@@ -78,6 +75,7 @@ fn printable_colours_stay() {
         let (rel_map, per_map) = (relative.source_mapping(&space), perceptual.source_mapping(&space));
         let mut rng = Rng(18);
         let (mut errors, mut turns, mut lightness) = (Vec::new(), Vec::new(), 0.0f64);
+        let mut worst_turn = (Lab::new(0.0, 0.0, 0.0), Lab::new(0.0, 0.0, 0.0));
         let mut tried = 0;
         while errors.len() < 400 && tried < 20_000 {
             tried += 1;
@@ -90,7 +88,11 @@ fn printable_colours_stay() {
 
             lightness = lightness.max((printed.l - lab.l).abs());
             if lab.to_lch().c > 10.0 {
-                turns.push(hue_difference(lab.to_lch().h, printed.to_lch().h));
+                let turn = hue_difference(lab.to_lch().h, printed.to_lch().h);
+                if turns.iter().all(|&t| t < turn) {
+                    worst_turn = (lab, printed);
+                }
+                turns.push(turn);
             }
         }
         eprintln!("{name}: press black L* {:.2}", perceptual.black_point().0.lab().l);
@@ -106,12 +108,7 @@ fn printable_colours_stay() {
             percentile(errors.clone(), 1.0),
             turns.len()
         );
-        // Newsprint's black is near L* 37: mapping the source black onto it
-        // moves the printable colours above it (up to 15.8 L* measured,
-        // mean 1.37, p95 6.3 ΔE2000): reported, not held.
-        if name == "newsprint" {
-            continue;
-        }
+        eprintln!("{name}: largest hue turn: {:?} printed {:?}", worst_turn.0, worst_turn.1);
         if !(mean <= bound("printable mean", name, 1.0) && p95 <= bound("printable p95", name, 2.5)) {
             failures.push(format!("{name}: mean {mean} p95 {p95}"));
         }
@@ -246,8 +243,10 @@ fn the_coastal_scene_keeps_its_printable_colours_and_its_ramp() {
     use std::collections::HashMap;
 
     // Near sRGB blue the ramp runs past the press boundary, where the knee
-    // curve is flattest: 5 codes print alike on coated offset (measured).
-    const LONGEST_FLAT_RUN: usize = 8;
+    // curve is flattest: at most 6 codes print alike on any built-in
+    // (measured on coated offset; 10 on newsprint when the knee curve fell
+    // to half the linear slope).
+    const LONGEST_FLAT_RUN: usize = 6;
     let rgb = scene();
     let source = RgbSource::Named(RgbSpace::Srgb);
     let conv = RgbSpace::Srgb.converter();
