@@ -111,11 +111,25 @@ fn flag_percent(flag: &str, value: Percent, setting: Setting) -> Result<f64> {
     Ok(Percent(setting.check(value.0, Origin::Flag(flag))?).coverage().0)
 }
 
+/// Reads a ticket and checks its `[checks] fail_if` rules, whose syntax
+/// belongs to the inspection (`inspect::rules`), so that a bad rule is
+/// refused with the ticket's file and line before any job starts, whichever
+/// command reads the ticket.
+pub fn load_ticket(path: &std::path::Path) -> Result<Ticket> {
+    let ticket = Ticket::load(path)?;
+    for rule in &ticket.checks.fail_if {
+        if let Err(why) = crate::inspect::rules::Rule::parse_plain(rule) {
+            return Err(ticket.error_at("checks", "fail_if", format!("rule \"{rule}\": {why}")));
+        }
+    }
+    Ok(ticket)
+}
+
 impl ModelInput {
     /// Resolves the condition and applies the ticket, then the flags, over its defaults.
     pub fn resolve(&self) -> Result<ModelSetup> {
         let ticket = match &self.ticket {
-            Some(path) => Ticket::load(path)?,
+            Some(path) => load_ticket(path)?,
             None => Ticket::default(),
         };
         let t = &ticket.model;
@@ -436,4 +450,26 @@ pub fn ticket_workshop(ticket: Option<&Path>) -> Result<(Workshop, Ticket)> {
     .resolve()?;
     let job = JobInput::default().resolve(JobKind::Separate, model)?;
     Ok((job.workshop()?, job.model.ticket.clone()))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_bad_check_rule_in_a_ticket_names_the_line_and_the_problem() {
+        let dir = std::env::temp_dir().join(format!("platesmith-setup-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let bad = dir.join("bad.toml");
+        std::fs::write(&bad, "[checks]\nfail_if = [\"tac>300\", \"ink>3\"]\n").unwrap();
+        let err = load_ticket(&bad).unwrap_err().to_string();
+        assert!(
+            err.contains("line 2") && err.contains("checks.fail_if") && err.contains("unknown metric 'ink'"),
+            "{err}"
+        );
+        let good = dir.join("good.toml");
+        std::fs::write(&good, "[checks]\nfail_if = [\"tac>300\"]\n").unwrap();
+        assert!(load_ticket(&good).is_ok());
+        std::fs::remove_dir_all(&dir).unwrap();
+    }
 }

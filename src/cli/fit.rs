@@ -142,7 +142,7 @@ pub fn run(args: FitArgs) -> Result<i32> {
                 },
                 condition.name
             );
-            let png = crate::press::residual_plot::render(&patches, &predicted, &title)?;
+            let png = crate::report::residual_plot::render(&patches, &predicted, &title)?;
             write_outputs(&args.out, &text, Some((plot, png)), args.force)?;
         }
         None => write_outputs(&args.out, &text, None, args.force)?,

@@ -14,7 +14,6 @@ pub mod gamut;
 pub mod icc_model;
 mod neugebauer;
 mod params;
-pub mod residual_plot;
 
 pub use condition_file::load_condition;
 pub use correction::{Axis, CorrectedModel, Correction};

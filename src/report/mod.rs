@@ -11,6 +11,7 @@ pub mod font;
 pub mod html;
 pub mod maps;
 pub mod region_table;
+pub mod residual_plot;
 pub mod text;
 
 use crate::colour::RgbSpace;

@@ -61,7 +61,10 @@ fn unknown_key_names_file_key_and_line() {
 fn out_of_range_values_name_key_line_and_allowed_range() {
     let path = fixture("bad/tac-out-of-range.toml");
     let err = error_of("bad/tac-out-of-range.toml");
-    assert!(err.contains("tac-out-of-range.toml") && err.contains("tac = 450: allowed range is 100–400 %"), "{err}");
+    assert!(
+        err.contains("tac-out-of-range.toml") && err.contains("tac = 450: allowed range is 100–400 %"),
+        "{err}"
+    );
     assert!(err.contains(&format!("line {}", line_with(&path, "tac = 450"))), "{err}");
     assert!(err.contains("100–400"), "{err}");
 

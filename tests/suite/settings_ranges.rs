@@ -41,7 +41,9 @@ fn black_start_of_100_percent_is_refused_by_every_source() {
         format!("house.toml: line {line}: black_generation.black_start = 100: allowed range is 0–99 %")
     );
     // Ticket.
-    let err = Ticket::parse("[model]\nblack_start = 100\n", Path::new("job.toml")).unwrap_err().to_string();
+    let err = Ticket::parse("[model]\nblack_start = 100\n", Path::new("job.toml"))
+        .unwrap_err()
+        .to_string();
     assert_eq!(err, "job.toml: line 2: model.black_start = 100: allowed range is 0–99 %");
     // Flag.
     let err = flag_error(ModelInput {
@@ -76,7 +78,9 @@ fn black_shape_above_5_is_refused_by_every_source() {
         err,
         format!("house.toml: line {line}: black_generation.shape = 5.5: allowed range is 0.2–5")
     );
-    let err = Ticket::parse("[model]\n\nblack_shape = 5.5\n", Path::new("job.toml")).unwrap_err().to_string();
+    let err = Ticket::parse("[model]\n\nblack_shape = 5.5\n", Path::new("job.toml"))
+        .unwrap_err()
+        .to_string();
     assert_eq!(err, "job.toml: line 3: model.black_shape = 5.5: allowed range is 0.2–5");
     let err = flag_error(ModelInput {
         black_shape: Some(5.5),
@@ -124,9 +128,13 @@ fn tac_gcr_and_table_grid_have_one_wording_per_source() {
     let text = condition_with("tac = 320", "tac = 99");
     let err = parse_condition(&text, Path::new("house.toml")).unwrap_err().to_string();
     assert_eq!(err, "house.toml: line 4: tac = 99: allowed range is 100–400 %");
-    let err = Ticket::parse("[model]\ngcr = 101\n", Path::new("job.toml")).unwrap_err().to_string();
+    let err = Ticket::parse("[model]\ngcr = 101\n", Path::new("job.toml"))
+        .unwrap_err()
+        .to_string();
     assert_eq!(err, "job.toml: line 2: model.gcr = 101: allowed range is 0–100 %");
-    let err = Ticket::parse("[model]\ntable_grid = 4\n", Path::new("job.toml")).unwrap_err().to_string();
+    let err = Ticket::parse("[model]\ntable_grid = 4\n", Path::new("job.toml"))
+        .unwrap_err()
+        .to_string();
     assert_eq!(err, "job.toml: line 2: model.table_grid = 4: allowed range is 5–129 nodes per axis");
     let err = flag_error(ModelInput {
         table_grid: Some(130),

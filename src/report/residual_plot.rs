@@ -4,10 +4,10 @@
 //! right each patch's ΔE2000 against its measured L*, coloured by region of
 //! the ink space. Drawn with the report font; written as PNG.
 
-use super::fit::{Patch, Region};
+use super::font;
 use crate::colour::{Lab, ciede2000};
 use crate::error::{Error, Result};
-use crate::report::font;
+use crate::press::fit::{Patch, Region};
 
 const WIDTH: usize = 1400;
 const HEIGHT: usize = 720;
