@@ -243,10 +243,12 @@ fn the_coastal_scene_keeps_its_printable_colours_and_its_ramp() {
     use std::collections::HashMap;
 
     // Near sRGB blue the ramp runs past the press boundary, where the knee
-    // curve is flattest: at most 6 codes print alike on any built-in
-    // (measured on coated offset; 10 on newsprint when the knee curve fell
-    // to half the linear slope).
-    const LONGEST_FLAT_RUN: usize = 6;
+    // curve is flattest: at most 7 codes print alike on any built-in
+    // (measured on coated offset from the picture, after the refit with the
+    // lattice's mixed differences; 6 before it; 10 on newsprint when the
+    // knee curve fell to half the linear slope). The requirement is a stated
+    // number; 8 was stated first, this holds the measured figure.
+    const LONGEST_FLAT_RUN: usize = 7;
     let rgb = scene();
     let source = RgbSource::Named(RgbSpace::Srgb);
     let conv = RgbSpace::Srgb.converter();
