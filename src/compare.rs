@@ -7,9 +7,9 @@
 use crate::cgats;
 use crate::colour::{Lab, ciede2000};
 use crate::error::Result;
-use crate::press::fit::{patches_from_cgats, summarize};
+use crate::press::fit::{WorstPatch, patches_from_cgats, summarize};
 use crate::press::load_condition;
-use crate::report::comparison::{ComparisonReport, Failure, NOTE, PatchRow};
+use crate::report::comparison::{ComparisonReport, Failure, NOTE};
 use std::path::Path;
 
 /// The ΔE2000 tolerances; `None`: not checked.
@@ -51,10 +51,10 @@ pub fn compare(measurements: &Path, condition: &str, tolerances: Tolerances) -> 
             });
         }
     }
-    let rows: Vec<PatchRow> = patches
+    let rows: Vec<WorstPatch> = patches
         .iter()
         .zip(&predicted)
-        .map(|(p, q)| PatchRow {
+        .map(|(p, q)| WorstPatch {
             id: p.id.clone(),
             line: p.line,
             ink_percent: p.ink.to_percent(),

@@ -5,9 +5,9 @@
 
 use crate::colour::Lab;
 use crate::error::Result;
-use crate::press::{PressModel, PrintingCondition};
 use crate::press::characterize::{self, Characterization, MeasurementFit};
 use crate::press::condition_file::{parse_condition, to_toml};
+use crate::press::{PressModel, PrintingCondition};
 use crate::raster::OutputSet;
 use std::io::Write as _;
 use std::path::{Path, PathBuf};

@@ -27,7 +27,7 @@ pub fn run(args: RecipeArgs) -> Result<i32> {
     let setup = args.model.resolve()?;
     let separator = Separator::new(setup.condition.clone(), setup.settings.clone())?;
     let s = recipe(spec, &separator, setup.source_space);
-    let report = RecipeReport::new(&args.colour, &s, &setup);
+    let report = RecipeReport::new(&args.colour, &s, &setup.condition, &setup.settings, setup.source_space);
     let exporter: &dyn Exporter<RecipeReport> = if args.json { &PRINTED_JSON } else { &Text };
     print(&report, exporter)?;
     Ok(0)

@@ -4,22 +4,10 @@
 
 use super::export::Exporter;
 use super::fit::{patch_table, residual_report};
-use crate::colour::Lab;
 use crate::error::Result;
-use crate::press::fit::Residuals;
+use crate::press::fit::{Residuals, WorstPatch};
 use serde::Serialize;
 use std::fmt::Write as _;
-
-/// One measured patch beside the model's prediction.
-#[derive(Debug, Serialize)]
-pub struct PatchRow {
-    pub id: String,
-    pub line: usize,
-    pub ink_percent: [f64; 4],
-    pub measured: Lab,
-    pub predicted: Lab,
-    pub delta_e2000: f64,
-}
 
 /// A statistic over its tolerance.
 #[derive(Debug, Serialize)]
@@ -39,7 +27,8 @@ pub struct ComparisonReport {
     pub statistics: Residuals,
     pub failures: Vec<Failure>,
     pub passed: bool,
-    pub patches: Vec<PatchRow>,
+    /// Every patch beside the model's prediction, in the file's order.
+    pub patches: Vec<WorstPatch>,
     pub note: &'static str,
 }
 
@@ -77,11 +66,7 @@ impl Text {
         s += &residual_report(&r.statistics);
         if self.all {
             let _ = writeln!(s, "\nEvery patch");
-            s += &patch_table(
-                r.patches
-                    .iter()
-                    .map(|p| (p.id.as_str(), p.line, p.ink_percent, p.measured, p.predicted, p.delta_e2000)),
-            );
+            s += &patch_table(&r.patches);
         }
         let _ = writeln!(s);
         if r.failures.is_empty() {

@@ -4,10 +4,9 @@
 //! ([`super::comparison`]): [`stats_line`], [`residual_report`], [`patch_table`].
 
 use super::export::Exporter;
-use crate::colour::Lab;
 use crate::error::Result;
 use crate::press::characterize::Characterization;
-use crate::press::fit::Residuals;
+use crate::press::fit::{Residuals, WorstPatch};
 use serde::Serialize;
 use std::fmt::Write as _;
 use std::path::Path;
@@ -117,27 +116,24 @@ pub fn residual_report(r: &Residuals) -> String {
         }
     }
     let _ = writeln!(s, "\nWorst patches");
-    s += &patch_table(
-        r.worst
-            .iter()
-            .map(|w| (w.id.as_str(), w.line, w.ink_percent, w.measured, w.predicted, w.delta_e2000)),
-    );
+    s += &patch_table(&r.worst);
     s
 }
 
 /// A table of patches: id, line, CMYK, measured, modelled, ΔE2000.
-pub fn patch_table<'a>(rows: impl Iterator<Item = (&'a str, usize, [f64; 4], Lab, Lab, f64)>) -> String {
+pub fn patch_table(rows: &[WorstPatch]) -> String {
     let mut s = String::new();
     let _ = writeln!(
         s,
         "  {:<10} {:>5}  {:<23} {:<22} {:<22} ΔE00",
         "patch", "line", "C M Y K %", "measured L* a* b*", "model L* a* b*"
     );
-    for (id, line, i, m, p, de) in rows {
+    for row in rows {
+        let (i, m, p) = (row.ink_percent, row.measured, row.predicted);
         let _ = writeln!(
             s,
             "  {:<10} {:>5}  {:>5.1} {:>5.1} {:>5.1} {:>5.1}  {:>6.2} {:>6.2} {:>7.2}  {:>6.2} {:>6.2} {:>7.2}  {:.2}",
-            id, line, i[0], i[1], i[2], i[3], m.l, m.a, m.b, p.l, p.a, p.b, de
+            row.id, row.line, i[0], i[1], i[2], i[3], m.l, m.a, m.b, p.l, p.a, p.b, row.delta_e2000
         );
     }
     s

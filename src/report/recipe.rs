@@ -4,10 +4,11 @@
 
 use super::export::Exporter;
 use super::{SettingsReport, lab_rounded, round_to};
+use crate::colour::RgbSpace;
 use crate::error::Result;
-use crate::separation::{CompressFrom, Intent, Separation};
+use crate::press::PrintingCondition;
+use crate::separation::{CompressFrom, Intent, Separation, SeparationSettings};
 use crate::settings::Coverage;
-use crate::setup::ModelSetup;
 use serde::Serialize;
 
 /// The recipe as reported (percent and CIELAB D50).
@@ -28,14 +29,21 @@ pub struct RecipeReport {
 }
 
 impl RecipeReport {
-    /// The report of `s`, the separation of the colour written as `input` under `setup`.
-    pub fn new(input: &str, s: &Separation, setup: &ModelSetup) -> RecipeReport {
+    /// The report of `s`, the separation of the colour written as `input`
+    /// on `condition` with `settings` from the source space `source`.
+    pub fn new(
+        input: &str,
+        s: &Separation,
+        condition: &PrintingCondition,
+        settings: &SeparationSettings,
+        source: RgbSpace,
+    ) -> RecipeReport {
         RecipeReport {
             input: input.to_string(),
             target_lab: lab_rounded(s.target.lab()),
             cmyk: s.cmyk.to_percent().map(|v| round_to(v, 1)),
             tac: round_to(s.cmyk.total_percent(), 1),
-            tac_limit: round_to(Coverage(setup.settings.tac).percent().0, 1),
+            tac_limit: round_to(Coverage(settings.tac).percent().0, 1),
             printed_lab: lab_rounded(s.printed.lab()),
             printed_lab_absolute: lab_rounded(s.printed_absolute.lab()),
             delta_e: round_to(s.delta_e, 2),
@@ -43,8 +51,8 @@ impl RecipeReport {
             limited_by: s.limited_by.iter().map(|l| l.name()).collect(),
             // One colour has no picture: perceptual compresses from the whole source space.
             settings: SettingsReport {
-                compress_from: (setup.settings.intent == Intent::Perceptual).then_some(CompressFrom::Space.name()),
-                ..SettingsReport::new(&setup.condition, &setup.settings, setup.source_space)
+                compress_from: (settings.intent == Intent::Perceptual).then_some(CompressFrom::Space.name()),
+                ..SettingsReport::new(condition, settings, source)
             },
             note: super::PREDICTION_NOTE,
         }
