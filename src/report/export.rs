@@ -55,6 +55,13 @@ pub const INSPECT_JSON: Json = Json {
     final_newline: true,
 };
 
+/// A report printed on standard output (`recipe`, `compare`, `conditions`,
+/// `fit` with `--json`), with a final line break.
+pub const PRINTED_JSON: Json = Json {
+    suffix: "json",
+    final_newline: true,
+};
+
 impl Json {
     /// The name of the file for `stem` (what [`Exporter::file_name`] gives, for any subject).
     pub fn file_name(&self, stem: &str) -> String {

@@ -5,11 +5,15 @@
 //! page ([`html`]); the inspection's report folder gathers them ([`folder`]).
 //! Also the settings echo and the prediction note every report carries.
 
+pub mod comparison;
+pub mod condition;
 pub mod export;
+pub mod fit;
 pub mod folder;
 pub mod font;
 pub mod html;
 pub mod maps;
+pub mod recipe;
 pub mod region_table;
 pub mod residual_plot;
 pub mod text;
@@ -27,6 +31,11 @@ specifications decide, and local standards and the print vendor's requirements t
 pub fn round_to(v: f64, digits: i32) -> f64 {
     let f = 10f64.powi(digits);
     (v * f).round() / f
+}
+
+/// CIELAB rounded to two decimals, as reports give it.
+pub fn lab_rounded(l: crate::colour::Lab) -> [f64; 3] {
+    [round_to(l.l, 2), round_to(l.a, 2), round_to(l.b, 2)]
 }
 
 /// The settings a result was made with, in percent, echoed in every report.
