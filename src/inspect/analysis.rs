@@ -14,7 +14,7 @@ use crate::ink::{Cmyk, Ink};
 use crate::job::{InkStats, TacSummary, Workshop};
 use crate::raster::{Layout, Resolution};
 use crate::report::round_to;
-use crate::separation::{Intent, RelativeLab, Separator};
+use crate::separation::{IntentLab, Separator};
 use rayon::prelude::*;
 use std::collections::BTreeMap;
 use std::path::Path;
@@ -159,10 +159,6 @@ fn find_regions(bands: &mut [Band], geometry: &Geometry, opts: &InspectOptions) 
 fn describe_regions(listed: &[(usize, Region)], subject: &Subject, separator: &Separator, geometry: &Geometry) -> Vec<RegionReport> {
     let w = subject.raster.width as usize;
     let (mm_x, mm_y, px_mm2) = (geometry.mm_x, geometry.mm_y, geometry.px_mm2);
-    let working = |lab: Lab| match separator.settings().intent {
-        Intent::Absolute => separator.media_white().relative_lab_from_absolute(lab),
-        _ => lab,
-    };
     listed
         .par_iter()
         .map(|(k, r)| {
@@ -179,7 +175,7 @@ fn describe_regions(listed: &[(usize, Region)], subject: &Subject, separator: &S
                 _ => (ink.to_percent().iter().map(|&v| round_to(v, 1)).collect(), printed),
             };
             let (in_gamut, limited_by) = if *k == 0 {
-                let (inside, limits) = separator.gamut_check(RelativeLab::new(working(lab)));
+                let (inside, limits) = separator.gamut_check(separator.to_working(IntentLab::new(lab)));
                 (Some(inside), Some(limits.iter().map(|l| l.name()).collect()))
             } else {
                 (None, None)

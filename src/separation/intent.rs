@@ -14,7 +14,7 @@ pub struct SourceMapping<'a> {
 
 impl Separator {
     /// Converts a colour from the intent frame to the working (media-relative) frame.
-    pub(super) fn to_working(&self, lab: IntentLab) -> RelativeLab {
+    pub fn to_working(&self, lab: IntentLab) -> RelativeLab {
         RelativeLab::new(match self.settings.intent {
             Intent::Absolute => self.media.relative_lab_from_absolute(lab.lab()),
             _ => lab.lab(),
