@@ -17,6 +17,7 @@
 //! refused from its header with a message that names the `limits` setting, which the
 //! command line and the job ticket expose (maximum pixels a side, maximum memory).
 
+pub mod bands;
 mod jpeg_scan;
 mod orient;
 mod output;
@@ -26,6 +27,7 @@ mod sniff;
 mod tiff_in;
 mod write;
 
+pub use bands::{BandSource, RasterInfo, RowBand, WholeRaster, open_bands};
 pub use orient::Orientation;
 pub use output::{OutputSet, StageFn, StagedWriter};
 pub use read::{decoder_panic_is_caught, read_raster, read_raster_bytes, read_raster_bytes_with, read_raster_with};

@@ -1,0 +1,205 @@
+//! A picture read as bands of whole rows, top to bottom, so that a job can
+//! separate, check and write it without holding all of it in memory.
+//!
+//! [`open_bands`] is the one entry point. [`WholeRaster`] serves the bands
+//! of a picture already decoded in memory: the reference every streamed
+//! reader must agree with sample for sample, and the reader of the formats
+//! and encodings that cannot be read a band at a time.
+
+use std::path::Path;
+
+use super::png_colour::ColourChunks;
+use super::{Format, Layout, Raster, ReadOptions, Resolution, Samples};
+use crate::error::Result;
+
+/// Everything a [`Raster`] says about a picture except its samples.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RasterInfo {
+    pub width: u32,
+    pub height: u32,
+    pub layout: Layout,
+    /// 8 or 16: the depth of every band's samples.
+    pub bits: u8,
+    /// The embedded ICC profile, byte for byte.
+    pub icc_profile: Option<Vec<u8>>,
+    pub resolution: Option<Resolution>,
+    pub colour_chunks: Option<ColourChunks>,
+    pub format: Format,
+    /// What reading did or found that the summary reports.
+    pub notes: Vec<String>,
+    /// 1-bit line art: separated onto the black plate only.
+    pub line_art: bool,
+}
+
+impl RasterInfo {
+    /// Samples per pixel.
+    pub fn channels(&self) -> usize {
+        self.layout.channels()
+    }
+
+    /// Samples in one row.
+    pub fn row_len(&self) -> usize {
+        self.width as usize * self.channels()
+    }
+
+    /// The largest sample value: 255 or 65535.
+    pub fn max_value(&self) -> u16 {
+        if self.bits == 16 { u16::MAX } else { u8::MAX as u16 }
+    }
+}
+
+/// Consecutive whole rows of a picture, interleaved as [`RasterInfo::layout`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct RowBand {
+    /// The first row's index in the picture.
+    pub y: u32,
+    /// Rows in the band (`samples.len() == rows × row_len`).
+    pub rows: u32,
+    pub samples: Samples,
+}
+
+/// A picture served as bands of rows, in order from the top.
+pub trait BandSource: Send {
+    fn info(&self) -> &RasterInfo;
+
+    /// The next band of at most `max_rows` rows (at least one), or `None`
+    /// after the last row.
+    fn next_band(&mut self, max_rows: u32) -> Result<Option<RowBand>>;
+
+    /// Starts again from the first row, for a second pass over the picture.
+    fn rewind(&mut self) -> Result<()>;
+}
+
+/// A picture decoded whole, served as bands.
+#[derive(Debug, Clone)]
+pub struct WholeRaster {
+    info: RasterInfo,
+    samples: Samples,
+    next_row: u32,
+}
+
+impl WholeRaster {
+    pub fn new(raster: Raster) -> WholeRaster {
+        let (info, samples) = raster.into_parts();
+        WholeRaster {
+            info,
+            samples,
+            next_row: 0,
+        }
+    }
+}
+
+impl BandSource for WholeRaster {
+    fn info(&self) -> &RasterInfo {
+        &self.info
+    }
+
+    fn next_band(&mut self, max_rows: u32) -> Result<Option<RowBand>> {
+        if self.next_row >= self.info.height {
+            return Ok(None);
+        }
+        let y = self.next_row;
+        let rows = max_rows.max(1).min(self.info.height - y);
+        let n = self.info.row_len();
+        let range = y as usize * n..(y + rows) as usize * n;
+        let samples = match &self.samples {
+            Samples::U8(v) => Samples::U8(v[range].to_vec()),
+            Samples::U16(v) => Samples::U16(v[range].to_vec()),
+        };
+        self.next_row = y + rows;
+        Ok(Some(RowBand { y, rows, samples }))
+    }
+
+    fn rewind(&mut self) -> Result<()> {
+        self.next_row = 0;
+        Ok(())
+    }
+}
+
+impl Raster {
+    /// The description and the samples apart.
+    pub fn into_parts(self) -> (RasterInfo, Samples) {
+        let info = RasterInfo {
+            width: self.width,
+            height: self.height,
+            layout: self.layout,
+            bits: self.bits,
+            icc_profile: self.icc_profile,
+            resolution: self.resolution,
+            colour_chunks: self.colour_chunks,
+            format: self.format,
+            notes: self.notes,
+            line_art: self.line_art,
+        };
+        (info, self.samples)
+    }
+
+    /// A raster from its description and samples (the inverse of [`Raster::into_parts`]).
+    pub fn from_parts(info: RasterInfo, samples: Samples) -> Raster {
+        Raster {
+            width: info.width,
+            height: info.height,
+            layout: info.layout,
+            bits: info.bits,
+            samples,
+            icc_profile: info.icc_profile,
+            resolution: info.resolution,
+            colour_chunks: info.colour_chunks,
+            format: info.format,
+            notes: info.notes,
+            line_art: info.line_art,
+        }
+    }
+}
+
+/// Opens `path` as a band source, checked as [`super::read_raster_with`]
+/// checks it (same limits, same errors naming the file).
+pub fn open_bands(path: &Path, options: &ReadOptions) -> Result<Box<dyn BandSource>> {
+    Ok(Box::new(WholeRaster::new(super::read_raster_with(path, options)?)))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn raster(width: u32, height: u32) -> Raster {
+        let samples: Vec<u8> = (0..width * height * 3).map(|i| (i % 251) as u8).collect();
+        Raster {
+            width,
+            height,
+            layout: Layout::Rgb,
+            bits: 8,
+            samples: Samples::U8(samples),
+            icc_profile: None,
+            resolution: None,
+            colour_chunks: None,
+            format: Format::Png,
+            notes: vec![],
+            line_art: false,
+        }
+    }
+
+    #[test]
+    fn bands_cover_the_picture_once_in_order_and_rewind() {
+        let whole = raster(5, 7);
+        let mut source = WholeRaster::new(whole.clone());
+        for _ in 0..2 {
+            let mut joined = Vec::new();
+            let mut next_y = 0;
+            while let Some(band) = source.next_band(3).unwrap() {
+                assert_eq!(band.y, next_y);
+                assert!(band.rows >= 1 && band.rows <= 3);
+                next_y += band.rows;
+                match band.samples {
+                    Samples::U8(v) => joined.extend(v),
+                    Samples::U16(_) => unreachable!(),
+                }
+            }
+            assert_eq!(next_y, 7);
+            assert_eq!(Samples::U8(joined), whole.samples);
+            source.rewind().unwrap();
+        }
+        let (info, samples) = whole.clone().into_parts();
+        assert_eq!(Raster::from_parts(info, samples), whole);
+    }
+}
