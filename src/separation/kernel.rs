@@ -105,6 +105,14 @@ impl PackedNodes {
         )
     }
 
+    /// The packed nodes, in node order: each node's C, M, Y and K as the
+    /// four 32-bit lanes of 16 bytes (little-endian), the layout the vector
+    /// kernel loads.
+    #[inline]
+    pub(crate) fn words(&self) -> &[[u64; 2]] {
+        &self.0
+    }
+
     /// The weighted sum of the nodes at `at` (weights summing to
     /// `WEIGHT_ONE`), rounded to 16 bits per channel.
     #[inline(always)]

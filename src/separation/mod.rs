@@ -14,6 +14,7 @@ mod picture;
 mod printable;
 mod reseparation;
 mod shadows;
+mod simd;
 pub mod solve;
 mod table;
 
@@ -25,4 +26,5 @@ pub use intent::SourceMapping;
 pub use picture::{PictureGamut, RgbCode, distinct_colours};
 pub use printable::IN_GAMUT_TOLERANCE;
 pub use reseparation::{CmykSourceGamut, DEFAULT_RESEPARATION_GRID, RESEPARATION_GRID_RANGE, ReseparationTable};
+pub use simd::PixelKernel;
 pub use table::SeparationTable;

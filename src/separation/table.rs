@@ -14,6 +14,7 @@ use super::intent::SourceMapping;
 use super::kernel::{PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, position, simplex, step_table, steps};
 use super::limits::{InkCaps, narrow_within};
 use super::shadows::smooth_shadows;
+use super::simd::{PixelKernel, rgb8_blocks};
 use crate::colour::EncodedRgb;
 use crate::ink::Cmyk;
 use rayon::prelude::*;
@@ -137,20 +138,42 @@ impl SeparationTable {
 
     /// Separates interleaved 8-bit RGB (`rgb.len() = 3·pixels`) into
     /// interleaved 8-bit CMYK (`cmyk.len() = 4·pixels`), in parallel over rows
-    /// of `row_pixels`.
+    /// of `row_pixels`, with the fastest kernel this processor runs
+    /// ([`PixelKernel::detected`]).
     pub fn apply_rgb8(&self, rgb: &[u8], cmyk: &mut [u8], row_pixels: usize) {
-        self.apply(rgb, cmyk, row_pixels)
+        self.apply_rgb8_with(PixelKernel::detected(), rgb, cmyk, row_pixels)
+    }
+
+    /// [`apply_rgb8`](Self::apply_rgb8) with a chosen kernel: every kernel
+    /// gives the same bytes (the scalar one is the reference); one this
+    /// processor cannot run falls back to the scalar kernel.
+    pub fn apply_rgb8_with(&self, kernel: PixelKernel, rgb: &[u8], cmyk: &mut [u8], row_pixels: usize) {
+        let black = self.pure_black.map(|_| self.caps.black_sample::<u8>());
+        let kernel = if kernel.is_available() { kernel } else { PixelKernel::Scalar };
+        let row_pixels = row_pixels.max(1);
+        let scalar = self.scalar_kernel::<u8>();
+        rgb.par_chunks(3 * row_pixels)
+            .zip(cmyk.par_chunks_mut(4 * row_pixels))
+            .for_each(|(src, dst)| {
+                let done = rgb8_blocks(kernel, &self.packed8, self.grid, black, src, dst);
+                scalar(&src[3 * done..], &mut dst[4 * done..]);
+            });
     }
 
     /// Separates interleaved 16-bit RGB into interleaved 16-bit CMYK.
     pub fn apply_rgb16(&self, rgb: &[u16], cmyk: &mut [u16], row_pixels: usize) {
-        self.apply(rgb, cmyk, row_pixels)
+        let scalar = self.scalar_kernel::<u16>();
+        let row_pixels = row_pixels.max(1);
+        rgb.par_chunks(3 * row_pixels)
+            .zip(cmyk.par_chunks_mut(4 * row_pixels))
+            .for_each(|(src, dst)| scalar(src, dst));
     }
 
-    /// The pixel kernel for either sample type: the same interpolation as
-    /// [`SeparationTable::lookup`] at the pixel's code values (tetrahedral,
-    /// 15-bit weights, 16-bit nodes), rounded to the sample type.
-    fn apply<S: Sample>(&self, rgb: &[S], cmyk: &mut [S], row_pixels: usize) {
+    /// The scalar pixel kernel for either sample type: the same
+    /// interpolation as [`SeparationTable::lookup`] at the pixel's code
+    /// values (tetrahedral, 15-bit weights, 16-bit nodes), rounded to the
+    /// sample type, pixel by pixel over a run of interleaved pixels.
+    fn scalar_kernel<S: Sample>(&self) -> impl Fn(&[S], &mut [S]) + Sync + '_ {
         let n = self.grid as u32;
         let strides = [n * n, n, 1];
         let table = step_table::<S, 3>(self.grid, strides);
@@ -159,29 +182,27 @@ impl SeparationTable {
         // 8-bit pixels come from nodes that rounding cannot take over the
         // limits; 16-bit pixels are not rounded.
         let packed = if S::MAX == 255 { &self.packed8 } else { &self.packed };
-        let row_pixels = row_pixels.max(1);
-        rgb.par_chunks(3 * row_pixels)
-            .zip(cmyk.par_chunks_mut(4 * row_pixels))
-            .for_each(|(src, dst)| {
-                for (px, out) in src.chunks_exact(3).zip(dst.chunks_exact_mut(4)) {
-                    if let Some(k) = black
-                        && px[0].code() | px[1].code() | px[2].code() == 0
-                    {
-                        out.copy_from_slice(&[zero, zero, zero, k]);
-                        continue;
-                    }
-                    let v = simplex::<3, 4>(packed, steps(&table, px, self.grid, strides));
-                    for ch in 0..4 {
-                        out[ch] = S::from_16(v[ch]);
-                    }
+        move |src: &[S], dst: &mut [S]| {
+            for (px, out) in src.chunks_exact(3).zip(dst.chunks_exact_mut(4)) {
+                if let Some(k) = black
+                    && px[0].code() | px[1].code() | px[2].code() == 0
+                {
+                    out.copy_from_slice(&[zero, zero, zero, k]);
+                    continue;
                 }
-            });
+                let v = simplex::<3, 4>(packed, steps(&table, px, self.grid, strides));
+                for ch in 0..4 {
+                    out[ch] = S::from_16(v[ch]);
+                }
+            }
+        }
     }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::separation::SeparationSettings;
     use crate::separation::kernel::splitmix;
 
     /// The packed, branch-free kernel gives exactly what the plain
@@ -225,6 +246,181 @@ mod tests {
                 let want: Vec<u16> = v.iter().map(|&v| v as u16).collect();
                 assert_eq!(out, &want[..], "grid {grid}, pixel {px:?}");
             }
+        }
+    }
+
+    /// A table of random 16-bit nodes (both node sets), for kernel checks.
+    fn random_table(grid: usize, pure_black: Option<u16>, state: &mut u64) -> SeparationTable {
+        let nodes: Vec<[u16; 4]> = (0..grid.pow(3)).map(|_| std::array::from_fn(|_| splitmix(state) as u16)).collect();
+        SeparationTable {
+            grid,
+            packed: PackedNodes::new(&nodes),
+            packed8: PackedNodes::new(&nodes),
+            nodes,
+            pure_black,
+            caps: InkCaps::new(4.0, 1.0),
+        }
+    }
+
+    /// Pixels that probe every way the kernels can differ: every code on
+    /// each axis with random others, ties between two and three channels
+    /// (equal codes, and codes one apart), the cube's corners and codes next
+    /// to them, its faces, and pure black.
+    fn probe_pixels(state: &mut u64) -> Vec<u8> {
+        let mut rnd = || splitmix(state) as u8;
+        let mut px: Vec<[u8; 3]> = Vec::new();
+        for c in 0..=255u8 {
+            for _ in 0..3 {
+                px.extend([[c, rnd(), rnd()], [rnd(), c, rnd()], [rnd(), rnd(), c]]);
+            }
+            let (x, up, down) = (rnd(), c.saturating_add(1), c.saturating_sub(1));
+            px.extend([
+                [c, c, x],
+                [x, c, c],
+                [c, x, c],
+                [c, c, c],
+                [c, up, down],
+                [down, c, up],
+                [up, down, c],
+            ]);
+            px.extend([[c, c, up], [up, c, c], [c, up, c], [c, c, down], [down, c, c], [c, down, c]]);
+            for end in [0, 255] {
+                px.extend([
+                    [end, c, rnd()],
+                    [rnd(), end, c],
+                    [c, rnd(), end],
+                    [end, end, c],
+                    [c, end, end],
+                    [end, c, end],
+                ]);
+            }
+        }
+        let ends = [0u8, 1, 2, 127, 128, 253, 254, 255];
+        for r in ends {
+            for g in ends {
+                for b in ends {
+                    px.push([r, g, b]);
+                }
+            }
+        }
+        px.into_iter().flatten().collect()
+    }
+
+    fn separate_both(table: &SeparationTable, rgb: &[u8], row_pixels: usize) -> (Vec<u8>, Vec<u8>) {
+        let mut scalar = vec![0u8; rgb.len() / 3 * 4];
+        let mut vector = vec![0xA5u8; rgb.len() / 3 * 4];
+        table.apply_rgb8_with(PixelKernel::Scalar, rgb, &mut scalar, row_pixels);
+        table.apply_rgb8_with(PixelKernel::Avx2, rgb, &mut vector, row_pixels);
+        (scalar, vector)
+    }
+
+    fn assert_same(scalar: &[u8], vector: &[u8], rgb: &[u8], what: &str) {
+        for (i, (s, v)) in scalar.chunks_exact(4).zip(vector.chunks_exact(4)).enumerate() {
+            assert_eq!(s, v, "{what}: pixel {i}, RGB {:?}", &rgb[3 * i..3 * i + 3]);
+        }
+    }
+
+    fn vector_kernel_runs() -> bool {
+        let runs = PixelKernel::Avx2.is_available();
+        if !runs {
+            eprintln!("this processor has no AVX2: only the scalar kernel is checked");
+        }
+        runs
+    }
+
+    /// The AVX2 kernel writes exactly the scalar kernel's bytes for every
+    /// grid from 2 to 66 and the largest the settings allow (127–129),
+    /// every code on each axis, ties, corners and faces, with and without
+    /// the pure-black rule. The scalar kernel is itself checked against the
+    /// plain tetrahedral interpolation of Kasson et al. (1995) above.
+    #[test]
+    fn vector_kernel_is_the_scalar_kernel_on_every_code_and_grid() {
+        let runs = vector_kernel_runs();
+        let mut state = 11u64;
+        for grid in (2..=66).chain(127..=129) {
+            let black = (grid % 2 == 0).then_some(65535);
+            let table = random_table(grid, black, &mut state);
+            let rgb = probe_pixels(&mut state);
+            let (scalar, vector) = separate_both(&table, &rgb, rgb.len() / 3);
+            assert_same(&scalar, &vector, &rgb, &format!("grid {grid}"));
+            if runs && black.is_some() {
+                assert_eq!(
+                    &vector[vector.len() - 4 * 512..][..4],
+                    &[0, 0, 0, 255],
+                    "pure black at the maximum black"
+                );
+            }
+        }
+    }
+
+    /// Odd row lengths (a row of one pixel, rows shorter than a block, rows
+    /// with a tail of 1 to 7 pixels) and buffers that start at any byte
+    /// offset give the scalar kernel's bytes.
+    #[test]
+    fn vector_kernel_handles_tails_and_unaligned_buffers() {
+        vector_kernel_runs();
+        let mut state = 12u64;
+        let table = random_table(33, Some(60000), &mut state);
+        let probe = probe_pixels(&mut state);
+        for row_pixels in [1usize, 3, 7, 8, 9, 15, 16, 17, 31, 100, 1001] {
+            for offset in 0..4 {
+                let pixels = 2 * row_pixels + 5;
+                let mut backing = vec![0u8; offset + 3 * pixels];
+                let start = (row_pixels * 97 + offset * 31) % (probe.len() - 3 * pixels);
+                backing[offset..].copy_from_slice(&probe[start - start % 3..][..3 * pixels]);
+                let rgb = &backing[offset..];
+                let mut scalar = vec![0u8; 4 * pixels];
+                table.apply_rgb8_with(PixelKernel::Scalar, rgb, &mut scalar, row_pixels);
+                let mut out = vec![0x5Au8; offset + 4 * pixels + 3];
+                table.apply_rgb8_with(PixelKernel::Avx2, rgb, &mut out[offset..offset + 4 * pixels], row_pixels);
+                assert_same(
+                    &scalar,
+                    &out[offset..offset + 4 * pixels],
+                    rgb,
+                    &format!("rows of {row_pixels}, offset {offset}"),
+                );
+                assert!(
+                    out[..offset].iter().chain(&out[offset + 4 * pixels..]).all(|&b| b == 0x5A),
+                    "nothing written outside"
+                );
+            }
+        }
+    }
+
+    /// Real tables (three built-in conditions, both intents, pure black
+    /// kept or not, grids 17 and 33: the 8-bit nodes quantised under the ink
+    /// limit) give the scalar kernel's bytes on every code of each axis and
+    /// on a random image; and `apply_rgb8` is the detected kernel.
+    #[test]
+    fn vector_kernel_is_the_scalar_kernel_on_real_tables() {
+        use crate::colour::RgbSpace;
+        use crate::press::builtin;
+        use crate::separation::{Intent, RgbGamut};
+        vector_kernel_runs();
+        let mut state = 13u64;
+        let cases = [
+            (builtin::coated_offset(), Intent::Perceptual, true, 17),
+            (builtin::uncoated_offset(), Intent::Relative, false, 33),
+            (builtin::newsprint(), Intent::Relative, true, 17),
+        ];
+        for (condition, intent, keep_pure_black, grid) in cases {
+            let name = condition.name.clone();
+            let mut settings = SeparationSettings::for_condition(&condition);
+            settings.intent = intent;
+            settings.keep_pure_black = keep_pure_black;
+            settings.table_grid = grid;
+            let sep = Separator::new(condition, settings).expect("built-in settings are valid");
+            let conv = RgbSpace::Srgb.converter();
+            let gamut = RgbGamut(conv);
+            let mapping = sep.source_mapping(&gamut);
+            let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
+            let mut rgb = probe_pixels(&mut state);
+            rgb.extend((0..3 * 20_000).map(|_| splitmix(&mut state) as u8));
+            let (scalar, vector) = separate_both(&table, &rgb, 640);
+            assert_same(&scalar, &vector, &rgb, &format!("{name}, {intent:?}, grid {grid}"));
+            let mut detected = vec![0u8; scalar.len()];
+            table.apply_rgb8(&rgb, &mut detected, 640);
+            assert_same(&scalar, &detected, &rgb, &format!("{name}, detected kernel"));
         }
     }
 }
