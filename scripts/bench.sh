@@ -162,6 +162,28 @@ for bits in ("rgb8", "rgb16"):
             target, check = "≥ 100 Mpixel/s per core", (lambda v: v >= 100.0)
         label = f"apply table, {bits[3:]}-bit, {threads.replace('_', ' ')}, 4 Mpixel"
         row(label, read("table_apply", bits, threads), "rate", target, check, "Mpixel/s")
+row("apply table, 8-bit, 1 thread, 4 Mpixel, scalar reference kernel", read("table_apply", "rgb8_scalar", "1_thread"),
+    "rate", "", None, "Mpixel/s")
+row("apply table, 8-bit, 1 thread, photo-like 12.5 Mpixel", read("table_apply", "photo_rgb8", "1_thread"),
+    "rate", "≥ 150 Mpixel/s per core (issue 21)", lambda v: v >= 150.0, "Mpixel/s")
+row("apply table, 8-bit, 1 thread, photo-like 12.5 Mpixel, scalar reference kernel",
+    read("table_apply", "photo_rgb8_scalar", "1_thread"), "rate", "", None, "Mpixel/s")
+for label, fast, slow in (("4 Mpixel random", "rgb8", "rgb8_scalar"), ("photo-like", "photo_rgb8", "photo_rgb8_scalar")):
+    quick, reference = read("table_apply", fast, "1_thread"), read("table_apply", slow, "1_thread")
+    if quick and reference:
+        rows.append(f"| 8-bit kernel over the scalar reference, 1 thread, {label}, same run | {reference[0] / quick[0]:.2f} × | | |")
+try:
+    on_cpu = json.load(open(os.path.join(crit, "table_apply", "on_cpu.json")))
+except FileNotFoundError:
+    on_cpu = {}
+for label, key in (("4 Mpixel random", "random"), ("photo-like 12.5 Mpixel", "photo")):
+    if key in on_cpu:
+        f = on_cpu[key]
+        fast, slow = f["pixels"] / f["kernel_ns"] * 1e3, f["pixels"] / f["scalar_ns"] * 1e3
+        verdict = ("met" if fast >= 150.0 else "**missed**") if key == "photo" else ""
+        rows.append(f"| apply table, 8-bit, 1 thread, {label}, on-CPU time, best of 5: {f['kernel']} kernel / scalar | "
+                    f"{fast:.1f} / {slow:.1f} Mpixel/s ({fast / slow:.2f} ×) | "
+                    f"{'≥ 150 Mpixel/s per core (issue 21)' if key == 'photo' else ''} | {verdict} |")
 one = read("table_apply", "rgb8", "1_thread")
 many = read("table_apply", "rgb8", f"{cores}_threads")
 if one and many:
