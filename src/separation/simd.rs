@@ -115,7 +115,7 @@ mod avx2 {
     /// what keeps every vertex inside the table.
     #[target_feature(enable = "avx2")]
     #[inline]
-    fn position(code: __m256i, n_minus_1: __m256i, n_minus_2: __m256i) -> (__m256i, __m256i) {
+    pub(super) fn position(code: __m256i, n_minus_1: __m256i, n_minus_2: __m256i) -> (__m256i, __m256i) {
         let div255 = _mm256_set1_epi32(0x8081);
         let scaled = _mm256_mullo_epi16(code, n_minus_1);
         let index = _mm256_srli_epi32::<7>(_mm256_mulhi_epu16(scaled, div255));
@@ -268,5 +268,46 @@ mod avx2 {
             unsafe { _mm256_storeu_si256(cmyk.as_mut_ptr().add(32 * block).cast(), bytes) };
         }
         8 * blocks
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::kernel::position;
+
+    /// The lane arithmetic of grid positions is the scalar `position` for
+    /// every 8-bit code and every grid the vector kernel takes.
+    #[test]
+    #[cfg(target_arch = "x86_64")]
+    fn lane_positions_are_the_scalar_positions() {
+        use std::arch::x86_64::*;
+        if !std::arch::is_x86_feature_detected!("avx2") {
+            eprintln!("this processor has no AVX2: nothing to check");
+            return;
+        }
+        #[target_feature(enable = "avx2")]
+        fn lanes(codes: [i32; 8], grid: u32) -> ([u32; 8], [u32; 8]) {
+            let (n1, n2) = (_mm256_set1_epi32(grid as i32 - 1), _mm256_set1_epi32(grid as i32 - 2));
+            let c = _mm256_setr_epi32(codes[0], codes[1], codes[2], codes[3], codes[4], codes[5], codes[6], codes[7]);
+            let (index, fraction) = super::avx2::position(c, n1, n2);
+            let (mut i, mut f) = ([0u32; 8], [0u32; 8]);
+            // SAFETY: each array is 32 writable bytes; the stores are unaligned.
+            unsafe {
+                _mm256_storeu_si256(i.as_mut_ptr().cast(), index);
+                _mm256_storeu_si256(f.as_mut_ptr().cast(), fraction);
+            }
+            (i, f)
+        }
+        for grid in super::GRIDS {
+            for first in (0..256).step_by(8) {
+                let codes: [i32; 8] = std::array::from_fn(|k| first + k as i32);
+                // SAFETY: AVX2 is available (checked above).
+                let (index, fraction) = unsafe { lanes(codes, grid as u32) };
+                for k in 0..8 {
+                    let p = position(codes[k] as u32, 255, grid);
+                    assert_eq!((index[k], fraction[k]), (p.index, p.fraction), "grid {grid}, code {}", codes[k]);
+                }
+            }
+        }
     }
 }
