@@ -273,13 +273,12 @@ mod avx2 {
 
 #[cfg(test)]
 mod tests {
-    use super::super::kernel::position;
-
     /// The lane arithmetic of grid positions is the scalar `position` for
     /// every 8-bit code and every grid the vector kernel takes.
     #[test]
     #[cfg(target_arch = "x86_64")]
     fn lane_positions_are_the_scalar_positions() {
+        use super::super::kernel::position;
         use std::arch::x86_64::*;
         if !std::arch::is_x86_feature_detected!("avx2") {
             eprintln!("this processor has no AVX2: nothing to check");

@@ -7,6 +7,10 @@
 //! Tetrahedral interpolation is a convex combination of four nodes, so every
 //! interpolated value keeps the linear constraints each node meets: the ink
 //! limit and the maximum black hold exactly between nodes as well.
+//!
+//! Pixels go through the fixed-point kernels of `kernel` (the reference);
+//! 8-bit RGB goes eight pixels at a time through the AVX2 kernel of `simd`
+//! where the processor has it, which writes the same bytes.
 
 use super::engine::Separator;
 use super::frame::IntentLab;
