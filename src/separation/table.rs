@@ -78,6 +78,44 @@ impl SeparationTable {
         }
     }
 
+    /// The nodes as bytes, for the table cache: the grid (u32 LE), then
+    /// the 16-bit nodes and the nodes for 8-bit output, CMYK u16 LE each.
+    /// [`SeparationTable::from_bytes`] reads them back.
+    pub fn to_bytes(&self) -> Vec<u8> {
+        let mut out = Vec::with_capacity(4 + 16 * self.nodes.len());
+        out.extend((self.grid as u32).to_le_bytes());
+        for node in self.nodes.iter().copied().chain(self.packed8.unpacked()) {
+            out.extend(node.iter().flat_map(|v| v.to_le_bytes()));
+        }
+        out
+    }
+
+    /// The table [`SeparationTable::to_bytes`] wrote for `separator`, whose
+    /// settings give the ink caps and the pure black; `None` when the bytes
+    /// do not hold a table of the separator's grid.
+    pub fn from_bytes(separator: &Separator, bytes: &[u8]) -> Option<SeparationTable> {
+        let n = separator.settings().table_grid;
+        let (grid, rest) = bytes.split_first_chunk::<4>()?;
+        if u32::from_le_bytes(*grid) as usize != n || rest.len() != 16 * n * n * n {
+            return None;
+        }
+        let node = |b: &[u8]| -> [u16; 4] { std::array::from_fn(|i| u16::from_le_bytes([b[2 * i], b[2 * i + 1]])) };
+        let (nodes, nodes8): (Vec<[u16; 4]>, Vec<[u16; 4]>) = {
+            let all: Vec<[u16; 4]> = rest.chunks_exact(8).map(node).collect();
+            let (a, b) = all.split_at(n * n * n);
+            (a.to_vec(), b.to_vec())
+        };
+        let caps = InkCaps::of(separator.settings());
+        Some(SeparationTable {
+            grid: n,
+            packed: PackedNodes::new(&nodes),
+            packed8: PackedNodes::new(&nodes8),
+            nodes,
+            caps,
+            pure_black: separator.settings().keep_pure_black.then_some(caps.black16()),
+        })
+    }
+
     /// 16-bit CMYK that this table wrote ([`apply_rgb16`](Self::apply_rgb16))
     /// rounded to 8 bits, holding the ink limit and maximum black to the
     /// code as [`apply_rgb8`](Self::apply_rgb8) does.
