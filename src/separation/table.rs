@@ -66,10 +66,16 @@ impl SeparationTable {
         if separator.smooths_shadows_in_ink() {
             smooth_shadows(&mut inks, &lightness, n, 3, separator.black_point().0.lab().l);
         }
+        let (nodes, nodes8) = InkCaps::of(separator.settings()).quantize_nodes(inks);
+        SeparationTable::from_nodes(separator, nodes, nodes8)
+    }
+
+    /// The table of `separator` with these 16-bit nodes and nodes for 8-bit
+    /// output; its settings give the ink caps and the pure black.
+    fn from_nodes(separator: &Separator, nodes: Vec<[u16; 4]>, nodes8: Vec<[u16; 4]>) -> SeparationTable {
         let caps = InkCaps::of(separator.settings());
-        let (nodes, nodes8) = caps.quantize_nodes(inks);
         SeparationTable {
-            grid: n,
+            grid: separator.settings().table_grid,
             packed: PackedNodes::new(&nodes),
             packed8: PackedNodes::new(&nodes8),
             nodes,
@@ -100,20 +106,9 @@ impl SeparationTable {
             return None;
         }
         let node = |b: &[u8]| -> [u16; 4] { std::array::from_fn(|i| u16::from_le_bytes([b[2 * i], b[2 * i + 1]])) };
-        let (nodes, nodes8): (Vec<[u16; 4]>, Vec<[u16; 4]>) = {
-            let all: Vec<[u16; 4]> = rest.chunks_exact(8).map(node).collect();
-            let (a, b) = all.split_at(n * n * n);
-            (a.to_vec(), b.to_vec())
-        };
-        let caps = InkCaps::of(separator.settings());
-        Some(SeparationTable {
-            grid: n,
-            packed: PackedNodes::new(&nodes),
-            packed8: PackedNodes::new(&nodes8),
-            nodes,
-            caps,
-            pure_black: separator.settings().keep_pure_black.then_some(caps.black16()),
-        })
+        let mut nodes: Vec<[u16; 4]> = rest.chunks_exact(8).map(node).collect();
+        let nodes8 = nodes.split_off(n * n * n);
+        Some(SeparationTable::from_nodes(separator, nodes, nodes8))
     }
 
     /// 16-bit CMYK that this table wrote ([`apply_rgb16`](Self::apply_rgb16))

@@ -30,6 +30,15 @@ fn scene_png(path: &Path) {
     std::fs::write(path, out).unwrap();
 }
 
+/// A temporary folder with the scene as `coast.png` and the path of a cache folder in it (not made).
+fn workspace() -> (tempfile::TempDir, PathBuf, PathBuf) {
+    let dir = tempfile::tempdir().unwrap();
+    let input = dir.path().join("coast.png");
+    scene_png(&input);
+    let cache = dir.path().join("cache");
+    (dir, input, cache)
+}
+
 struct Run {
     files: Vec<(String, Vec<u8>)>,
     summary: serde_json::Value,
@@ -96,10 +105,8 @@ fn entries(cache: &Path, prefix: &str) -> Vec<PathBuf> {
 
 #[test]
 fn a_cache_hit_writes_the_same_files_as_a_miss_and_as_no_cache() {
-    let dir = tempfile::tempdir().unwrap();
-    let input = dir.path().join("coast.png");
-    scene_png(&input);
-    let (cache, unused) = (dir.path().join("cache"), dir.path().join("unused"));
+    let (dir, input, cache) = workspace();
+    let unused = dir.path().join("unused");
     let plain = separate(&unused, &input, &dir.path().join("plain"), &["--no-cache"]);
     assert!(!unused.exists(), "--no-cache wrote into the cache folder");
     let cold = separate(&cache, &input, &dir.path().join("cold"), &[]);
@@ -123,10 +130,7 @@ fn a_cache_hit_writes_the_same_files_as_a_miss_and_as_no_cache() {
 
 #[test]
 fn a_damaged_entry_is_rebuilt_with_a_note() {
-    let dir = tempfile::tempdir().unwrap();
-    let input = dir.path().join("coast.png");
-    scene_png(&input);
-    let cache = dir.path().join("cache");
+    let (dir, input, cache) = workspace();
     let first = separate(&cache, &input, &dir.path().join("first"), &[]);
     let entry = entries(&cache, "table-").pop().unwrap();
     let good = std::fs::read(&entry).unwrap();
@@ -158,10 +162,7 @@ fn a_damaged_entry_is_rebuilt_with_a_note() {
 
 #[test]
 fn several_processes_fill_one_cache_folder_at_once() {
-    let dir = tempfile::tempdir().unwrap();
-    let input = dir.path().join("coast.png");
-    scene_png(&input);
-    let cache = dir.path().join("cache");
+    let (dir, input, cache) = workspace();
     // Two settings, each run by two processes at the same time.
     let settings: [&[&str]; 4] = [&[], &["--tac", "280"], &[], &["--tac", "280"]];
     let children: Vec<_> = settings
@@ -196,10 +197,7 @@ fn several_processes_fill_one_cache_folder_at_once() {
 
 #[test]
 fn the_size_limit_evicts_the_least_recently_used_entries() {
-    let dir = tempfile::tempdir().unwrap();
-    let input = dir.path().join("coast.png");
-    scene_png(&input);
-    let cache = dir.path().join("cache");
+    let (dir, input, cache) = workspace();
     // 2 MiB holds one small table and its profile (about 1.2 MB), not two:
     // each run evicts the oldest entries of the runs before it.
     for tac in ["300", "290", "280"] {
@@ -226,10 +224,7 @@ fn the_size_limit_evicts_the_least_recently_used_entries() {
 
 #[test]
 fn a_changed_setting_misses_and_the_same_settings_hit() {
-    let dir = tempfile::tempdir().unwrap();
-    let input = dir.path().join("coast.png");
-    scene_png(&input);
-    let cache = dir.path().join("cache");
+    let (dir, input, cache) = workspace();
     separate(&cache, &input, &dir.path().join("base"), &[]);
     for extra in [
         &["--gcr", "40"][..],
@@ -247,9 +242,7 @@ fn a_changed_setting_misses_and_the_same_settings_hit() {
 
 #[test]
 fn an_unwritable_cache_folder_never_fails_a_job() {
-    let dir = tempfile::tempdir().unwrap();
-    let input = dir.path().join("coast.png");
-    scene_png(&input);
+    let (dir, input, _) = workspace();
     // A file where the folder should be: it can be neither read as a folder nor made.
     let blocked = dir.path().join("blocked");
     std::fs::write(&blocked, b"not a folder").unwrap();
