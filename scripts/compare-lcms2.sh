@@ -4,8 +4,17 @@
 # records the figures, the machine and the peak memory (/usr/bin/time -v)
 # into docs/PERFORMANCE.md between the lcms2 markers.
 #
-#   scripts/compare-lcms2.sh             export the profile with `platesmith profile`, compare, record
-#   scripts/compare-lcms2.sh --stand-in  use a stand-in profile built by the example (not for the record)
+#   scripts/compare-lcms2.sh               the kernel comparison, then the end-to-end one; record both
+#   scripts/compare-lcms2.sh --stand-in    kernel: a stand-in profile built by the example (not for the record)
+#   scripts/compare-lcms2.sh --end-to-end  the end-to-end comparison only
+#
+# The end-to-end comparison (scripts/compare_end_to_end.py) times whole
+# processes on a 48-megapixel 8-bit RGB uncompressed TIFF made here from the
+# demo picture: `platesmith separate --plates none` with the default settings
+# against Little CMS 2 through Pillow (decode, sRGB → the exported profile,
+# encode an uncompressed TIFF), alternating, with an empty table cache (cold)
+# and a filled one (warm), and records it between the lcms2-end-to-end
+# markers. REPEATS (default 5) sets the repetitions of each.
 #
 # Extra arguments after the first are passed to `platesmith profile` (model
 # options); the example's own table uses the default settings, so pass none
@@ -20,17 +29,27 @@ trap 'rm -rf "$tmp"' EXIT
 target="${CARGO_TARGET_DIR:-target}"
 
 stand_in=0
+end_to_end_only=0
 if [[ "${1:-}" == "--stand-in" ]]; then
     stand_in=1
+    shift
+elif [[ "${1:-}" == "--end-to-end" ]]; then
+    end_to_end_only=1
     shift
 fi
 
 load_before="$(cut -d' ' -f1-3 /proc/loadavg)"
 echo "load average before: $load_before"
 cargo build --release --quiet
-cargo build --release --quiet --example compare_lcms2
 bin="$target/release/platesmith"
 example="$target/release/examples/compare_lcms2"
+
+if [[ $end_to_end_only -eq 1 ]]; then
+    "$bin" profile --out "$tmp/press.icc"
+    python3 scripts/compare_end_to_end.py "$bin" "$tmp/press.icc" "$tmp" "$doc" "${REPEATS:-5}"
+    exit 0
+fi
+cargo build --release --quiet --example compare_lcms2
 
 profile_args=()
 if [[ $stand_in -eq 0 ]]; then
@@ -96,3 +115,9 @@ record_block(doc, "lcms2", [
     *rows,
 ])
 PY
+
+# End to end, with the profile of the default settings (whatever the kernel run was given).
+if [[ $stand_in -eq 0 ]]; then
+    "$bin" profile --out "$tmp/press-default.icc"
+    python3 scripts/compare_end_to_end.py "$bin" "$tmp/press-default.icc" "$tmp" "$doc" "${REPEATS:-5}"
+fi

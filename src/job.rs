@@ -1,6 +1,7 @@
 //! One separation job: an image in, a composite CMYK TIFF, one plate per ink
 //! and a JSON summary out, written as a set (all files or none).
 
+use crate::cache::{Origin, TableCache};
 use crate::colour::{EncodedRgb, RgbSpace};
 use crate::error::{Error, Result};
 use crate::ink::Ink;
@@ -13,7 +14,6 @@ use crate::source::RgbSource;
 use rayon::prelude::*;
 use serde::Serialize;
 use std::borrow::Cow;
-use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::sync::{Arc, Mutex};
 use std::time::Instant;
@@ -213,6 +213,13 @@ pub struct Timings {
     pub separate_ms: f64,
     pub write_ms: f64,
     pub total_ms: f64,
+    /// Where the separation table came from: built, cached (the cache
+    /// folder) or reused (an earlier file of this run); absent when the
+    /// file needed none (gray on the black plate only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub table_source: Option<Origin>,
+    /// Where the embedded profile came from: built or cached.
+    pub profile_source: Origin,
 }
 
 /// The summary written beside the plates.
@@ -254,6 +261,8 @@ pub struct SeparatedFile {
     pub read_ms: f64,
     pub table_ms: f64,
     pub separate_ms: f64,
+    /// Where the separation table came from (`None` when there was none).
+    pub table_source: Option<Origin>,
 }
 
 /// Where [`Workshop::write_outputs_in`] writes, and how the summary names things.
@@ -271,10 +280,13 @@ pub struct Workshop {
     pub separator: Separator,
     pub settings_report: SettingsReport,
     pub options: JobOptions,
-    tables: Mutex<HashMap<Vec<u8>, Arc<SeparationTable>>>,
+    /// Separation tables and the embedded profile: in memory for the run, and in the cache folder unless it is off.
+    cache: TableCache,
     cmyk_table: std::sync::OnceLock<Result<Arc<crate::separation::ReseparationTable>>>,
-    /// The output ICC profile embedded in the composites, built once per run.
-    profile: std::sync::OnceLock<std::result::Result<Vec<u8>, String>>,
+    /// The output ICC profile embedded in the composites, made once per run,
+    /// where it came from, and the notes of the cache about it (for the first summary).
+    profile: std::sync::OnceLock<std::result::Result<(Vec<u8>, Origin), String>>,
+    profile_notes: Mutex<Vec<String>>,
 }
 
 fn ms(t: Instant) -> f64 {
@@ -287,15 +299,27 @@ impl Workshop {
             separator,
             settings_report,
             options,
-            tables: Mutex::new(HashMap::new()),
+            cache: TableCache::memory_only(),
             cmyk_table: std::sync::OnceLock::new(),
             profile: std::sync::OnceLock::new(),
+            profile_notes: Mutex::new(Vec::new()),
         }
+    }
+
+    /// The workshop with tables and the embedded profile kept in `cache`
+    /// (a new workshop keeps them in memory only).
+    pub fn with_cache(self, cache: TableCache) -> Workshop {
+        Workshop { cache, ..self }
     }
 
     /// The ICC output profile of this run's condition and settings (v4, default
     /// tables), built on first use and embedded in every composite.
     pub fn output_profile(&self) -> Result<&[u8]> {
+        self.output_profile_from().map(|(p, _)| p)
+    }
+
+    /// [`Workshop::output_profile`] and where it came from.
+    fn output_profile_from(&self) -> Result<(&[u8], Origin)> {
         self.profile
             .get_or_init(|| {
                 let options = crate::icc::ProfileOptions {
@@ -303,9 +327,19 @@ impl Workshop {
                     float_tables: false,
                     ..crate::icc::ProfileOptions::default()
                 };
-                crate::icc::profile_for_separator(&self.separator, &options).map_err(|e| e.to_string())
+                let fetched = self
+                    .cache
+                    .profile(&self.separator, &options, || {
+                        crate::icc::profile_for_separator(&self.separator, &options)
+                    })
+                    .map_err(|e| e.to_string())?;
+                if let Ok(mut n) = self.profile_notes.lock() {
+                    n.extend(fetched.notes);
+                }
+                Ok((fetched.value, fetched.origin))
             })
-            .as_deref()
+            .as_ref()
+            .map(|(p, origin)| (p.as_slice(), *origin))
             .map_err(|e| Error::Internal(format!("the output profile could not be built: {e}")))
     }
 
@@ -318,16 +352,23 @@ impl Workshop {
         }
     }
 
-    /// The table for a source, built once per run.
-    fn table(&self, key: &[u8], source: &RgbSource) -> Arc<SeparationTable> {
-        if let Some(t) = self.tables.lock().ok().and_then(|m| m.get(key).cloned()) {
-            return t;
+    /// The table for a source (`source_key` names it), from the picture's
+    /// own gamut when `picture` is given: from memory, the cache folder, or
+    /// built. The picture's mapping is measured every time; it keys the table.
+    fn table(&self, source_key: &[u8], source: &RgbSource, picture: Option<&Samples>) -> crate::cache::Fetched<Arc<SeparationTable>> {
+        let sep = &self.separator;
+        match picture {
+            Some(rgb) => {
+                let picture = picture_gamut(source, rgb);
+                let mapping = sep.picture_mapping(&picture);
+                let key = self.cache.table_key(sep, source_key, mapping.picture_reach());
+                self.cache.table(sep, key, || table_with(sep, source, &mapping))
+            }
+            None => {
+                let key = self.cache.table_key(sep, source_key, None);
+                self.cache.table(sep, key, || table_for_source(sep, source))
+            }
         }
-        let table = Arc::new(table_for_source(&self.separator, source));
-        if let Ok(mut m) = self.tables.lock() {
-            m.insert(key.to_vec(), table.clone());
-        }
-        table
     }
 
     /// The RGB source of a file and how the summary names it: its embedded
@@ -419,6 +460,7 @@ impl Workshop {
         let mut rgb_source = None;
         let mut compressed_from = None;
         let mut source_description = None;
+        let mut table_source = None;
         let (image, table_ms, separate_ms) = match to_rgb(&raster, &mut notes) {
             Some(_) if gray && black_only => {
                 let (_, source, described) = self.source_of(&raster, path, &mut notes)?;
@@ -436,13 +478,16 @@ impl Workshop {
                 let (key, source, described) = self.source_of(&raster, path, &mut notes)?;
                 source_description = Some(described);
                 let settings = self.separator.settings();
-                let table = if settings.intent == Intent::Perceptual && settings.compress_from == CompressFrom::Picture {
-                    compressed_from = Some(CompressFrom::Picture);
-                    Arc::new(table_for_picture(&self.separator, &source, &rgb))
+                let from_picture = settings.intent == Intent::Perceptual && settings.compress_from == CompressFrom::Picture;
+                compressed_from = (settings.intent == Intent::Perceptual).then_some(if from_picture {
+                    CompressFrom::Picture
                 } else {
-                    compressed_from = (settings.intent == Intent::Perceptual).then_some(CompressFrom::Space);
-                    self.table(&key, &source)
-                };
+                    CompressFrom::Space
+                });
+                let fetched = self.table(&key, &source, from_picture.then_some(rgb.as_ref()));
+                notes.extend(fetched.notes);
+                table_source = Some(fetched.origin);
+                let table = fetched.value;
                 let table_ms = ms(t);
                 let t2 = Instant::now();
                 let cmyk = self.apply(&table, &rgb, raster.width as usize);
@@ -525,6 +570,7 @@ impl Workshop {
             read_ms,
             table_ms,
             separate_ms,
+            table_source,
         })
     }
 
@@ -559,7 +605,9 @@ impl Workshop {
         let stem = output_stem(path).to_string();
         let mut out = OutputSet::new(place.dir, self.options.overwrite)?;
         out.protect([path]);
-        let icc = self.output_profile()?;
+        let (icc, profile_source) = self.output_profile_from()?;
+        let mut notes = separated.notes.clone();
+        notes.extend(self.profile_notes.lock().map(|mut n| std::mem::take(&mut *n)).unwrap_or_default());
         let tiff = TiffOptions {
             compression: self.options.compression,
             resolution: raster.resolution,
@@ -599,7 +647,7 @@ impl Workshop {
             resolution_ppi: [round_to(res.x_ppi, 2), round_to(res.y_ppi, 2)],
             input: format!("{} {:?} {}-bit", raster.format.name(), raster.layout, raster.bits),
             source: separated.source_description.clone(),
-            notes: separated.notes.clone(),
+            notes,
             settings: self.settings_of(separated),
             bits: self.options.bits,
             plates: Ink::ALL
@@ -623,6 +671,8 @@ impl Workshop {
                 separate_ms: separated.separate_ms,
                 write_ms: 0.0,
                 total_ms: 0.0,
+                table_source: separated.table_source,
+                profile_source,
             },
             note: crate::report::PREDICTION_NOTE,
         };
@@ -723,12 +773,16 @@ fn table_with(separator: &Separator, source: &RgbSource, mapping: &crate::separa
 /// region depend on the picture; everything else (the press boundary, the
 /// node colours) does not.
 pub fn table_for_picture(separator: &Separator, source: &RgbSource, rgb: &Samples) -> SeparationTable {
+    table_with(separator, source, &separator.picture_mapping(&picture_gamut(source, rgb)))
+}
+
+/// The gamut of a picture's own colours (`rgb`: its interleaved RGB samples) in `source`.
+pub fn picture_gamut(source: &RgbSource, rgb: &Samples) -> crate::separation::PictureGamut {
     let distinct = match rgb {
         Samples::U8(v) => crate::separation::distinct_colours(v),
         Samples::U16(v) => crate::separation::distinct_colours(v),
     };
-    let picture = crate::separation::PictureGamut::from_colours(&source.labs_of(&distinct));
-    table_with(separator, source, &separator.picture_mapping(&picture))
+    crate::separation::PictureGamut::from_colours(&source.labs_of(&distinct))
 }
 
 fn flatten_gray(g: f64, alpha: Option<f64>, max: f64) -> f64 {

@@ -5,6 +5,7 @@
 //! The numeric core (`colour`, `press`, `separation`) does no I/O; file formats
 //! and lcms2 live at the edges.
 
+pub mod cache;
 pub mod calendar;
 pub mod cgats;
 pub mod cli;

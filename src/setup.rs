@@ -281,6 +281,8 @@ pub struct JobInput {
     /// Replace outputs that exist.
     pub overwrite: bool,
     pub read: ReadInput,
+    /// Keep tables and the embedded profile out of the cache folder.
+    pub no_cache: bool,
 }
 
 /// The validated settings of one job: the model and every output and input
@@ -302,6 +304,8 @@ pub struct JobSetup {
     /// The condition CMYK input was separated for, as given (`None`: the target's).
     pub source_condition: Option<String>,
     pub keep_pure_black_cmyk: bool,
+    /// Tables and the embedded profile are kept in the cache folder (`crate::cache`).
+    pub use_cache: bool,
 }
 
 /// The gray mode: the flag, else the ticket's, else neutral.
@@ -375,6 +379,7 @@ impl JobInput {
             overwrite: self.overwrite,
             source_condition,
             keep_pure_black_cmyk: !(separate && self.reseparate_pure_black),
+            use_cache: !self.no_cache,
             model,
         })
     }
@@ -405,7 +410,7 @@ impl JobSetup {
             source_condition,
             keep_pure_black_cmyk: self.keep_pure_black_cmyk,
         };
-        Ok(Workshop::new(separator, report, options))
+        Ok(Workshop::new(separator, report, options).with_cache(crate::cache::open(self.use_cache)))
     }
 
     /// Every setting of this job as a ticket, so that it can be repeated exactly.
@@ -440,15 +445,20 @@ impl JobSetup {
 }
 
 /// The [`Workshop`] of a separation job from a ticket alone (the hot
-/// folder's), or from the built-in defaults when there is none; the ticket as
-/// read is returned beside it (its `[checks]` rules, for callers that check).
-pub fn ticket_workshop(ticket: Option<&Path>) -> Result<(Workshop, Ticket)> {
+/// folder's), or from the built-in defaults when there is none, using the
+/// cache folder when `use_cache`; the ticket as read is returned beside it
+/// (its `[checks]` rules, for callers that check).
+pub fn ticket_workshop(ticket: Option<&Path>, use_cache: bool) -> Result<(Workshop, Ticket)> {
     let model = ModelInput {
         ticket: ticket.map(Path::to_path_buf),
         ..ModelInput::default()
     }
     .resolve()?;
-    let job = JobInput::default().resolve(JobKind::Separate, model)?;
+    let job = JobInput {
+        no_cache: !use_cache,
+        ..JobInput::default()
+    }
+    .resolve(JobKind::Separate, model)?;
     Ok((job.workshop()?, job.model.ticket.clone()))
 }
 

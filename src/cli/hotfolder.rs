@@ -30,6 +30,8 @@ pub struct HotfolderArgs {
     /// (network file systems often send none). Default: 5.
     #[arg(long, value_name = "SECONDS", default_value_t = 5.0)]
     pub rescan: f64,
+    #[command(flatten)]
+    pub cache: super::options::CacheArgs,
 }
 
 fn seconds(name: &str, v: f64, lo: f64, hi: f64) -> Result<Duration> {
@@ -52,6 +54,7 @@ pub fn run(args: HotfolderArgs) -> Result<i32> {
         settle: seconds("settle", args.settle, 0.0, 3600.0)?,
         rescan: seconds("rescan", args.rescan, 0.05, 3600.0)?,
         log_to_stderr: true,
+        no_cache: args.cache.no_cache,
     };
     // The first SIGINT/SIGTERM sets `stop` (finish what is in progress); the
     // second exits at once. The shutdown action is registered first, so the

@@ -1,7 +1,7 @@
 //! `platesmith inspect INPUT...`: how an RGB file will print, whether a CMYK
 //! file is safe to plate; a text summary, JSON, or a report folder.
 
-use super::options::{InputArgs, ModelArgs};
+use super::options::{CacheArgs, InputArgs, ModelArgs};
 use crate::error::{Error, Result};
 use crate::inspect::{InspectOptions, rules};
 use crate::report::export::{INSPECT_JSON, print};
@@ -61,6 +61,8 @@ pub struct InspectArgs {
     pub force: bool,
     #[command(flatten)]
     pub input: InputArgs,
+    #[command(flatten)]
+    pub cache: CacheArgs,
 }
 
 fn positive(name: &str, v: f64) -> Result<f64> {
@@ -146,6 +148,7 @@ pub fn run(args: InspectArgs) -> Result<i32> {
         bits: super::separate::bits_flag(&args.bits)?,
         overwrite: args.force,
         read: args.input.read(),
+        no_cache: args.cache.no_cache,
         ..JobInput::default()
     };
     let job = input.resolve(JobKind::Inspect, setup)?;

@@ -146,6 +146,17 @@ impl ModelArgs {
     }
 }
 
+/// The cache of separation tables and embedded profiles: shared by the commands that separate.
+#[derive(Debug, Clone, Default, Args)]
+pub struct CacheArgs {
+    /// Build the separation table and the embedded profile anew, neither
+    /// reading nor writing the cache folder ($PLATESMITH_CACHE_DIR, else
+    /// $XDG_CACHE_HOME/platesmith, else ~/.cache/platesmith). The output is
+    /// the same either way; the cache only saves time.
+    #[arg(long)]
+    pub no_cache: bool,
+}
+
 /// How input images are read: shared by the commands that read them.
 #[derive(Debug, Clone, Default, Args)]
 pub struct InputArgs {

@@ -4,7 +4,7 @@
 //! CMYK input is taken as it is; either is shown through the condition's
 //! output profile (see `crate::proof`).
 
-use super::options::{InputArgs, ModelArgs};
+use super::options::{CacheArgs, InputArgs, ModelArgs};
 use super::profile::output_place;
 use crate::error::{Error, Result};
 use crate::proof::{PROGRESSIVES, Proofer, side_by_side, write_png};
@@ -36,6 +36,8 @@ pub struct ProofArgs {
     pub progressives: bool,
     #[command(flatten)]
     pub input_args: InputArgs,
+    #[command(flatten)]
+    pub cache: CacheArgs,
     /// Replace files that exist.
     #[arg(long)]
     pub force: bool,
@@ -46,6 +48,7 @@ pub fn run(args: ProofArgs) -> Result<i32> {
     let mut job = JobInput {
         overwrite: args.force,
         read: args.input_args.read(),
+        no_cache: args.cache.no_cache,
         ..JobInput::default()
     }
     .resolve(JobKind::Proof, setup)?;

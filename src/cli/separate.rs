@@ -1,7 +1,7 @@
 //! `platesmith separate INPUT...`: rasters in, composite CMYK TIFF, plates
 //! and a summary out.
 
-use super::options::{InputArgs, ModelArgs};
+use super::options::{CacheArgs, InputArgs, ModelArgs};
 use crate::error::{Error, Result};
 use crate::job::{GrayMode, PlateFormat};
 use crate::raster::Compression;
@@ -106,6 +106,8 @@ pub struct SeparateArgs {
     pub force: bool,
     #[command(flatten)]
     pub input: InputArgs,
+    #[command(flatten)]
+    pub cache: CacheArgs,
     /// Print the effective ticket (all settings of this job) and exit.
     #[arg(long)]
     pub print_ticket: bool,
@@ -125,6 +127,7 @@ fn resolve(args: &SeparateArgs) -> Result<JobSetup> {
         reseparate_pure_black: args.reseparate_pure_black,
         overwrite: args.force,
         read: args.input.read(),
+        no_cache: args.cache.no_cache,
     };
     input.resolve(JobKind::Separate, model)
 }

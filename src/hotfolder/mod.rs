@@ -70,6 +70,8 @@ pub struct Settings {
     pub rescan: Duration,
     /// Log lines also go to standard error.
     pub log_to_stderr: bool,
+    /// Tables and the embedded profile are not kept in the cache folder.
+    pub no_cache: bool,
 }
 
 /// What a run did.
@@ -129,7 +131,7 @@ pub fn run(settings: &Settings, stop: &AtomicBool) -> Result<RunSummary> {
         .ticket
         .clone()
         .or_else(|| Some(folders.root.join("ticket.toml")).filter(|p| p.is_file()));
-    let (workshop, ticket) = crate::setup::ticket_workshop(ticket_path.as_deref())?;
+    let (workshop, ticket) = crate::setup::ticket_workshop(ticket_path.as_deref(), !settings.no_cache)?;
     let steps = steps::pipeline(Arc::new(workshop), &ticket)?;
     folders.create()?;
     let id = folders::instance_id();

@@ -479,6 +479,49 @@ enum Extent<'a> {
     Picture(Vec<f64>),
 }
 
+/// A picture's reach grid interpolated bilinearly at working lightness `i` and hue `h` (degrees).
+fn reach_at(grid: &[f64], i: f64, h: f64) -> f64 {
+    let bf = (i / BAND).clamp(0.0, (BANDS - 1) as f64);
+    let b0 = (bf.floor() as usize).min(BANDS - 2);
+    let tb = bf - b0 as f64;
+    let sf = h.rem_euclid(360.0) / SECTOR;
+    let s0 = sf.floor() as usize % SECTORS;
+    let s1 = (s0 + 1) % SECTORS;
+    let ts = sf - sf.floor();
+    let at = |b: usize, s: usize| grid[b * SECTORS + s];
+    let low = at(b0, s0) * (1.0 - ts) + at(b0, s1) * ts;
+    let high = at(b0 + 1, s0) * (1.0 - ts) + at(b0 + 1, s1) * ts;
+    low * (1.0 - tb) + high * tb
+}
+
+/// The reach grid with every cell zeroed that only enters interpolation
+/// patches (bands b, b+1 × sectors s, s+1) whose four corners all lie below
+/// `1 + REACH_SLACK`: within such a patch the interpolated reach stays below
+/// it, where the mapping does not read the value (no compression, no
+/// taper), so zeroing changes no mapped colour. Pictures that stay inside
+/// the press gamut in the same regions then share one reach grid.
+fn quiet_cells_to_zero(grid: Vec<f64>) -> Vec<f64> {
+    // A hair below the threshold, so that rounding in the interpolation cannot cross it.
+    let quiet_below = 1.0 + REACH_SLACK - 1e-9;
+    let at = |b: usize, s: usize| grid[b * SECTORS + s % SECTORS];
+    let patch_quiet = |b0: usize, s0: usize| {
+        [at(b0, s0), at(b0, s0 + 1), at(b0 + 1, s0), at(b0 + 1, s0 + 1)]
+            .iter()
+            .all(|&v| v < quiet_below)
+    };
+    let mut out = grid.clone();
+    for b in 0..BANDS {
+        for s in 0..SECTORS {
+            let bands = [b.checked_sub(1), (b < BANDS - 1).then_some(b)];
+            let sectors = [(s + SECTORS - 1) % SECTORS, s];
+            if bands.iter().flatten().all(|&b0| sectors.iter().all(|&s0| patch_quiet(b0, s0))) {
+                out[b * SECTORS + s] = 0.0;
+            }
+        }
+    }
+    out
+}
+
 /// Largest share of contrast [`shadow_lightness`] takes from the shadows
 /// where its span is 1.5/this times the difference of the blacks: its
 /// slope falls to 1 − this at the middle of its span (0.2 for a lighter
@@ -685,8 +728,20 @@ impl<'a> PerceptualMap<'a> {
                 grid[b * SECTORS + s] = m;
             }
         }
-        map.source = Extent::Picture(grid);
+        map.source = Extent::Picture(quiet_cells_to_zero(grid));
         map
+    }
+
+    /// A picture mapping's reach per lightness band and hue sector (band-major),
+    /// with cells that cannot change any mapped colour set to zero; `None`
+    /// for a mapping from a whole source space. Two picture mappings of one
+    /// press with equal reach map every colour alike, so the reach keys the
+    /// picture's separation table in the table cache.
+    pub fn picture_reach(&self) -> Option<&[f64]> {
+        match &self.source {
+            Extent::Picture(grid) => Some(grid),
+            Extent::Space(_) => None,
+        }
     }
 
     /// The lightness curve; neutrals also take on the press black point's
@@ -747,20 +802,7 @@ impl<'a> PerceptualMap<'a> {
                 let inside = |p: Lab| source.contains(Lab::new(self.shadows.inverse(p.l), p.a, p.b));
                 ray_extent(&|s| ray.point(s), RAY_MAX, &inside).max(ray.d) / ray.d_dest
             }
-            Extent::Picture(grid) => {
-                let (i, _, _) = working_polar(ray.lab);
-                let bf = (i / BAND).clamp(0.0, (BANDS - 1) as f64);
-                let b0 = (bf.floor() as usize).min(BANDS - 2);
-                let tb = bf - b0 as f64;
-                let sf = ray.h.rem_euclid(360.0) / SECTOR;
-                let s0 = sf.floor() as usize % SECTORS;
-                let s1 = (s0 + 1) % SECTORS;
-                let ts = sf - sf.floor();
-                let at = |b: usize, s: usize| grid[b * SECTORS + s];
-                let low = at(b0, s0) * (1.0 - ts) + at(b0, s1) * ts;
-                let high = at(b0 + 1, s0) * (1.0 - ts) + at(b0 + 1, s1) * ts;
-                low * (1.0 - tb) + high * tb
-            }
+            Extent::Picture(grid) => reach_at(grid, working_polar(ray.lab).0, ray.h),
         }
     }
 
@@ -868,6 +910,40 @@ mod tests {
                 assert!(k == 0 || m - prev < 0.1 * 1.8 + 1e-9);
                 prev = m;
                 assert!((curve.inverse(m) - l).abs() < 1e-9, "{sb} {db} {l}: {}", curve.inverse(m));
+            }
+        }
+    }
+
+    #[test]
+    fn zeroing_quiet_reach_cells_changes_no_reach_the_mapping_reads() {
+        // The mapping reads the interpolated reach only above 1 + REACH_SLACK
+        // (compression and taper); below it every value acts alike.
+        let mut state = 11u64;
+        let mut next = || {
+            state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let threshold = 1.0 + REACH_SLACK;
+        for trial in 0..20 {
+            // Mostly inside the press gamut, a few cells reaching beyond it.
+            let raw: Vec<f64> = (0..BANDS * SECTORS)
+                .map(|_| {
+                    if next() < 0.02 * trial as f64 / 10.0 {
+                        1.0 + next()
+                    } else {
+                        next() * 1.02
+                    }
+                })
+                .collect();
+            let quiet = quiet_cells_to_zero(raw.clone());
+            assert!(quiet.iter().filter(|&&v| v == 0.0).count() > 0, "trial {trial}");
+            for _ in 0..20_000 {
+                let (i, h) = (next() * 104.0 - 2.0, next() * 360.0);
+                let (a, b) = (reach_at(&raw, i, h), reach_at(&quiet, i, h));
+                assert!(
+                    a == b || (a <= threshold && b <= threshold),
+                    "trial {trial}: {a} against {b} at I {i}, h {h}"
+                );
             }
         }
     }

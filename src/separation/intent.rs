@@ -12,6 +12,14 @@ pub struct SourceMapping<'a> {
     perceptual: Option<PerceptualMap<'a>>,
 }
 
+impl SourceMapping<'_> {
+    /// The picture's reach, when perceptual compression starts from a
+    /// picture ([`PerceptualMap::picture_reach`]).
+    pub fn picture_reach(&self) -> Option<&[f64]> {
+        self.perceptual.as_ref().and_then(PerceptualMap::picture_reach)
+    }
+}
+
 impl Separator {
     /// Converts a colour from the intent frame to the working (media-relative) frame.
     pub fn to_working(&self, lab: IntentLab) -> RelativeLab {

@@ -96,6 +96,13 @@ impl Sample for u16 {
 pub(crate) struct PackedNodes(Vec<[u64; 2]>);
 
 impl PackedNodes {
+    /// The nodes as [`PackedNodes::new`] was given them.
+    pub(crate) fn unpacked(&self) -> impl Iterator<Item = [u16; 4]> + '_ {
+        self.0
+            .iter()
+            .map(|&[a, b]| [a as u16, (a >> 32) as u16, b as u16, (b >> 32) as u16])
+    }
+
     pub(crate) fn new(nodes: &[[u16; 4]]) -> PackedNodes {
         PackedNodes(
             nodes

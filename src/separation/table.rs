@@ -71,16 +71,49 @@ impl SeparationTable {
         if separator.smooths_shadows_in_ink() {
             smooth_shadows(&mut inks, &lightness, n, 3, separator.black_point().0.lab().l);
         }
+        let (nodes, nodes8) = InkCaps::of(separator.settings()).quantize_nodes(inks);
+        SeparationTable::from_nodes(separator, nodes, nodes8)
+    }
+
+    /// The table of `separator` with these 16-bit nodes and nodes for 8-bit
+    /// output; its settings give the ink caps and the pure black.
+    fn from_nodes(separator: &Separator, nodes: Vec<[u16; 4]>, nodes8: Vec<[u16; 4]>) -> SeparationTable {
         let caps = InkCaps::of(separator.settings());
-        let (nodes, nodes8) = caps.quantize_nodes(inks);
         SeparationTable {
-            grid: n,
+            grid: separator.settings().table_grid,
             packed: PackedNodes::new(&nodes),
             packed8: PackedNodes::new(&nodes8),
             nodes,
             caps,
             pure_black: separator.settings().keep_pure_black.then_some(caps.black16()),
         }
+    }
+
+    /// The nodes as bytes, for the table cache: the grid (u32 LE), then
+    /// the 16-bit nodes and the nodes for 8-bit output, CMYK u16 LE each.
+    /// [`SeparationTable::from_bytes`] reads them back.
+    pub fn to_bytes(&self) -> Vec<u8> {
+        let mut out = Vec::with_capacity(4 + 16 * self.nodes.len());
+        out.extend((self.grid as u32).to_le_bytes());
+        for node in self.nodes.iter().copied().chain(self.packed8.unpacked()) {
+            out.extend(node.iter().flat_map(|v| v.to_le_bytes()));
+        }
+        out
+    }
+
+    /// The table [`SeparationTable::to_bytes`] wrote for `separator`, whose
+    /// settings give the ink caps and the pure black; `None` when the bytes
+    /// do not hold a table of the separator's grid.
+    pub fn from_bytes(separator: &Separator, bytes: &[u8]) -> Option<SeparationTable> {
+        let n = separator.settings().table_grid;
+        let (grid, rest) = bytes.split_first_chunk::<4>()?;
+        if u32::from_le_bytes(*grid) as usize != n || rest.len() != 16 * n * n * n {
+            return None;
+        }
+        let node = |b: &[u8]| -> [u16; 4] { std::array::from_fn(|i| u16::from_le_bytes([b[2 * i], b[2 * i + 1]])) };
+        let mut nodes: Vec<[u16; 4]> = rest.chunks_exact(8).map(node).collect();
+        let nodes8 = nodes.split_off(n * n * n);
+        Some(SeparationTable::from_nodes(separator, nodes, nodes8))
     }
 
     /// 16-bit CMYK that this table wrote ([`apply_rgb16`](Self::apply_rgb16))

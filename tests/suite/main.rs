@@ -40,3 +40,4 @@ mod separation_properties;
 mod separation_reseparation;
 mod separation_table_direct;
 mod settings_ranges;
+mod table_cache;

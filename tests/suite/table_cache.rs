@@ -1,0 +1,259 @@
+//! The persistent table cache through the real binary: a hit gives the same
+//! files as a miss and as a run without the cache, a damaged entry is
+//! rebuilt with a note, several processes fill one folder at once, the size
+//! limit evicts, `--no-cache` leaves the folder alone, and a changed setting
+//! misses.
+//!
+//! These check the program against itself (the cache must not change what
+//! is printed); the entries' checksum is SHA-256 (FIPS 180-4, checked
+//! against its published "abc" example in `src/cache/key.rs`), the inputs
+//! are PNG (ISO/IEC 15948) files of the synthetic coastal scene
+//! (`tests/support/scene.rs`), whose saturated ramp leaves the press gamut,
+//! so its picture-adaptive mapping compresses.
+
+use crate::scene::{SCENE_H, SCENE_W, scene};
+use assert_cmd::Command;
+use std::path::{Path, PathBuf};
+
+/// A small table grid keeps the builds short; the cache treats every grid alike.
+const GRID: &str = "9";
+
+fn scene_png(path: &Path) {
+    let mut out = Vec::new();
+    {
+        let mut enc = png::Encoder::new(&mut out, SCENE_W as u32, SCENE_H as u32);
+        enc.set_color(png::ColorType::Rgb);
+        let mut wr = enc.write_header().unwrap();
+        wr.write_image_data(&scene()).unwrap();
+        wr.finish().unwrap();
+    }
+    std::fs::write(path, out).unwrap();
+}
+
+/// A temporary folder with the scene as `coast.png` and the path of a cache folder in it (not made).
+fn workspace() -> (tempfile::TempDir, PathBuf, PathBuf) {
+    let dir = tempfile::tempdir().unwrap();
+    let input = dir.path().join("coast.png");
+    scene_png(&input);
+    let cache = dir.path().join("cache");
+    (dir, input, cache)
+}
+
+struct Run {
+    files: Vec<(String, Vec<u8>)>,
+    summary: serde_json::Value,
+}
+
+/// The `separate` process of one run, with the cache in `cache`.
+fn separate_process(cache: &Path, input: &Path, out: &Path, extra: &[&str]) -> std::process::Command {
+    let mut cmd = std::process::Command::new(assert_cmd::cargo::cargo_bin("platesmith"));
+    cmd.env("PLATESMITH_CACHE_DIR", cache)
+        .env_remove("PLATESMITH_CACHE_LIMIT_MIB")
+        .arg("separate")
+        .arg(input)
+        .arg("--out-dir")
+        .arg(out)
+        .args(["--table-grid", GRID, "--force"])
+        .args(extra);
+    cmd
+}
+
+fn separate_cmd(cache: &Path, input: &Path, out: &Path, extra: &[&str]) -> Command {
+    Command::from_std(separate_process(cache, input, out, extra))
+}
+
+/// Separates `input` into `out` with the cache in `cache`; the composite and
+/// plates by name, and the summary.
+fn separate(cache: &Path, input: &Path, out: &Path, extra: &[&str]) -> Run {
+    separate_cmd(cache, input, out, extra).assert().success();
+    let stem = input.file_stem().unwrap().to_string_lossy().into_owned();
+    let mut files: Vec<(String, Vec<u8>)> = std::fs::read_dir(out)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "tif"))
+        .map(|p| (p.file_name().unwrap().to_string_lossy().into_owned(), std::fs::read(&p).unwrap()))
+        .collect();
+    files.sort();
+    let summary = serde_json::from_slice(&std::fs::read(out.join(format!("{stem}.summary.json"))).unwrap()).unwrap();
+    Run { files, summary }
+}
+
+fn table_source(run: &Run) -> &str {
+    run.summary["timings"]["table_source"].as_str().unwrap()
+}
+
+fn notes(run: &Run) -> Vec<String> {
+    run.summary["notes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|n| n.as_str().unwrap().to_string())
+        .collect()
+}
+
+fn entries(cache: &Path, prefix: &str) -> Vec<PathBuf> {
+    let mut found: Vec<PathBuf> = match std::fs::read_dir(cache) {
+        Ok(dir) => dir
+            .map(|e| e.unwrap().path())
+            .filter(|p| p.file_name().unwrap().to_string_lossy().starts_with(prefix))
+            .collect(),
+        Err(_) => Vec::new(),
+    };
+    found.sort();
+    found
+}
+
+#[test]
+fn a_cache_hit_writes_the_same_files_as_a_miss_and_as_no_cache() {
+    let (dir, input, cache) = workspace();
+    let unused = dir.path().join("unused");
+    let plain = separate(&unused, &input, &dir.path().join("plain"), &["--no-cache"]);
+    assert!(!unused.exists(), "--no-cache wrote into the cache folder");
+    let cold = separate(&cache, &input, &dir.path().join("cold"), &[]);
+    let warm = separate(&cache, &input, &dir.path().join("warm"), &[]);
+    assert_eq!(plain.files.len(), 5, "composite and four plates");
+    for (run, name) in [(&cold, "cold"), (&warm, "warm")] {
+        assert_eq!(run.files.len(), plain.files.len());
+        for ((a, bytes_a), (b, bytes_b)) in plain.files.iter().zip(&run.files) {
+            assert_eq!(a, b);
+            assert!(bytes_a == bytes_b, "{name} run: {a} differs from the run without the cache");
+        }
+    }
+    assert_eq!(table_source(&plain), "built");
+    assert_eq!(table_source(&cold), "built");
+    assert_eq!(table_source(&warm), "cached");
+    assert_eq!(warm.summary["timings"]["profile_source"], "cached");
+    assert_eq!(cold.summary["settings"], warm.summary["settings"]);
+    assert_eq!(entries(&cache, "table-").len(), 1);
+    assert_eq!(entries(&cache, "profile-").len(), 1);
+}
+
+#[test]
+fn a_damaged_entry_is_rebuilt_with_a_note() {
+    let (dir, input, cache) = workspace();
+    let first = separate(&cache, &input, &dir.path().join("first"), &[]);
+    let entry = entries(&cache, "table-").pop().unwrap();
+    let good = std::fs::read(&entry).unwrap();
+    let flipped = {
+        let mut b = good.clone();
+        let at = b.len() - 1000;
+        b[at] ^= 0x01;
+        b
+    };
+    for (damage, bytes) in [("a flipped bit", flipped), ("a truncated file", good[..good.len() / 2].to_vec())] {
+        std::fs::write(&entry, &bytes).unwrap();
+        let run = separate(&cache, &input, &dir.path().join("again"), &[]);
+        assert_eq!(table_source(&run), "built", "{damage}");
+        assert!(
+            notes(&run)
+                .iter()
+                .any(|n| n.starts_with("cached table ") && n.contains(" was damaged (") && n.ends_with("); rebuilt")),
+            "{damage}: {:?}",
+            notes(&run)
+        );
+        assert_eq!(run.files, first.files, "{damage}");
+        // The rebuilt entry replaced the damaged one.
+        assert_eq!(std::fs::read(&entry).unwrap(), good, "{damage}");
+        let next = separate(&cache, &input, &dir.path().join("next"), &[]);
+        assert_eq!(table_source(&next), "cached", "{damage}");
+        assert!(!notes(&next).iter().any(|n| n.contains("damaged")));
+    }
+}
+
+#[test]
+fn several_processes_fill_one_cache_folder_at_once() {
+    let (dir, input, cache) = workspace();
+    // Two settings, each run by two processes at the same time.
+    let settings: [&[&str]; 4] = [&[], &["--tac", "280"], &[], &["--tac", "280"]];
+    let children: Vec<_> = settings
+        .iter()
+        .enumerate()
+        .map(|(i, extra)| {
+            let out = dir.path().join(format!("out{i}"));
+            separate_process(&cache, &input, &out, extra)
+                .stdout(std::process::Stdio::null())
+                .spawn()
+                .unwrap()
+        })
+        .collect();
+    for mut child in children {
+        assert!(child.wait().unwrap().success());
+    }
+    let read = |i: usize| std::fs::read(dir.path().join(format!("out{i}/coast.cmyk.tif"))).unwrap();
+    assert!(read(0) == read(2) && read(1) == read(3));
+    assert!(read(0) != read(1));
+    // One entry per table and profile, no partial files left, each entry whole.
+    assert_eq!(entries(&cache, "table-").len(), 2);
+    assert_eq!(entries(&cache, "profile-").len(), 2);
+    assert_eq!(std::fs::read_dir(&cache).unwrap().count(), 4);
+    for (i, extra) in settings.iter().enumerate().take(2) {
+        let run = separate(&cache, &input, &dir.path().join("check"), extra);
+        assert_eq!(table_source(&run), "cached");
+        assert_eq!(run.summary["timings"]["profile_source"], "cached");
+        assert!(!notes(&run).iter().any(|n| n.contains("cache")), "{:?}", notes(&run));
+        assert!(run.files.iter().any(|(name, bytes)| name == "coast.cmyk.tif" && *bytes == read(i)));
+    }
+}
+
+#[test]
+fn the_size_limit_evicts_the_least_recently_used_entries() {
+    let (dir, input, cache) = workspace();
+    // 2 MiB holds one small table and its profile (about 1.2 MB), not two:
+    // each run evicts the oldest entries of the runs before it.
+    for tac in ["300", "290", "280"] {
+        separate_cmd(&cache, &input, &dir.path().join("out"), &["--tac", tac])
+            .env("PLATESMITH_CACHE_LIMIT_MIB", "2")
+            .assert()
+            .success();
+        let used: u64 = std::fs::read_dir(&cache)
+            .unwrap()
+            .map(|e| {
+                use std::os::unix::fs::MetadataExt;
+                e.unwrap().metadata().unwrap().blocks() * 512
+            })
+            .sum();
+        assert!(used <= 2 << 20, "{used} bytes in the cache folder after --tac {tac}");
+    }
+    // The last run's entries are kept, the first run's profile is gone.
+    let last = separate(&cache, &input, &dir.path().join("last"), &["--tac", "280"]);
+    assert_eq!(table_source(&last), "cached");
+    assert_eq!(last.summary["timings"]["profile_source"], "cached");
+    let first = separate(&cache, &input, &dir.path().join("first"), &["--tac", "300"]);
+    assert_eq!(first.summary["timings"]["profile_source"], "built");
+}
+
+#[test]
+fn a_changed_setting_misses_and_the_same_settings_hit() {
+    let (dir, input, cache) = workspace();
+    separate(&cache, &input, &dir.path().join("base"), &[]);
+    for extra in [
+        &["--gcr", "40"][..],
+        &["--intent", "relative"],
+        &["--compress-from", "space"],
+        &["--condition", "uncoated-offset"],
+        &["--source-space", "display-p3"],
+    ] {
+        let run = separate(&cache, &input, &dir.path().join("changed"), extra);
+        assert_eq!(table_source(&run), "built", "{extra:?}");
+    }
+    let again = separate(&cache, &input, &dir.path().join("again"), &[]);
+    assert_eq!(table_source(&again), "cached");
+}
+
+#[test]
+fn an_unwritable_cache_folder_never_fails_a_job() {
+    let (dir, input, _) = workspace();
+    // A file where the folder should be: it can be neither read as a folder nor made.
+    let blocked = dir.path().join("blocked");
+    std::fs::write(&blocked, b"not a folder").unwrap();
+    let run = separate(&blocked, &input, &dir.path().join("out"), &[]);
+    assert_eq!(table_source(&run), "built");
+    assert!(
+        notes(&run).iter().any(|n| n.contains("going on without the cache")),
+        "{:?}",
+        notes(&run)
+    );
+    let plain = separate(&blocked, &input, &dir.path().join("plain"), &["--no-cache"]);
+    assert_eq!(run.files, plain.files);
+    assert_eq!(std::fs::read(&blocked).unwrap(), b"not a folder");
+}
