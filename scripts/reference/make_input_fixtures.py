@@ -96,6 +96,8 @@ def strips_and_tiles(p):
     y, x = np.mgrid[0:H, 0:W]
     art = ((x // 4 + y // 4) % 2 == 0) | (np.abs(x - y) < 2)
     tifffile.imwrite(OUT / "strips5-lineart-1bit.tif", art, photometric="minisblack", rowsperstrip=5)
+    # 16-bit big-endian (Motorola byte order), uncompressed, one strip.
+    tifffile.imwrite(OUT / "rgb16-bigendian.tif", wide, photometric="rgb", byteorder=">")
     # An Orientation value outside 1-8: noted, read as stored.
     tifffile.imwrite(OUT / "orientation-undefined.tif", p, photometric="rgb", rowsperstrip=8, extratags=[(274, "H", 1, 9, True)])
     # 16-bit gray PNG (Pillow), read a row at a time.

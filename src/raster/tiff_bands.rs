@@ -10,6 +10,9 @@
 //! integers and 32-bit float; any compression the tiff crate decodes, predictors
 //! included; YCbCr and JPEG-in-TIFF), upright or with an undefined Orientation value.
 //! One row of chunks is held decoded at a time: a strip, or the tiles across the page.
+//! Uncompressed strips (BlackIsZero, RGB or Separated, no predictor, 8, 16 or 32-bit
+//! samples) hold nothing: the rows of a band are read straight from the file, so a page
+//! stored as one huge strip streams too.
 //! Float pages are decoded twice, the first pass only counting the samples outside
 //! 0–1 that the notes report.
 //!
@@ -20,11 +23,12 @@
 //! - palette pages: decoded from a patched copy of the file held in memory.
 //!
 //! The limits: a streamed page is checked against the side limits (which bound its
-//! pixel count) and its row of chunks against the byte limit, the memory it holds;
+//! pixel count) and its row of chunks against the byte limit, the memory it holds
+//! (none for uncompressed strips read straight from the file);
 //! a page read whole is checked against the byte limit for the whole page.
 
 use std::fs::File;
-use std::io::{BufReader, Seek, SeekFrom};
+use std::io::{BufReader, Read, Seek, SeekFrom};
 use std::path::{Path, PathBuf};
 
 use super::bands::{BandSource, RasterInfo, RowBand};
@@ -32,7 +36,7 @@ use super::tiff_in::PagePlan;
 use super::{Format, Limits, Orientation, Raster, ReadOptions, Samples};
 use crate::error::io_reason;
 use crate::{Error, Result};
-use tiff::decoder::Decoder;
+use tiff::decoder::{Decoder, DecodingResult};
 
 /// Whether a page with this Orientation tag is served in stored order.
 pub(super) fn streams(orientation: Option<u16>) -> bool {
@@ -149,10 +153,8 @@ impl TiffBands {
         };
         if bands.plan.float() {
             // The note counts the clipped samples of the whole page: a first pass counts them.
-            let rows = bands.plan.height.div_ceil(bands.plan.chunk.1);
-            for r in 0..rows {
-                bands.load_chunk_row(r)?;
-            }
+            let rows = if bands.plan.direct.is_some() { 64 } else { bands.plan.chunk.1 };
+            while bands.next_band(rows)?.is_some() {}
         }
         let notes = bands.plan.notes(notes, options, bands.clipped);
         if bands.plan.float() {
@@ -169,6 +171,67 @@ impl TiffBands {
         Orientation::apply_tag(&mut described, bands.plan.orientation, "TIFF");
         bands.info.notes = described.notes;
         Ok(Some(bands))
+    }
+
+    /// Rows `y..y + rows` of uncompressed strips, read straight from the file into `out`.
+    fn read_direct(&mut self, y: u32, rows: u32, out: &mut Samples) -> Result<()> {
+        let path = self.path.as_path();
+        let Some(direct) = &self.plan.direct else {
+            return Ok(());
+        };
+        let per_strip = self.plan.chunk.1;
+        let bytes_per_sample = (direct.row_bytes / (u64::from(self.plan.width) * self.plan.spp() as u64)).max(1);
+        let mut at = y;
+        while at < y + rows {
+            let (strip, within) = ((at / per_strip) as usize, at % per_strip);
+            let n = (per_strip - within).min(y + rows - at);
+            let mut bytes = vec![0u8; (u64::from(n) * direct.row_bytes) as usize];
+            let reader = self.dec.inner();
+            reader
+                .seek(SeekFrom::Start(direct.offsets[strip] + u64::from(within) * direct.row_bytes))
+                .and_then(|_| reader.read_exact(&mut bytes))
+                .map_err(|e| super::read::decode_error(path, Format::Tiff, e.to_string()))?;
+            let big = direct.big_endian;
+            let decoded = match bytes_per_sample {
+                2 => DecodingResult::U16(
+                    bytes
+                        .chunks_exact(2)
+                        .map(|b| {
+                            if big {
+                                u16::from_be_bytes([b[0], b[1]])
+                            } else {
+                                u16::from_le_bytes([b[0], b[1]])
+                            }
+                        })
+                        .collect(),
+                ),
+                4 => DecodingResult::F32(
+                    bytes
+                        .chunks_exact(4)
+                        .map(|b| {
+                            let b = [b[0], b[1], b[2], b[3]];
+                            if big { f32::from_be_bytes(b) } else { f32::from_le_bytes(b) }
+                        })
+                        .collect(),
+                ),
+                _ => DecodingResult::U8(bytes),
+            };
+            let part = self.plan.convert(
+                path,
+                decoded,
+                self.plan.width as usize,
+                n as usize,
+                &self.options,
+                &mut self.clipped,
+            )?;
+            match (&mut *out, part) {
+                (Samples::U8(o), Samples::U8(p)) => o.extend_from_slice(&p),
+                (Samples::U16(o), Samples::U16(p)) => o.extend_from_slice(&p),
+                _ => return Err(Error::input(path, "corrupt TIFF file: strips of different sample depths")),
+            }
+            at += n;
+        }
+        Ok(())
     }
 
     /// Decodes the `r`-th row of chunks into `held`.
@@ -257,6 +320,11 @@ impl BandSource for TiffBands {
             Samples::U16(v) => v.reserve_exact(rows as usize * row_len),
         }
         let path = self.path.clone();
+        if self.plan.direct.is_some() {
+            super::read::guarded(&path, Format::Tiff, || self.read_direct(y, rows, &mut samples))?;
+            self.next_row = y + rows;
+            return Ok(Some(RowBand { y, rows, samples }));
+        }
         let mut at = y;
         while at < y + rows {
             if !(self.held_y..self.held_y + self.held_rows).contains(&at) {

@@ -171,6 +171,17 @@ pub(super) struct PagePlan {
     pub(super) chunk: (u32, u32),
     /// Whether the page is read a strip or a row of tiles at a time (see [`super::tiff_bands`]).
     pub(super) streamed: bool,
+    /// Streamed uncompressed strips read straight from the file a band at a time (see
+    /// [`super::tiff_bands`]): their offsets, and whether 16 and 32-bit samples are big-endian.
+    pub(super) direct: Option<DirectStrips>,
+}
+
+/// Uncompressed strips whose rows are read straight from the file.
+pub(super) struct DirectStrips {
+    pub(super) offsets: Vec<u64>,
+    pub(super) big_endian: bool,
+    /// Bytes of one stored row.
+    pub(super) row_bytes: u64,
 }
 
 impl PagePlan {
@@ -253,7 +264,19 @@ impl PagePlan {
         let chunk = chunk_size(dec, width, height).map_err(err)?;
         let channels = layout.channels().max(spp).min(255) as u8;
         let streamed = may_stream && !planar && !matches!(colortype, T::Palette(_)) && super::tiff_bands::streams(orientation);
-        if streamed {
+        let direct = if streamed {
+            direct_strips(dec, width, height, spp, bits, chunk).map_err(err)?
+        } else {
+            None
+        };
+        if direct.is_some() {
+            // Rows are read straight into the band asked for: nothing else is held.
+            super::Limits {
+                max_bytes: u64::MAX,
+                ..*limits
+            }
+            .check(path, width, height, channels, out_bits)?;
+        } else if streamed {
             // Only one row of chunks is held at a time: the byte limit bounds that row.
             super::Limits {
                 max_bytes: u64::MAX,
@@ -302,7 +325,13 @@ impl PagePlan {
             icc_profile,
             chunk,
             streamed,
+            direct,
         })
+    }
+
+    /// Samples per pixel in the file.
+    pub(super) fn spp(&self) -> usize {
+        self.spp
     }
 
     /// 1-bit line art, separated onto the black plate only.
@@ -424,6 +453,42 @@ impl PagePlan {
         }
         Ok(samples)
     }
+}
+
+/// Uncompressed interleaved strips of 8, 16 or 32-bit samples that need no work of the
+/// decoder (no predictor; BlackIsZero, RGB or Separated, whose codes are the samples),
+/// each long enough for its rows: their rows can be read straight from the file.
+fn direct_strips<R: std::io::Read + Seek>(
+    dec: &mut Decoder<R>,
+    width: u32,
+    height: u32,
+    spp: usize,
+    bits: u8,
+    chunk: (u32, u32),
+) -> tiff::TiffResult<Option<DirectStrips>> {
+    let tag = |dec: &mut Decoder<R>, t: Tag| dec.find_tag_unsigned::<u32>(t);
+    let plain = dec.find_tag(Tag::TileOffsets)?.is_none()
+        && tag(dec, Tag::Compression)?.unwrap_or(1) == 1
+        && tag(dec, Tag::Predictor)?.unwrap_or(1) == 1
+        && matches!(tag(dec, Tag::PhotometricInterpretation)?, Some(1 | 2 | 5))
+        && tag(dec, Tag::FillOrder)?.unwrap_or(1) == 1
+        && matches!(bits, 8 | 16 | 32);
+    if !plain {
+        return Ok(None);
+    }
+    let offsets = dec.find_tag_unsigned_vec::<u64>(Tag::StripOffsets)?.unwrap_or_default();
+    let counts = dec.find_tag_unsigned_vec::<u64>(Tag::StripByteCounts)?.unwrap_or_default();
+    let row_bytes = u64::from(width) * spp as u64 * u64::from(bits / 8);
+    let rows = chunk.1;
+    let strips = height.div_ceil(rows) as usize;
+    let fits = offsets.len() >= strips
+        && counts.len() >= strips
+        && (0..strips).all(|s| counts[s] >= u64::from(rows.min(height - s as u32 * rows)) * row_bytes);
+    Ok(fits.then(|| DirectStrips {
+        offsets,
+        big_endian: dec.byte_order() == tiff::tags::ByteOrder::BigEndian,
+        row_bytes,
+    }))
 }
 
 /// Rows and columns of one strip or tile, from the directory: TileWidth and TileLength, or

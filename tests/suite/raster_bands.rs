@@ -114,6 +114,7 @@ fn bands_join_to_the_whole_read_for_every_input_at_every_band_height() {
         "jpeg-ycbcr.tif",
         "pages-thumbnail-first.tif",
         "orientation-undefined.tif",
+        "rgb16-bigendian.tif",
         "gray16.png",
         "harbour-lights.png",
     ] {
@@ -179,6 +180,7 @@ fn lossless_strip_and_tile_layouts_stream_back_the_picture_tifffile_wrote() {
         "strips5-rgb16-deflate.tif",
         "strips7-rgb-lzw.tif",
         "orientation-undefined.tif",
+        "rgb16-bigendian.tif",
     ] {
         let r = streamed_whole(&input(name));
         assert_eq!((r.width, r.height), (48, 32), "{name}");
@@ -286,8 +288,7 @@ fn a_tiff_cut_short_is_refused_on_opening_as_the_whole_read_refuses_it() {
 
 #[test]
 fn the_byte_limit_bounds_what_is_held_not_the_streamed_picture() {
-    // 48 × 32 RGB, 4.5 KiB decoded; strips7-rgb-lzw.tif holds 7 rows (1008 bytes) at a time,
-    // plain-rgb.tif one strip of the whole picture.
+    // 48 × 32 RGB, 4.5 KiB decoded; strips7-rgb-lzw.tif holds 7 rows (1008 bytes) at a time.
     let options = ReadOptions {
         limits: Limits {
             max_bytes: 2000,
@@ -300,11 +301,23 @@ fn the_byte_limit_bounds_what_is_held_not_the_streamed_picture() {
     let mut source = open_bands(&input("strips7-rgb-lzw.tif"), &options).unwrap();
     assert!(source.streamed());
     joined(source.as_mut(), 3).unwrap();
-    let held = open_bands(&input("plain-rgb.tif"), &options).err().unwrap().to_string();
+    // Under 1008 bytes, a strip of strips7-rgb-lzw.tif is over the limit.
+    let tighter = ReadOptions {
+        limits: Limits {
+            max_bytes: 1000,
+            ..Limits::default()
+        },
+        ..ReadOptions::default()
+    };
+    let held = open_bands(&input("strips7-rgb-lzw.tif"), &tighter).err().unwrap().to_string();
     assert!(
-        held.contains("plain-rgb.tif") && held.contains("strips or tiles") && held.contains("limits setting"),
+        held.contains("strips7-rgb-lzw.tif") && held.contains("strips or tiles") && held.contains("limits setting"),
         "{held}"
     );
+    // plain-rgb.tif is one uncompressed strip: its rows are read straight into each band.
+    let mut direct = open_bands(&input("plain-rgb.tif"), &options).unwrap();
+    assert!(direct.streamed());
+    joined(direct.as_mut(), 5).unwrap();
     // Read whole: the byte limit is the whole picture's, with the whole read's message.
     let turned = open_bands(&input("orientation-6.tif"), &options).err().unwrap().to_string();
     assert_eq!(
