@@ -86,6 +86,12 @@ pub trait BandSource: Send {
     }
 }
 
+/// The first row and the rows of the band after `next_row`: at most `max_rows` (at least
+/// one), `None` after the last row of a picture `height` rows high.
+pub(super) fn next_span(next_row: u32, height: u32, max_rows: u32) -> Option<(u32, u32)> {
+    (next_row < height).then(|| (next_row, max_rows.max(1).min(height - next_row)))
+}
+
 /// A picture decoded whole, served as bands.
 #[derive(Debug, Clone)]
 pub struct WholeRaster {
@@ -111,11 +117,9 @@ impl BandSource for WholeRaster {
     }
 
     fn next_band(&mut self, max_rows: u32) -> Result<Option<RowBand>> {
-        if self.next_row >= self.info.height {
+        let Some((y, rows)) = next_span(self.next_row, self.info.height, max_rows) else {
             return Ok(None);
-        }
-        let y = self.next_row;
-        let rows = max_rows.max(1).min(self.info.height - y);
+        };
         let n = self.info.row_len();
         let range = y as usize * n..(y + rows) as usize * n;
         let samples = match &self.samples {

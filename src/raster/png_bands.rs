@@ -60,11 +60,9 @@ impl BandSource for PngBands {
 
     fn next_band(&mut self, max_rows: u32) -> Result<Option<RowBand>> {
         let height = self.info.height;
-        if self.next_row >= height {
+        let Some((y, rows)) = super::bands::next_span(self.next_row, height, max_rows) else {
             return Ok(None);
-        }
-        let y = self.next_row;
-        let rows = max_rows.max(1).min(height - y);
+        };
         let mut bytes = Vec::with_capacity(rows as usize * self.row.len());
         let path = self.path.clone();
         super::read::guarded(&path, Format::Png, || {

@@ -308,11 +308,9 @@ impl BandSource for TiffBands {
 
     fn next_band(&mut self, max_rows: u32) -> Result<Option<RowBand>> {
         let height = self.info.height;
-        if self.next_row >= height {
+        let Some((y, rows)) = super::bands::next_span(self.next_row, height, max_rows) else {
             return Ok(None);
-        }
-        let y = self.next_row;
-        let rows = max_rows.max(1).min(height - y);
+        };
         let row_len = self.info.row_len();
         let mut samples = empty_samples(self.info.bits);
         match &mut samples {

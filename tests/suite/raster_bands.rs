@@ -286,29 +286,30 @@ fn a_tiff_cut_short_is_refused_on_opening_as_the_whole_read_refuses_it() {
     assert!(whole.contains("cut.tif") && whole.contains("truncated TIFF"), "{whole}");
 }
 
+fn limited(limits: Limits) -> ReadOptions {
+    ReadOptions {
+        limits,
+        ..ReadOptions::default()
+    }
+}
+
 #[test]
 fn the_byte_limit_bounds_what_is_held_not_the_streamed_picture() {
     // 48 × 32 RGB, 4.5 KiB decoded; strips7-rgb-lzw.tif holds 7 rows (1008 bytes) at a time.
-    let options = ReadOptions {
-        limits: Limits {
-            max_bytes: 2000,
-            ..Limits::default()
-        },
-        ..ReadOptions::default()
-    };
+    let options = limited(Limits {
+        max_bytes: 2000,
+        ..Limits::default()
+    });
     let refused = read_raster_with(&input("strips7-rgb-lzw.tif"), &options).unwrap_err().to_string();
     assert!(refused.contains("limits setting"), "{refused}");
     let mut source = open_bands(&input("strips7-rgb-lzw.tif"), &options).unwrap();
     assert!(source.streamed());
     joined(source.as_mut(), 3).unwrap();
     // Under 1008 bytes, a strip of strips7-rgb-lzw.tif is over the limit.
-    let tighter = ReadOptions {
-        limits: Limits {
-            max_bytes: 1000,
-            ..Limits::default()
-        },
-        ..ReadOptions::default()
-    };
+    let tighter = limited(Limits {
+        max_bytes: 1000,
+        ..Limits::default()
+    });
     let held = open_bands(&input("strips7-rgb-lzw.tif"), &tighter).err().unwrap().to_string();
     assert!(
         held.contains("strips7-rgb-lzw.tif") && held.contains("strips or tiles") && held.contains("limits setting"),
@@ -329,13 +330,10 @@ fn the_byte_limit_bounds_what_is_held_not_the_streamed_picture() {
     assert!(png.streamed());
     joined(png.as_mut(), 64).unwrap();
     // The side limits hold for a streamed picture.
-    let narrow = ReadOptions {
-        limits: Limits {
-            max_width: 40,
-            ..Limits::default()
-        },
-        ..ReadOptions::default()
-    };
+    let narrow = limited(Limits {
+        max_width: 40,
+        ..Limits::default()
+    });
     let refused = open_bands(&input("strips7-rgb-lzw.tif"), &narrow).err().unwrap().to_string();
     assert_eq!(
         refused,
