@@ -5,11 +5,14 @@ Run from the repository root:
     python3 -m venv .venv && .venv/bin/pip install -r scripts/reference/requirements.txt
     .venv/bin/python scripts/reference/make_input_fixtures.py
 Writes testdata/inputs/ (small files; testdata/inputs/README.md says what each is).
+    .venv/bin/python scripts/reference/make_input_fixtures.py --only strips
+writes only the strip and tile layouts that the band reader streams (strips_and_tiles).
 The picture is our own: a smooth colour field drawn by this script.
 """
 
 import io
 import pathlib
+import sys
 
 import numpy as np
 import tifffile
@@ -47,9 +50,66 @@ def save_png(name, a):
     Image.fromarray(a).save(OUT / name, optimize=True)
 
 
+def strips_and_tiles(p):
+    """Strip and tile layouts the band reader streams, each written by tifffile; every one is
+    read back whole and in bands (tests/suite/raster_bands.rs), and the lossless ones against
+    plain-rgb.tif."""
+    a = alpha_field()
+    wide = p.astype(np.uint16) * 257  # 8-bit codes widened exactly to 16 bit
+    gray = p[..., 1]
+    # Tiles 32 wide and 48 long on a 48 x 32 picture: padded to the right and below.
+    tifffile.imwrite(OUT / "tiled-rgb-padded.tif", p, photometric="rgb", tile=(48, 32))
+    # 16 x 16 tiles, 16-bit, Deflate with the horizontal predictor: two rows of three tiles.
+    tifffile.imwrite(OUT / "tiled-rgb16-deflate.tif", wide, photometric="rgb", tile=(16, 16), compression="zlib", predictor=True)
+    # Strips of 5 rows (32 = 6 x 5 + 2), 16-bit, Deflate with the horizontal predictor.
+    tifffile.imwrite(OUT / "strips5-rgb16-deflate.tif", wide, photometric="rgb", rowsperstrip=5, compression="zlib", predictor=True)
+    # Strips of 7 rows, 8-bit, LZW with the horizontal predictor.
+    tifffile.imwrite(OUT / "strips7-rgb-lzw.tif", p, photometric="rgb", rowsperstrip=7, compression="lzw", predictor=True)
+    # 8-bit gray + unassociated alpha, PackBits, strips of 3 rows.
+    tifffile.imwrite(
+        OUT / "strips3-graya-packbits.tif", np.dstack([gray, a]), photometric="minisblack", extrasamples=["unassalpha"], rowsperstrip=3, compression="packbits"
+    )
+    # 16-bit RGB + associated alpha, strips of 4 rows, uncompressed.
+    tifffile.imwrite(
+        OUT / "strips4-rgba16-associated.tif",
+        np.dstack([(wide * (a[..., None] / 255.0)).round().astype(np.uint16), a.astype(np.uint16) * 257]),
+        photometric="rgb",
+        extrasamples=["assocalpha"],
+        rowsperstrip=4,
+    )
+    # 16-bit CMYK, 16 x 16 tiles, LZW.
+    cmyk = np.dstack([255 - p, (p.min(-1) // 2)[..., None]]).astype(np.uint16) * 257
+    tifffile.imwrite(OUT / "tiled-cmyk16-lzw.tif", cmyk, photometric="separated", tile=(16, 16), compression="lzw")
+    # 8-bit CMYK + unassociated alpha, strips of 6 rows, Deflate.
+    tifffile.imwrite(
+        OUT / "strips6-cmyka-deflate.tif",
+        np.dstack([cmyk // 257, a]).astype(np.uint8),
+        photometric="separated",
+        extrasamples=["unassalpha"],
+        rowsperstrip=6,
+        compression="zlib",
+    )
+    # 32-bit float, strips of 3 rows, with values below 0 and above 1 that reading clips.
+    lin = srgb_decode(p / 255.0) * 1.2 - 0.05
+    tifffile.imwrite(OUT / "strips3-float32-clipped.tif", lin.astype(np.float32), photometric="rgb", rowsperstrip=3)
+    # 1-bit line art, MinIsBlack, strips of 5 rows, uncompressed.
+    y, x = np.mgrid[0:H, 0:W]
+    art = ((x // 4 + y // 4) % 2 == 0) | (np.abs(x - y) < 2)
+    tifffile.imwrite(OUT / "strips5-lineart-1bit.tif", art, photometric="minisblack", rowsperstrip=5)
+    # 16-bit big-endian (Motorola byte order), uncompressed, one strip.
+    tifffile.imwrite(OUT / "rgb16-bigendian.tif", wide, photometric="rgb", byteorder=">")
+    # An Orientation value outside 1-8: noted, read as stored.
+    tifffile.imwrite(OUT / "orientation-undefined.tif", p, photometric="rgb", rowsperstrip=8, extratags=[(274, "H", 1, 9, True)])
+    # 16-bit gray PNG (Pillow), read a row at a time.
+    Image.fromarray(wide[..., 0].astype(np.uint16)).save(OUT / "gray16.png")
+
+
 def main():
     OUT.mkdir(parents=True, exist_ok=True)
     p = picture()
+    strips_and_tiles(p)
+    if sys.argv[1:] == ["--only", "strips"]:
+        return
     # The plain equivalent of every RGB case: 8-bit RGB, uncompressed, interleaved.
     tifffile.imwrite(OUT / "plain-rgb.tif", p, photometric="rgb")
 

@@ -5,6 +5,16 @@
 //! of a picture already decoded in memory: the reference every streamed
 //! reader must agree with sample for sample, and the reader of the formats
 //! and encodings that cannot be read a band at a time.
+//!
+//! Streamed: TIFF strips and tiles, interleaved and upright (`tiff_bands`, which
+//! lists what it reads whole), and non-interlaced PNG (`png_bands`). Read whole
+//! (memory grows with the picture): JPEG (zune-jpeg decodes a whole frame),
+//! interlaced PNG, and planar, palette or turned TIFF pages. The streamed readers
+//! check the same header against the same limits, except that the byte limit bounds
+//! what they hold (a row of strips or tiles; a PNG row) instead of the whole picture,
+//! whose size the side limits bound; they give the same [`RasterInfo`], notes in the
+//! same order, the same samples and the same errors naming the file, and a decode
+//! error in a later band is an error of that band.
 
 use std::path::Path;
 
@@ -68,6 +78,18 @@ pub trait BandSource: Send {
 
     /// Starts again from the first row, for a second pass over the picture.
     fn rewind(&mut self) -> Result<()>;
+
+    /// Whether the picture is decoded a band at a time (memory bounded by a band and the
+    /// decoder's own buffers) rather than held whole.
+    fn streamed(&self) -> bool {
+        false
+    }
+}
+
+/// The first row and the rows of the band after `next_row`: at most `max_rows` (at least
+/// one), `None` after the last row of a picture `height` rows high.
+pub(super) fn next_span(next_row: u32, height: u32, max_rows: u32) -> Option<(u32, u32)> {
+    (next_row < height).then(|| (next_row, max_rows.max(1).min(height - next_row)))
 }
 
 /// A picture decoded whole, served as bands.
@@ -95,11 +117,9 @@ impl BandSource for WholeRaster {
     }
 
     fn next_band(&mut self, max_rows: u32) -> Result<Option<RowBand>> {
-        if self.next_row >= self.info.height {
+        let Some((y, rows)) = next_span(self.next_row, self.info.height, max_rows) else {
             return Ok(None);
-        }
-        let y = self.next_row;
-        let rows = max_rows.max(1).min(self.info.height - y);
+        };
         let n = self.info.row_len();
         let range = y as usize * n..(y + rows) as usize * n;
         let samples = match &self.samples {
@@ -155,7 +175,10 @@ impl Raster {
 /// Opens `path` as a band source, checked as [`super::read_raster_with`]
 /// checks it (same limits, same errors naming the file).
 pub fn open_bands(path: &Path, options: &ReadOptions) -> Result<Box<dyn BandSource>> {
-    Ok(Box::new(WholeRaster::new(super::read_raster_with(path, options)?)))
+    match super::read::open_streamed(path, options)? {
+        Some(source) => Ok(source),
+        None => Ok(Box::new(WholeRaster::new(super::read_raster_with(path, options)?))),
+    }
 }
 
 #[cfg(test)]

@@ -21,9 +21,11 @@ pub mod bands;
 mod jpeg_scan;
 mod orient;
 mod output;
+mod png_bands;
 pub mod png_colour;
 mod read;
 mod sniff;
+mod tiff_bands;
 mod tiff_in;
 mod write;
 

@@ -5,7 +5,10 @@ use std::fs::File;
 use std::io::{BufRead, BufReader, Cursor, Read, Seek, SeekFrom};
 use std::path::Path;
 
+use super::bands::{BandSource, RasterInfo};
+use super::png_bands::PngBands;
 use super::sniff::{self, JpegHeader};
+use super::tiff_bands::TiffBands;
 use super::{Format, Layout, Limits, Orientation, Raster, ReadOptions, Resolution, Samples, jpeg_scan};
 use crate::error::io_reason;
 use crate::{Error, Result};
@@ -27,6 +30,12 @@ pub fn read_raster(path: &Path, limits: &Limits) -> Result<Raster> {
 /// [`read_raster`] with all the reading options: damaged JPEG data accepted or not, the
 /// TIFF page, the transfer curve of float samples.
 pub fn read_raster_with(path: &Path, options: &ReadOptions) -> Result<Raster> {
+    let (reader, len) = open_file(path)?;
+    read_from(path, reader, len, options)
+}
+
+/// Opens `path` for reading, refusing a folder; the file and its length.
+fn open_file(path: &Path) -> Result<(BufReader<File>, u64)> {
     let file = File::open(path).map_err(|e| Error::input(path, format!("cannot open: {}", io_reason(&e))))?;
     let meta = file
         .metadata()
@@ -34,7 +43,7 @@ pub fn read_raster_with(path: &Path, options: &ReadOptions) -> Result<Raster> {
     if meta.is_dir() {
         return Err(Error::input(path, "is a folder, not an image file"));
     }
-    read_from(path, BufReader::with_capacity(1 << 16, file), meta.len(), options)
+    Ok((BufReader::with_capacity(1 << 16, file), meta.len()))
 }
 
 /// Decodes an image held in memory through the same path as [`read_raster`]; `name`
@@ -48,13 +57,14 @@ pub fn read_raster_bytes_with(bytes: &[u8], name: &Path, options: &ReadOptions) 
     read_from(name, Cursor::new(bytes), bytes.len() as u64, options)
 }
 
-fn read_from<R: BufRead + Seek>(path: &Path, mut reader: R, len: u64, options: &ReadOptions) -> Result<Raster> {
-    let limits = &options.limits;
+/// The format told by the signature, and the hint added to messages when the extension
+/// says otherwise.
+fn detect_format<R: BufRead + Seek>(path: &Path, reader: &mut R, len: u64) -> Result<(Format, String)> {
     if len == 0 {
         return Err(Error::input(path, "empty file (0 bytes), not an image"));
     }
     let mut head = [0u8; 8];
-    let n = read_up_to(&mut reader, &mut head).map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
+    let n = read_up_to(reader, &mut head).map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
     reader
         .seek(SeekFrom::Start(0))
         .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
@@ -70,21 +80,21 @@ fn read_from<R: BufRead + Seek>(path: &Path, mut reader: R, len: u64, options: &
         Some(ext) if ext != format => format!(" (the content is {}, despite the extension)", format.name()),
         _ => String::new(),
     };
-    // A decoder that panics on a hostile file is a bug to report, not a crash.
-    DECODING.with(|d| d.set(true));
-    let decoded = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| match format {
-        Format::Png => read_png(path, reader, limits),
+    Ok((format, hint))
+}
+
+fn read_from<R: BufRead + Seek>(path: &Path, mut reader: R, len: u64, options: &ReadOptions) -> Result<Raster> {
+    let (format, hint) = detect_format(path, &mut reader, len)?;
+    let result = guarded(path, format, || match format {
+        Format::Png => read_png(path, reader, &options.limits),
         Format::Tiff => super::tiff_in::read_tiff(path, reader, len, options),
         Format::Jpeg => read_jpeg(path, reader, len, options),
-    }));
-    DECODING.with(|d| d.set(false));
-    let result = decoded.unwrap_or_else(|_| {
-        Err(Error::Internal(format!(
-            "the {} decoder failed on {}",
-            format.name(),
-            path.display()
-        )))
     });
+    finish_open(path, format, &hint, options, result)
+}
+
+/// The page asked of a format without pages, and the extension's hint, as every read reports them.
+fn finish_open<T>(path: &Path, format: Format, hint: &str, options: &ReadOptions, result: Result<T>) -> Result<T> {
     // Only TIFF has pages: a page asked of another format is a usage mistake, not silence.
     let result = result.and_then(|r| match options.page {
         Some(n) if n != 1 && format != Format::Tiff => {
@@ -98,6 +108,37 @@ fn read_from<R: BufRead + Seek>(path: &Path, mut reader: R, len: u64, options: &
             message: format!("{message}{hint}"),
         },
         other => other,
+    })
+}
+
+/// Opens `path` to be read a band of rows at a time: `None` when its format or encoding
+/// is read whole (JPEG, interlaced PNG, and the TIFF pages [`super::tiff_bands`] lists).
+/// The checks and messages are those of [`read_raster_with`].
+pub(super) fn open_streamed(path: &Path, options: &ReadOptions) -> Result<Option<Box<dyn BandSource>>> {
+    let (mut reader, len) = open_file(path)?;
+    let (format, hint) = detect_format(path, &mut reader, len)?;
+    let opened = guarded(path, format, || -> Result<Option<Box<dyn BandSource>>> {
+        Ok(match format {
+            Format::Png => PngBands::open(path, reader, options)?.map(|b| Box::new(b) as Box<dyn BandSource>),
+            Format::Tiff => TiffBands::open(path, options)?.map(|b| Box::new(b) as Box<dyn BandSource>),
+            Format::Jpeg => None,
+        })
+    });
+    finish_open(path, format, &hint, options, opened)
+}
+
+/// Runs a decoder step: a decoder that panics on a hostile file is a bug to report, not a
+/// crash, so the panic becomes [`Error::Internal`] naming the file.
+pub(super) fn guarded<T>(path: &Path, format: Format, step: impl FnOnce() -> Result<T>) -> Result<T> {
+    DECODING.with(|d| d.set(true));
+    let decoded = std::panic::catch_unwind(std::panic::AssertUnwindSafe(step));
+    DECODING.with(|d| d.set(false));
+    decoded.unwrap_or_else(|_| {
+        Err(Error::Internal(format!(
+            "the {} decoder failed on {}",
+            format.name(),
+            path.display()
+        )))
     })
 }
 
@@ -144,13 +185,53 @@ pub(super) fn decode_error(path: &Path, format: Format, message: String) -> Erro
 
 // ---------------------------------------------------------------- PNG
 
-fn read_png<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> Result<Raster> {
+fn read_png<R: BufRead + Seek>(path: &Path, reader: R, limits: &Limits) -> Result<Raster> {
+    let (mut reader, info) = open_png(path, reader, limits, false)?;
+    let size = reader
+        .output_buffer_size()
+        .ok_or_else(|| Error::input(path, "PNG dimensions overflow memory size"))?;
+    let mut buf = try_alloc_u8(path, size)?;
+    reader
+        .next_frame(&mut buf)
+        .map_err(|e| decode_error(path, Format::Png, e.to_string()))?;
+    let bits = info.bits;
+    Ok(Raster::from_parts(info, png_samples(buf, bits)))
+}
+
+/// Decoded PNG bytes as samples: 16-bit samples are stored big-endian (ISO/IEC 15948 §7.1).
+pub(super) fn png_samples(buf: Vec<u8>, bits: u8) -> Samples {
+    if bits == 16 {
+        Samples::U16(buf.chunks_exact(2).map(|b| u16::from_be_bytes([b[0], b[1]])).collect())
+    } else {
+        Samples::U8(buf)
+    }
+}
+
+/// Reads a PNG's header and the chunks before the image data, checked against `limits`;
+/// with `may_stream`, a non-interlaced picture, read a row at a time, is checked against
+/// the side limits only (it never holds more than a row decoded).
+pub(super) fn open_png<R: BufRead + Seek>(
+    path: &Path,
+    mut reader: R,
+    limits: &Limits,
+    may_stream: bool,
+) -> Result<(png::Reader<R>, RasterInfo)> {
     // The header's claim is checked before the decoder reads on (it would fail on a file
     // that is only a header, or go on to buffer chunks).
-    let mut head = [0u8; 26];
+    let mut head = [0u8; 29];
     let n = read_up_to(&mut reader, &mut head).map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
+    // IHDR's interlace method, the 13th byte of its data (ISO/IEC 15948 §11.2.2).
+    let streamed = may_stream && n == head.len() && head[28] == 0;
+    let checked = if streamed {
+        Limits {
+            max_bytes: u64::MAX,
+            ..*limits
+        }
+    } else {
+        *limits
+    };
     if let Some((w, h, channels, bits)) = sniff::png_header(&head[..n]) {
-        limits.check(path, w, h, channels, bits)?;
+        checked.check(path, w, h, channels, bits)?;
     }
     reader
         .seek(SeekFrom::Start(0))
@@ -162,7 +243,7 @@ fn read_png<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> R
         bytes: usize::try_from(limits.max_bytes).unwrap_or(usize::MAX),
     });
     decoder.set_transformations(png::Transformations::EXPAND);
-    let mut reader = decoder.read_info().map_err(|e| decode_error(path, Format::Png, e.to_string()))?;
+    let reader = decoder.read_info().map_err(|e| decode_error(path, Format::Png, e.to_string()))?;
     let (color, depth) = reader.output_color_type();
     let layout = match color {
         png::ColorType::Grayscale => Layout::Gray,
@@ -179,7 +260,8 @@ fn read_png<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> R
         }
     };
     let (width, height) = (reader.info().width, reader.info().height);
-    limits.check(path, width, height, layout.channels() as u8, bits)?;
+    let checked = if reader.info().interlaced { *limits } else { checked };
+    checked.check(path, width, height, layout.channels() as u8, bits)?;
     let resolution = reader.info().pixel_dims.and_then(|d| match d.unit {
         // pHYs in pixels per metre (ISO/IEC 15948 §11.3.5.3).
         png::Unit::Meter => Resolution {
@@ -189,34 +271,19 @@ fn read_png<R: BufRead + Seek>(path: &Path, mut reader: R, limits: &Limits) -> R
         .valid(),
         png::Unit::Unspecified => None,
     });
-    let icc_profile = reader.info().icc_profile.as_ref().map(|p| p.to_vec());
-    let colour_chunks = super::png_colour::ColourChunks::from_info(reader.info());
-    let size = reader
-        .output_buffer_size()
-        .ok_or_else(|| Error::input(path, "PNG dimensions overflow memory size"))?;
-    let mut buf = try_alloc_u8(path, size)?;
-    reader
-        .next_frame(&mut buf)
-        .map_err(|e| decode_error(path, Format::Png, e.to_string()))?;
-    let samples = if bits == 16 {
-        // PNG stores 16-bit samples big-endian (ISO/IEC 15948 §7.1).
-        Samples::U16(buf.chunks_exact(2).map(|b| u16::from_be_bytes([b[0], b[1]])).collect())
-    } else {
-        Samples::U8(buf)
-    };
-    Ok(Raster {
+    let info = RasterInfo {
         width,
         height,
         layout,
         bits,
-        samples,
-        icc_profile,
+        icc_profile: reader.info().icc_profile.as_ref().map(|p| p.to_vec()),
         resolution,
-        colour_chunks,
+        colour_chunks: super::png_colour::ColourChunks::from_info(reader.info()),
         format: Format::Png,
         notes: Vec::new(),
         line_art: false,
-    })
+    };
+    Ok((reader, info))
 }
 
 fn try_alloc_u8(path: &Path, size: usize) -> Result<Vec<u8>> {

@@ -23,10 +23,7 @@ const MAX_PAGES: usize = 4096;
 pub(super) fn read_tiff<R: BufRead + Seek>(path: &Path, mut reader: R, file_len: u64, options: &ReadOptions) -> Result<Raster> {
     let limits = &options.limits;
     let err = |e: tiff::TiffError| super::read::decode_error(path, Format::Tiff, e.to_string());
-    let mut tl = tiff::decoder::Limits::default();
-    tl.decoding_buffer_size = usize::try_from(limits.max_bytes).unwrap_or(usize::MAX);
-    tl.intermediate_buffer_size = tl.decoding_buffer_size;
-    tl.ifd_value_size = 64 << 20; // room for large ICC profiles
+    let tl = decoder_limits(limits);
     // The first IFD's claim is checked before the decoder runs.
     if let Some((w, h, channels, bits)) = sniff::tiff_header(&mut reader) {
         limits.check(path, w, h, channels, bits.clamp(8, 16))?;
@@ -62,8 +59,17 @@ pub(super) fn read_tiff<R: BufRead + Seek>(path: &Path, mut reader: R, file_len:
     read_page(path, dec, file_len, options, notes, true)
 }
 
+/// The tiff crate's own allocation limits: decoded and intermediate buffers within the byte limit.
+pub(super) fn decoder_limits(limits: &super::Limits) -> tiff::decoder::Limits {
+    let mut tl = tiff::decoder::Limits::default();
+    tl.decoding_buffer_size = usize::try_from(limits.max_bytes).unwrap_or(usize::MAX);
+    tl.intermediate_buffer_size = tl.decoding_buffer_size;
+    tl.ifd_value_size = 64 << 20; // room for large ICC profiles
+    tl
+}
+
 /// Picks the page to read (see [`ReadOptions::page`]), notes the others, and goes to it.
-fn choose_page<R: std::io::Read + Seek>(
+pub(super) fn choose_page<R: std::io::Read + Seek>(
     path: &Path,
     dec: &mut Decoder<R>,
     options: &ReadOptions,
@@ -111,148 +117,236 @@ fn read_page<R: std::io::Read + Seek>(
     mut dec: Decoder<R>,
     file_len: u64,
     options: &ReadOptions,
-    mut notes: Vec<String>,
+    notes: Vec<String>,
     palette: bool,
 ) -> Result<Raster> {
-    let limits = &options.limits;
     let err = |e: tiff::TiffError| super::read::decode_error(path, Format::Tiff, e.to_string());
-    let (width, height) = dec.dimensions().map_err(err)?;
-    let colortype = dec.colortype().map_err(|e| match e {
-        tiff::TiffError::UnsupportedError(u) => Error::input(path, format!("unsupported TIFF layout: {u}")),
-        other => err(other),
-    })?;
-    let colortype = match colortype {
-        T::Gray(b) if palette => T::Palette(b),
-        other => other,
-    };
-    let tag_u16 = |dec: &mut Decoder<R>, tag: Tag| -> Result<Option<u16>> { dec.find_tag_unsigned::<u16>(tag).map_err(err) };
-    let formats = dec
-        .find_tag_unsigned_vec::<u16>(Tag::SampleFormat)
-        .map_err(err)?
-        .unwrap_or_default();
-    let float = match formats.first().copied().unwrap_or(1) {
-        1 => false,
-        3 => true,
-        _ => {
-            return Err(Error::input(
-                path,
-                "TIFF samples are signed integers; use unsigned integer or 32-bit float samples",
-            ));
-        }
-    };
-    let bits = colortype.bit_depth();
-    if float && bits != 32 {
-        return Err(Error::input(path, format!("unsupported TIFF float depth {bits}; use 32-bit float")));
-    }
-    let (layout, alpha_kind) = match colortype {
-        T::Gray(_) => (Layout::Gray, None),
-        T::GrayA(_) | T::Multiband { num_samples: 2, .. } => (Layout::GrayAlpha, Some(())),
-        T::RGB(_) | T::YCbCr(_) | T::Palette(_) => (Layout::Rgb, None),
-        T::RGBA(_) => (Layout::Rgba, Some(())),
-        T::CMYK(_) => (Layout::Cmyk, None),
-        T::CMYKA(_) => (Layout::Cmyk, Some(())),
-        other => {
-            return Err(Error::input(
-                path,
-                format!("unsupported TIFF layout {other:?}; use gray, RGB, palette or CMYK"),
-            ));
-        }
-    };
-    match (colortype, bits) {
-        (T::Gray(1), _) | (T::Palette(1 | 2 | 4 | 8), _) | (T::YCbCr(8), _) | (_, 8 | 16) => {}
-        (_, 32) if float => {}
-        _ => {
-            return Err(Error::input(
-                path,
-                format!("unsupported TIFF bit depth {bits} for {colortype:?}; use 8 or 16-bit integers, 32-bit float, or 1-bit gray"),
-            ));
-        }
-    }
-    if matches!(colortype, T::CMYK(_) | T::CMYKA(_)) && tag_u16(&mut dec, Tag::Unknown(332))?.is_some_and(|s| s != 1) {
-        // InkSet (332): 1 = CMYK, 2 = other inks (TIFF 6.0 §16).
-        return Err(Error::input(
-            path,
-            "separated TIFF with inks other than CMYK (InkSet 2) is not supported",
-        ));
-    }
-    let out_bits: u8 = if float { 16 } else { bits.clamp(8, 16) };
-    let spp = usize::from(tag_u16(&mut dec, Tag::SamplesPerPixel)?.unwrap_or(1)).max(1);
-    limits.check(path, width, height, layout.channels().max(spp).min(255) as u8, out_bits)?;
-    claim_fits_strips(path, &mut dec, width, height, spp, bits, file_len)?;
-
-    let resolution = super::read::tiff_resolution(&mut dec).map_err(err)?;
-    let icc_profile = match dec.find_tag(Tag::IccProfile).map_err(err)? {
-        Some(v) => Some(v.into_u8_vec().map_err(err)?),
-        None => None,
-    };
-    let extra = dec
-        .find_tag_unsigned_vec::<u16>(Tag::ExtraSamples)
-        .map_err(err)?
-        .unwrap_or_default();
-    let associated = extra.first() == Some(&1);
-    let planar = tag_u16(&mut dec, Tag::PlanarConfiguration)? == Some(2);
-    let orientation = tag_u16(&mut dec, Tag::Orientation)?;
-    let palette = if matches!(colortype, T::Palette(_)) {
-        Some(dec.get_tag_u16_vec(Tag::ColorMap).map_err(err)?)
-    } else {
-        None
-    };
-    let ycbcr = if matches!(colortype, T::YCbCr(_)) {
-        Some(ycbcr_setup(&mut dec).map_err(err)?)
-    } else {
-        None
-    };
-
+    let plan = PagePlan::read(path, &mut dec, file_len, options, palette, false)?;
     let mut result = DecodingResult::U8(Vec::new());
     let layout_pref = dec.read_image_to_buffer(&mut result).map_err(err)?;
-    let (w, h) = (width as usize, height as usize);
-    if planar && result.as_buffer(0).as_bytes().len() < layout_pref.complete_len {
+    if plan.planar && result.as_buffer(0).as_bytes().len() < layout_pref.complete_len {
         return Err(Error::input(
             path,
             "planar TIFF does not fit the limits setting; raise the limits to read it",
         ));
     }
-    let mut line_art = false;
-    let samples = match (colortype, result) {
-        (T::Gray(1), DecodingResult::U8(v)) => {
-            line_art = true;
-            notes.push("1-bit line art: separated onto the black plate only".into());
-            Samples::U8(unpack(&v, w, h, 1).into_iter().map(|b| b * 255).collect())
+    let mut clipped = 0u64;
+    let samples = plan.convert(path, result, plan.width as usize, plan.height as usize, options, &mut clipped)?;
+    let mut raster = Raster {
+        width: plan.width,
+        height: plan.height,
+        layout: plan.layout,
+        bits: samples.bits(),
+        samples,
+        icc_profile: plan.icc_profile.clone(),
+        resolution: plan.resolution,
+        colour_chunks: None,
+        format: Format::Tiff,
+        notes: plan.notes(notes, options, clipped),
+        line_art: plan.line_art(),
+    };
+    Orientation::apply_tag(&mut raster, plan.orientation, "TIFF");
+    Ok(raster)
+}
+
+/// What a page's directory says, checked against the limits and the strips: everything
+/// decoding needs but the samples. The whole read and the streamed read share it, and
+/// [`PagePlan::convert`] turns decoded samples of any region into the raster's samples.
+pub(super) struct PagePlan {
+    pub(super) width: u32,
+    pub(super) height: u32,
+    colortype: T,
+    pub(super) layout: Layout,
+    alpha: bool,
+    associated: bool,
+    /// Samples per pixel in the file.
+    spp: usize,
+    pub(super) planar: bool,
+    pub(super) orientation: Option<u16>,
+    palette: Option<Vec<u16>>,
+    ycbcr: Option<YcbcrSetup>,
+    pub(super) resolution: Option<super::Resolution>,
+    pub(super) icc_profile: Option<Vec<u8>>,
+    /// Columns and rows of a strip or tile (a strip is as wide as the page).
+    pub(super) chunk: (u32, u32),
+    /// Whether the page is read a strip or a row of tiles at a time (see [`super::tiff_bands`]).
+    pub(super) streamed: bool,
+    /// Streamed uncompressed strips read straight from the file a band at a time (see
+    /// [`super::tiff_bands`]): their offsets, and whether 16 and 32-bit samples are big-endian.
+    pub(super) direct: Option<DirectStrips>,
+}
+
+/// Uncompressed strips whose rows are read straight from the file.
+pub(super) struct DirectStrips {
+    pub(super) offsets: Vec<u64>,
+    pub(super) big_endian: bool,
+    /// Bytes of one stored row.
+    pub(super) row_bytes: u64,
+}
+
+impl PagePlan {
+    /// Reads and checks the page's directory. With `may_stream`, a page that can be read a
+    /// strip or a row of tiles at a time is checked against the side limits and the decoded
+    /// size of one row of chunks, instead of the decoded size of the whole page.
+    pub(super) fn read<R: std::io::Read + Seek>(
+        path: &Path,
+        dec: &mut Decoder<R>,
+        file_len: u64,
+        options: &ReadOptions,
+        palette: bool,
+        may_stream: bool,
+    ) -> Result<PagePlan> {
+        let limits = &options.limits;
+        let err = |e: tiff::TiffError| super::read::decode_error(path, Format::Tiff, e.to_string());
+        let (width, height) = dec.dimensions().map_err(err)?;
+        let colortype = dec.colortype().map_err(|e| match e {
+            tiff::TiffError::UnsupportedError(u) => Error::input(path, format!("unsupported TIFF layout: {u}")),
+            other => err(other),
+        })?;
+        let colortype = match colortype {
+            T::Gray(b) if palette => T::Palette(b),
+            other => other,
+        };
+        let tag_u16 = |dec: &mut Decoder<R>, tag: Tag| -> Result<Option<u16>> { dec.find_tag_unsigned::<u16>(tag).map_err(err) };
+        let formats = dec
+            .find_tag_unsigned_vec::<u16>(Tag::SampleFormat)
+            .map_err(err)?
+            .unwrap_or_default();
+        let float = match formats.first().copied().unwrap_or(1) {
+            1 => false,
+            3 => true,
+            _ => {
+                return Err(Error::input(
+                    path,
+                    "TIFF samples are signed integers; use unsigned integer or 32-bit float samples",
+                ));
+            }
+        };
+        let bits = colortype.bit_depth();
+        if float && bits != 32 {
+            return Err(Error::input(path, format!("unsupported TIFF float depth {bits}; use 32-bit float")));
         }
-        (T::Palette(b), DecodingResult::U8(v)) => {
-            let map = palette.unwrap_or_default();
-            let indices = if b == 8 { v } else { unpack(&v, w, h, b) };
-            let s = expand_palette(path, &indices, &map, b)?;
-            notes.push(format!("palette of {} colours expanded to RGB", 1usize << b));
-            s
+        let (layout, alpha) = match colortype {
+            T::Gray(_) => (Layout::Gray, false),
+            T::GrayA(_) | T::Multiband { num_samples: 2, .. } => (Layout::GrayAlpha, true),
+            T::RGB(_) | T::YCbCr(_) | T::Palette(_) => (Layout::Rgb, false),
+            T::RGBA(_) => (Layout::Rgba, true),
+            T::CMYK(_) => (Layout::Cmyk, false),
+            T::CMYKA(_) => (Layout::Cmyk, true),
+            other => {
+                return Err(Error::input(
+                    path,
+                    format!("unsupported TIFF layout {other:?}; use gray, RGB, palette or CMYK"),
+                ));
+            }
+        };
+        match (colortype, bits) {
+            (T::Gray(1), _) | (T::Palette(1 | 2 | 4 | 8), _) | (T::YCbCr(8), _) | (_, 8 | 16) => {}
+            (_, 32) if float => {}
+            _ => {
+                return Err(Error::input(
+                    path,
+                    format!("unsupported TIFF bit depth {bits} for {colortype:?}; use 8 or 16-bit integers, 32-bit float, or 1-bit gray"),
+                ));
+            }
         }
-        (T::YCbCr(_), DecodingResult::U8(v)) => {
-            let v = if planar { interleave(&v, w * h, spp) } else { v };
-            notes.push("YCbCr converted to RGB (TIFF 6.0 §21)".into());
-            Samples::U8(ycbcr_to_rgb(&v, ycbcr.unwrap_or_default()))
+        if matches!(colortype, T::CMYK(_) | T::CMYKA(_)) && tag_u16(dec, Tag::Unknown(332))?.is_some_and(|s| s != 1) {
+            // InkSet (332): 1 = CMYK, 2 = other inks (TIFF 6.0 §16).
+            return Err(Error::input(
+                path,
+                "separated TIFF with inks other than CMYK (InkSet 2) is not supported",
+            ));
         }
-        (_, DecodingResult::U8(v)) => Samples::U8(if planar { interleave(&v, w * h, spp) } else { v }),
-        (_, DecodingResult::U16(v)) => Samples::U16(if planar { interleave(&v, w * h, spp) } else { v }),
-        (_, DecodingResult::F32(v)) => {
-            let v = if planar { interleave(&v, w * h, spp) } else { v };
-            let transfer = options.float_space.converter().transfer();
-            let colour = layout.channels() - usize::from(layout.has_alpha());
-            let mut clipped = 0u64;
-            let out = v
-                .iter()
-                .enumerate()
-                .map(|(i, &x)| {
-                    let x = if x.is_finite() { f64::from(x) } else { 0.0 };
-                    if !(0.0..=1.0).contains(&x) {
-                        clipped += 1;
-                    }
-                    let x = x.clamp(0.0, 1.0);
-                    // Colour samples are linear light; alpha is a plain fraction.
-                    let e = if i % spp < colour { transfer.encode(x) } else { x };
-                    (e * 65535.0).round() as u16
-                })
-                .collect();
-            notes.push(format!(
+        let out_bits: u8 = if float { 16 } else { bits.clamp(8, 16) };
+        let spp = usize::from(tag_u16(dec, Tag::SamplesPerPixel)?.unwrap_or(1)).max(1);
+        let planar = tag_u16(dec, Tag::PlanarConfiguration)? == Some(2);
+        let orientation = tag_u16(dec, Tag::Orientation)?;
+        let chunk = chunk_size(dec, width, height).map_err(err)?;
+        let channels = layout.channels().max(spp).min(255) as u8;
+        let streamed = may_stream && !planar && !matches!(colortype, T::Palette(_)) && super::tiff_bands::streams(orientation);
+        let direct = if streamed {
+            direct_strips(dec, width, height, spp, bits, chunk).map_err(err)?
+        } else {
+            None
+        };
+        if direct.is_some() {
+            // Rows are read straight into the band asked for: nothing else is held.
+            super::Limits {
+                max_bytes: u64::MAX,
+                ..*limits
+            }
+            .check(path, width, height, channels, out_bits)?;
+        } else if streamed {
+            // Only one row of chunks is held at a time: the byte limit bounds that row.
+            super::Limits {
+                max_bytes: u64::MAX,
+                ..*limits
+            }
+            .check(path, width, height, channels, out_bits)?;
+            super::tiff_bands::check_chunk_row(path, limits, width, chunk, channels, out_bits)?;
+        } else {
+            limits.check(path, width, height, channels, out_bits)?;
+        }
+        claim_fits_strips(path, dec, width, height, spp, bits, file_len)?;
+
+        let resolution = super::read::tiff_resolution(dec).map_err(err)?;
+        let icc_profile = match dec.find_tag(Tag::IccProfile).map_err(err)? {
+            Some(v) => Some(v.into_u8_vec().map_err(err)?),
+            None => None,
+        };
+        let extra = dec
+            .find_tag_unsigned_vec::<u16>(Tag::ExtraSamples)
+            .map_err(err)?
+            .unwrap_or_default();
+        let associated = extra.first() == Some(&1);
+        let palette = if matches!(colortype, T::Palette(_)) {
+            Some(dec.get_tag_u16_vec(Tag::ColorMap).map_err(err)?)
+        } else {
+            None
+        };
+        let ycbcr = if matches!(colortype, T::YCbCr(_)) {
+            Some(ycbcr_setup(dec).map_err(err)?)
+        } else {
+            None
+        };
+        Ok(PagePlan {
+            width,
+            height,
+            colortype,
+            layout,
+            alpha,
+            associated,
+            spp,
+            planar,
+            orientation,
+            palette,
+            ycbcr,
+            resolution,
+            icc_profile,
+            chunk,
+            streamed,
+            direct,
+        })
+    }
+
+    /// Samples per pixel in the file.
+    pub(super) fn spp(&self) -> usize {
+        self.spp
+    }
+
+    /// 1-bit line art, separated onto the black plate only.
+    pub(super) fn line_art(&self) -> bool {
+        matches!(self.colortype, T::Gray(1))
+    }
+
+    /// The notes of reading this page, after `notes` (the page's), in the order the steps
+    /// of [`PagePlan::convert`] run; `clipped`: float samples outside 0–1 in the whole page.
+    pub(super) fn notes(&self, mut notes: Vec<String>, options: &ReadOptions, clipped: u64) -> Vec<String> {
+        match self.colortype {
+            T::Gray(1) => notes.push("1-bit line art: separated onto the black plate only".into()),
+            T::Palette(b) => notes.push(format!("palette of {} colours expanded to RGB", 1usize << b)),
+            T::YCbCr(_) => notes.push("YCbCr converted to RGB (TIFF 6.0 §21)".into()),
+            _ if self.float() => notes.push(format!(
                 "32-bit float samples read as linear light in {} and encoded with its transfer curve to 16 bit{}",
                 options.float_space.name(),
                 if clipped > 0 {
@@ -260,51 +354,155 @@ fn read_page<R: std::io::Read + Seek>(
                 } else {
                     String::new()
                 }
-            ));
-            Samples::U16(out)
+            )),
+            _ => {}
         }
-        _ => {
+        if matches!(self.colortype, T::CMYKA(_)) {
+            notes.push(format!(
+                "CMYK {} alpha flattened onto paper white (no ink where transparent)",
+                if self.associated { "associated" } else { "unassociated" }
+            ));
+        } else if self.alpha && self.associated {
+            notes.push("associated (premultiplied) alpha un-premultiplied before flattening".into());
+        }
+        notes
+    }
+
+    /// 32-bit float samples.
+    pub(super) fn float(&self) -> bool {
+        self.colortype.bit_depth() == 32
+    }
+
+    /// The depth of the raster's samples: 8 or 16.
+    pub(super) fn out_bits(&self) -> u8 {
+        match self.colortype {
+            // 16 when the ColorMap holds more than 8-bit values: palette pages are read whole.
+            T::Palette(_) => 8,
+            _ if self.float() => 16,
+            c => c.bit_depth().clamp(8, 16),
+        }
+    }
+
+    /// Decoded samples of a region `w` × `h` px (the page, a strip or a tile) → the raster's
+    /// samples of that region: bits unpacked, palette expanded, YCbCr and float converted,
+    /// planes interleaved, alpha un-premultiplied or CMYK alpha flattened. `clipped` counts
+    /// float samples outside 0–1.
+    pub(super) fn convert(
+        &self,
+        path: &Path,
+        result: DecodingResult,
+        w: usize,
+        h: usize,
+        options: &ReadOptions,
+        clipped: &mut u64,
+    ) -> Result<Samples> {
+        let (planar, spp, layout) = (self.planar, self.spp, self.layout);
+        let samples = match (self.colortype, result) {
+            (T::Gray(1), DecodingResult::U8(v)) => Samples::U8(unpack(&v, w, h, 1).into_iter().map(|b| b * 255).collect()),
+            (T::Palette(b), DecodingResult::U8(v)) => {
+                let map = self.palette.as_deref().unwrap_or_default();
+                let indices = if b == 8 { v } else { unpack(&v, w, h, b) };
+                expand_palette(path, &indices, map, b)?
+            }
+            (T::YCbCr(_), DecodingResult::U8(v)) => {
+                let v = if planar { interleave(&v, w * h, spp) } else { v };
+                Samples::U8(ycbcr_to_rgb(&v, self.ycbcr.unwrap_or_default()))
+            }
+            (_, DecodingResult::U8(v)) => Samples::U8(if planar { interleave(&v, w * h, spp) } else { v }),
+            (_, DecodingResult::U16(v)) => Samples::U16(if planar { interleave(&v, w * h, spp) } else { v }),
+            (_, DecodingResult::F32(v)) => {
+                let v = if planar { interleave(&v, w * h, spp) } else { v };
+                let transfer = options.float_space.converter().transfer();
+                let colour = layout.channels() - usize::from(layout.has_alpha());
+                let out = v
+                    .iter()
+                    .enumerate()
+                    .map(|(i, &x)| {
+                        let x = if x.is_finite() { f64::from(x) } else { 0.0 };
+                        if !(0.0..=1.0).contains(&x) {
+                            *clipped += 1;
+                        }
+                        let x = x.clamp(0.0, 1.0);
+                        // Colour samples are linear light; alpha is a plain fraction.
+                        let e = if i % spp < colour { transfer.encode(x) } else { x };
+                        (e * 65535.0).round() as u16
+                    })
+                    .collect();
+                Samples::U16(out)
+            }
+            _ => {
+                return Err(Error::input(
+                    path,
+                    "unsupported TIFF sample type; use 8 or 16-bit integers or 32-bit float",
+                ));
+            }
+        };
+        let file_channels = layout.channels() + usize::from(matches!(self.colortype, T::CMYKA(_)));
+        let expected = w * h * file_channels;
+        if samples.len() != expected {
             return Err(Error::input(
                 path,
-                "unsupported TIFF sample type; use 8 or 16-bit integers or 32-bit float",
+                format!("TIFF decoded to {} samples, expected {expected}", samples.len()),
             ));
         }
-    };
-    let file_channels = layout.channels() + usize::from(matches!(colortype, T::CMYKA(_)));
-    let expected = w * h * file_channels;
-    if samples.len() != expected {
-        return Err(Error::input(
-            path,
-            format!("TIFF decoded to {} samples, expected {expected}", samples.len()),
-        ));
+        let mut samples = samples;
+        if matches!(self.colortype, T::CMYKA(_)) {
+            samples = flatten_cmyk_alpha(samples, self.associated);
+        } else if self.alpha && self.associated {
+            unpremultiply(&mut samples, layout.channels());
+        }
+        Ok(samples)
     }
-    let mut samples = samples;
-    if matches!(colortype, T::CMYKA(_)) {
-        samples = flatten_cmyk_alpha(samples, associated);
-        notes.push(format!(
-            "CMYK {} alpha flattened onto paper white (no ink where transparent)",
-            if associated { "associated" } else { "unassociated" }
-        ));
-    } else if alpha_kind.is_some() && associated {
-        unpremultiply(&mut samples, layout.channels());
-        notes.push("associated (premultiplied) alpha un-premultiplied before flattening".into());
+}
+
+/// Uncompressed interleaved strips of 8, 16 or 32-bit samples that need no work of the
+/// decoder (no predictor; BlackIsZero, RGB or Separated, whose codes are the samples),
+/// each long enough for its rows: their rows can be read straight from the file.
+fn direct_strips<R: std::io::Read + Seek>(
+    dec: &mut Decoder<R>,
+    width: u32,
+    height: u32,
+    spp: usize,
+    bits: u8,
+    chunk: (u32, u32),
+) -> tiff::TiffResult<Option<DirectStrips>> {
+    let tag = |dec: &mut Decoder<R>, t: Tag| dec.find_tag_unsigned::<u32>(t);
+    let plain = dec.find_tag(Tag::TileOffsets)?.is_none()
+        && tag(dec, Tag::Compression)?.unwrap_or(1) == 1
+        && tag(dec, Tag::Predictor)?.unwrap_or(1) == 1
+        && matches!(tag(dec, Tag::PhotometricInterpretation)?, Some(1 | 2 | 5))
+        && tag(dec, Tag::FillOrder)?.unwrap_or(1) == 1
+        && matches!(bits, 8 | 16 | 32);
+    if !plain {
+        return Ok(None);
     }
-    let bits = samples.bits();
-    let mut raster = Raster {
-        width,
-        height,
-        layout,
-        bits,
-        samples,
-        icc_profile,
-        resolution,
-        colour_chunks: None,
-        format: Format::Tiff,
-        notes,
-        line_art,
-    };
-    Orientation::apply_tag(&mut raster, orientation, "TIFF");
-    Ok(raster)
+    let offsets = dec.find_tag_unsigned_vec::<u64>(Tag::StripOffsets)?.unwrap_or_default();
+    let counts = dec.find_tag_unsigned_vec::<u64>(Tag::StripByteCounts)?.unwrap_or_default();
+    let row_bytes = u64::from(width) * spp as u64 * u64::from(bits / 8);
+    let rows = chunk.1;
+    let strips = height.div_ceil(rows) as usize;
+    let fits = offsets.len() >= strips
+        && counts.len() >= strips
+        && (0..strips).all(|s| counts[s] >= u64::from(rows.min(height - s as u32 * rows)) * row_bytes);
+    Ok(fits.then(|| DirectStrips {
+        offsets,
+        big_endian: dec.byte_order() == tiff::tags::ByteOrder::BigEndian,
+        row_bytes,
+    }))
+}
+
+/// Rows and columns of one strip or tile, from the directory: TileWidth and TileLength, or
+/// the page's width and RowsPerStrip (default: the page's height; TIFF 6.0 §3 and §15).
+fn chunk_size<R: std::io::Read + Seek>(dec: &mut Decoder<R>, width: u32, height: u32) -> tiff::TiffResult<(u32, u32)> {
+    let tile_w = dec.find_tag_unsigned::<u32>(Tag::TileWidth)?;
+    let tile_h = dec.find_tag_unsigned::<u32>(Tag::TileLength)?;
+    Ok(match (tile_w, tile_h) {
+        (Some(w), Some(h)) if w > 0 && h > 0 => (w, h),
+        _ => {
+            let rows = dec.find_tag_unsigned::<u32>(Tag::RowsPerStrip)?.unwrap_or(height);
+            (width, rows.clamp(1, height.max(1)))
+        }
+    })
 }
 
 /// The bomb guard: the strips or tiles must lie inside the file, and their bytes must be able

@@ -30,6 +30,7 @@ mod press_characterization;
 mod press_condition_file;
 mod press_fit;
 mod raster_bad;
+mod raster_bands;
 mod raster_inputs;
 mod raster_output;
 mod raster_read;
