@@ -423,6 +423,13 @@ impl NeugebauerModel {
         ]
     }
 
+    /// Effective coverage of each ink and its slope by nominal coverage.
+    #[inline(always)]
+    fn effective_with_slopes(&self, ink: Cmyk) -> ([f64; 4], [f64; 4]) {
+        let [c, m, y, k] = [0, 1, 2, 3].map(|i| self.curves[i].effective_with_slope(ink.to_array()[i]));
+        ([c.0, m.0, y.0, k.0], [c.1, m.1, y.1, k.1])
+    }
+
     /// The model evaluated on effective coverages (no tone curve).
     #[inline(always)]
     pub fn xyz_effective(&self, e: [f64; 4]) -> Xyz {
@@ -433,12 +440,8 @@ impl NeugebauerModel {
     /// XYZ and its derivative d(X, Y, Z)/d(c, m, y, k) with respect to the
     /// nominal coverages (rows X, Y, Z; columns c, m, y, k).
     pub fn xyz_jacobian(&self, ink: Cmyk) -> (Xyz, [[f64; 4]; 3]) {
-        let (ec, sc) = self.curves[0].effective_with_slope(ink.c);
-        let (em, sm) = self.curves[1].effective_with_slope(ink.m);
-        let (ey, sy) = self.curves[2].effective_with_slope(ink.y);
-        let (ek, sk) = self.curves[3].effective_with_slope(ink.k);
-        let (s, ds) = demichel_sum_with_derivative(&self.roots, [ec, em, ey, ek]);
-        let slopes = [sc, sm, sy, sk];
+        let (e, slopes) = self.effective_with_slopes(ink);
+        let (s, ds) = demichel_sum_with_derivative(&self.roots, e);
         let mut jac = [[0.0; 4]; 3];
         let mut out = [0.0; 3];
         for ch in 0..3 {
@@ -468,16 +471,12 @@ impl NeugebauerModel {
     /// nominal coverages (rows L*, a*, b*; columns c, m, y, k).
     #[inline(always)]
     pub fn lab_jacobian_fused(&self, ink: Cmyk) -> (Lab, [[f64; 4]; 3]) {
-        let (ec, sc) = self.curves[0].effective_with_slope(ink.c);
-        let (em, sm) = self.curves[1].effective_with_slope(ink.m);
-        let (ey, sy) = self.curves[2].effective_with_slope(ink.y);
-        let (ek, sk) = self.curves[3].effective_with_slope(ink.k);
-        let (s, ds) = demichel_sum_with_derivative(&self.white_roots, [ec, em, ey, ek]);
+        let (e, slopes) = self.effective_with_slopes(ink);
+        let (s, ds) = demichel_sum_with_derivative(&self.white_roots, e);
         let t = self.third;
         let (fx, gx) = lab_f_of_root_sum_with_derivative(s[0], t);
         let (fy, gy) = lab_f_of_root_sum_with_derivative(s[1], t);
         let (fz, gz) = lab_f_of_root_sum_with_derivative(s[2], t);
-        let slopes = [sc, sm, sy, sk];
         let mut jac = [[0.0; 4]; 3];
         for ink in 0..4 {
             let (dx, dy, dz) = (
