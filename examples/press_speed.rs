@@ -2,7 +2,11 @@
 //! lattice correction, side by side in one run (evaluations per second on one
 //! thread), and the time of building the default separation table.
 //!
-//!     cargo run --release --example press_speed
+//!     cargo run --release --example press_speed [ROUNDS [BUILDS]]
+//!
+//! ROUNDS (default 200) passes over the 4096 builds per rate, BUILDS
+//! (default 3) table builds; small values for counting instructions under
+//! `valgrind --tool=callgrind`.
 
 use platesmith::colour::RgbSpace;
 use platesmith::ink::Cmyk;
@@ -12,8 +16,7 @@ use platesmith::separation::{Intent, RgbGamut, SeparationSettings, SeparationTab
 use std::hint::black_box;
 use std::time::Instant;
 
-fn rate(model: &dyn PressModel, inks: &[Cmyk], jacobian: bool) -> f64 {
-    let rounds = 200;
+fn rate(model: &dyn PressModel, inks: &[Cmyk], jacobian: bool, rounds: usize) -> f64 {
     let start = Instant::now();
     let mut acc = 0.0;
     for _ in 0..rounds {
@@ -30,6 +33,8 @@ fn rate(model: &dyn PressModel, inks: &[Cmyk], jacobian: bool) -> f64 {
 }
 
 fn main() {
+    let arg = |i: usize, default: usize| std::env::args().nth(i).and_then(|a| a.parse().ok()).unwrap_or(default);
+    let (rounds, builds) = (arg(1, 200), arg(2, 3));
     // The same 4096 low-discrepancy builds as benches/press_model.rs.
     let inks: Vec<Cmyk> = (0..4096)
         .map(|i| {
@@ -47,10 +52,10 @@ fn main() {
         println!(
             "{:<20} {:>6.1} / {:>6.1}                          {:>6.1} / {:>6.1}",
             c.name,
-            rate(&physics, &inks, false) / 1e6,
-            rate(full, &inks, false) / 1e6,
-            rate(&physics, &inks, true) / 1e6,
-            rate(full, &inks, true) / 1e6
+            rate(&physics, &inks, false, rounds) / 1e6,
+            rate(full, &inks, false, rounds) / 1e6,
+            rate(&physics, &inks, true, rounds) / 1e6,
+            rate(full, &inks, true, rounds) / 1e6
         );
     }
     // The default table (perceptual, grid 33) of benches/separation.rs.
@@ -61,7 +66,7 @@ fn main() {
     let sep = Separator::new(c.clone(), settings).expect("built-in settings are valid");
     let conv = RgbSpace::Srgb.converter();
     let gamut = RgbGamut(conv);
-    for _ in 0..3 {
+    for _ in 0..builds {
         let start = Instant::now();
         let mapping = sep.source_mapping(&gamut);
         let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));

@@ -61,18 +61,21 @@ impl Separator {
     /// least black that prints it): finds the most black that prints it
     /// (Kmax, under the maximum black and the ink limit), then the exact
     /// build with K = Kmin + share·(Kmax − Kmin). Falls back to `low` where
-    /// no exact build holds that black.
-    pub(super) fn generate_black(&self, target: Lab, low: Solution) -> Solution {
+    /// no exact build holds that black. The search for Kmax starts from
+    /// `most_black` first when given (a neighbour's Kmax build); the build
+    /// found there is returned beside the result.
+    pub(super) fn generate_black(&self, target: Lab, low: Solution, most_black: Option<[f64; 4]>) -> (Solution, Option<[f64; 4]>) {
         let share = self.black_share(darkness(target.l, self.black_point.l));
         if share <= 0.0 {
-            return low;
+            return (low, None);
         }
         let mut raised = low.x;
         raised[3] = (low.x[3] + 0.1).min(self.bounds.k_max);
-        let high = [low.x, raised, [0.2, 0.15, 0.15, self.bounds.k_max * 0.8]]
+        let found = most_black
             .into_iter()
-            .find_map(|start| self.solve_exact(target, self.bounds.k_max, self.bounds, start))
-            .unwrap_or(low);
+            .chain([low.x, raised, [0.2, 0.15, 0.15, self.bounds.k_max * 0.8]])
+            .find_map(|start| self.solve_exact(target, self.bounds.k_max, self.bounds, start));
+        let high = found.unwrap_or(low);
         let k = low.x[3] + share * (high.x[3] - low.x[3]);
         let mid: [f64; 4] = std::array::from_fn(|i| low.x[i] + share * (high.x[i] - low.x[i]));
         let held = self.bounds.with_black(k);
@@ -80,11 +83,12 @@ impl Separator {
         from_low[3] = k;
         let mut from_high = high.x;
         from_high[3] = k;
-        [mid, from_low, from_high]
+        let solution = [mid, from_low, from_high]
             .into_iter()
             .find_map(|start| self.solve_exact(target, k, held, start))
             .or_else(|| self.solve_exact(target, k, self.bounds, mid))
-            .unwrap_or(low)
+            .unwrap_or(low);
+        (solution, found.map(|h| h.x))
     }
 }
 

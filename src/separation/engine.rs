@@ -235,7 +235,7 @@ impl Separator {
     /// The printed colour, media-relative.
     #[inline]
     pub fn printed_relative(&self, ink: Cmyk) -> RelativeLab {
-        RelativeLab::new(self.media.relative_lab(self.model.xyz(ink)))
+        RelativeLab::new(self.media.relative_from_absolute_lab(self.model.lab(ink)))
     }
 
     /// The printed colour, absolute (as measured).

@@ -33,7 +33,7 @@ impl Separator {
     /// still a good Newton direction and the residual stays exact).
     pub(super) fn forward(&self, x: [f64; 4]) -> ([f64; 3], [[f64; 4]; 3]) {
         let (abs, jac) = self.model.lab_jacobian(Cmyk::from_array(x));
-        let rel = self.media.relative_lab_from_absolute(abs).to_array();
+        let rel = self.media.relative_from_absolute_lab(abs).to_array();
         let m = &self.relative_from_absolute.0;
         let mut out = [[0.0; 4]; 3];
         for r in 0..3 {
@@ -153,11 +153,34 @@ impl Separator {
     /// K = Kmin + share·(Kmax − Kmin), where the share grows with the
     /// darkness of the target past black start (see [`Separator::black_share`]).
     pub fn invert(&self, target: RelativeLab, start: Option<[f64; 4]>) -> Solution {
+        self.invert_along(
+            target,
+            &mut WarmStart {
+                result: start,
+                ..WarmStart::default()
+            },
+        )
+    }
+
+    /// [`Separator::invert`] for the next of a run of neighbouring targets
+    /// (a line of table nodes): each of the three searches (Kmin, Kmax, the
+    /// build with the chosen black) starts from the neighbour's answer to
+    /// the same search, which lies a short way along the curve of exact
+    /// solutions, instead of walking black from the neighbour's result to
+    /// the end of the curve and back. `warm` holds the neighbour's answers
+    /// and is updated to this target's.
+    pub fn invert_along(&self, target: RelativeLab, warm: &mut WarmStart) -> Solution {
+        let start = warm.result;
         let target = self.clamp_lightness(target.lab());
         let cold = Self::cold_start(target);
-        let first = start.unwrap_or(cold);
+        let first = warm.least_black.or(start).unwrap_or(cold);
         let low = self
             .solve_exact(target, 0.0, self.bounds, first)
+            .or_else(|| {
+                warm.least_black
+                    .and(start)
+                    .and_then(|s| self.solve_exact(target, 0.0, self.bounds, s))
+            })
             .or_else(|| self.solve_exact(target, 0.0, self.bounds, cold))
             .or_else(|| self.solve_exact(target, 0.0, self.bounds, [0.9, 0.8, 0.8, self.bounds.k_max]));
         // Newton from a far start can run into a corner of the ink bounds
@@ -169,11 +192,31 @@ impl Separator {
             None => {
                 let clipped = self.clip(target, start);
                 if clipped.colour_error > REACH_TOLERANCE {
+                    *warm = WarmStart {
+                        result: Some(clipped.x),
+                        ..WarmStart::default()
+                    };
                     return clipped;
                 }
                 self.solve_exact(target, 0.0, self.bounds, clipped.x).unwrap_or(clipped)
             }
         };
-        self.generate_black(target, low)
+        let (solution, most_black) = self.generate_black(target, low, warm.most_black);
+        *warm = WarmStart {
+            result: Some(solution.x),
+            least_black: Some(low.x),
+            most_black,
+        };
+        solution
     }
+}
+
+/// What one inversion leaves for the next of a run of neighbouring targets
+/// ([`Separator::invert_along`]): its result, and its least-black and
+/// most-black exact builds when it found them.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct WarmStart {
+    pub result: Option<[f64; 4]>,
+    pub least_black: Option<[f64; 4]>,
+    pub most_black: Option<[f64; 4]>,
 }

@@ -15,6 +15,7 @@
 use super::engine::Separator;
 use super::frame::IntentLab;
 use super::intent::SourceMapping;
+use super::inversion::WarmStart;
 use super::kernel::{PackedNodes, Position, Sample, WEIGHT_BITS, WEIGHT_ONE, position, simplex, step_table, steps};
 use super::limits::{InkCaps, narrow_within};
 use super::shadows::smooth_shadows;
@@ -49,19 +50,20 @@ impl SeparationTable {
         let n = separator.settings().table_grid;
         let coord = |i: usize| i as f64 / (n - 1) as f64;
         // One line of nodes along blue per (red, green); each line is solved
-        // in order with warm starts, so neighbouring nodes take the same
-        // branch of the inversion and the result does not depend on threads.
+        // in order with warm starts (each search from the neighbour's answer
+        // to it: `Separator::invert_along`), so neighbouring nodes take the
+        // same branch of the inversion and the result does not depend on
+        // threads.
         let lines: Vec<Vec<([f64; 4], f64)>> = (0..n * n)
             .into_par_iter()
             .map(|line| {
                 let (r, g) = (line / n, line % n);
-                let mut start = None;
+                let mut warm = WarmStart::default();
                 (0..n)
                     .map(|b| {
                         let lab = node_lab(EncodedRgb([coord(r), coord(g), coord(b)]));
                         let target = separator.intent_target(lab, mapping);
-                        let s = separator.invert(target, start);
-                        start = Some(s.x);
+                        let s = separator.invert_along(target, &mut warm);
                         (s.x, target.lab().l)
                     })
                     .collect()

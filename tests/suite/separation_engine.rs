@@ -416,3 +416,40 @@ fn near_neutral_colours_keep_the_neutral_black() {
         }
     }
 }
+
+/// The table build inverts each line of nodes with warm starts per search
+/// (`Separator::invert_along`: Kmin, Kmax and the held black each from the
+/// neighbour's answer to it). The builds must be those of the inversion
+/// started from the neighbour's result alone (`Separator::invert`, as the
+/// table was built before): the same Kmin, Kmax and black rule, so the same
+/// build to the solver's tolerance. Ground truth: the model itself (both
+/// must print the target) and the black rule.
+#[test]
+fn warm_starts_along_a_line_find_the_builds_of_the_plain_inversion() {
+    use platesmith::separation::WarmStart;
+    let conv = RgbSpace::Srgb.converter();
+    for intent in [Intent::Relative, Intent::Perceptual] {
+        let sep = separator(intent);
+        let gamut = RgbGamut(conv);
+        let mapping = sep.source_mapping(&gamut);
+        let mut worst: f64 = 0.0;
+        for (r, g) in [(0.0, 0.0), (0.5, 0.25), (1.0, 0.5), (0.25, 0.75), (0.8, 0.8)] {
+            let mut warm = WarmStart::default();
+            let mut start = None;
+            for b in 0..33 {
+                let rgb = EncodedRgb([r, g, b as f64 / 32.0]);
+                let target = sep.intent_target(IntentLab::new(conv.to_lab(rgb)), &mapping);
+                let along = sep.invert_along(target, &mut warm);
+                let plain = sep.invert(target, start);
+                start = Some(plain.x);
+                let diff = (0..4).map(|i| (along.x[i] - plain.x[i]).abs()).fold(0.0, f64::max);
+                worst = worst.max(diff);
+            }
+        }
+        eprintln!(
+            "{}: largest ink difference, warm starts per search against one: {worst:.2e}",
+            intent.name()
+        );
+        assert!(worst < 1e-4, "{}: {worst}", intent.name());
+    }
+}
