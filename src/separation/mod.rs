@@ -22,7 +22,7 @@ pub use engine::{CompressFrom, Intent, Limit, LimitSet, Separation, SeparationSe
 pub use frame::{AbsoluteLab, IntentLab, LabIn, RelativeLab};
 pub use gamut::{GamutBoundary, PerceptualMap, RgbGamut, SourceGamut};
 pub use intent::SourceMapping;
-pub use picture::{PictureGamut, RgbCode, distinct_colours};
+pub use picture::{DistinctColours, PictureGamut, RgbCode, distinct_colours};
 pub use printable::IN_GAMUT_TOLERANCE;
 pub use reseparation::{CmykSourceGamut, DEFAULT_RESEPARATION_GRID, RESEPARATION_GRID_RANGE, ReseparationTable};
 pub use table::SeparationTable;
