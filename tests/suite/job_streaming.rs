@@ -238,15 +238,20 @@ impl BandSource for FailingBands {
     }
 }
 
-#[test]
-fn a_read_failure_in_a_late_band_leaves_no_output() {
+/// Streams `late.png` (bands of 16 rows) through a source that fails at its
+/// last band, under the settings of `ticket` (TOML); returns the error, the
+/// bands the job reported done, and whether the output folder stayed empty
+/// and the input unchanged.
+fn fail_late(ticket: &str) -> (Error, u64, bool, bool) {
     let dir = tempfile::tempdir().unwrap();
     let input = dir.path().join("late.png");
     write_png(&input, 3, 8);
     let before = std::fs::read(&input).unwrap();
     let out = dir.path().join("out");
     std::fs::create_dir_all(&out).unwrap();
-    let shop = workshop(dir.path()).with_band_rows(16);
+    let ticket_path = dir.path().join("job.toml");
+    std::fs::write(&ticket_path, ticket).unwrap();
+    let shop = platesmith::setup::ticket_workshop(Some(&ticket_path)).unwrap().0.with_band_rows(16);
     let raster = read_raster(&input, &platesmith::raster::Limits::default()).unwrap();
     let bands = FailingBands {
         inner: WholeRaster::new(raster),
@@ -259,60 +264,44 @@ fn a_read_failure_in_a_late_band_leaves_no_output() {
         listed_dir: &out,
         input_shown: &input,
     };
-    // With the default perceptual intent the failure comes in the first pass
-    // (the picture's colours), after the outputs were opened; the next test
-    // fails while the outputs are being written.
+    let done = std::sync::atomic::AtomicU64::new(0);
     let err = shop
-        .stream_bands(&input, Box::new(bands), &place, Instant::now(), 0.0, &|_, _| {})
+        .stream_bands(&input, Box::new(bands), &place, Instant::now(), 0.0, &|n, _| {
+            done.store(n, std::sync::atomic::Ordering::Relaxed);
+        })
         .unwrap_err();
+    let empty = std::fs::read_dir(&out).unwrap().next().is_none();
+    let untouched = std::fs::read(&input).unwrap() == before;
+    (err, done.load(std::sync::atomic::Ordering::Relaxed), empty, untouched)
+}
+
+#[test]
+fn a_read_failure_in_a_late_band_of_the_colour_pass_leaves_no_output() {
+    // The default perceptual intent: the failure comes in the first pass (the
+    // picture's colours), after the outputs were opened.
+    let (err, done, empty, untouched) = fail_late("[model]\ntable_grid = 17\n");
     assert!(
         err.to_string().contains("late.png") && err.to_string().contains("ends before"),
         "{err}"
     );
     assert_eq!(err.exit_code(), 2);
-    assert!(
-        std::fs::read_dir(&out).unwrap().next().is_none(),
-        "files left behind after a failed job"
-    );
-    assert_eq!(std::fs::read(&input).unwrap(), before, "the input changed");
+    assert_eq!(done, u64::from(HEIGHT / 16 - 1));
+    assert!(empty, "files left behind after a failed job");
+    assert!(untouched, "the input changed");
 }
 
 #[test]
 fn a_read_failure_in_the_last_band_of_the_writing_pass_leaves_no_output() {
-    let dir = tempfile::tempdir().unwrap();
-    let input = dir.path().join("late.png");
-    write_png(&input, 3, 8);
-    let out = dir.path().join("out");
-    std::fs::create_dir_all(&out).unwrap();
-    // Relative colorimetric: one pass, so the failing band comes while the outputs are being written.
-    let ticket = dir.path().join("relative.toml");
-    std::fs::write(&ticket, "[model]\ntable_grid = 17\nintent = \"relative\"\n").unwrap();
-    let shop = platesmith::setup::ticket_workshop(Some(&ticket)).unwrap().0.with_band_rows(16);
-    let raster = read_raster(&input, &platesmith::raster::Limits::default()).unwrap();
-    let bands = FailingBands {
-        inner: WholeRaster::new(raster),
-        fail_from: HEIGHT - 16,
-        path: input.clone(),
-        next: 0,
-    };
-    let place = OutputPlace {
-        dir: &out,
-        listed_dir: &out,
-        input_shown: &input,
-    };
-    let written = std::sync::atomic::AtomicU64::new(0);
-    let err = shop
-        .stream_bands(&input, Box::new(bands), &place, Instant::now(), 0.0, &|done, _| {
-            written.store(done, std::sync::atomic::Ordering::Relaxed);
-        })
-        .unwrap_err();
-    // Every band before the failing one was separated and written.
-    assert_eq!(written.load(std::sync::atomic::Ordering::Relaxed), u64::from(HEIGHT / 16 - 1));
-    assert!(err.to_string().contains("ends before"), "{err}");
+    // Relative colorimetric: one pass, so the failing band comes while the
+    // outputs are being written, after every earlier band was.
+    let (err, done, empty, untouched) = fail_late("[model]\ntable_grid = 17\nintent = \"relative\"\n");
     assert!(
-        std::fs::read_dir(&out).unwrap().next().is_none(),
-        "files left behind after a failed job"
+        err.to_string().contains("late.png") && err.to_string().contains("ends before"),
+        "{err}"
     );
+    assert_eq!(done, u64::from(HEIGHT / 16 - 1));
+    assert!(empty, "files left behind after a failed job");
+    assert!(untouched, "the input changed");
 }
 
 #[test]
