@@ -14,6 +14,7 @@ SPEC.json lists files and what each must hold:
               "icc_path": "profile.icc",   # optional: tag 34675 must be type 7 and equal these bytes;
                                            # null: the tag must be absent
               "x_ppi": 300.0, "y_ppi": 300.0,
+              "bigtiff": true,             # optional: the file must (true) or must not (false) be a BigTIFF
               "samples_path": "expected.raw"}]}  # stored samples, native byte order, row-major, interleaved
 
 Prints one line per file and exits 1 if anything differs. Stored samples are compared
@@ -31,6 +32,8 @@ UNDEFINED = 7
 def check(entry):
     problems = []
     with tifffile.TiffFile(entry["path"]) as tif:
+        if "bigtiff" in entry and tif.is_bigtiff != entry["bigtiff"]:
+            problems.append(f"BigTIFF: got {tif.is_bigtiff}, want {entry['bigtiff']}")
         page = tif.pages[0]
         tags = page.tags
 

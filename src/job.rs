@@ -5,7 +5,10 @@ use crate::cache::{Origin, TableCache};
 use crate::colour::{EncodedRgb, RgbSpace};
 use crate::error::{Error, Result};
 use crate::ink::Ink;
-use crate::raster::{CmykImage, Compression, Layout, Limits, OutputSet, Raster, ReadOptions, Resolution, Samples, TiffOptions};
+use crate::raster::{
+    BandSource, CmykImage, Compression, Layout, Limits, OpenFile, OutputSet, PngPlateWriter, Raster, RasterInfo, ReadOptions, Resolution,
+    RowBand, Samples, StagedWriter, TiffOptions, TiffStripWriter, open_bands,
+};
 use crate::report::{SettingsReport, round_to};
 use crate::separation::limits::InkCaps;
 use crate::separation::{BLACK_CURVE_STEPS, BlackOnlyCurve, CompressFrom, Intent, IntentLab, SeparationTable, Separator};
@@ -16,7 +19,7 @@ use serde::Serialize;
 use std::borrow::Cow;
 use std::path::{Path, PathBuf};
 use std::sync::{Arc, Mutex};
-use std::time::Instant;
+use std::time::{Duration, Instant};
 
 /// What to do with the plates.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -287,6 +290,8 @@ pub struct Workshop {
     /// where it came from, and the notes of the cache about it (for the first summary).
     profile: std::sync::OnceLock<std::result::Result<(Vec<u8>, Origin), String>>,
     profile_notes: Mutex<Vec<String>>,
+    /// Rows per band, when not chosen from the picture's width ([`BAND_BYTES`]).
+    band_rows: Option<u32>,
 }
 
 fn ms(t: Instant) -> f64 {
@@ -303,6 +308,7 @@ impl Workshop {
             cmyk_table: std::sync::OnceLock::new(),
             profile: std::sync::OnceLock::new(),
             profile_notes: Mutex::new(Vec::new()),
+            band_rows: None,
         }
     }
 
@@ -310,6 +316,14 @@ impl Workshop {
     /// (a new workshop keeps them in memory only).
     pub fn with_cache(self, cache: TableCache) -> Workshop {
         Workshop { cache, ..self }
+    }
+
+    /// The same workshop separating and writing bands of `rows` rows (at
+    /// least one) instead of the height chosen from each picture's width. The
+    /// output does not depend on it.
+    pub fn with_band_rows(mut self, rows: u32) -> Workshop {
+        self.band_rows = Some(rows.max(1));
+        self
     }
 
     /// The ICC output profile of this run's condition and settings (v4, default
@@ -346,20 +360,25 @@ impl Workshop {
     /// The settings echoed in the reports of one separated file: the run's,
     /// with what its perceptual compression started from.
     pub fn settings_of(&self, separated: &SeparatedFile) -> SettingsReport {
+        self.settings_with(separated.compressed_from)
+    }
+
+    /// The run's settings with what a file's perceptual compression started from.
+    fn settings_with(&self, compressed_from: Option<CompressFrom>) -> SettingsReport {
         SettingsReport {
-            compress_from: separated.compressed_from.map(CompressFrom::name),
+            compress_from: compressed_from.map(CompressFrom::name),
             ..self.settings_report.clone()
         }
     }
 
     /// The table for a source (`source_key` names it), from the picture's
-    /// own gamut when `picture` is given: from memory, the cache folder, or
+    /// own gamut when its distinct colours are given: from memory, the cache folder, or
     /// built. The picture's mapping is measured every time; it keys the table.
-    fn table(&self, source_key: &[u8], source: &RgbSource, picture: Option<&Samples>) -> crate::cache::Fetched<Arc<SeparationTable>> {
+    fn table(&self, source_key: &[u8], source: &RgbSource, distinct: Option<&[[f64; 3]]>) -> crate::cache::Fetched<Arc<SeparationTable>> {
         let sep = &self.separator;
-        match picture {
-            Some(rgb) => {
-                let picture = picture_gamut(source, rgb);
+        match distinct {
+            Some(colours) => {
+                let picture = colours_gamut(source, colours);
                 let mapping = sep.picture_mapping(&picture);
                 let key = self.cache.table_key(sep, source_key, mapping.picture_reach());
                 self.cache.table(sep, key, || table_with(sep, source, &mapping))
@@ -375,7 +394,7 @@ impl Workshop {
     /// profile (named by its description tag), else what its PNG colour chunks
     /// say (sRGB, or gAMA and cHRM), else the assumed space. The first element
     /// keys the table cache.
-    fn source_of(&self, raster: &Raster, path: &Path, notes: &mut Vec<String>) -> Result<(Vec<u8>, RgbSource, String)> {
+    fn source_of(&self, raster: &RasterInfo, path: &Path, notes: &mut Vec<String>) -> Result<(Vec<u8>, RgbSource, String)> {
         let gray = matches!(raster.layout, Layout::Gray | Layout::GrayAlpha);
         let assumed = self.options.source_space.name();
         match &raster.icc_profile {
@@ -406,7 +425,7 @@ impl Workshop {
     /// used), else the assumed space with the note `assumed_note`.
     fn chunk_or_assumed_source(
         &self,
-        raster: &Raster,
+        raster: &RasterInfo,
         path: &Path,
         notes: &mut Vec<String>,
         assumed_note: String,
@@ -428,21 +447,110 @@ impl Workshop {
         ))
     }
 
-    /// Separates one file and writes its outputs.
+    /// Separates one file and writes its outputs, streamed: see [`Workshop::run_with_progress`].
     pub fn run(&self, path: &Path) -> Result<JobSummary> {
-        let total = Instant::now();
-        // The output profile (built once per run) is made while the file is
-        // read and separated: decoding is single-threaded.
-        let (separated, profile) = rayon::join(|| self.separate_file(path), || self.output_profile().map(|_| ()));
-        let separated = separated?;
+        self.run_with_progress(path, &|_, _| {})
+    }
+
+    /// Separates one file and writes its outputs into the job's `out_dir`, a
+    /// band of rows at a time: read through [`open_bands`], separated, and
+    /// pushed to the composite and plate writers, so memory is bounded by the
+    /// band height, not the picture. `progress` hears (bands done, bands in
+    /// all) after each band of each pass (two passes when the perceptual
+    /// intent compresses from the picture's own colours).
+    ///
+    /// The output folder is made here, when there is something to write, so a
+    /// run whose inputs all fail leaves no empty folder behind.
+    pub fn run_with_progress(&self, path: &Path, progress: &(dyn Fn(u64, u64) + Sync)) -> Result<JobSummary> {
+        let started = Instant::now();
+        let (bands, open_ms) = self.open(path)?;
+        let dir = &self.options.out_dir;
+        std::fs::create_dir_all(dir)
+            .map_err(|e| Error::output(dir, format!("cannot create the output folder: {}", crate::error::io_reason(&e))))?;
+        let place = OutputPlace {
+            dir,
+            listed_dir: dir,
+            input_shown: path,
+        };
+        self.stream_bands(path, bands, &place, started, open_ms, progress)
+    }
+
+    /// [`Workshop::run_with_progress`] into `place` (see [`Workshop::write_outputs_in`]).
+    pub fn stream_into(
+        &self,
+        path: &Path,
+        place: &OutputPlace,
+        started: Instant,
+        progress: &(dyn Fn(u64, u64) + Sync),
+    ) -> Result<JobSummary> {
+        let (bands, open_ms) = self.open(path)?;
+        self.stream_bands(path, bands, place, started, open_ms, progress)
+    }
+
+    /// Opens `path` as bands, and the time it took. The output profile (built
+    /// once per run) is made meanwhile: decoding is single-threaded.
+    fn open(&self, path: &Path) -> Result<(Box<dyn BandSource>, f64)> {
+        let t = Instant::now();
+        let (bands, profile) = rayon::join(
+            || open_bands(path, &self.options.read_options()),
+            || self.output_profile().map(|_| ()),
+        );
+        let bands = bands?;
         profile?;
-        self.write_outputs(path, &separated, total)
+        Ok((bands, ms(t)))
+    }
+
+    /// [`Workshop::stream_into`] from a band source already open on `path`
+    /// (`open_ms`: the time opening took).
+    pub fn stream_bands(
+        &self,
+        path: &Path,
+        mut bands: Box<dyn BandSource + '_>,
+        place: &OutputPlace,
+        started: Instant,
+        open_ms: f64,
+        progress: &(dyn Fn(u64, u64) + Sync),
+    ) -> Result<JobSummary> {
+        let mut read_ms = open_ms;
+        let info = bands.info().clone();
+        let band_rows = self.band_rows_for(&info);
+        let per_pass = u64::from(info.height.div_ceil(band_rows));
+        let passes = if self.gathers_picture_colours(&info) { 2 } else { 1 };
+        let done = std::sync::atomic::AtomicU64::new(0);
+        let tick = || progress(done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1, per_pass * passes);
+        // Names are checked and files opened before the work, so a refused name costs nothing.
+        let mut out = OutputSet::new(place.dir, self.options.overwrite)?;
+        out.protect([path]);
+        let stem = output_stem(path).to_string();
+        let mut files = self.open_outputs(&out, &stem, &info)?;
+        let prepared = self.prepare(path, &mut *bands, band_rows, &tick)?;
+        let mut write = Duration::ZERO;
+        let (stats, read, separate) = self.separate_bands(&mut *bands, &info, &prepared, band_rows, &tick, &mut |cmyk| {
+            let t = Instant::now();
+            files.push(&cmyk)?;
+            write += t.elapsed();
+            Ok(())
+        })?;
+        read_ms += round_to(read.as_secs_f64() * 1000.0, 1);
+        let t = Instant::now();
+        files.finish(&mut out)?;
+        let timings = Timings {
+            read_ms,
+            table_ms: prepared.table_ms,
+            separate_ms: round_to(separate.as_secs_f64() * 1000.0, 1),
+            write_ms: 0.0,
+            total_ms: 0.0,
+            table_source: prepared.table_source,
+            profile_source: Origin::Built,
+        };
+        let written = write + t.elapsed();
+        self.finish_set(out, place, &info, &prepared.described(), &stats, timings, written, started)
     }
 
     /// Reads and separates one file in memory; nothing is written.
     ///
-    /// The same path as [`Workshop::run`] up to the output: callers that check
-    /// a separation (inspect, proof) see exactly the CMYK that `separate` writes.
+    /// The same band code as [`Workshop::run`]: callers that check a
+    /// separation (inspect, proof) see exactly the CMYK that `separate` writes.
     pub fn separate_file(&self, path: &Path) -> Result<SeparatedFile> {
         let t = Instant::now();
         let raster = crate::raster::read_raster_with(path, &self.options.read_options())?;
@@ -453,112 +561,31 @@ impl Workshop {
     /// Separates a raster already read from `path` (as [`Workshop::separate_file`]
     /// does after reading); `read_ms` is the time the read took.
     pub fn separate_raster(&self, path: &Path, raster: Raster, read_ms: f64) -> Result<SeparatedFile> {
-        let mut notes = raster.notes.clone();
-        let t = Instant::now();
-        let gray = matches!(raster.layout, Layout::Gray | Layout::GrayAlpha);
-        let black_only = self.options.gray == GrayMode::BlackOnly || raster.line_art;
-        let mut rgb_source = None;
-        let mut compressed_from = None;
-        let mut source_description = None;
-        let mut table_source = None;
-        let (image, table_ms, separate_ms) = match to_rgb(&raster, &mut notes) {
-            Some(_) if gray && black_only => {
-                let (_, source, described) = self.source_of(&raster, path, &mut notes)?;
-                source_description = Some(described);
-                let cmyk = self.gray_to_black(&raster, &source);
-                if !raster.line_art {
-                    notes.push("gray input on the black plate only".into());
-                }
-                (cmyk, 0.0, ms(t))
+        let mut bands = RasterBands::new(&raster);
+        let info = bands.info.clone();
+        let band_rows = self.band_rows_for(&info);
+        let prepared = self.prepare(path, &mut bands, band_rows, &|| {})?;
+        let mut cmyk: Option<Samples> = None;
+        let (stats, _, separate) = self.separate_bands(&mut bands, &info, &prepared, band_rows, &|| {}, &mut |band| {
+            match (&mut cmyk, band) {
+                (Some(Samples::U8(all)), Samples::U8(v)) => all.extend_from_slice(&v),
+                (Some(Samples::U16(all)), Samples::U16(v)) => all.extend_from_slice(&v),
+                (all @ None, band) => *all = Some(band),
+                _ => return Err(Error::Internal("bands of one separation at two depths".into())),
             }
-            Some(rgb) => {
-                if gray {
-                    notes.push("gray separated as neutrals".into());
-                }
-                let (key, source, described) = self.source_of(&raster, path, &mut notes)?;
-                source_description = Some(described);
-                let settings = self.separator.settings();
-                let from_picture = settings.intent == Intent::Perceptual && settings.compress_from == CompressFrom::Picture;
-                compressed_from = (settings.intent == Intent::Perceptual).then_some(if from_picture {
-                    CompressFrom::Picture
-                } else {
-                    CompressFrom::Space
-                });
-                let fetched = self.table(&key, &source, from_picture.then_some(rgb.as_ref()));
-                notes.extend(fetched.notes);
-                table_source = Some(fetched.origin);
-                let table = fetched.value;
-                let table_ms = ms(t);
-                let t2 = Instant::now();
-                let cmyk = self.apply(&table, &rgb, raster.width as usize);
-                rgb_source = Some(source);
-                (cmyk, table_ms, ms(t2))
-            }
-            None => {
-                // Re-separation compresses from the source condition's whole gamut.
-                compressed_from = (self.separator.settings().intent == Intent::Perceptual).then_some(CompressFrom::Space);
-                let table = self
-                    .cmyk_table
-                    .get_or_init(|| {
-                        crate::separation::ReseparationTable::build(
-                            &self.separator,
-                            &self.options.source_condition,
-                            self.options.keep_pure_black_cmyk,
-                            CMYK_TABLE_GRID,
-                        )
-                        .map(Arc::new)
-                    })
-                    .as_ref()
-                    .map_err(|e| Error::usage(e.to_string()))?
-                    .clone();
-                let table_ms = ms(t);
-                notes.push(format!(
-                    "CMYK re-separated from {} to {}{}",
-                    self.options.source_condition.name,
-                    self.separator.condition().name,
-                    if self.options.keep_pure_black_cmyk {
-                        "; pure black kept black only"
-                    } else {
-                        ""
-                    }
-                ));
-                if raster.icc_profile.is_some() {
-                    notes.push("embedded CMYK profile not used; the source condition describes the input".into());
-                }
-                let t2 = Instant::now();
-                let pixels = raster.samples.len() / 4;
-                let w = raster.width as usize;
-                let cmyk = match (&raster.samples, self.options.bits) {
-                    (Samples::U8(v), 8) => {
-                        let mut out = vec![0u8; pixels * 4];
-                        table.apply_cmyk8(v, &mut out, w);
-                        Samples::U8(out)
-                    }
-                    (Samples::U8(v), _) => {
-                        let wide: Vec<u16> = v.iter().map(|&x| x as u16 * 257).collect();
-                        let mut out = vec![0u16; pixels * 4];
-                        table.apply_cmyk16(&wide, &mut out, w);
-                        Samples::U16(out)
-                    }
-                    (Samples::U16(v), bits) => {
-                        let mut out = vec![0u16; pixels * 4];
-                        table.apply_cmyk16(v, &mut out, w);
-                        if bits == 16 {
-                            Samples::U16(out)
-                        } else {
-                            Samples::U8(table.narrow_to_8bit(&out))
-                        }
-                    }
-                };
-                (cmyk, table_ms, ms(t2))
-            }
-        };
-        let image = CmykImage::new(raster.width, raster.height, image)?;
-        let stats = InkStats::of_samples(&image.samples, self.separator.settings().tac);
-        let source_description = match source_description {
-            Some(d) => d,
-            None => format!("CMYK for {}", self.options.source_condition.name),
-        };
+            Ok(())
+        })?;
+        let samples = cmyk.ok_or_else(|| Error::Internal("a picture without rows".into()))?;
+        let image = CmykImage::new(raster.width, raster.height, samples)?;
+        let Prepared {
+            rgb_source,
+            compressed_from,
+            source_description,
+            notes,
+            table_ms,
+            table_source,
+            ..
+        } = prepared;
         Ok(SeparatedFile {
             raster,
             image,
@@ -569,9 +596,205 @@ impl Workshop {
             stats,
             read_ms,
             table_ms,
-            separate_ms,
+            separate_ms: round_to(separate.as_secs_f64() * 1000.0, 1),
             table_source,
         })
+    }
+
+    /// Rows per band: about [`BAND_BYTES`] of input or output samples,
+    /// whichever is wider, at least one row; or the height set by
+    /// [`Workshop::with_band_rows`].
+    fn band_rows_for(&self, info: &RasterInfo) -> u32 {
+        let out_row = info.width as usize * 4 * usize::from(self.options.bits / 8);
+        let in_row = info.row_len() * usize::from(info.bits / 8);
+        let auto = (BAND_BYTES / out_row.max(in_row).max(1)) as u32;
+        self.band_rows.unwrap_or(auto).clamp(1, info.height.max(1))
+    }
+
+    /// Whether this file's table needs a first pass over its colours (the
+    /// perceptual intent compressing from the picture, for RGB and gray as neutrals).
+    fn gathers_picture_colours(&self, info: &RasterInfo) -> bool {
+        let settings = self.separator.settings();
+        let gray = matches!(info.layout, Layout::Gray | Layout::GrayAlpha);
+        let black_only = gray && (self.options.gray == GrayMode::BlackOnly || info.line_art);
+        info.layout != Layout::Cmyk
+            && !black_only
+            && settings.intent == Intent::Perceptual
+            && settings.compress_from == CompressFrom::Picture
+    }
+
+    /// The table of re-separation from the source condition, built once per run.
+    fn reseparation_table(&self) -> Result<Arc<crate::separation::ReseparationTable>> {
+        Ok(self
+            .cmyk_table
+            .get_or_init(|| {
+                crate::separation::ReseparationTable::build(
+                    &self.separator,
+                    &self.options.source_condition,
+                    self.options.keep_pure_black_cmyk,
+                    CMYK_TABLE_GRID,
+                )
+                .map(Arc::new)
+            })
+            .as_ref()
+            .map_err(|e| Error::usage(e.to_string()))?
+            .clone())
+    }
+
+    /// Everything a file's separation needs before its first band: the
+    /// source, the notes, and the rule its bands go through. The perceptual
+    /// table from the picture's own colours reads `bands` once here (a
+    /// `tick` per band) and rewinds it.
+    fn prepare(&self, path: &Path, bands: &mut dyn BandSource, band_rows: u32, tick: &dyn Fn()) -> Result<Prepared> {
+        let info = bands.info().clone();
+        let mut notes = info.notes.clone();
+        let t = Instant::now();
+        let intent = self.separator.settings().intent;
+        if info.layout == Layout::Cmyk {
+            let table = self.reseparation_table()?;
+            notes.push(format!(
+                "CMYK re-separated from {} to {}{}",
+                self.options.source_condition.name,
+                self.separator.condition().name,
+                if self.options.keep_pure_black_cmyk {
+                    "; pure black kept black only"
+                } else {
+                    ""
+                }
+            ));
+            if info.icc_profile.is_some() {
+                notes.push("embedded CMYK profile not used; the source condition describes the input".into());
+            }
+            return Ok(Prepared {
+                rule: BandRule::Reseparation(table),
+                rgb_source: None,
+                // Re-separation compresses from the source condition's whole gamut.
+                compressed_from: (intent == Intent::Perceptual).then_some(CompressFrom::Space),
+                source_description: format!("CMYK for {}", self.options.source_condition.name),
+                notes,
+                table_ms: ms(t),
+                table_source: Some(Origin::Built),
+            });
+        }
+        let gray = matches!(info.layout, Layout::Gray | Layout::GrayAlpha);
+        if info.layout.has_alpha() {
+            notes.push("alpha flattened onto paper white".into());
+        }
+        if gray && (self.options.gray == GrayMode::BlackOnly || info.line_art) {
+            let (_, source, described) = self.source_of(&info, path, &mut notes)?;
+            if !info.line_art {
+                notes.push("gray input on the black plate only".into());
+            }
+            return Ok(Prepared {
+                rule: BandRule::BlackOnly(GrayToBlack::new(&self.separator, &source, self.options.bits)),
+                rgb_source: None,
+                compressed_from: None,
+                source_description: described,
+                notes,
+                table_ms: 0.0,
+                table_source: None,
+            });
+        }
+        if gray {
+            notes.push("gray separated as neutrals".into());
+        }
+        let (key, source, described) = self.source_of(&info, path, &mut notes)?;
+        let (distinct, compressed_from) = if self.gathers_picture_colours(&info) {
+            let mut colours = crate::separation::DistinctColours::new();
+            while let Some(band) = bands.next_band(band_rows)? {
+                match &*band_rgb(info.layout, &band.samples) {
+                    Samples::U8(v) => colours.add(v),
+                    Samples::U16(v) => colours.add(v),
+                }
+                tick();
+            }
+            bands.rewind()?;
+            (Some(colours.colours()), Some(CompressFrom::Picture))
+        } else {
+            (None, (intent == Intent::Perceptual).then_some(CompressFrom::Space))
+        };
+        let fetched = self.table(&key, &source, distinct.as_deref());
+        notes.extend(fetched.notes);
+        Ok(Prepared {
+            rule: BandRule::Table(fetched.value),
+            rgb_source: Some(source),
+            compressed_from,
+            source_description: described,
+            notes,
+            table_ms: ms(t),
+            table_source: Some(fetched.origin),
+        })
+    }
+
+    /// Separates every band of `bands` (from its current row) under
+    /// `prepared`, handing each band's CMYK to `sink` in order; returns the
+    /// ink statistics and the time spent reading and separating.
+    fn separate_bands(
+        &self,
+        bands: &mut dyn BandSource,
+        info: &RasterInfo,
+        prepared: &Prepared,
+        band_rows: u32,
+        tick: &dyn Fn(),
+        sink: &mut dyn FnMut(Samples) -> Result<()>,
+    ) -> Result<(InkStats, Duration, Duration)> {
+        let (mut read, mut separate) = (Duration::ZERO, Duration::ZERO);
+        let mut stats = InkStats::default();
+        let tac = self.separator.settings().tac;
+        let mut rows = 0u32;
+        loop {
+            let t = Instant::now();
+            let Some(band) = bands.next_band(band_rows)? else { break };
+            read += t.elapsed();
+            if band.y != rows {
+                return Err(Error::Internal(format!("band at row {} after {rows} rows", band.y)));
+            }
+            rows += band.rows;
+            let t = Instant::now();
+            let width = info.width as usize;
+            let cmyk = match &prepared.rule {
+                BandRule::Table(table) => self.apply(table, &band_rgb(info.layout, &band.samples), width),
+                BandRule::Reseparation(table) => self.reseparate(table, &band.samples, width),
+                BandRule::BlackOnly(curve) => curve.apply(info, &band.samples),
+            };
+            stats += InkStats::of_samples(&cmyk, tac);
+            separate += t.elapsed();
+            sink(cmyk)?;
+            tick();
+        }
+        if rows != info.height {
+            return Err(Error::Internal(format!("{rows} of {} rows were read", info.height)));
+        }
+        Ok((stats, read, separate))
+    }
+
+    /// Opens the composite and plate files of `stem` in `out` for `info`'s picture.
+    fn open_outputs<'w>(&'w self, out: &OutputSet, stem: &str, info: &RasterInfo) -> Result<OutputFiles<'w>> {
+        let tiff = TiffOptions {
+            compression: self.options.compression,
+            resolution: info.resolution,
+            icc_profile: Some(self.output_profile()?),
+        };
+        let (w, h, bits) = (info.width, info.height, self.options.bits);
+        let begun = |file: &OpenFile, r: std::io::Result<FileWriter<'w>>| r.map_err(|e| file.error(&e));
+        let (writer, file) = out.open(&format!("{stem}.cmyk.tif"))?;
+        let composite = begun(&file, TiffStripWriter::begin(writer, w, h, bits, None, &tiff).map(FileWriter::Tiff))?;
+        let mut files = vec![(file, composite)];
+        for ink in Ink::ALL {
+            let (name, begin): (String, &dyn Fn(StagedWriter) -> std::io::Result<FileWriter<'w>>) = match self.options.plates {
+                PlateFormat::Tiff => (format!("{stem}.{}.tif", ink.letter()), &|writer| {
+                    TiffStripWriter::begin(writer, w, h, bits, Some(ink), &tiff).map(FileWriter::Tiff)
+                }),
+                PlateFormat::Png => (format!("{stem}.{}.png", ink.letter()), &|writer| {
+                    PngPlateWriter::begin(writer, w, h, ink, info.resolution).map(FileWriter::Png)
+                }),
+                PlateFormat::None => continue,
+            };
+            let (writer, file) = out.open(&name)?;
+            let plate = begun(&file, begin(writer))?;
+            files.push((file, plate));
+        }
+        Ok(OutputFiles { files })
     }
 
     /// Writes the composite, the plates and the summary of a separated file as
@@ -598,42 +821,61 @@ impl Workshop {
     /// [`Workshop::write_outputs`] into another folder than the job's `out_dir`,
     /// with the summary naming the outputs under `place.listed_dir` and the
     /// input as `place.input_shown` (the hot folder writes into a staging
-    /// folder that is renamed when complete).
+    /// folder that is renamed when complete). The image goes through the same
+    /// band writers as [`Workshop::run`].
     pub fn write_outputs_in(&self, path: &Path, separated: &SeparatedFile, started: Instant, place: &OutputPlace) -> Result<JobSummary> {
         let SeparatedFile { raster, image, stats, .. } = separated;
         let t = Instant::now();
-        let stem = output_stem(path).to_string();
         let mut out = OutputSet::new(place.dir, self.options.overwrite)?;
         out.protect([path]);
-        let (icc, profile_source) = self.output_profile_from()?;
-        let mut notes = separated.notes.clone();
-        notes.extend(self.profile_notes.lock().map(|mut n| std::mem::take(&mut *n)).unwrap_or_default());
-        let tiff = TiffOptions {
-            compression: self.options.compression,
-            resolution: raster.resolution,
-            icc_profile: Some(icc),
-        };
-        // The composite and the plates are written at the same time, one file per thread.
-        let mut files: Vec<(String, crate::raster::StageFn)> = vec![(
-            format!("{stem}.cmyk.tif"),
-            Box::new(|w| crate::raster::write_cmyk_tiff(w, image, &tiff)),
-        )];
-        for ink in Ink::ALL {
-            let tiff = &tiff;
-            match self.options.plates {
-                PlateFormat::Tiff => files.push((
-                    format!("{stem}.{}.tif", ink.letter()),
-                    Box::new(move |w| crate::raster::write_plate_tiff(w, image, ink, tiff)),
-                )),
-                PlateFormat::Png => files.push((
-                    format!("{stem}.{}.png", ink.letter()),
-                    Box::new(move |w| crate::raster::write_plate_png(w, image, ink, raster.resolution)),
-                )),
-                PlateFormat::None => {}
-            }
+        let info = RasterBands::new(raster).info;
+        let mut files = self.open_outputs(&out, output_stem(path), &info)?;
+        let row = image.width as usize * 4;
+        let band = self.band_rows_for(&info) as usize * row;
+        match &image.samples {
+            Samples::U8(v) => v.chunks(band).try_for_each(|b| files.push(&Samples::U8(b.to_vec())))?,
+            Samples::U16(v) => v.chunks(band).try_for_each(|b| files.push(&Samples::U16(b.to_vec())))?,
         }
-        out.stage_parallel(files)?;
-        let res = raster.resolution.unwrap_or(Resolution::DEFAULT);
+        files.finish(&mut out)?;
+        let described = Described {
+            source_description: &separated.source_description,
+            notes: &separated.notes,
+            compressed_from: separated.compressed_from,
+        };
+        let timings = Timings {
+            read_ms: separated.read_ms,
+            table_ms: separated.table_ms,
+            separate_ms: separated.separate_ms,
+            write_ms: 0.0,
+            total_ms: 0.0,
+            table_source: separated.table_source,
+            profile_source: Origin::Built,
+        };
+        self.finish_set(out, place, &info, &described, stats, timings, t.elapsed(), started)
+    }
+
+    /// Stages the summary beside the written files and commits the set;
+    /// `writing` is the time the files took.
+    #[allow(clippy::too_many_arguments)]
+    fn finish_set(
+        &self,
+        mut out: OutputSet,
+        place: &OutputPlace,
+        info: &RasterInfo,
+        described: &Described,
+        stats: &InkStats,
+        timings: Timings,
+        writing: Duration,
+        started: Instant,
+    ) -> Result<JobSummary> {
+        let t = Instant::now();
+        let stem = output_stem(place.input_shown).to_string();
+        let res = info.resolution.unwrap_or(Resolution::DEFAULT);
+        let mut timings = timings;
+        timings.profile_source = self.output_profile_from()?.1;
+        // The cache's notes about the embedded profile go into the run's first summary.
+        let mut notes = described.notes.to_vec();
+        notes.extend(self.profile_notes.lock().map(|mut n| std::mem::take(&mut *n)).unwrap_or_default());
         let listed = |name: &std::ffi::OsStr| place.listed_dir.join(name).display().to_string();
         let mut outputs: Vec<String> = out.staged().iter().filter_map(|p| p.file_name().map(listed)).collect();
         let summary_name = crate::report::export::SUMMARY_JSON.file_name(&stem);
@@ -642,13 +884,13 @@ impl Workshop {
         let mut summary = JobSummary {
             file: place.input_shown.display().to_string(),
             outputs,
-            width: raster.width,
-            height: raster.height,
+            width: info.width,
+            height: info.height,
             resolution_ppi: [round_to(res.x_ppi, 2), round_to(res.y_ppi, 2)],
-            input: format!("{} {:?} {}-bit", raster.format.name(), raster.layout, raster.bits),
-            source: separated.source_description.clone(),
+            input: format!("{} {:?} {}-bit", info.format.name(), info.layout, info.bits),
+            source: described.source_description.to_string(),
             notes,
-            settings: self.settings_of(separated),
+            settings: self.settings_with(described.compressed_from),
             bits: self.options.bits,
             plates: Ink::ALL
                 .iter()
@@ -665,18 +907,10 @@ impl Workshop {
                 mean: round_to(stats.tac_sum / px * 100.0, 1),
                 over_fraction: stats.over as f64 / px,
             },
-            timings: Timings {
-                read_ms: separated.read_ms,
-                table_ms: separated.table_ms,
-                separate_ms: separated.separate_ms,
-                write_ms: 0.0,
-                total_ms: 0.0,
-                table_source: separated.table_source,
-                profile_source,
-            },
+            timings,
             note: crate::report::PREDICTION_NOTE,
         };
-        summary.timings.write_ms = ms(t);
+        summary.timings.write_ms = round_to((writing + t.elapsed()).as_secs_f64() * 1000.0, 1);
         summary.timings.total_ms = ms(started);
         crate::report::export::stage(&mut out, &stem, &summary, &crate::report::export::SUMMARY_JSON)?;
         out.commit()?;
@@ -710,24 +944,111 @@ impl Workshop {
         }
     }
 
-    /// Gray on black only: black whose printed lightness matches the gray's
-    /// (its lightness as a neutral of `source`).
-    fn gray_to_black(&self, raster: &Raster, source: &RgbSource) -> Samples {
-        let sep = &self.separator;
+    /// CMYK input re-separated at the job's depth.
+    fn reseparate(&self, table: &crate::separation::ReseparationTable, cmyk: &Samples, width: usize) -> Samples {
+        let pixels = cmyk.len() / 4;
+        match (cmyk, self.options.bits) {
+            (Samples::U8(v), 8) => {
+                let mut out = vec![0u8; pixels * 4];
+                table.apply_cmyk8(v, &mut out, width);
+                Samples::U8(out)
+            }
+            (Samples::U8(v), _) => {
+                let wide: Vec<u16> = v.iter().map(|&x| x as u16 * 257).collect();
+                let mut out = vec![0u16; pixels * 4];
+                table.apply_cmyk16(&wide, &mut out, width);
+                Samples::U16(out)
+            }
+            (Samples::U16(v), bits) => {
+                let mut out = vec![0u16; pixels * 4];
+                table.apply_cmyk16(v, &mut out, width);
+                if bits == 16 {
+                    Samples::U16(out)
+                } else {
+                    Samples::U8(table.narrow_to_8bit(&out))
+                }
+            }
+        }
+    }
+}
+
+/// Bytes of samples per band aimed at: large enough that every band keeps
+/// both cores busy (dozens of strips to compress), small enough that a
+/// job's memory stays far below the picture's.
+pub const BAND_BYTES: usize = 8 << 20;
+
+/// How the rows of one file become CMYK, prepared once per file and applied band by band.
+enum BandRule {
+    /// RGB (and gray as neutrals) through a separation table.
+    Table(Arc<SeparationTable>),
+    /// CMYK re-separated from the source condition.
+    Reseparation(Arc<crate::separation::ReseparationTable>),
+    /// Gray on the black plate only.
+    BlackOnly(GrayToBlack),
+}
+
+/// A file's separation, prepared before its first band.
+struct Prepared {
+    rule: BandRule,
+    rgb_source: Option<RgbSource>,
+    compressed_from: Option<CompressFrom>,
+    source_description: String,
+    notes: Vec<String>,
+    table_ms: f64,
+    /// Where the separation table came from (`None` when there was none).
+    table_source: Option<Origin>,
+}
+
+impl Prepared {
+    fn described(&self) -> Described<'_> {
+        Described {
+            source_description: &self.source_description,
+            notes: &self.notes,
+            compressed_from: self.compressed_from,
+        }
+    }
+}
+
+/// What the summary says of a file's source.
+struct Described<'a> {
+    source_description: &'a str,
+    notes: &'a [String],
+    compressed_from: Option<CompressFrom>,
+}
+
+/// Gray on black only: black whose printed lightness matches the gray's (its
+/// lightness as a neutral of the source).
+struct GrayToBlack {
+    curve: BlackOnlyCurve,
+    k_max: f64,
+    pure: bool,
+    caps: InkCaps,
+    bits: u8,
+}
+
+impl GrayToBlack {
+    fn new(sep: &Separator, source: &RgbSource, bits: u8) -> GrayToBlack {
         let top = BLACK_CURVE_STEPS - 1;
         let grays: Vec<[f64; 3]> = (0..=top).map(|i| [i as f64 / top as f64; 3]).collect();
         // The curve runs from paper (white) toward black.
         let lightness: Vec<Option<f64>> = source.labs_of(&grays).iter().rev().map(|lab| Some(lab.l)).collect();
-        let curve = BlackOnlyCurve::new(sep, &lightness);
-        let k_max = sep.settings().black.black_max;
-        let max_in = raster.max_value() as f64;
-        let channels = raster.channels();
-        let k_at = |v: f64| curve.coverage(top - ((v / max_in) * top as f64).round() as usize);
-        let bits = self.options.bits;
-        let pure = sep.settings().keep_pure_black;
-        // Rounded to the nearest code, but never over the maximum black.
-        let caps = InkCaps::of(sep.settings());
-        let gray: Vec<f64> = match &raster.samples {
+        GrayToBlack {
+            curve: BlackOnlyCurve::new(sep, &lightness),
+            k_max: sep.settings().black.black_max,
+            pure: sep.settings().keep_pure_black,
+            // Rounded to the nearest code, but never over the maximum black.
+            caps: InkCaps::of(sep.settings()),
+            bits,
+        }
+    }
+
+    /// One band of gray (alpha flattened onto white) as CMYK with black only.
+    fn apply(&self, info: &RasterInfo, samples: &Samples) -> Samples {
+        let top = BLACK_CURVE_STEPS - 1;
+        let max_in = info.max_value() as f64;
+        let channels = info.channels();
+        let k_at = |v: f64| self.curve.coverage(top - ((v / max_in) * top as f64).round() as usize);
+        let gray: Vec<f64> = match samples {
             Samples::U8(v) => v
                 .chunks_exact(channels)
                 .map(|p| flatten_gray(p[0] as f64, p.get(1).map(|&a| a as f64), max_in))
@@ -737,12 +1058,115 @@ impl Workshop {
                 .map(|p| flatten_gray(p[0] as f64, p.get(1).map(|&a| a as f64), max_in))
                 .collect(),
         };
-        let k: Vec<f64> = gray.par_iter().map(|&g| if pure && g == 0.0 { k_max } else { k_at(g) }).collect();
-        if bits == 8 {
-            Samples::U8(k.iter().flat_map(|&k| [0, 0, 0, caps.black_code::<u8>(k) as u8]).collect())
+        let k: Vec<f64> = gray
+            .par_iter()
+            .map(|&g| if self.pure && g == 0.0 { self.k_max } else { k_at(g) })
+            .collect();
+        if self.bits == 8 {
+            Samples::U8(k.iter().flat_map(|&k| [0, 0, 0, self.caps.black_code::<u8>(k) as u8]).collect())
         } else {
-            Samples::U16(k.iter().flat_map(|&k| [0, 0, 0, caps.black_code::<u16>(k) as u16]).collect())
+            Samples::U16(k.iter().flat_map(|&k| [0, 0, 0, self.caps.black_code::<u16>(k) as u16]).collect())
         }
+    }
+}
+
+/// The composite and plate files of one job, written band by band.
+struct OutputFiles<'w> {
+    files: Vec<(OpenFile, FileWriter<'w>)>,
+}
+
+// At most five per job: their size does not matter.
+#[allow(clippy::large_enum_variant)]
+enum FileWriter<'w> {
+    Tiff(TiffStripWriter<'w, StagedWriter>),
+    Png(PngPlateWriter<StagedWriter>),
+}
+
+impl OutputFiles<'_> {
+    /// Hands the next rows of CMYK to every file, the files in parallel.
+    fn push(&mut self, cmyk: &Samples) -> Result<()> {
+        self.files
+            .par_iter_mut()
+            .map(|(file, writer)| {
+                match writer {
+                    FileWriter::Tiff(w) => w.push(cmyk),
+                    FileWriter::Png(w) => w.push(cmyk),
+                }
+                .map_err(|e| file.error(&e))
+            })
+            .collect()
+    }
+
+    /// Ends every file and adds it to `out`.
+    fn finish(self, out: &mut OutputSet) -> Result<()> {
+        let finished: Vec<Result<OpenFile>> = self
+            .files
+            .into_par_iter()
+            .map(|(file, writer)| {
+                match writer {
+                    FileWriter::Tiff(w) => w.finish().map(drop),
+                    FileWriter::Png(w) => w.finish(),
+                }
+                .map_err(|e| file.error(&e))
+                .map(|()| file)
+            })
+            .collect();
+        for file in finished {
+            out.keep(file?)?;
+        }
+        Ok(())
+    }
+}
+
+/// A raster in memory served as bands of rows without copying it whole.
+struct RasterBands<'a> {
+    raster: &'a Raster,
+    info: RasterInfo,
+    next_row: u32,
+}
+
+impl<'a> RasterBands<'a> {
+    fn new(raster: &'a Raster) -> RasterBands<'a> {
+        let info = RasterInfo {
+            width: raster.width,
+            height: raster.height,
+            layout: raster.layout,
+            bits: raster.bits,
+            icc_profile: raster.icc_profile.clone(),
+            resolution: raster.resolution,
+            colour_chunks: raster.colour_chunks.clone(),
+            format: raster.format,
+            notes: raster.notes.clone(),
+            line_art: raster.line_art,
+        };
+        RasterBands { raster, info, next_row: 0 }
+    }
+}
+
+impl BandSource for RasterBands<'_> {
+    fn info(&self) -> &RasterInfo {
+        &self.info
+    }
+
+    fn next_band(&mut self, max_rows: u32) -> Result<Option<RowBand>> {
+        if self.next_row >= self.info.height {
+            return Ok(None);
+        }
+        let y = self.next_row;
+        let rows = max_rows.max(1).min(self.info.height - y);
+        let n = self.info.row_len();
+        let range = y as usize * n..(y + rows) as usize * n;
+        let samples = match &self.raster.samples {
+            Samples::U8(v) => Samples::U8(v[range].to_vec()),
+            Samples::U16(v) => Samples::U16(v[range].to_vec()),
+        };
+        self.next_row = y + rows;
+        Ok(Some(RowBand { y, rows, samples }))
+    }
+
+    fn rewind(&mut self) -> Result<()> {
+        self.next_row = 0;
+        Ok(())
     }
 }
 
@@ -782,7 +1206,13 @@ pub fn picture_gamut(source: &RgbSource, rgb: &Samples) -> crate::separation::Pi
         Samples::U8(v) => crate::separation::distinct_colours(v),
         Samples::U16(v) => crate::separation::distinct_colours(v),
     };
-    crate::separation::PictureGamut::from_colours(&source.labs_of(&distinct))
+    colours_gamut(source, &distinct)
+}
+
+/// The gamut of a picture from its distinct colours, gathered before
+/// ([`crate::separation::DistinctColours`], a band at a time in a streamed job).
+pub fn colours_gamut(source: &RgbSource, distinct: &[[f64; 3]]) -> crate::separation::PictureGamut {
+    crate::separation::PictureGamut::from_colours(&source.labs_of(distinct))
 }
 
 fn flatten_gray(g: f64, alpha: Option<f64>, max: f64) -> f64 {
@@ -807,6 +1237,18 @@ fn strip_path(e: &Error, path: &Path) -> String {
 /// Interleaved RGB at the raster's depth: alpha flattened onto paper white
 /// (source white), gray expanded to neutral RGB. `None` for CMYK.
 pub fn to_rgb<'a>(raster: &'a Raster, notes: &mut Vec<String>) -> Option<Cow<'a, Samples>> {
+    if raster.layout == Layout::Cmyk {
+        return None;
+    }
+    if raster.layout.has_alpha() {
+        notes.push("alpha flattened onto paper white".into());
+    }
+    Some(band_rgb(raster.layout, &raster.samples))
+}
+
+/// Interleaved samples of `layout` (not CMYK) as interleaved RGB at the same
+/// depth: alpha flattened onto paper white, gray expanded to neutral RGB.
+fn band_rgb(layout: Layout, samples: &Samples) -> Cow<'_, Samples> {
     fn convert<T: Copy + Into<u32> + TryFrom<u32> + Default + Send + Sync>(v: &[T], layout: Layout, max: u32) -> Vec<T> {
         let ch = layout.channels();
         // `max` is the type's own largest value, so the clamped sample always fits.
@@ -826,15 +1268,9 @@ pub fn to_rgb<'a>(raster: &'a Raster, notes: &mut Vec<String>) -> Option<Cow<'a,
             })
             .collect()
     }
-    if raster.layout == Layout::Cmyk {
-        return None;
+    match samples {
+        _ if layout == Layout::Rgb => Cow::Borrowed(samples),
+        Samples::U8(v) => Cow::Owned(Samples::U8(convert(v, layout, 255))),
+        Samples::U16(v) => Cow::Owned(Samples::U16(convert(v, layout, 65535))),
     }
-    if raster.layout.has_alpha() {
-        notes.push("alpha flattened onto paper white".into());
-    }
-    Some(match &raster.samples {
-        _ if raster.layout == Layout::Rgb => Cow::Borrowed(&raster.samples),
-        Samples::U8(v) => Cow::Owned(Samples::U8(convert(v, raster.layout, 255))),
-        Samples::U16(v) => Cow::Owned(Samples::U16(convert(v, raster.layout, 65535))),
-    })
 }

@@ -353,8 +353,8 @@ impl JobInput {
         let compression = match kind {
             JobKind::Separate => self.compression.unwrap_or(match t.output.compression.as_deref() {
                 Some("none") => Compression::None,
-                Some("deflate") => Compression::Deflate,
-                _ => Compression::Lzw,
+                Some("lzw") => Compression::Lzw,
+                _ => Compression::Deflate,
             }),
             JobKind::Inspect | JobKind::Proof => Compression::None,
         };

@@ -70,7 +70,7 @@ pub struct OutputSection {
     /// "tiff", "png" or "none".
     #[serde(skip_serializing_if = "Option::is_none")]
     pub plates: Option<String>,
-    /// "none", "lzw" or "deflate".
+    /// "none", "lzw" or "deflate" (the default).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub compression: Option<String>,
 }

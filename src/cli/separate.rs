@@ -9,10 +9,14 @@ use crate::setup::{JobInput, JobKind, JobSetup};
 use clap::Args;
 use std::path::PathBuf;
 
+/// TIFF strip compression, as typed on the command line.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
 pub enum CompressionArg {
+    /// Uncompressed: the fastest to write and read, the largest files.
     None,
+    /// LZW: read by every TIFF reader, old RIPs included; slow to write, larger than deflate.
     Lzw,
+    /// Deflate (zlib): the smallest files and fast to write; read by current software, not by some old RIPs.
     Deflate,
 }
 
@@ -88,7 +92,8 @@ pub struct SeparateArgs {
     /// Plate files to write. Default: tiff.
     #[arg(long, value_enum)]
     pub plates: Option<PlateFormatArg>,
-    /// TIFF compression. Default: lzw.
+    /// TIFF compression: deflate (smallest, fast), lzw (most widely read, slow), none
+    /// (largest, fastest). Default: deflate.
     #[arg(long, value_enum)]
     pub compression: Option<CompressionArg>,
     /// Grayscale input: separate as neutrals, or on the black plate only. Default: neutral.
@@ -152,11 +157,22 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
             .collect()
     })?;
     let workshop = job.workshop()?;
-    let progress = progress_bar(args.inputs.len() as u64);
+    // One file: the bar follows its bands (through both passes when the
+    // table is built from the picture's colours); several: it counts files.
+    let single = args.inputs.len() == 1;
+    let progress = progress_bar(args.inputs.len() as u64, if single { "bands" } else { "files" });
     let (mut done, mut failed) = (0usize, 0usize);
     for input in &args.inputs {
         progress.set_message(input.display().to_string());
-        match workshop.run(input) {
+        let result = if single && !progress.is_hidden() {
+            workshop.run_with_progress(input, &|bands_done, bands| {
+                progress.set_length(bands);
+                progress.set_position(bands_done);
+            })
+        } else {
+            workshop.run(input)
+        };
+        match result {
             Ok(s) => {
                 done += 1;
                 let [c, m, y, k] = [0, 1, 2, 3].map(|i| s.plates[i].mean_percent);
@@ -179,7 +195,9 @@ pub fn run(args: SeparateArgs) -> Result<i32> {
                 say(&progress, format!("platesmith: {e}"));
             }
         }
-        progress.inc(1);
+        if !single {
+            progress.inc(1);
+        }
     }
     progress.finish_and_clear();
     if args.inputs.len() > 1 {
@@ -199,13 +217,13 @@ fn say(bar: &indicatif::ProgressBar, line: String) {
     }
 }
 
-fn progress_bar(len: u64) -> indicatif::ProgressBar {
+fn progress_bar(len: u64, unit: &str) -> indicatif::ProgressBar {
     use std::io::IsTerminal;
     if !std::io::stderr().is_terminal() {
         return indicatif::ProgressBar::hidden();
     }
     let bar = indicatif::ProgressBar::new(len);
-    if let Ok(style) = indicatif::ProgressStyle::with_template("{pos}/{len} [{bar:30}] {wide_msg}") {
+    if let Ok(style) = indicatif::ProgressStyle::with_template(&format!("{{pos}}/{{len}} {unit} [{{bar:30}}] {{wide_msg}}")) {
         bar.set_style(style.progress_chars("=> "));
     }
     bar

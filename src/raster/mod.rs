@@ -31,9 +31,12 @@ mod write;
 
 pub use bands::{BandSource, RasterInfo, RowBand, WholeRaster, open_bands};
 pub use orient::Orientation;
-pub use output::{OutputSet, StageFn, StagedWriter};
+pub use output::{OpenFile, OutputSet, StageFn, StagedWriter};
 pub use read::{decoder_panic_is_caught, read_raster, read_raster_bytes, read_raster_bytes_with, read_raster_with};
-pub use write::{Compression, TiffOptions, write_cmyk_tiff, write_plate_png, write_plate_tiff};
+pub use write::{
+    BIGTIFF_ABOVE_ENV, Compression, PngPlateWriter, TiffOptions, TiffStripWriter, bigtiff_threshold, write_cmyk_tiff, write_plate_png,
+    write_plate_tiff,
+};
 
 #[doc(hidden)]
 pub use output::FAIL_AFTER_ENV;

@@ -45,6 +45,27 @@ struct Staged {
     target: PathBuf,
 }
 
+/// A file opened in the set by [`OutputSet::open`] and written over time (a
+/// streamed job writes each band as it comes): its temporary file is removed
+/// when this is dropped, unless [`OutputSet::keep`] took it into the set.
+#[derive(Debug)]
+pub struct OpenFile {
+    temp: tempfile::TempPath,
+    target: PathBuf,
+}
+
+impl OpenFile {
+    /// Where the file will be after the set is committed.
+    pub fn target(&self) -> &Path {
+        &self.target
+    }
+
+    /// A write failure of this file as the job's error, naming its final path.
+    pub fn error(&self, e: &io::Error) -> Error {
+        Error::output(&self.target, describe(e))
+    }
+}
+
 /// One file's writing closure for [`OutputSet::stage_parallel`].
 pub type StageFn<'f> = Box<dyn FnOnce(&mut StagedWriter) -> io::Result<()> + Send + 'f>;
 
@@ -253,6 +274,30 @@ impl OutputSet {
             targets.push(target);
         }
         Ok(targets)
+    }
+
+    /// Opens `file_name` for writing over time: the name is checked as
+    /// [`stage`](Self::stage) checks it and its temporary file made now. Write
+    /// through the returned writer (flushing it), then hand the file to
+    /// [`keep`](Self::keep); a file dropped instead leaves nothing.
+    pub fn open(&self, file_name: &str) -> Result<(StagedWriter, OpenFile)> {
+        let target = self.check(file_name)?;
+        let (writer, temp) = self.create_temp(file_name, &target)?;
+        Ok((writer, OpenFile { temp, target }))
+    }
+
+    /// Adds a file opened by [`open`](Self::open) and completely written to the set;
+    /// returns its final path.
+    pub fn keep(&mut self, file: OpenFile) -> Result<PathBuf> {
+        if self.staged.iter().any(|s| s.target == file.target) {
+            return Err(Error::output(&file.target, "is produced twice by this job"));
+        }
+        let target = file.target.clone();
+        self.staged.push(Staged {
+            temp: file.temp,
+            target: file.target,
+        });
+        Ok(target)
     }
 
     /// The temporary file for `file_name` in the destination folder and its writer.

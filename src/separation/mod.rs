@@ -24,7 +24,7 @@ pub use frame::{AbsoluteLab, IntentLab, LabIn, RelativeLab};
 pub use gamut::{GamutBoundary, PerceptualMap, RgbGamut, SourceGamut};
 pub use intent::SourceMapping;
 pub use inversion::WarmStart;
-pub use picture::{PictureGamut, RgbCode, distinct_colours};
+pub use picture::{DistinctColours, PictureGamut, RgbCode, distinct_colours};
 pub use printable::IN_GAMUT_TOLERANCE;
 pub use reseparation::{CmykSourceGamut, DEFAULT_RESEPARATION_GRID, RESEPARATION_GRID_RANGE, ReseparationTable};
 pub use simd::PixelKernel;

@@ -97,34 +97,66 @@ const BIN_BITS: u32 = 6;
 /// one per occupied bin of 4 × 4 × 4 eight-bit codes, the bin's most
 /// colourful value.
 pub fn distinct_colours<T: RgbCode>(rgb: &[T]) -> Vec<[f64; 3]> {
-    let bins = 1usize << (3 * BIN_BITS);
-    let shift = 8 - BIN_BITS;
-    let fold = |mut acc: Vec<u64>, px: &[T]| {
-        let (r, g, b) = (px[0].code8(), px[1].code8(), px[2].code8());
-        let key = (((r >> shift) << (2 * BIN_BITS)) | ((g >> shift) << BIN_BITS) | (b >> shift)) as usize;
-        let spread = r.max(g).max(b) - r.min(g).min(b);
-        let value = ((spread as u64) << 32) | (1 << 31) | ((r << 16) | (g << 8) | b) as u64;
-        acc[key] = acc[key].max(value);
-        acc
-    };
-    let merged = rgb
-        .par_chunks(3 * 4096)
-        .fold(|| vec![0u64; bins], |acc, chunk| chunk.chunks_exact(3).fold(acc, &fold))
-        .reduce(
-            || vec![0u64; bins],
-            |mut a, b| {
-                a.iter_mut().zip(b).for_each(|(x, y)| *x = (*x).max(y));
-                a
-            },
-        );
-    merged
-        .into_iter()
-        .filter(|&v| v != 0)
-        .map(|v| {
-            let rgb = (v & 0xff_ffff) as u32;
-            [(rgb >> 16) & 255, (rgb >> 8) & 255, rgb & 255].map(|c| c as f64 / 255.0)
-        })
-        .collect()
+    let mut colours = DistinctColours::new();
+    colours.add(rgb);
+    colours.colours()
+}
+
+/// [`distinct_colours`] gathered a part of the picture at a time (a streamed job
+/// adds each band of rows): each bin keeps the largest of its pixels' keys, so
+/// the result does not depend on how the picture was cut.
+#[derive(Debug, Clone)]
+pub struct DistinctColours {
+    bins: Vec<u64>,
+}
+
+impl Default for DistinctColours {
+    fn default() -> Self {
+        DistinctColours::new()
+    }
+}
+
+impl DistinctColours {
+    pub fn new() -> DistinctColours {
+        DistinctColours {
+            bins: vec![0; 1 << (3 * BIN_BITS)],
+        }
+    }
+
+    /// Adds interleaved RGB samples (whole pixels).
+    pub fn add<T: RgbCode>(&mut self, rgb: &[T]) {
+        let bins = 1usize << (3 * BIN_BITS);
+        let shift = 8 - BIN_BITS;
+        let fold = |mut acc: Vec<u64>, px: &[T]| {
+            let (r, g, b) = (px[0].code8(), px[1].code8(), px[2].code8());
+            let key = (((r >> shift) << (2 * BIN_BITS)) | ((g >> shift) << BIN_BITS) | (b >> shift)) as usize;
+            let spread = r.max(g).max(b) - r.min(g).min(b);
+            let value = ((spread as u64) << 32) | (1 << 31) | ((r << 16) | (g << 8) | b) as u64;
+            acc[key] = acc[key].max(value);
+            acc
+        };
+        let merge = |mut a: Vec<u64>, b: Vec<u64>| {
+            a.iter_mut().zip(b).for_each(|(x, y)| *x = (*x).max(y));
+            a
+        };
+        let part = rgb
+            .par_chunks(3 * 4096)
+            .fold(|| vec![0u64; bins], |acc, chunk| chunk.chunks_exact(3).fold(acc, &fold))
+            .reduce(|| vec![0u64; bins], merge);
+        self.bins = merge(std::mem::take(&mut self.bins), part);
+    }
+
+    /// The colours gathered, one per occupied bin, as fractions 0..1.
+    pub fn colours(&self) -> Vec<[f64; 3]> {
+        self.bins
+            .iter()
+            .filter(|&&v| v != 0)
+            .map(|&v| {
+                let rgb = (v & 0xff_ffff) as u32;
+                [(rgb >> 16) & 255, (rgb >> 8) & 255, rgb & 255].map(|c| c as f64 / 255.0)
+            })
+            .collect()
+    }
 }
 
 #[cfg(test)]

@@ -117,7 +117,14 @@ fn a_failed_write_leaves_no_partial_file() {
     set.fail_writes_after(10_000);
     let target = dir.path().join("job.cmyk.tif");
     let m = output_message(
-        set.stage("job.cmyk.tif", |w| write_cmyk_tiff(w, &img, &TiffOptions::default())),
+        // Uncompressed, so the 80 000 bytes of samples pass the forced limit.
+        set.stage("job.cmyk.tif", |w| {
+            let options = TiffOptions {
+                compression: Compression::None,
+                ..TiffOptions::default()
+            };
+            write_cmyk_tiff(w, &img, &options)
+        }),
         &target,
     );
     assert!(m.contains("disk full"), "{m}");
