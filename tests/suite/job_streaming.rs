@@ -96,7 +96,7 @@ fn write_cmyk(path: &Path, bits: u8) {
 fn workshop(dir: &Path) -> Workshop {
     let ticket = dir.join("small-table.toml");
     std::fs::write(&ticket, "[model]\ntable_grid = 17\n").unwrap();
-    platesmith::setup::ticket_workshop(Some(&ticket)).unwrap().0
+    platesmith::setup::ticket_workshop(Some(&ticket), false).unwrap().0
 }
 
 fn files_of(dir: &Path) -> Vec<(String, Vec<u8>)> {
@@ -251,7 +251,7 @@ fn fail_late(ticket: &str) -> (Error, u64, bool, bool) {
     std::fs::create_dir_all(&out).unwrap();
     let ticket_path = dir.path().join("job.toml");
     std::fs::write(&ticket_path, ticket).unwrap();
-    let shop = platesmith::setup::ticket_workshop(Some(&ticket_path)).unwrap().0.with_band_rows(16);
+    let shop = platesmith::setup::ticket_workshop(Some(&ticket_path), false).unwrap().0.with_band_rows(16);
     let raster = read_raster(&input, &platesmith::raster::Limits::default()).unwrap();
     let bands = FailingBands {
         inner: WholeRaster::new(raster),
