@@ -24,6 +24,7 @@ mod colour_lcms2;
 mod colour_reference;
 mod colour_standards;
 mod icc_profile;
+mod inspect_bands;
 mod png_colour;
 mod press_builtin;
 mod press_characterization;
