@@ -179,7 +179,9 @@ fn codes(colours: &[[f64; 3]]) -> Vec<u8> {
     colours.iter().flat_map(|c| c.map(|v| (v * 255.0).round() as u8)).collect()
 }
 
-/// A band of source RGB through `table` at the job's depth, as the job applies it.
+/// A band of source RGB through `table` at the job's depth, as the job
+/// applies it to a whole picture (the job keeps its own application private;
+/// this is the same four cases, a band at a time).
 fn apply(table: &SeparationTable, rgb: &Samples, width: usize, bits: u8) -> Samples {
     let pixels = rgb.len() / 3;
     match (rgb, bits) {
