@@ -3,13 +3,14 @@
 //! colours, the figures of the report ([`super::schema`]), the maps, and the
 //! verdict of the rules ([`super::rules`]).
 
-use super::delta_e::{DeModel, cmyk_key, cmyk_of_key, rgb_at, rgb_key};
-use super::pixels::{Band, Cell, Pass, Tally};
-use super::regions::{self, Region, Run};
+use super::delta_e::{DeModel, cmyk_of_key, rgb_of_key};
+use super::feed::Feed;
+use super::pixels::{BandIn, Cell, Pass, RegionRules, Scan, Scanned, Tally};
+use super::regions::Region;
 use super::schema::*;
 use super::{DE_BIN, InspectOptions, Inspection, KINDS, MapData, Subject, ms, rules};
 use crate::colour::{Lab, RgbSpace};
-use crate::error::Result;
+use crate::error::{Error, Result};
 use crate::ink::{Cmyk, Ink};
 use crate::job::{InkStats, TacSummary, Workshop};
 use crate::raster::{Layout, Resolution};
@@ -19,6 +20,11 @@ use rayon::prelude::*;
 use std::collections::BTreeMap;
 use std::path::Path;
 use std::time::Instant;
+
+/// Pixels per band when the options name no band height: about four
+/// million, so that a band's samples (source RGB, CMYK and what reading
+/// holds) stay within a few tens of megabytes whatever the picture's size.
+const BAND_PIXELS: usize = 1 << 22;
 
 /// Pixel size and the areas derived from it.
 struct Geometry {
@@ -34,9 +40,9 @@ struct Geometry {
 
 impl Geometry {
     fn of(subject: &Subject) -> Geometry {
-        let res = subject.raster.resolution.unwrap_or(Resolution::DEFAULT);
+        let res = subject.resolution.unwrap_or(Resolution::DEFAULT);
         let (mm_x, mm_y) = (25.4 / res.x_ppi, 25.4 / res.y_ppi);
-        let (w, h) = (subject.raster.width as usize, subject.raster.height as usize);
+        let (w, h) = (subject.width as usize, subject.height as usize);
         Geometry {
             res,
             mm_x,
@@ -52,45 +58,40 @@ impl Geometry {
     }
 }
 
-/// Regions found, per kind in [`KINDS`] order.
-struct Found {
-    /// The listed ones (the largest `max_regions` of each kind), with their kind's index.
-    listed: Vec<(usize, Region)>,
-    total: usize,
-    by_kind: BTreeMap<&'static str, usize>,
-}
-
 pub(super) fn analyse(
     workshop: &Workshop,
     path: &Path,
-    mut subject: Subject,
+    subject: Subject,
+    feed: &mut dyn Feed,
     opts: &InspectOptions,
     started: Instant,
 ) -> Result<Inspection> {
     let separator = &workshop.separator;
-    let t = Instant::now();
     let geometry = Geometry::of(&subject);
-    let de_model = match (subject.rgb, subject.source) {
-        (Some(rgb), Some(source)) => Some(DeModel::new(separator, source, rgb, subject.cmyk)),
-        _ => None,
-    };
-    let pass = Pass::new(subject.raster, subject.cmyk, separator, opts, subject.stats.is_none());
-    let mut tally = pass.run(subject.cmyk, de_model.as_ref());
-    let stats = subject.stats.take().unwrap_or_else(|| std::mem::take(&mut tally.ink));
-    let found = find_regions(&mut tally.bands, &geometry, opts);
+    let pass = Pass::new(subject.width, subject.height, subject.cmyk_bits, separator, opts, true);
+    let scanned = scan(&subject, &pass, feed, separator, &geometry, opts)?;
+    let t = Instant::now();
+    let Scanned {
+        mut tally,
+        regions,
+        cells,
+        samples,
+    } = scanned.pass;
+    let stats = std::mem::take(&mut tally.ink);
+    let found = Found::of(regions);
     let region_reports = describe_regions(&found.listed, &subject, separator, &geometry);
-    let gamut = de_model.as_ref().map(|m| gamut_summary(&tally, m, opts, &geometry));
+    let gamut = scanned.distinct.map(|distinct| gamut_summary(&tally, distinct, opts, &geometry));
     let (tac, plates) = ink_summaries(&stats, &tally, separator, &geometry);
     let ink_use = ink_use(&stats, separator, opts);
-    let out_of_gamut_labs = out_of_gamut_sample(&tally.bands, &subject);
-    let maps = opts.keep_maps.then(|| map_data(&tally.bands, &pass, separator, de_model.is_some()));
-    let analyse_ms = ms(t);
-    let raster = subject.raster;
+    let out_of_gamut_labs = out_of_gamut_sample(&samples, &subject);
+    let with_de = gamut.is_some();
+    let maps = opts.keep_maps.then(|| map_data(&cells, &pass, separator, with_de));
+    let analyse_ms = round_to(scanned.analyse_ms + t.elapsed().as_secs_f64() * 1000.0, 1);
     let mut report = InspectReport {
         file: path.display().to_string(),
-        kind: if raster.layout == Layout::Cmyk { "cmyk" } else { "rgb" },
-        width: raster.width,
-        height: raster.height,
+        kind: if subject.layout == Layout::Cmyk { "cmyk" } else { "rgb" },
+        width: subject.width,
+        height: subject.height,
         resolution_ppi: [round_to(geometry.res.x_ppi, 2), round_to(geometry.res.y_ppi, 2)],
         condition: separator.condition().name.clone(),
         source: subject.source_description,
@@ -106,8 +107,8 @@ pub(super) fn analyse(
         rules: Vec::new(),
         pass: true,
         timings: InspectTimings {
-            read_ms: subject.read_ms,
-            separate_ms: subject.separate_ms,
+            read_ms: feed.read_ms(),
+            separate_ms: feed.separate_ms(),
             analyse_ms,
             total_ms: ms(started),
         },
@@ -117,62 +118,127 @@ pub(super) fn analyse(
     Ok(Inspection {
         report,
         maps,
-        de_hist: de_model.as_ref().map(|_| std::mem::take(&mut tally.de_hist)),
+        de_hist: with_de.then(|| std::mem::take(&mut tally.de_hist)),
         tac_hist: stats.tac_hist.clone(),
         out_of_gamut_labs,
     })
 }
 
-/// The regions of each kind from the bands' runs (which are taken), specks
-/// under the minimum area dropped, rich black kept only in fine detail.
-fn find_regions(bands: &mut [Band], geometry: &Geometry, opts: &InspectOptions) -> Found {
-    let min_pixels = ((opts.min_area_mm2 / geometry.px_mm2).ceil() as u64).max(1);
-    let mut kind_rows: [Vec<Vec<Run>>; 4] = Default::default();
-    for band in bands {
-        for k in 0..4 {
-            kind_rows[k].append(&mut band.runs[k]);
-        }
-    }
-    let side = ((opts.rich_black_detail_mm / geometry.mm_x.min(geometry.mm_y)).round() as u32).max(2);
-    let mut found = Found {
-        listed: Vec::new(),
-        total: 0,
-        by_kind: KINDS.iter().map(|&kind| (kind, 0usize)).collect(),
+/// The pass over every band of the feed, and what it took.
+struct Scanning {
+    pass: Scanned,
+    /// RGB and gray input: the distinct 8-bit RGB values (0 for 16-bit).
+    distinct: Option<u64>,
+    /// Time in the pass itself (reading and separating apart), ms.
+    analyse_ms: f64,
+}
+
+fn scan(
+    subject: &Subject,
+    pass: &Pass,
+    feed: &mut dyn Feed,
+    separator: &Separator,
+    geometry: &Geometry,
+    opts: &InspectOptions,
+) -> Result<Scanning> {
+    let t = Instant::now();
+    let rules = RegionRules {
+        min_pixels: ((opts.min_area_mm2 / geometry.px_mm2).ceil() as u64).max(1),
+        keep: opts.max_regions,
+        detail_side: ((opts.rich_black_detail_mm / geometry.mm_x.min(geometry.mm_y)).round() as u32).max(2),
     };
-    for (k, rows) in kind_rows.iter().enumerate() {
-        let regions = regions::label(rows, min_pixels);
-        let regions: Vec<Region> = if k == 2 {
-            regions.into_par_iter().filter(|r| regions::is_fine_detail(r, side)).collect()
-        } else {
-            regions
-        };
-        *found.by_kind.entry(KINDS[k]).or_insert(0) += regions.len();
-        found.total += regions.len();
-        found.listed.extend(regions.into_iter().take(opts.max_regions).map(|r| (k, r)));
+    let mut model = subject.source.map(|source| DeModel::new(separator, source, subject.rgb_bits));
+    let mut scan = Scan::new(pass, &rules);
+    let w = subject.width as usize;
+    let rows = match opts.band_rows {
+        Some(n) => n.max(1),
+        None => (BAND_PIXELS / w.max(1)).div_ceil(pass.factor).max(1) as u32 * pass.factor as u32,
+    };
+    let mut outside = t.elapsed().as_secs_f64();
+    let mut next_row = 0u32;
+    loop {
+        let t_feed = Instant::now();
+        let Some(band) = feed.next(rows)? else { break };
+        outside += t_feed.elapsed().as_secs_f64();
+        let rgb_len = band.rgb.as_ref().map_or(0, |rgb| rgb.len());
+        let rgb_ok = band.rgb.is_none() || rgb_len == band.rows as usize * w * 3;
+        if band.y != next_row || band.cmyk.len() != band.rows as usize * w * 4 || !rgb_ok || band.y + band.rows > subject.height {
+            return Err(Error::Internal(format!(
+                "a band of rows {}..{} does not fit the picture ({} × {}, {} rows checked)",
+                band.y,
+                band.y + band.rows,
+                subject.width,
+                subject.height,
+                next_row
+            )));
+        }
+        next_row = band.y + band.rows;
+        if let (Some(m), Some(rgb)) = (model.as_mut(), band.rgb.as_ref()) {
+            m.prepare(rgb, &band.cmyk);
+        }
+        scan.band(&BandIn {
+            y: band.y as usize,
+            rows: band.rows as usize,
+            cmyk: &band.cmyk,
+            rgb: band.rgb.as_ref(),
+            model: model.as_ref(),
+        });
     }
-    found
+    if next_row != subject.height {
+        return Err(Error::Internal(format!(
+            "the picture ended after {next_row} of its {} rows",
+            subject.height
+        )));
+    }
+    Ok(Scanning {
+        pass: scan.finish(),
+        distinct: model.map(|m| if m.dense.is_some() { m.distinct } else { 0 }),
+        analyse_ms: (t.elapsed().as_secs_f64() - outside) * 1000.0,
+    })
+}
+
+/// Regions found, per kind in [`KINDS`] order.
+struct Found {
+    /// The listed ones (the largest `max_regions` of each kind), with their kind's index.
+    listed: Vec<(usize, Region)>,
+    total: usize,
+    by_kind: BTreeMap<&'static str, usize>,
+}
+
+impl Found {
+    fn of(regions: [(Vec<Region>, usize); 4]) -> Found {
+        let mut found = Found {
+            listed: Vec::new(),
+            total: 0,
+            by_kind: KINDS.iter().map(|&kind| (kind, 0usize)).collect(),
+        };
+        for (k, (listed, count)) in regions.into_iter().enumerate() {
+            *found.by_kind.entry(KINDS[k]).or_insert(0) += count;
+            found.total += count;
+            found.listed.extend(listed.into_iter().map(|r| (k, r)));
+        }
+        found
+    }
 }
 
 /// Each listed region as the report shows it: where, how large, how bad,
 /// and the colours of its worst pixel (for out-of-gamut regions, whether the
 /// colour is printable under the limits and what keeps it out).
 fn describe_regions(listed: &[(usize, Region)], subject: &Subject, separator: &Separator, geometry: &Geometry) -> Vec<RegionReport> {
-    let w = subject.raster.width as usize;
     let (mm_x, mm_y, px_mm2) = (geometry.mm_x, geometry.mm_y, geometry.px_mm2);
     listed
         .par_iter()
         .map(|(k, r)| {
             let (x, y) = r.max_at;
-            let i = y as usize * w + x as usize;
-            let ink = cmyk_of_key(cmyk_key(subject.cmyk, i));
+            let ink = cmyk_of_key(r.tag[0]);
             let printed = separator.printed_in_frame(ink).lab();
-            let (source_value, lab) = match (subject.rgb, subject.source) {
-                (Some(rgb), Some(src)) => {
-                    let max = if rgb.bits() == 8 { 255.0 } else { 65535.0 };
-                    let v = rgb_at(rgb, i);
+            let (source_value, lab) = match subject.source {
+                Some(src) => {
+                    let max = if subject.rgb_bits == 8 { 255.0 } else { 65535.0 };
+                    let v = rgb_of_key(r.tag[1], subject.rgb_bits);
                     (v.iter().map(|c| (c * max).round()).collect(), src.labs_of(&[v])[0])
                 }
-                _ => (ink.to_percent().iter().map(|&v| round_to(v, 1)).collect(), printed),
+                None => (ink.to_percent().iter().map(|&v| round_to(v, 1)).collect(), printed),
             };
             let (in_gamut, limited_by) = if *k == 0 {
                 let (inside, limits) = separator.gamut_check(separator.to_working(IntentLab::new(lab)));
@@ -211,7 +277,7 @@ fn describe_regions(listed: &[(usize, Region)], subject: &Subject, separator: &S
 }
 
 /// The ΔE figures and the share outside the gamut (RGB and gray input).
-fn gamut_summary(tally: &Tally, model: &DeModel, opts: &InspectOptions, geometry: &Geometry) -> GamutSummary {
+fn gamut_summary(tally: &Tally, distinct: u64, opts: &InspectOptions, geometry: &Geometry) -> GamutSummary {
     let px = geometry.px;
     let frac = |n: u64| geometry.share(n);
     GamutSummary {
@@ -232,7 +298,7 @@ fn gamut_summary(tally: &Tally, model: &DeModel, opts: &InspectOptions, geometry
         outside_fraction: frac(tally.outside_over),
         outside_mean_de: round_to(tally.outside_sum / px, 2),
         outside_max_de: round_to(tally.outside_max as f64, 2),
-        distinct_values: if model.dense.is_some() { model.distinct } else { 0 },
+        distinct_values: distinct,
     }
 }
 
@@ -259,23 +325,19 @@ fn ink_summaries(stats: &InkStats, tally: &Tally, separator: &Separator, geometr
 }
 
 /// The a*b* chart's points: distinct out-of-gamut source colours from the
-/// sample grid, at most about 1500 (RGB and gray input).
-fn out_of_gamut_sample(bands: &[Band], subject: &Subject) -> Vec<Lab> {
-    let (Some(rgb), Some(src)) = (subject.rgb, subject.source) else {
+/// sample grid (`keys`: their RGB keys), at most about 1500 (RGB and gray input).
+fn out_of_gamut_sample(keys: &[u64], subject: &Subject) -> Vec<Lab> {
+    let Some(src) = subject.source else {
         return Vec::new();
     };
-    let mut picked: Vec<usize> = bands.iter().flat_map(|b| b.samples.iter().copied()).collect();
-    let mut seen = std::collections::HashSet::new();
-    picked.retain(|&i| seen.insert(rgb_key(rgb, i)));
-    let stride = picked.len().div_ceil(1500).max(1);
-    let values: Vec<[f64; 3]> = picked.iter().step_by(stride).map(|&i| rgb_at(rgb, i)).collect();
+    let stride = keys.len().div_ceil(1500).max(1);
+    let values: Vec<[f64; 3]> = keys.iter().step_by(stride).map(|&k| rgb_of_key(k, subject.rgb_bits)).collect();
     src.labs_of(&values)
 }
 
 /// The reduced maps: the printed colour of each cell's mean ink (sRGB), its
 /// largest ΔE and largest total ink.
-fn map_data(bands: &[Band], pass: &Pass, separator: &Separator, with_de: bool) -> MapData {
-    let cells: Vec<Cell> = bands.iter().flat_map(|b| b.cells.iter().copied()).collect();
+fn map_data(cells: &[Cell], pass: &Pass, separator: &Separator, with_de: bool) -> MapData {
     let srgb = RgbSpace::Srgb.converter();
     let base = cells
         .par_iter()

@@ -1,8 +1,8 @@
 //! `inspect`: how an RGB file will print on a press, and whether a CMYK
 //! file is safe to plate.
 //!
-//! RGB input is separated exactly as `separate` does it
-//! ([`Workshop::separate_raster`]); per pixel, CIEDE2000 (CIE 142:2001)
+//! RGB input is separated exactly as `separate` does it (through
+//! [`Workshop::separate_raster`] or the table it builds); per pixel, CIEDE2000 (CIE 142:2001)
 //! compares the source colour (CIELAB D50, the ICC PCS) with the printed
 //! colour of the CMYK actually produced, evaluated by the press model in the
 //! frame of the rendering intent, as [`Separator::separate`] reports it. The
@@ -16,14 +16,21 @@
 //! fine detail, where C, M and Y under the black risk visible
 //! misregistration (common practice).
 //!
-//! The stages, one module each: the pixel pass ([`pixels`]), the ΔE memo
-//! ([`delta_e`]), 8-connected regions of flagged pixels ([`regions`]), the
-//! report schema ([`schema`]), the analysis that turns the pass into a report
+//! A file is read, separated and checked band by band of rows
+//! ([`crate::raster::open_bands`]): only the band in hand is held per pixel,
+//! and the report does not depend on the band height. The stages, one module
+//! each: where the bands come from ([`feed`], with the separation of RGB and
+//! gray bands in [`band_separation`], the one seam with the separation job),
+//! the pixel pass ([`pixels`]), the ΔE memo ([`delta_e`]), 8-connected
+//! regions of flagged pixels carried across bands ([`regions`]), the report
+//! schema ([`schema`]), the analysis that turns the pass into a report
 //! ([`analysis`]) and the pass/fail rules ([`rules`]). Report files are
 //! written by [`crate::report`].
 
 mod analysis;
+pub mod band_separation;
 mod delta_e;
+mod feed;
 mod pixels;
 pub mod regions;
 pub mod rules;
@@ -36,8 +43,8 @@ pub use schema::{
 
 use crate::colour::Lab;
 use crate::error::Result;
-use crate::job::{InkStats, SeparatedFile, Workshop};
-use crate::raster::{Layout, Raster, Samples};
+use crate::job::{SeparatedFile, Workshop};
+use crate::raster::Layout;
 use crate::report::round_to;
 use crate::source::RgbSource;
 use std::path::Path;
@@ -103,6 +110,9 @@ pub struct InspectOptions {
     pub rules: Vec<rules::Rule>,
     /// Keep what the maps and the HTML page need.
     pub keep_maps: bool,
+    /// Rows per band of the pass; `None`: about four million pixels a band.
+    /// The report does not depend on it.
+    pub band_rows: Option<u32>,
 }
 
 impl Default for InspectOptions {
@@ -123,6 +133,7 @@ impl Default for InspectOptions {
             max_regions: 200,
             rules: Vec::new(),
             keep_maps: false,
+            band_rows: None,
         }
     }
 }
@@ -158,41 +169,59 @@ fn ms(t: Instant) -> f64 {
     round_to(t.elapsed().as_secs_f64() * 1000.0, 1)
 }
 
-/// Inspects one file: RGB and gray as `separate` separates them, CMYK as it
-/// would be plated (not re-separated).
+/// Inspects one file, read band by band: RGB and gray as `separate`
+/// separates them, CMYK as it would be plated (not re-separated). Memory
+/// holds one band of pixels, whatever the picture's size.
 pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> Result<Inspection> {
     let started = Instant::now();
-    let t = Instant::now();
-    let raster = crate::raster::read_raster_with(path, &workshop.options.read_options())?;
-    let read_ms = ms(t);
-    if raster.layout == Layout::Cmyk {
+    let bands = crate::raster::open_bands(path, &workshop.options.read_options())?;
+    let read_ms = ms(started);
+    inspect_bands(workshop, path, bands, read_ms, opts, started)
+}
+
+/// Inspects a picture served band by band (`path` names it in the report
+/// and in errors; `read_ms` is what opening it took), as [`inspect_file`].
+pub fn inspect_bands(
+    workshop: &Workshop,
+    path: &Path,
+    mut bands: Box<dyn crate::raster::BandSource>,
+    read_ms: f64,
+    opts: &InspectOptions,
+    started: Instant,
+) -> Result<Inspection> {
+    let info = bands.info().clone();
+    if info.layout == Layout::Cmyk {
         let notes = vec![format!(
             "the file's own CMYK is checked for {}, as it would be plated (not re-separated)",
             workshop.separator.condition().name
         )];
-        // Ink statistics are gathered in the analysis pass.
-        let subject = Subject {
-            raster: &raster,
-            cmyk: &raster.samples,
-            stats: None,
-            rgb: None,
-            source: None,
-            notes,
-            source_description: "CMYK".into(),
-            compressed_from: None,
-            read_ms,
-            separate_ms: 0.0,
-        };
-        analysis::analyse(workshop, path, subject, opts, started)
-    } else {
-        let separated = workshop.separate_raster(path, raster, read_ms)?;
-        inspect_separated(workshop, path, &separated, opts, started)
+        let subject = Subject::of(&Shape::of(&info), info.bits, None, notes, "CMYK".into(), None);
+        let mut feed = feed::FileCmyk::new(bands.as_mut(), read_ms);
+        return analysis::analyse(workshop, path, subject, &mut feed, opts, started);
     }
+    let mut separation = band_separation::band_separation(workshop, path, bands.as_mut())?;
+    let fallback_source = RgbSource::Named(workshop.options.source_space);
+    let mut notes = separation.notes.clone();
+    if separation.source.is_none() {
+        notes.push(format!("ΔE measured against {} gray", workshop.options.source_space.name()));
+    }
+    let source = separation.source.take().unwrap_or(fallback_source);
+    let subject = Subject::of(
+        &Shape::of(&info),
+        workshop.options.bits,
+        Some(&source),
+        notes,
+        separation.description.clone(),
+        separation.compressed_from,
+    );
+    let mut feed = feed::FileSeparated::new(bands.as_mut(), separation, read_ms);
+    analysis::analyse(workshop, path, subject, &mut feed, opts, started)
 }
 
 /// Inspects a file already separated in memory ([`Workshop::separate_file`]),
 /// exactly the CMYK that was (or will be) written: for RGB and gray input with
-/// the ΔE of every pixel; for CMYK input, the re-separated CMYK.
+/// the ΔE of every pixel; for CMYK input, the re-separated CMYK. The bands of
+/// the image in memory go through the same pass as those of a file.
 pub fn inspect_separated(
     workshop: &Workshop,
     path: &Path,
@@ -201,22 +230,21 @@ pub fn inspect_separated(
     started: Instant,
 ) -> Result<Inspection> {
     let separate_ms = s.table_ms + s.separate_ms;
+    let r = &s.raster;
+    let shape = Shape {
+        width: r.width,
+        height: r.height,
+        layout: r.layout,
+        resolution: r.resolution,
+        bits: r.bits,
+    };
+    let bits = s.image.samples.bits();
     if s.raster.layout == Layout::Cmyk {
         let mut notes = s.notes.clone();
         notes.push("checked: the re-separated CMYK".into());
-        let subject = Subject {
-            raster: &s.raster,
-            cmyk: &s.image.samples,
-            stats: Some(s.stats.clone()),
-            rgb: None,
-            source: None,
-            notes,
-            source_description: s.source_description.clone(),
-            compressed_from: s.compressed_from,
-            read_ms: s.read_ms,
-            separate_ms,
-        };
-        return analysis::analyse(workshop, path, subject, opts, started);
+        let subject = Subject::of(&shape, bits, None, notes, s.source_description.clone(), s.compressed_from);
+        let mut feed = feed::InMemory::new(&s.image.samples, None, r.width, s.read_ms, separate_ms);
+        return analysis::analyse(workshop, path, subject, &mut feed, opts, started);
     }
     let rgb = crate::job::to_rgb(&s.raster, &mut Vec::new());
     let fallback_source = RgbSource::Named(workshop.options.source_space);
@@ -225,36 +253,69 @@ pub fn inspect_separated(
     if s.rgb_source.is_none() {
         notes.push(format!("ΔE measured against {} gray", workshop.options.source_space.name()));
     }
-    let subject = Subject {
-        raster: &s.raster,
-        cmyk: &s.image.samples,
-        stats: Some(s.stats.clone()),
-        rgb: rgb.as_deref(),
-        source: Some(source),
-        notes,
-        source_description: s.source_description.clone(),
-        compressed_from: s.compressed_from,
-        read_ms: s.read_ms,
-        separate_ms,
-    };
-    analysis::analyse(workshop, path, subject, opts, started)
+    let subject = Subject::of(&shape, bits, Some(source), notes, s.source_description.clone(), s.compressed_from);
+    let mut feed = feed::InMemory::new(&s.image.samples, rgb.as_deref(), r.width, s.read_ms, separate_ms);
+    analysis::analyse(workshop, path, subject, &mut feed, opts, started)
 }
 
-/// What one inspection looks at.
+/// The size, layout, resolution and depth of the picture inspected.
+struct Shape {
+    width: u32,
+    height: u32,
+    layout: Layout,
+    resolution: Option<crate::raster::Resolution>,
+    bits: u8,
+}
+
+impl Shape {
+    fn of(info: &crate::raster::RasterInfo) -> Shape {
+        Shape {
+            width: info.width,
+            height: info.height,
+            layout: info.layout,
+            resolution: info.resolution,
+            bits: info.bits,
+        }
+    }
+}
+
+/// What one inspection looks at, beside its pixels.
 struct Subject<'a> {
-    /// The file as read (size, resolution, layout).
-    raster: &'a Raster,
-    /// The CMYK checked.
-    cmyk: &'a Samples,
-    /// Its ink statistics when already known.
-    stats: Option<InkStats>,
-    /// The source RGB and its colour space, for the ΔE (RGB and gray input).
-    rgb: Option<&'a Samples>,
+    width: u32,
+    height: u32,
+    layout: Layout,
+    resolution: Option<crate::raster::Resolution>,
+    /// Bits per sample of the CMYK checked and of the source RGB.
+    cmyk_bits: u8,
+    rgb_bits: u8,
+    /// The source RGB's colour space, for the ΔE (RGB and gray input).
     source: Option<&'a RgbSource>,
     notes: Vec<String>,
     source_description: String,
     /// What the perceptual intent compressed from (see [`SeparatedFile`]).
     compressed_from: Option<crate::separation::CompressFrom>,
-    read_ms: f64,
-    separate_ms: f64,
+}
+
+impl<'a> Subject<'a> {
+    fn of(
+        info: &Shape,
+        cmyk_bits: u8,
+        source: Option<&'a RgbSource>,
+        notes: Vec<String>,
+        source_description: String,
+        compressed_from: Option<crate::separation::CompressFrom>,
+    ) -> Subject<'a> {
+        Subject {
+            width: info.width,
+            height: info.height,
+            layout: info.layout,
+            resolution: info.resolution,
+            cmyk_bits,
+            rgb_bits: info.bits,
+            source,
+            notes,
+            source_description,
+            compressed_from,
+        }
+    }
 }

@@ -1,7 +1,17 @@
 //! Connected regions of flagged pixels, 8-connected (a pixel touches the
-//! eight around it), found from runs of flagged pixels per row with a
-//! union–find over the runs: memory grows with the flagged runs, not with
-//! the image.
+//! eight around it), found from runs of flagged pixels row by row.
+//!
+//! [`Labeler`] takes the runs of one row at a time, top to bottom, and joins
+//! each run to the regions of the runs above it that it touches (a small
+//! union–find over the regions open in the previous row). A region is
+//! finished as soon as a row has no run touching it, so what is held at any
+//! time is the previous row's runs and their regions, bounded by the width
+//! of the picture, plus the regions kept for the report: a region that
+//! crosses any band of rows is one region, and memory does not grow with the
+//! picture.
+
+use std::cmp::Ordering;
+use std::collections::BinaryHeap;
 
 /// Consecutive flagged pixels `x0..x1` of one row, with the sum and the
 /// largest of their values.
@@ -14,6 +24,9 @@ pub struct Run {
     pub max: f32,
     /// Where `max` is (the first such pixel).
     pub max_x: u32,
+    /// What the caller records of the pixel at `max_x` (inspect: the keys of
+    /// its CMYK and of its source RGB), carried to the region's worst pixel.
+    pub tag: [u64; 2],
 }
 
 /// Collects the runs of one row from flagged pixels given in increasing x.
@@ -45,6 +58,7 @@ impl RowRuns {
             sum: value as f64,
             max: value,
             max_x: x,
+            tag: [0; 2],
         });
     }
 
@@ -70,151 +84,294 @@ pub struct Region {
     pub max: f32,
     /// The first pixel (row-major) holding `max`.
     pub max_at: (u32, u32),
-    /// The region's runs as (row, x0, x1), rows ascending.
-    pub spans: Vec<(u32, u32, u32)>,
+    /// The [`Run::tag`] of the pixel at `max_at`.
+    pub tag: [u64; 2],
+    /// The region's first pixel in row-major order (row, column): the last
+    /// key of the report order, so that the order is total.
+    pub start: (u32, u32),
 }
 
 impl Region {
     pub fn mean(&self) -> f64 {
         self.sum / self.pixels.max(1) as f64
     }
+
+    fn of_run(run: &Run, y: u32) -> Region {
+        Region {
+            x: run.x0,
+            y,
+            // Inclusive ends while the region is open.
+            w: run.x1 - 1,
+            h: y,
+            pixels: (run.x1 - run.x0) as u64,
+            sum: run.sum,
+            max: run.max,
+            max_at: (run.max_x, y),
+            tag: run.tag,
+            start: (y, run.x0),
+        }
+    }
+
+    /// Adds `o` (inclusive ends, as while open); the worst pixel is the
+    /// larger value, the first in row-major order on a tie.
+    fn absorb(&mut self, o: &Region) {
+        self.x = self.x.min(o.x);
+        self.y = self.y.min(o.y);
+        self.w = self.w.max(o.w);
+        self.h = self.h.max(o.h);
+        self.pixels += o.pixels;
+        self.sum += o.sum;
+        let earlier = (o.max_at.1, o.max_at.0) < (self.max_at.1, self.max_at.0);
+        if o.max > self.max || (o.max == self.max && earlier) {
+            self.max = o.max;
+            self.max_at = o.max_at;
+            self.tag = o.tag;
+        }
+        self.start = self.start.min(o.start);
+    }
+
+    /// Report order: largest first, then top-most, then left-most, then by
+    /// where the region starts.
+    fn report_order(&self, o: &Region) -> Ordering {
+        o.pixels
+            .cmp(&self.pixels)
+            .then(self.y.cmp(&o.y))
+            .then(self.x.cmp(&o.x))
+            .then(self.start.cmp(&o.start))
+    }
 }
 
-fn find(parent: &mut [u32], mut i: u32) -> u32 {
-    while parent[i as usize] != i {
-        let p = parent[parent[i as usize] as usize];
-        parent[i as usize] = p;
-        i = p;
+/// A finished region in the kept set: a max-heap on report order, so its top
+/// is the region listed last.
+struct Kept(Region);
+
+impl PartialEq for Kept {
+    fn eq(&self, o: &Kept) -> bool {
+        self.cmp(o) == Ordering::Equal
     }
-    i
+}
+impl Eq for Kept {}
+impl PartialOrd for Kept {
+    fn partial_cmp(&self, o: &Kept) -> Option<Ordering> {
+        Some(self.cmp(o))
+    }
+}
+impl Ord for Kept {
+    fn cmp(&self, o: &Kept) -> Ordering {
+        self.0.report_order(&o.0)
+    }
 }
 
-/// Labels the 8-connected regions of the runs (`rows[y]` holds the runs of
-/// row `y`, ordered by x) and drops regions of fewer than `min_pixels`.
-/// Regions come largest first (ties: top-most, then left-most).
-pub fn label(rows: &[Vec<Run>], min_pixels: u64) -> Vec<Region> {
-    let mut offsets = Vec::with_capacity(rows.len() + 1);
-    let mut n = 0usize;
-    for r in rows {
-        offsets.push(n);
-        n += r.len();
+/// Per column, the rows in a row in which the `side` pixels from that column
+/// rightwards were all flagged: a `side` × `side` square of flagged pixels
+/// has its bottom-left corner where such a streak reaches `side` rows. Such
+/// a square lies in one region (its pixels touch one another), so a region
+/// holds one exactly when a streak reaches `side` in one of its runs: the
+/// morphological erosion by a square, one row at a time.
+struct Squares {
+    side: u32,
+    /// Per column: the row the current streak started and the last row of it.
+    since: Vec<u32>,
+    last: Vec<u32>,
+}
+
+const NONE: u32 = u32::MAX;
+
+/// Labels 8-connected regions from the runs of rows given top to bottom,
+/// keeps the largest `keep` (in report order) of those of at least
+/// `min_pixels`, and counts them all.
+pub struct Labeler {
+    min_pixels: u64,
+    keep: usize,
+    /// Keep only regions no square of this side fits into (fine detail).
+    squares: Option<Squares>,
+    /// The next row.
+    y: u32,
+    /// The previous row's runs and the slot of each one's region.
+    prev: Vec<(Run, u32)>,
+    /// Region slots: open regions, and those absorbed during the current row.
+    slots: Vec<Region>,
+    parent: Vec<u32>,
+    /// Whether a square fits into the slot's region.
+    thick: Vec<bool>,
+    /// The last row with a run of the slot's region.
+    seen: Vec<u32>,
+    free: Vec<u32>,
+    kept: BinaryHeap<Kept>,
+    total: usize,
+}
+
+impl Labeler {
+    /// A labeler for rows of `width` pixels; with `detail_side`, only
+    /// regions into which no `detail_side` × `detail_side` square of their
+    /// own pixels fits are counted and kept (fine lines, small type).
+    pub fn new(width: u32, min_pixels: u64, keep: usize, detail_side: Option<u32>) -> Labeler {
+        Labeler {
+            min_pixels: min_pixels.max(1),
+            keep,
+            squares: detail_side.map(|side| Squares {
+                side: side.max(1),
+                since: vec![NONE; width as usize],
+                last: vec![NONE; width as usize],
+            }),
+            y: 0,
+            prev: Vec::new(),
+            slots: Vec::new(),
+            parent: Vec::new(),
+            thick: Vec::new(),
+            seen: Vec::new(),
+            free: Vec::new(),
+            kept: BinaryHeap::new(),
+            total: 0,
+        }
     }
-    offsets.push(n);
-    if n == 0 {
-        return Vec::new();
+
+    fn find(&mut self, mut i: u32) -> u32 {
+        while self.parent[i as usize] != i {
+            let p = self.parent[self.parent[i as usize] as usize];
+            self.parent[i as usize] = p;
+            i = p;
+        }
+        i
     }
-    let mut parent: Vec<u32> = (0..n as u32).collect();
-    for y in 1..rows.len() {
-        let (above, here) = (&rows[y - 1], &rows[y]);
+
+    fn slot(&mut self, region: Region) -> u32 {
+        match self.free.pop() {
+            Some(i) => {
+                self.slots[i as usize] = region;
+                self.parent[i as usize] = i;
+                self.thick[i as usize] = false;
+                self.seen[i as usize] = NONE;
+                i
+            }
+            None => {
+                let i = self.slots.len() as u32;
+                self.slots.push(region);
+                self.parent.push(i);
+                self.thick.push(false);
+                self.seen.push(NONE);
+                i
+            }
+        }
+    }
+
+    /// Adds the runs of the next row (ordered by x, not overlapping).
+    pub fn push_row(&mut self, runs: &[Run]) {
+        let y = self.y;
+        self.y += 1;
+        if runs.is_empty() && self.prev.is_empty() {
+            return;
+        }
+        // Each run's region: that of a run above it that it touches (within
+        // one column: 8-connected), the regions of all such runs joined.
+        let mut label = vec![NONE; runs.len()];
+        let mut absorbed = Vec::new();
         let (mut i, mut j) = (0, 0);
-        while i < above.len() && j < here.len() {
-            let (a, b) = (above[i], here[j]);
-            // 8-connected: some pixel of one is within one column of the other.
+        while i < self.prev.len() && j < runs.len() {
+            let (a, b) = (self.prev[i].0, runs[j]);
             if a.x0 <= b.x1 && b.x0 <= a.x1 {
-                let ra = find(&mut parent, (offsets[y - 1] + i) as u32);
-                let rb = find(&mut parent, (offsets[y] + j) as u32);
-                if ra != rb {
-                    let (lo, hi) = if ra < rb { (ra, rb) } else { (rb, ra) };
-                    parent[hi as usize] = lo;
+                let ra = self.find(self.prev[i].1);
+                if label[j] == NONE {
+                    label[j] = ra;
+                } else {
+                    let rb = self.find(label[j]);
+                    if ra != rb {
+                        let (keep, gone) = if ra < rb { (ra, rb) } else { (rb, ra) };
+                        let other = self.slots[gone as usize].clone();
+                        self.slots[keep as usize].absorb(&other);
+                        self.thick[keep as usize] |= self.thick[gone as usize];
+                        self.parent[gone as usize] = keep;
+                        absorbed.push(gone);
+                    }
                 }
             }
             if a.x1 < b.x1 { i += 1 } else { j += 1 }
         }
-    }
-    let mut slot = vec![u32::MAX; n];
-    let mut regions: Vec<Region> = Vec::new();
-    for (y, row) in rows.iter().enumerate() {
-        for (k, run) in row.iter().enumerate() {
-            let root = find(&mut parent, (offsets[y] + k) as u32) as usize;
-            let y = y as u32;
-            if slot[root] == u32::MAX {
-                slot[root] = regions.len() as u32;
-                regions.push(Region {
-                    x: run.x0,
-                    y,
-                    w: 0,
-                    h: 0,
-                    pixels: 0,
-                    sum: 0.0,
-                    max: f32::NEG_INFINITY,
-                    max_at: (run.max_x, y),
-                    spans: Vec::new(),
-                });
+        let mut here = Vec::with_capacity(runs.len());
+        for (run, l) in runs.iter().zip(label) {
+            let root = if l == NONE {
+                self.slot(Region::of_run(run, y))
+            } else {
+                let root = self.find(l);
+                self.slots[root as usize].absorb(&Region::of_run(run, y));
+                root
+            };
+            self.seen[root as usize] = y;
+            here.push((*run, root));
+        }
+        if let Some(sq) = &mut self.squares {
+            let side = sq.side;
+            for &(run, root) in &here {
+                if self.thick[root as usize] || run.x1 - run.x0 < side {
+                    continue;
+                }
+                for x in run.x0..=run.x1 - side {
+                    let x = x as usize;
+                    if sq.last[x] == NONE || sq.last[x] + 1 != y {
+                        sq.since[x] = y;
+                    }
+                    sq.last[x] = y;
+                    if y - sq.since[x] + 1 >= side {
+                        self.thick[root as usize] = true;
+                    }
+                }
             }
-            let r = &mut regions[slot[root] as usize];
-            // Stored as inclusive ends until the end.
-            if r.pixels == 0 {
-                r.w = run.x1 - 1;
-                r.h = y;
+        }
+        // Regions of the previous row that no run of this row touches are
+        // finished; absorbed slots are free once this row's runs name their
+        // roots.
+        let prev = std::mem::replace(&mut self.prev, here);
+        for (_, slot) in prev {
+            let root = self.find(slot);
+            if self.seen[root as usize] != y && self.seen[root as usize] != NONE {
+                self.seen[root as usize] = NONE;
+                self.finish(root);
             }
-            r.x = r.x.min(run.x0);
-            r.w = r.w.max(run.x1 - 1);
-            r.h = r.h.max(y);
-            r.pixels += (run.x1 - run.x0) as u64;
-            r.sum += run.sum;
-            if run.max > r.max {
-                r.max = run.max;
-                r.max_at = (run.max_x, y);
-            }
-            r.spans.push((y, run.x0, run.x1));
+        }
+        for gone in absorbed {
+            self.free.push(gone);
         }
     }
-    let mut out: Vec<Region> = regions
-        .into_iter()
-        .filter(|r| r.pixels >= min_pixels.max(1))
-        .map(|mut r| {
-            r.w = r.w - r.x + 1;
-            r.h = r.h - r.y + 1;
-            r
-        })
-        .collect();
-    out.sort_by(|a, b| b.pixels.cmp(&a.pixels).then(a.y.cmp(&b.y)).then(a.x.cmp(&b.x)));
-    out
+
+    fn finish(&mut self, root: u32) {
+        let mut r = self.slots[root as usize].clone();
+        let thick = self.thick[root as usize];
+        self.free.push(root);
+        if r.pixels < self.min_pixels || (self.squares.is_some() && thick) {
+            return;
+        }
+        r.w = r.w - r.x + 1;
+        r.h = r.h - r.y + 1;
+        self.total += 1;
+        if self.keep == 0 {
+            return;
+        }
+        self.kept.push(Kept(r));
+        if self.kept.len() > self.keep {
+            self.kept.pop();
+        }
+    }
+
+    /// Finishes the regions still open and gives the kept ones in report
+    /// order (largest first; ties: top-most, then left-most), with the
+    /// number of all regions found.
+    pub fn finish_all(mut self) -> (Vec<Region>, usize) {
+        self.push_row(&[]);
+        let total = self.total;
+        (self.kept.into_sorted_vec().into_iter().map(|k| k.0).collect(), total)
+    }
 }
 
-/// True when no `side` × `side` square of the region's own pixels fits in
-/// it: every part of the region is narrower than `side` (fine lines, small
-/// type). The square test is a morphological erosion by a square.
-pub fn is_fine_detail(region: &Region, side: u32) -> bool {
-    let side = side.max(1);
-    if region.w < side || region.h < side {
-        return true;
+/// Labels the 8-connected regions of whole rows of runs (`rows[y]` holds the
+/// runs of row `y`, ordered by x) and drops regions of fewer than
+/// `min_pixels`. Regions come largest first (ties: top-most, then left-most).
+pub fn label(rows: &[Vec<Run>], min_pixels: u64) -> Vec<Region> {
+    let width = rows.iter().flat_map(|r| r.last()).map(|r| r.x1).max().unwrap_or(0);
+    let mut labeler = Labeler::new(width, min_pixels, usize::MAX, None);
+    for row in rows {
+        labeler.push_row(row);
     }
-    let (w, h) = (region.w as usize, region.h as usize);
-    let s = side as usize;
-    // Per column: how many rows in a row each column's horizontal window
-    // (side wide, starting at that column) has been fully inside.
-    let mut column_run = vec![0u32; w + 1 - s];
-    let mut mask = vec![false; w];
-    let mut prefix = vec![0u32; w + 1];
-    let mut spans = region.spans.iter().peekable();
-    for row in 0..h {
-        mask.iter_mut().for_each(|m| *m = false);
-        let y = region.y + row as u32;
-        while let Some(&&(sy, x0, x1)) = spans.peek() {
-            if sy != y {
-                break;
-            }
-            for x in x0..x1 {
-                mask[(x - region.x) as usize] = true;
-            }
-            spans.next();
-        }
-        for x in 0..w {
-            prefix[x + 1] = prefix[x] + mask[x] as u32;
-        }
-        for (x0, run) in column_run.iter_mut().enumerate() {
-            if prefix[x0 + s] - prefix[x0] == side {
-                *run += 1;
-                if *run >= side {
-                    return false;
-                }
-            } else {
-                *run = 0;
-            }
-        }
-    }
-    true
+    labeler.finish_all().0
 }
 
 #[cfg(test)]
@@ -274,15 +431,52 @@ mod tests {
         assert!((r.mean() - (1.0 + 2.0 + 9.0 + 3.0 + 9.0) / 5.0).abs() < 1e-12);
     }
 
+    /// The regions kept as fine detail for squares of `side`.
+    fn fine(rows: &[Vec<Run>], side: u32) -> usize {
+        let mut labeler = Labeler::new(20, 1, usize::MAX, Some(side));
+        rows.iter().for_each(|r| labeler.push_row(r));
+        labeler.finish_all().1
+    }
+
     #[test]
     fn fine_detail_is_what_a_square_cannot_fit_into() {
         let line = rows_of(&["##########", "##########", "..........", ".........."]);
-        let r = &label(&line, 1)[0];
-        assert!(is_fine_detail(r, 3));
-        assert!(!is_fine_detail(r, 2));
+        assert_eq!(fine(&line, 3), 1);
+        assert_eq!(fine(&line, 2), 0);
         let block = rows_of(&["#####", "#####", "#####", "#...."]);
-        let b = &label(&block, 1)[0];
-        assert!(!is_fine_detail(b, 3));
-        assert!(is_fine_detail(b, 4));
+        assert_eq!(fine(&block, 3), 0);
+        assert_eq!(fine(&block, 4), 1);
+        // A square only in the corner of a ring of thin lines, reached after
+        // the parts were joined: the whole region is not fine detail.
+        let joined = rows_of(&["#....#", "#....#", "#..###", "#..###", "######"]);
+        assert_eq!(fine(&joined, 3), 0);
+        assert_eq!(fine(&joined, 4), 1);
+        // Two squares' worth of rows, but broken by a gap in the middle row.
+        let broken = rows_of(&["###", "#.#", "###"]);
+        assert_eq!(fine(&broken, 2), 1);
+    }
+
+    /// Regions end as soon as a row has no run touching them, and slots are
+    /// reused: many regions one after another give the same as one pass.
+    #[test]
+    fn finished_regions_are_counted_once_and_kept_in_order() {
+        let mut picture = Vec::new();
+        for k in 0..30 {
+            // Blocks of growing size, then a blank row.
+            let width = 1 + k % 7;
+            for _ in 0..1 + k % 3 {
+                picture.push(format!("{}{}", ".".repeat(k % 5), "#".repeat(width)));
+            }
+            picture.push(String::new());
+        }
+        let lines: Vec<&str> = picture.iter().map(String::as_str).collect();
+        let rows = rows_of(&lines);
+        let all = label(&rows, 1);
+        assert_eq!(all.len(), 30);
+        let mut labeler = Labeler::new(20, 1, 4, None);
+        rows.iter().for_each(|r| labeler.push_row(r));
+        let (kept, total) = labeler.finish_all();
+        assert_eq!(total, 30);
+        assert_eq!(kept, all[..4].to_vec());
     }
 }

@@ -25,6 +25,7 @@ mod colour_reference;
 mod colour_standards;
 mod icc_profile;
 mod job_streaming;
+mod inspect_bands;
 mod png_colour;
 mod press_builtin;
 mod press_characterization;
