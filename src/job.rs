@@ -726,6 +726,24 @@ impl Workshop {
         })
     }
 
+    /// A file's separation prepared for its bands, as [`Workshop::run`]
+    /// prepares it: for the perceptual intent from the picture's own colours,
+    /// `bands` is read once and rewound.
+    pub(crate) fn prepare_bands(&self, path: &Path, bands: &mut dyn BandSource) -> Result<Prepared> {
+        let band_rows = self.band_rows_for(bands.info());
+        self.prepare(path, bands, band_rows, &|| {})
+    }
+
+    /// The CMYK of one band's `samples` (laid out as `info` says) under `prepared`.
+    pub(crate) fn separate_band(&self, prepared: &Prepared, info: &RasterInfo, samples: &Samples) -> Samples {
+        let width = info.width as usize;
+        match &prepared.rule {
+            BandRule::Table(table) => self.apply(table, &band_rgb(info.layout, samples), width),
+            BandRule::Reseparation(table) => self.reseparate(table, samples, width),
+            BandRule::BlackOnly(curve) => curve.apply(info, samples),
+        }
+    }
+
     /// Separates every band of `bands` (from its current row) under
     /// `prepared`, handing each band's CMYK to `sink` in order; returns the
     /// ink statistics and the time spent reading and separating.
@@ -751,12 +769,7 @@ impl Workshop {
             }
             rows += band.rows;
             let t = Instant::now();
-            let width = info.width as usize;
-            let cmyk = match &prepared.rule {
-                BandRule::Table(table) => self.apply(table, &band_rgb(info.layout, &band.samples), width),
-                BandRule::Reseparation(table) => self.reseparate(table, &band.samples, width),
-                BandRule::BlackOnly(curve) => curve.apply(info, &band.samples),
-            };
+            let cmyk = self.separate_band(prepared, info, &band.samples);
             stats += InkStats::of_samples(&cmyk, tac);
             separate += t.elapsed();
             sink(cmyk)?;
@@ -988,15 +1001,15 @@ enum BandRule {
 }
 
 /// A file's separation, prepared before its first band.
-struct Prepared {
+pub(crate) struct Prepared {
     rule: BandRule,
-    rgb_source: Option<RgbSource>,
-    compressed_from: Option<CompressFrom>,
-    source_description: String,
-    notes: Vec<String>,
-    table_ms: f64,
+    pub(crate) rgb_source: Option<RgbSource>,
+    pub(crate) compressed_from: Option<CompressFrom>,
+    pub(crate) source_description: String,
+    pub(crate) notes: Vec<String>,
+    pub(crate) table_ms: f64,
     /// Where the separation table came from (`None` when there was none).
-    table_source: Option<Origin>,
+    pub(crate) table_source: Option<Origin>,
 }
 
 impl Prepared {
@@ -1248,7 +1261,7 @@ pub fn to_rgb<'a>(raster: &'a Raster, notes: &mut Vec<String>) -> Option<Cow<'a,
 
 /// Interleaved samples of `layout` (not CMYK) as interleaved RGB at the same
 /// depth: alpha flattened onto paper white, gray expanded to neutral RGB.
-fn band_rgb(layout: Layout, samples: &Samples) -> Cow<'_, Samples> {
+pub(crate) fn band_rgb(layout: Layout, samples: &Samples) -> Cow<'_, Samples> {
     fn convert<T: Copy + Into<u32> + TryFrom<u32> + Default + Send + Sync>(v: &[T], layout: Layout, max: u32) -> Vec<T> {
         let ch = layout.channels();
         // `max` is the type's own largest value, so the clamped sample always fits.

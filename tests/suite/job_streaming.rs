@@ -251,7 +251,10 @@ fn fail_late(ticket: &str) -> (Error, u64, bool, bool) {
     std::fs::create_dir_all(&out).unwrap();
     let ticket_path = dir.path().join("job.toml");
     std::fs::write(&ticket_path, ticket).unwrap();
-    let shop = platesmith::setup::ticket_workshop(Some(&ticket_path), false).unwrap().0.with_band_rows(16);
+    let shop = platesmith::setup::ticket_workshop(Some(&ticket_path), false)
+        .unwrap()
+        .0
+        .with_band_rows(16);
     let raster = read_raster(&input, &platesmith::raster::Limits::default()).unwrap();
     let bands = FailingBands {
         inner: WholeRaster::new(raster),
