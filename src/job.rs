@@ -7,7 +7,7 @@ use crate::error::{Error, Result};
 use crate::ink::Ink;
 use crate::raster::{
     BandSource, CmykImage, Compression, Layout, Limits, OpenFile, OutputSet, PngPlateWriter, Raster, RasterInfo, ReadOptions, Resolution,
-    RowBand, Samples, StagedWriter, TiffOptions, TiffStripWriter, open_bands,
+    Samples, StagedWriter, TiffOptions, TiffStripWriter, open_bands,
 };
 use crate::report::{SettingsReport, round_to};
 use crate::separation::limits::InkCaps;
@@ -561,8 +561,8 @@ impl Workshop {
     /// Separates a raster already read from `path` (as [`Workshop::separate_file`]
     /// does after reading); `read_ms` is the time the read took.
     pub fn separate_raster(&self, path: &Path, raster: Raster, read_ms: f64) -> Result<SeparatedFile> {
-        let mut bands = RasterBands::new(&raster);
-        let info = bands.info.clone();
+        let mut bands = crate::raster::RasterRows::borrowed(&raster);
+        let info = bands.info().clone();
         let band_rows = self.band_rows_for(&info);
         let prepared = self.prepare(path, &mut bands, band_rows, &|| {})?;
         let mut cmyk: Option<Samples> = None;
@@ -841,7 +841,7 @@ impl Workshop {
         let t = Instant::now();
         let mut out = OutputSet::new(place.dir, self.options.overwrite)?;
         out.protect([path]);
-        let info = RasterBands::new(raster).info;
+        let info = raster.info();
         let mut files = self.open_outputs(&out, output_stem(path), &info)?;
         let row = image.width as usize * 4;
         let band = self.band_rows_for(&info) as usize * row;
@@ -1127,58 +1127,6 @@ impl OutputFiles<'_> {
         for file in finished {
             out.keep(file?)?;
         }
-        Ok(())
-    }
-}
-
-/// A raster in memory served as bands of rows without copying it whole.
-struct RasterBands<'a> {
-    raster: &'a Raster,
-    info: RasterInfo,
-    next_row: u32,
-}
-
-impl<'a> RasterBands<'a> {
-    fn new(raster: &'a Raster) -> RasterBands<'a> {
-        let info = RasterInfo {
-            width: raster.width,
-            height: raster.height,
-            layout: raster.layout,
-            bits: raster.bits,
-            icc_profile: raster.icc_profile.clone(),
-            resolution: raster.resolution,
-            colour_chunks: raster.colour_chunks.clone(),
-            format: raster.format,
-            notes: raster.notes.clone(),
-            line_art: raster.line_art,
-        };
-        RasterBands { raster, info, next_row: 0 }
-    }
-}
-
-impl BandSource for RasterBands<'_> {
-    fn info(&self) -> &RasterInfo {
-        &self.info
-    }
-
-    fn next_band(&mut self, max_rows: u32) -> Result<Option<RowBand>> {
-        if self.next_row >= self.info.height {
-            return Ok(None);
-        }
-        let y = self.next_row;
-        let rows = max_rows.max(1).min(self.info.height - y);
-        let n = self.info.row_len();
-        let range = y as usize * n..(y + rows) as usize * n;
-        let samples = match &self.raster.samples {
-            Samples::U8(v) => Samples::U8(v[range].to_vec()),
-            Samples::U16(v) => Samples::U16(v[range].to_vec()),
-        };
-        self.next_row = y + rows;
-        Ok(Some(RowBand { y, rows, samples }))
-    }
-
-    fn rewind(&mut self) -> Result<()> {
-        self.next_row = 0;
         Ok(())
     }
 }

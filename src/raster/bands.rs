@@ -92,26 +92,41 @@ pub(super) fn next_span(next_row: u32, height: u32, max_rows: u32) -> Option<(u3
     (next_row < height).then(|| (next_row, max_rows.max(1).min(height - next_row)))
 }
 
-/// A picture decoded whole, served as bands.
+/// A picture decoded whole, served as bands: owned ([`WholeRaster::new`])
+/// or borrowed from a raster in memory ([`RasterRows::borrowed`]).
 #[derive(Debug, Clone)]
-pub struct WholeRaster {
+pub struct RasterRows<'a> {
     info: RasterInfo,
-    samples: Samples,
+    samples: std::borrow::Cow<'a, Samples>,
     next_row: u32,
 }
 
-impl WholeRaster {
+/// A picture decoded whole and owned, served as bands.
+pub type WholeRaster = RasterRows<'static>;
+
+impl RasterRows<'static> {
     pub fn new(raster: Raster) -> WholeRaster {
         let (info, samples) = raster.into_parts();
-        WholeRaster {
+        RasterRows {
             info,
-            samples,
+            samples: std::borrow::Cow::Owned(samples),
             next_row: 0,
         }
     }
 }
 
-impl BandSource for WholeRaster {
+impl<'a> RasterRows<'a> {
+    /// The bands of a raster in memory, without copying it whole.
+    pub fn borrowed(raster: &'a Raster) -> RasterRows<'a> {
+        RasterRows {
+            info: raster.info(),
+            samples: std::borrow::Cow::Borrowed(&raster.samples),
+            next_row: 0,
+        }
+    }
+}
+
+impl BandSource for RasterRows<'_> {
     fn info(&self) -> &RasterInfo {
         &self.info
     }
@@ -122,7 +137,7 @@ impl BandSource for WholeRaster {
         };
         let n = self.info.row_len();
         let range = y as usize * n..(y + rows) as usize * n;
-        let samples = match &self.samples {
+        let samples = match &*self.samples {
             Samples::U8(v) => Samples::U8(v[range].to_vec()),
             Samples::U16(v) => Samples::U16(v[range].to_vec()),
         };
@@ -137,6 +152,22 @@ impl BandSource for WholeRaster {
 }
 
 impl Raster {
+    /// Everything the raster says of its picture except the samples.
+    pub fn info(&self) -> RasterInfo {
+        RasterInfo {
+            width: self.width,
+            height: self.height,
+            layout: self.layout,
+            bits: self.bits,
+            icc_profile: self.icc_profile.clone(),
+            resolution: self.resolution,
+            colour_chunks: self.colour_chunks.clone(),
+            format: self.format,
+            notes: self.notes.clone(),
+            line_art: self.line_art,
+        }
+    }
+
     /// The description and the samples apart.
     pub fn into_parts(self) -> (RasterInfo, Samples) {
         let info = RasterInfo {

@@ -29,7 +29,7 @@ mod tiff_bands;
 mod tiff_in;
 mod write;
 
-pub use bands::{BandSource, RasterInfo, RowBand, WholeRaster, open_bands};
+pub use bands::{BandSource, RasterInfo, RasterRows, RowBand, WholeRaster, open_bands};
 pub use orient::Orientation;
 pub use output::{OpenFile, OutputSet, StageFn, StagedWriter};
 pub use read::{decoder_panic_is_caught, read_raster, read_raster_bytes, read_raster_bytes_with, read_raster_with};

@@ -124,7 +124,50 @@ pub(super) fn open_streamed(path: &Path, options: &ReadOptions) -> Result<Option
             Format::Jpeg => None,
         })
     });
-    finish_open(path, format, &hint, options, opened)
+    let opened = finish_open(path, format, &hint, options, opened)?;
+    Ok(match opened {
+        // Data that ends early shows in a later band: its message gets the hint too.
+        Some(bands) if !hint.is_empty() => Some(Box::new(Hinted { bands, hint })),
+        other => other,
+    })
+}
+
+/// A band source whose input errors carry the extension's hint, as the whole read's do.
+struct Hinted {
+    bands: Box<dyn BandSource>,
+    hint: String,
+}
+
+impl Hinted {
+    fn hinted<T>(&self, result: Result<T>) -> Result<T> {
+        result.map_err(|e| match e {
+            Error::Input { path, message } => Error::Input {
+                path,
+                message: format!("{message}{}", self.hint),
+            },
+            other => other,
+        })
+    }
+}
+
+impl BandSource for Hinted {
+    fn info(&self) -> &super::RasterInfo {
+        self.bands.info()
+    }
+
+    fn next_band(&mut self, max_rows: u32) -> Result<Option<super::RowBand>> {
+        let band = self.bands.next_band(max_rows);
+        self.hinted(band)
+    }
+
+    fn rewind(&mut self) -> Result<()> {
+        let rewound = self.bands.rewind();
+        self.hinted(rewound)
+    }
+
+    fn streamed(&self) -> bool {
+        self.bands.streamed()
+    }
 }
 
 /// Runs a decoder step: a decoder that panics on a hostile file is a bug to report, not a
