@@ -138,6 +138,11 @@ impl InkStats {
             let m = max as u64;
             let inked_from = (0..=max as u32).find(|&c| c as f64 / max >= 0.01).unwrap_or(max as u32);
             let over_from = (tac + 0.5 / 100.0) * max;
+            // The bin and the over-limit test of every total, looked up for
+            // 8-bit samples (1 021 totals) instead of a division per pixel.
+            let bin = |total: u32| ((400 * total as u64 + m) / (2 * m)).min(800) as u16;
+            let bins: Vec<u16> = if m == 255 { (0..=4 * 255).map(bin).collect() } else { Vec::new() };
+            let over_code = (0..=4 * max as u32).find(|&t| t as f64 > over_from).unwrap_or(u32::MAX);
             v.par_chunks(4 * 4096)
                 .map(|chunk| {
                     let mut hist = vec![0u64; 801];
@@ -146,10 +151,14 @@ impl InkStats {
                     for px in chunk.chunks_exact(4) {
                         let codes: [u32; 4] = std::array::from_fn(|i| px[i].into());
                         let total = codes[0] + codes[1] + codes[2] + codes[3];
-                        hist[((400 * total as u64 + m) / (2 * m)).min(800) as usize] += 1;
+                        let b = match bins.get(total as usize) {
+                            Some(&b) => b,
+                            None => bin(total),
+                        };
+                        hist[b as usize] += 1;
                         total_sum += total as u64;
                         total_max = total_max.max(total);
-                        over += u64::from(total as f64 > over_from);
+                        over += u64::from(total >= over_code);
                         for i in 0..4 {
                             plate[i] += codes[i] as u64;
                             inked[i] += u64::from(codes[i] >= inked_from);

@@ -107,7 +107,10 @@ pub fn distinct_colours<T: RgbCode>(rgb: &[T]) -> Vec<[f64; 3]> {
 /// the result does not depend on how the picture was cut.
 #[derive(Debug, Clone)]
 pub struct DistinctColours {
-    bins: Vec<u64>,
+    /// One set of bins per part of each addition (one part per thread), kept
+    /// across additions and merged when the colours are asked for: a band
+    /// costs no zeroing and no merging of whole sets of bins.
+    parts: Vec<Vec<u64>>,
 }
 
 impl Default for DistinctColours {
@@ -119,39 +122,35 @@ impl Default for DistinctColours {
 impl DistinctColours {
     pub fn new() -> DistinctColours {
         DistinctColours {
-            bins: vec![0; 1 << (3 * BIN_BITS)],
+            parts: vec![vec![0; 1 << (3 * BIN_BITS)]; rayon::current_num_threads().max(1)],
         }
     }
 
     /// Adds interleaved RGB samples (whole pixels).
     pub fn add<T: RgbCode>(&mut self, rgb: &[T]) {
-        let bins = 1usize << (3 * BIN_BITS);
         let shift = 8 - BIN_BITS;
-        let fold = |mut acc: Vec<u64>, px: &[T]| {
-            let (r, g, b) = (px[0].code8(), px[1].code8(), px[2].code8());
-            let key = (((r >> shift) << (2 * BIN_BITS)) | ((g >> shift) << BIN_BITS) | (b >> shift)) as usize;
-            let spread = r.max(g).max(b) - r.min(g).min(b);
-            let value = ((spread as u64) << 32) | (1 << 31) | ((r << 16) | (g << 8) | b) as u64;
-            acc[key] = acc[key].max(value);
-            acc
-        };
-        let merge = |mut a: Vec<u64>, b: Vec<u64>| {
-            a.iter_mut().zip(b).for_each(|(x, y)| *x = (*x).max(y));
-            a
-        };
-        let part = rgb
-            .par_chunks(3 * 4096)
-            .fold(|| vec![0u64; bins], |acc, chunk| chunk.chunks_exact(3).fold(acc, &fold))
-            .reduce(|| vec![0u64; bins], merge);
-        self.bins = merge(std::mem::take(&mut self.bins), part);
+        let pixels = rgb.len() / 3;
+        let per_part = pixels.div_ceil(self.parts.len()).max(1);
+        self.parts
+            .par_iter_mut()
+            .zip(rgb.par_chunks(3 * per_part))
+            .for_each(|(bins, part)| {
+                for px in part.chunks_exact(3) {
+                    let (r, g, b) = (px[0].code8(), px[1].code8(), px[2].code8());
+                    let key = (((r >> shift) << (2 * BIN_BITS)) | ((g >> shift) << BIN_BITS) | (b >> shift)) as usize;
+                    let spread = r.max(g).max(b) - r.min(g).min(b);
+                    let value = ((spread as u64) << 32) | (1 << 31) | ((r << 16) | (g << 8) | b) as u64;
+                    bins[key] = bins[key].max(value);
+                }
+            });
     }
 
     /// The colours gathered, one per occupied bin, as fractions 0..1.
     pub fn colours(&self) -> Vec<[f64; 3]> {
-        self.bins
-            .iter()
-            .filter(|&&v| v != 0)
-            .map(|&v| {
+        (0..1usize << (3 * BIN_BITS))
+            .map(|key| self.parts.iter().map(|bins| bins[key]).max().unwrap_or(0))
+            .filter(|&v| v != 0)
+            .map(|v| {
                 let rgb = (v & 0xff_ffff) as u32;
                 [(rgb >> 16) & 255, (rgb >> 8) & 255, rgb & 255].map(|c| c as f64 / 255.0)
             })
