@@ -559,20 +559,28 @@ impl<'o, W: Write + Seek> TiffStripWriter<'o, W> {
 /// One strip's stored bytes (little-endian samples, `row_bytes` per row) with the
 /// horizontal predictor and compression applied.
 fn encode_strip(raw: &[u8], row_bytes: usize, spp: usize, wide: bool, compression: Compression) -> io::Result<Vec<u8>> {
-    let mut s = raw.to_vec();
     if compression == Compression::None {
-        return Ok(s);
+        return Ok(raw.to_vec());
     }
-    for row in s.chunks_exact_mut(row_bytes) {
+    // The horizontal predictor (TIFF 6.0 §14) from the raw row into a new
+    // one, front to back, so the loop vectorises.
+    let mut s = vec![0u8; raw.len()];
+    for (row, source) in s.chunks_exact_mut(row_bytes).zip(raw.chunks_exact(row_bytes)) {
         if wide {
             let step = 2 * spp;
-            for x in (step..row.len()).step_by(2).rev() {
-                let v = u16::from_le_bytes([row[x], row[x + 1]]).wrapping_sub(u16::from_le_bytes([row[x - step], row[x - step + 1]]));
-                row[x..x + 2].copy_from_slice(&v.to_le_bytes());
+            row[..step].copy_from_slice(&source[..step]);
+            for ((d, c), p) in row[step..]
+                .chunks_exact_mut(2)
+                .zip(source[step..].chunks_exact(2))
+                .zip(source.chunks_exact(2))
+            {
+                let v = u16::from_le_bytes([c[0], c[1]]).wrapping_sub(u16::from_le_bytes([p[0], p[1]]));
+                d.copy_from_slice(&v.to_le_bytes());
             }
         } else {
-            for x in (spp..row.len()).rev() {
-                row[x] = row[x].wrapping_sub(row[x - spp]);
+            row[..spp].copy_from_slice(&source[..spp]);
+            for ((d, &c), &p) in row[spp..].iter_mut().zip(&source[spp..]).zip(source) {
+                *d = c.wrapping_sub(p);
             }
         }
     }
