@@ -449,13 +449,7 @@ fn out_of_range_flags_are_usage_errors() {
 
 #[test]
 fn written_tiffs_read_in_an_independent_reader() {
-    let ok = std::process::Command::new("python3")
-        .args(["-c", "import tifffile, imagecodecs"])
-        .status()
-        .map(|s| s.success())
-        .unwrap_or(false);
-    if !ok {
-        eprintln!("skipped: python3 with tifffile and imagecodecs is not installed");
+    if !crate::tifffile_available() {
         return;
     }
     let o = Outputs::new();

@@ -309,13 +309,7 @@ fn a_read_failure_in_the_last_band_of_the_writing_pass_leaves_no_output() {
 
 #[test]
 fn a_bigtiff_above_a_lowered_threshold_reads_back_in_tifffile() {
-    let available = std::process::Command::new("python3")
-        .args(["-c", "import tifffile, imagecodecs"])
-        .status()
-        .map(|s| s.success())
-        .unwrap_or(false);
-    if !available {
-        println!("skipped: python3 with tifffile and imagecodecs is not installed (pip install tifffile imagecodecs)");
+    if !crate::tifffile_available() {
         return;
     }
     let dir = tempfile::tempdir().unwrap();

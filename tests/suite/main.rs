@@ -44,3 +44,17 @@ mod separation_reseparation;
 mod separation_table_direct;
 mod settings_ranges;
 mod table_cache;
+
+/// Whether python3 with tifffile and imagecodecs, the independent TIFF reader, is
+/// installed; a test that needs it says it is skipped when not.
+pub fn tifffile_available() -> bool {
+    let available = std::process::Command::new("python3")
+        .args(["-c", "import tifffile, imagecodecs"])
+        .status()
+        .map(|s| s.success())
+        .unwrap_or(false);
+    if !available {
+        println!("skipped: python3 with tifffile and imagecodecs is not installed (pip install tifffile imagecodecs)");
+    }
+    available
+}

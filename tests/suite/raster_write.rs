@@ -326,13 +326,7 @@ fn png_plate_shows_ink_dark_on_white_with_phys() {
 
 #[test]
 fn independent_reader_tifffile_agrees() {
-    let available = Command::new("python3")
-        .args(["-c", "import tifffile, imagecodecs"])
-        .status()
-        .map(|s| s.success())
-        .unwrap_or(false);
-    if !available {
-        println!("skipped: python3 with tifffile and imagecodecs is not installed (pip install tifffile imagecodecs)");
+    if !crate::tifffile_available() {
         return;
     }
     let dir = tempfile::tempdir().unwrap();
