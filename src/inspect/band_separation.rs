@@ -66,7 +66,12 @@ pub fn band_separation<'w>(workshop: &'w Workshop, path: &Path, bands: &mut dyn 
     let compressed_from = prepared.compressed_from;
     let separate: SeparateFn<'w> = Box::new(move |band: RowBand| {
         let cmyk = workshop.separate_band(&prepared, &info, &band.samples);
-        let rgb = job::band_rgb(info.layout, &band.samples).into_owned();
+        // RGB bands are their own source RGB: moved, not copied.
+        let converted = match job::band_rgb(info.layout, &band.samples) {
+            std::borrow::Cow::Owned(rgb) => Some(rgb),
+            std::borrow::Cow::Borrowed(_) => None,
+        };
+        let rgb = converted.unwrap_or(band.samples);
         Ok(SeparatedBand { rgb, cmyk })
     });
     Ok(BandSeparation {
