@@ -6,7 +6,9 @@ Run from the repository root:
     .venv/bin/python scripts/reference/make_input_fixtures.py
 Writes testdata/inputs/ (small files; testdata/inputs/README.md says what each is).
     .venv/bin/python scripts/reference/make_input_fixtures.py --only strips
-writes only the strip and tile layouts that the band reader streams (strips_and_tiles).
+writes only the strip and tile layouts that the band reader streams (strips_and_tiles);
+    .venv/bin/python scripts/reference/make_input_fixtures.py --only planar
+also the planar and palette pages in several strips or tiles (planar_and_palette).
 The picture is our own: a smooth colour field drawn by this script.
 """
 
@@ -104,11 +106,37 @@ def strips_and_tiles(p):
     Image.fromarray(wide[..., 0].astype(np.uint16)).save(OUT / "gray16.png")
 
 
+def planar_and_palette(p):
+    """Planar and palette pages in several strips or tiles, which the band reader streams a
+    row of chunks at a time; the planar ones are read back against plain-rgb.tif, the palette
+    ones against their own RGB expansion (a PNG written here from the same table)."""
+    wide = p.astype(np.uint16) * 257
+    planes = np.moveaxis(p, -1, 0)
+    # Planar, 16-bit, strips of 5 rows per plane (32 = 6 x 5 + 2), Deflate with the predictor.
+    tifffile.imwrite(
+        OUT / "planar-strips5-rgb16-deflate.tif", np.moveaxis(wide, -1, 0), photometric="rgb", planarconfig="separate", rowsperstrip=5, compression="zlib", predictor=True
+    )
+    # Planar, 8-bit, 16 x 16 tiles per plane, LZW.
+    tifffile.imwrite(OUT / "planar-tiled-rgb-lzw.tif", planes, photometric="rgb", planarconfig="separate", tile=(16, 16), compression="lzw")
+    # Palette of 64 colours (ColorMap v * 257), indices from an 8 x 8 grid over the picture.
+    y, x = np.mgrid[0:H, 0:W]
+    index = ((y * 8 // H) * 8 + x * 8 // W).astype(np.uint8)
+    k = np.arange(256)
+    table = np.stack([(k * 37 + 11) % 256, (k * 91 + 200) % 256, (k * 13 + 60) % 256]).astype(np.uint16)
+    colormap = table * 257
+    tifffile.imwrite(OUT / "palette-strips4-deflate.tif", index, photometric="palette", colormap=colormap, rowsperstrip=4, compression="zlib")
+    tifffile.imwrite(OUT / "palette-tiled.tif", index, photometric="palette", colormap=colormap, tile=(16, 16))
+    save_png("palette-strips4-deflate.expected.png", np.moveaxis(table[:, index], 0, -1).astype(np.uint8))
+
+
 def main():
     OUT.mkdir(parents=True, exist_ok=True)
     p = picture()
     strips_and_tiles(p)
     if sys.argv[1:] == ["--only", "strips"]:
+        return
+    planar_and_palette(p)
+    if sys.argv[1:] == ["--only", "planar"]:
         return
     # The plain equivalent of every RGB case: 8-bit RGB, uncompressed, interleaved.
     tifffile.imwrite(OUT / "plain-rgb.tif", p, photometric="rgb")

@@ -265,6 +265,47 @@ pub(crate) fn set_tiff_photometric(bytes: &mut [u8], page: usize, value: u16) ->
     None
 }
 
+/// Where the value of PhotometricInterpretation (262) of the directory `page` (from 0) of a
+/// TIFF or BigTIFF file lies, and whether the file is little-endian: the directories are
+/// walked as [`set_tiff_photometric`] walks them in memory, reading only their entries.
+/// `None` when the directory or the tag is not there.
+pub(crate) fn tiff_photometric_at<R: std::io::Read + std::io::Seek>(r: &mut R, page: usize) -> Option<(u64, bool)> {
+    let mut get_bytes = |at: u64, n: usize| -> Option<Vec<u8>> {
+        let mut b = vec![0u8; n];
+        r.seek(std::io::SeekFrom::Start(at)).ok()?;
+        r.read_exact(&mut b).ok()?;
+        Some(b)
+    };
+    let order = get_bytes(0, 2)?;
+    let le = match order.as_slice() {
+        b"II" => true,
+        b"MM" => false,
+        _ => return None,
+    };
+    let value = |s: &[u8]| {
+        let mut v = 0u64;
+        for k in 0..s.len() {
+            let byte = if le { s[s.len() - 1 - k] } else { s[k] };
+            v = (v << 8) | u64::from(byte);
+        }
+        v
+    };
+    let big = value(&get_bytes(2, 2)?) == 43;
+    let (off_len, count_len, entry_len, value_at) = if big { (8, 8, 20u64, 12u64) } else { (4, 2, 12, 8) };
+    let mut ifd = value(&get_bytes(if big { 8 } else { 4 }, off_len)?);
+    for _ in 0..page {
+        let count = value(&get_bytes(ifd, count_len)?);
+        let next_at = ifd.checked_add(count_len as u64)?.checked_add(count.checked_mul(entry_len)?)?;
+        ifd = value(&get_bytes(next_at, off_len)?);
+    }
+    let count = value(&get_bytes(ifd, count_len)?).min(4096);
+    let entries = get_bytes(ifd + count_len as u64, usize::try_from(count * entry_len).ok()?)?;
+    (0..count as usize).find_map(|k| {
+        let e = k * entry_len as usize;
+        (value(&entries[e..e + 2]) == 262).then_some((ifd + count_len as u64 + e as u64 + value_at, le))
+    })
+}
+
 /// XResolution (282), YResolution (283), ResolutionUnit (296) and Orientation (274, EXIF 2.3
 /// §4.6.4) from IFD0 of an EXIF block, which is laid out as a TIFF file (EXIF 2.3 §4.6).
 fn exif_ifd0(tiff: &[u8]) -> (Option<Resolution>, Option<u16>) {

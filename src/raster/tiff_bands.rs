@@ -5,22 +5,26 @@
 //! (bits unpacked, YCbCr and float converted, alpha un-premultiplied, CMYK alpha
 //! flattened).
 //!
-//! Streamed: interleaved (PlanarConfiguration 1) strips and tiles of every layout and
-//! depth the whole read takes (gray, gray+alpha, RGB, RGBA, CMYK, CMYK+alpha; 1, 8, 16-bit
-//! integers and 32-bit float; any compression the tiff crate decodes, predictors
-//! included; YCbCr and JPEG-in-TIFF), upright or with an undefined Orientation value.
-//! One row of chunks is held decoded at a time: a strip, or the tiles across the page.
-//! Uncompressed strips (BlackIsZero, RGB or Separated, no predictor, 8, 16 or 32-bit
-//! samples) hold nothing: the rows of a band are read straight from the file, so a page
-//! stored as one huge strip streams too.
+//! Streamed: strips and tiles of every layout and depth the whole read takes (gray,
+//! gray+alpha, RGB, RGBA, CMYK, CMYK+alpha; 1, 8, 16-bit integers and 32-bit float; any
+//! compression the tiff crate decodes, predictors included; YCbCr and JPEG-in-TIFF),
+//! interleaved (PlanarConfiguration 1) or planar (2: the strips or tiles of each plane
+//! covering the band are decoded and interleaved), and palette pages (the indices are
+//! decoded as gray through a reader that shows the decoder PhotometricInterpretation 1
+//! instead of 3, the two bytes the whole read patches in its copy of the file, and
+//! expanded through the ColorMap), upright or with an undefined Orientation value.
+//! One row of chunks is held decoded at a time: a strip (one per plane), or the tiles
+//! across the page.
+//! Uncompressed interleaved strips (BlackIsZero, RGB or Separated, no predictor, 8, 16 or
+//! 32-bit samples) hold nothing: the rows of a band are read straight from the file, so a
+//! page stored as one huge strip streams too.
 //! Float pages are decoded twice, the first pass only counting the samples outside
 //! 0–1 that the notes report.
 //!
 //! Read whole (memory grows with the picture; [`super::bands::WholeRaster`]):
 //! - an Orientation that turns or mirrors the page (2–8): the first row served is not
 //!   the first row stored;
-//! - planar pages (PlanarConfiguration 2): each plane is stored apart;
-//! - palette pages: decoded from a patched copy of the file held in memory.
+//! - planar YCbCr pages (rare; their chroma planes may be subsampled).
 //!
 //! The limits: a streamed page is checked against the side limits (which bound its
 //! pixel count) and its row of chunks against the byte limit, the memory it holds
@@ -70,7 +74,9 @@ pub(super) struct TiffBands {
     path: PathBuf,
     options: ReadOptions,
     page: usize,
-    dec: Decoder<BufReader<File>>,
+    dec: Decoder<Patched<BufReader<File>>>,
+    /// Palette pages: where PhotometricInterpretation's value lies and the bytes shown there.
+    patch: Option<(u64, [u8; 2])>,
     plan: PagePlan,
     info: RasterInfo,
     /// The decoded row of chunks: rows `held_y..held_y + held_rows`.
@@ -110,18 +116,24 @@ impl TiffBands {
             .seek(SeekFrom::Start(0))
             .map_err(|e| Error::input(path, format!("cannot read: {}", io_reason(&e))))?;
         let mut notes = Vec::new();
-        let mut dec = Decoder::new(reader)
+        let mut dec = Decoder::new(Patched::new(reader, None))
             .map_err(err)?
             .with_limits(super::tiff_in::decoder_limits(limits));
         let page = super::tiff_in::choose_page(path, &mut dec, options, &mut notes)?;
-        if dec
+        let palette = dec
             .find_tag_unsigned::<u16>(tiff::tags::Tag::PhotometricInterpretation)
             .map_err(err)?
-            == Some(3)
-        {
-            return Ok(None);
+            == Some(3);
+        let mut patch = None;
+        if palette {
+            // The tiff crate decodes no palette image: the indices are decoded as gray.
+            let Some((at, little)) = super::sniff::tiff_photometric_at(dec.inner(), page) else {
+                return Ok(None);
+            };
+            patch = Some((at, if little { 1u16.to_le_bytes() } else { 1u16.to_be_bytes() }));
+            dec = decoder_at(path, patch, limits, page)?;
         }
-        let plan = PagePlan::read(path, &mut dec, file_len, options, false, true)?;
+        let plan = PagePlan::read(path, &mut dec, file_len, options, palette, true)?;
         if !plan.streamed {
             return Ok(None);
         }
@@ -143,6 +155,7 @@ impl TiffBands {
             options: *options,
             page,
             dec,
+            patch,
             plan,
             info,
             held,
@@ -245,12 +258,20 @@ impl TiffBands {
         let channels = self.info.channels();
         let row_len = width as usize * channels;
         resize(&mut self.held, row_len * rows as usize);
+        // Planar pages: the chunks of plane p follow those of the planes before it.
+        let planes = if self.plan.planar { self.plan.spp() as u32 } else { 1 };
+        let per_plane = across * height.div_ceil(ch);
         for c in 0..across {
             let index = r * across + c;
-            let decoded = self
-                .dec
-                .read_chunk(index)
-                .map_err(|e| super::read::decode_error(path, Format::Tiff, e.to_string()))?;
+            let mut parts = Vec::with_capacity(planes as usize);
+            for p in 0..planes {
+                let part = self
+                    .dec
+                    .read_chunk(p * per_plane + index)
+                    .map_err(|e| super::read::decode_error(path, Format::Tiff, e.to_string()))?;
+                parts.push(part);
+            }
+            let decoded = planes_joined(path, parts)?;
             let dw = cw.min(width - c * cw) as usize;
             let part = self
                 .plan
@@ -266,6 +287,70 @@ impl TiffBands {
         self.held_y = y0;
         self.held_rows = rows;
         Ok(())
+    }
+}
+
+/// The decoded chunks of each plane one after another, as the whole read gets a planar page.
+fn planes_joined(path: &Path, parts: Vec<DecodingResult>) -> Result<DecodingResult> {
+    let mut parts = parts.into_iter();
+    let Some(mut joined) = parts.next() else {
+        return Err(Error::input(path, "corrupt TIFF file: a page without samples"));
+    };
+    for part in parts {
+        match (&mut joined, part) {
+            (DecodingResult::U8(a), DecodingResult::U8(b)) => a.extend_from_slice(&b),
+            (DecodingResult::U16(a), DecodingResult::U16(b)) => a.extend_from_slice(&b),
+            (DecodingResult::F32(a), DecodingResult::F32(b)) => a.extend_from_slice(&b),
+            _ => return Err(Error::input(path, "corrupt TIFF file: planes of different sample types")),
+        }
+    }
+    Ok(joined)
+}
+
+/// A decoder on page `page` of `path`, through `patch` (palette pages).
+fn decoder_at(path: &Path, patch: Option<(u64, [u8; 2])>, limits: &Limits, page: usize) -> Result<Decoder<Patched<BufReader<File>>>> {
+    let err = |e: tiff::TiffError| super::read::decode_error(path, Format::Tiff, e.to_string());
+    let (reader, _) = open_file(path)?;
+    let mut dec = Decoder::new(Patched::new(reader, patch))
+        .map_err(err)?
+        .with_limits(super::tiff_in::decoder_limits(limits));
+    dec.seek_to_image(page).map_err(err)?;
+    Ok(dec)
+}
+
+/// A file read with two of its bytes shown changed (nothing when `patch` is `None`).
+pub(super) struct Patched<R> {
+    inner: R,
+    pos: u64,
+    patch: Option<(u64, [u8; 2])>,
+}
+
+impl<R> Patched<R> {
+    fn new(inner: R, patch: Option<(u64, [u8; 2])>) -> Patched<R> {
+        Patched { inner, pos: 0, patch }
+    }
+}
+
+impl<R: Read> Read for Patched<R> {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        let n = self.inner.read(buf)?;
+        if let Some((at, bytes)) = self.patch {
+            for (i, &b) in bytes.iter().enumerate() {
+                let p = at + i as u64;
+                if (self.pos..self.pos + n as u64).contains(&p) {
+                    buf[(p - self.pos) as usize] = b;
+                }
+            }
+        }
+        self.pos += n as u64;
+        Ok(n)
+    }
+}
+
+impl<R: Seek> Seek for Patched<R> {
+    fn seek(&mut self, from: SeekFrom) -> std::io::Result<u64> {
+        self.pos = self.inner.seek(from)?;
+        Ok(self.pos)
     }
 }
 
@@ -347,14 +432,7 @@ impl BandSource for TiffBands {
     }
 
     fn rewind(&mut self) -> Result<()> {
-        let path = self.path.clone();
-        let err = |e: tiff::TiffError| super::read::decode_error(&path, Format::Tiff, e.to_string());
-        let (reader, _) = open_file(&path)?;
-        let mut dec = Decoder::new(reader)
-            .map_err(err)?
-            .with_limits(super::tiff_in::decoder_limits(&self.options.limits));
-        dec.seek_to_image(self.page).map_err(err)?;
-        self.dec = dec;
+        self.dec = decoder_at(&self.path, self.patch, &self.options.limits, self.page)?;
         self.held_y = 0;
         self.held_rows = 0;
         self.next_row = 0;

@@ -263,8 +263,9 @@ impl PagePlan {
         let orientation = tag_u16(dec, Tag::Orientation)?;
         let chunk = chunk_size(dec, width, height).map_err(err)?;
         let channels = layout.channels().max(spp).min(255) as u8;
-        let streamed = may_stream && !planar && !matches!(colortype, T::Palette(_)) && super::tiff_bands::streams(orientation);
-        let direct = if streamed {
+        // Planar YCbCr (subsampled planes) is left to the whole read.
+        let streamed = may_stream && !(planar && matches!(colortype, T::YCbCr(_))) && super::tiff_bands::streams(orientation);
+        let direct = if streamed && !planar {
             direct_strips(dec, width, height, spp, bits, chunk).map_err(err)?
         } else {
             None
