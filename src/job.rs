@@ -278,6 +278,7 @@ pub struct SeparatedFile {
 }
 
 /// Where [`Workshop::write_outputs_in`] writes, and how the summary names things.
+#[derive(Debug, Clone, Copy)]
 pub struct OutputPlace<'a> {
     /// The existing folder the files are written into.
     pub dir: &'a Path,
@@ -514,46 +515,70 @@ impl Workshop {
     pub fn stream_bands(
         &self,
         path: &Path,
-        mut bands: Box<dyn BandSource + '_>,
+        bands: Box<dyn BandSource + '_>,
         place: &OutputPlace,
         started: Instant,
         open_ms: f64,
         progress: &(dyn Fn(u64, u64) + Sync),
     ) -> Result<JobSummary> {
-        let mut read_ms = open_ms;
-        let info = bands.info().clone();
-        let band_rows = self.band_rows_for(&info);
-        let per_pass = u64::from(info.height.div_ceil(band_rows));
-        let passes = if self.gathers_picture_colours(&info) { 2 } else { 1 };
+        let info = bands.info();
+        let per_pass = u64::from(info.height.div_ceil(self.band_rows_for(info)));
+        let passes = if self.gathers_picture_colours(info) { 2 } else { 1 };
         let done = std::sync::atomic::AtomicU64::new(0);
         let tick = || progress(done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1, per_pass * passes);
+        let mut job = self.begin_stream(path, bands, *place, started, open_ms, &tick)?;
+        while job.next_band(job.band_rows())?.is_some() {
+            tick();
+        }
+        job.finish()
+    }
+
+    /// Opens `path` and begins its streamed job into `place` (see
+    /// [`StreamedJob`]): the caller takes the bands, each separated and
+    /// written as it is taken, then finishes the job.
+    pub fn stream_job<'a>(&'a self, path: &'a Path, place: OutputPlace<'a>, started: Instant) -> Result<StreamedJob<'a>> {
+        let (bands, open_ms) = self.open(path)?;
+        self.begin_stream(path, bands, place, started, open_ms, &|| {})
+    }
+
+    /// Begins the streamed job of the band source `bands` open on `path`:
+    /// the output files are opened (names checked before any work) and the
+    /// separation prepared (a first pass over the bands, a `tick` per band,
+    /// when the table comes from the picture's own colours).
+    fn begin_stream<'a>(
+        &'a self,
+        path: &'a Path,
+        mut bands: Box<dyn BandSource + 'a>,
+        place: OutputPlace<'a>,
+        started: Instant,
+        open_ms: f64,
+        tick: &dyn Fn(),
+    ) -> Result<StreamedJob<'a>> {
+        let info = bands.info().clone();
+        let band_rows = self.band_rows_for(&info);
         // Names are checked and files opened before the work, so a refused name costs nothing.
         let mut out = OutputSet::new(place.dir, self.options.overwrite)?;
         out.protect([path]);
         let stem = output_stem(path).to_string();
-        let mut files = self.open_outputs(&out, &stem, &info)?;
-        let prepared = self.prepare(path, &mut *bands, band_rows, &tick)?;
-        let mut write = Duration::ZERO;
-        let (stats, read, separate) = self.separate_bands(&mut *bands, &info, &prepared, band_rows, &tick, &mut |cmyk| {
-            let t = Instant::now();
-            files.push(&cmyk)?;
-            write += t.elapsed();
-            Ok(())
-        })?;
-        read_ms += round_to(read.as_secs_f64() * 1000.0, 1);
-        let t = Instant::now();
-        files.finish(&mut out)?;
-        let timings = Timings {
-            read_ms,
-            table_ms: prepared.table_ms,
-            separate_ms: round_to(separate.as_secs_f64() * 1000.0, 1),
-            write_ms: 0.0,
-            total_ms: 0.0,
-            table_source: prepared.table_source,
-            profile_source: Origin::Built,
-        };
-        let written = write + t.elapsed();
-        self.finish_set(out, place, &info, &prepared.described(), &stats, timings, written, started)
+        let files = self.open_outputs(&out, &stem, &info)?;
+        let prepared = self.prepare(path, &mut *bands, band_rows, tick)?;
+        Ok(StreamedJob {
+            workshop: self,
+            bands,
+            info,
+            prepared,
+            out,
+            files,
+            place,
+            started,
+            open_ms,
+            read: Duration::ZERO,
+            separate: Duration::ZERO,
+            write: Duration::ZERO,
+            stats: InkStats::default(),
+            rows: 0,
+            band_rows,
+        })
     }
 
     /// Reads and separates one file in memory; nothing is written.
@@ -738,9 +763,20 @@ impl Workshop {
     /// A file's separation prepared for its bands, as [`Workshop::run`]
     /// prepares it: for the perceptual intent from the picture's own colours,
     /// `bands` is read once and rewound.
-    pub(crate) fn prepare_bands(&self, path: &Path, bands: &mut dyn BandSource) -> Result<Prepared> {
+    /// `tick` is called after each band of that pass.
+    pub(crate) fn prepare_bands(&self, path: &Path, bands: &mut dyn BandSource, tick: &dyn Fn()) -> Result<Prepared> {
         let band_rows = self.band_rows_for(bands.info());
-        self.prepare(path, bands, band_rows, &|| {})
+        self.prepare(path, bands, band_rows, tick)
+    }
+
+    /// Bands of the first pass [`Workshop::prepare_bands`] makes over a
+    /// picture (none unless its table comes from its own colours).
+    pub(crate) fn colour_pass_bands(&self, info: &RasterInfo) -> u64 {
+        if self.gathers_picture_colours(info) {
+            u64::from(info.height.div_ceil(self.band_rows_for(info)))
+        } else {
+            0
+        }
     }
 
     /// The CMYK of one band's `samples` (laid out as `info` says) under `prepared`.
@@ -1089,6 +1125,150 @@ impl GrayToBlack {
         } else {
             Samples::U16(k.iter().flat_map(|&k| [0, 0, 0, self.caps.black_code::<u16>(k) as u16]).collect())
         }
+    }
+}
+
+/// One file separated and written a band at a time, the bands handed on to
+/// the caller as they are written ([`Workshop::stream_job`]): `separate`
+/// takes them and drops them; the hot folder inspects them in the same pass,
+/// so the picture is read once and memory holds one band whatever its size.
+/// The outputs are committed as a set by [`StreamedJob::finish`]; dropped
+/// before, it leaves nothing.
+pub struct StreamedJob<'a> {
+    workshop: &'a Workshop,
+    bands: Box<dyn BandSource + 'a>,
+    info: RasterInfo,
+    prepared: Prepared,
+    out: OutputSet,
+    files: OutputFiles<'a>,
+    place: OutputPlace<'a>,
+    started: Instant,
+    open_ms: f64,
+    read: Duration,
+    separate: Duration,
+    write: Duration,
+    stats: InkStats,
+    /// Rows separated so far.
+    rows: u32,
+    /// Rows per band for this picture, as `separate` takes them.
+    band_rows: u32,
+}
+
+/// One band of a [`StreamedJob`], already separated and written.
+pub struct JobBand {
+    /// Its first row and its number of rows.
+    pub y: u32,
+    pub rows: u32,
+    /// The band as read, interleaved as the picture's layout.
+    pub input: Samples,
+    /// Its CMYK, as written.
+    pub cmyk: Samples,
+}
+
+impl StreamedJob<'_> {
+    /// Rows per band for this picture, as `separate` takes them: about
+    /// [`BAND_BYTES`] of samples (or the workshop's set band height).
+    pub fn band_rows(&self) -> u32 {
+        self.band_rows
+    }
+
+    /// The picture's description.
+    pub fn info(&self) -> &RasterInfo {
+        &self.info
+    }
+
+    /// The RGB source of the separation, taken out (the bands need only the
+    /// prepared table): `None` for CMYK input, for gray on the black plate
+    /// only, and once taken.
+    pub fn take_rgb_source(&mut self) -> Option<RgbSource> {
+        self.prepared.rgb_source.take()
+    }
+
+    /// How the summary names the source.
+    pub fn source_description(&self) -> &str {
+        &self.prepared.source_description
+    }
+
+    /// What reading and the set-up did, as the summary lists them.
+    pub fn notes(&self) -> &[String] {
+        &self.prepared.notes
+    }
+
+    /// What the perceptual intent compressed from.
+    pub fn compressed_from(&self) -> Option<CompressFrom> {
+        self.prepared.compressed_from
+    }
+
+    /// Time spent opening and reading so far, ms.
+    pub fn read_ms(&self) -> f64 {
+        round_to(self.open_ms + self.read.as_secs_f64() * 1000.0, 1)
+    }
+
+    /// Time spent on the table and separating so far, ms.
+    pub fn separate_ms(&self) -> f64 {
+        round_to(self.prepared.table_ms + self.separate.as_secs_f64() * 1000.0, 1)
+    }
+
+    /// Reads, separates and writes the next band of at most `max_rows` rows
+    /// (the outputs do not depend on it), or `None` after the last.
+    pub fn next_band(&mut self, max_rows: u32) -> Result<Option<JobBand>> {
+        let t = Instant::now();
+        let Some(band) = self.bands.next_band(max_rows)? else {
+            if self.rows != self.info.height {
+                return Err(Error::Internal(format!("{} of {} rows were read", self.rows, self.info.height)));
+            }
+            return Ok(None);
+        };
+        self.read += t.elapsed();
+        if band.y != self.rows {
+            return Err(Error::Internal(format!("band at row {} after {} rows", band.y, self.rows)));
+        }
+        self.rows += band.rows;
+        let t = Instant::now();
+        let cmyk = self.workshop.separate_band(&self.prepared, &self.info, &band.samples);
+        self.stats += InkStats::of_samples(&cmyk, self.workshop.separator.settings().tac);
+        self.separate += t.elapsed();
+        let t = Instant::now();
+        self.files.push(&cmyk)?;
+        self.write += t.elapsed();
+        Ok(Some(JobBand {
+            y: band.y,
+            rows: band.rows,
+            input: band.samples,
+            cmyk,
+        }))
+    }
+
+    /// Ends the files and commits them with the summary as one set, once
+    /// every band was taken.
+    pub fn finish(mut self) -> Result<JobSummary> {
+        if self.rows != self.info.height {
+            return Err(Error::Internal(format!("{} of {} rows were read", self.rows, self.info.height)));
+        }
+        let read_ms = self.read_ms();
+        let t = Instant::now();
+        self.files.finish(&mut self.out)?;
+        let timings = Timings {
+            read_ms,
+            table_ms: self.prepared.table_ms,
+            separate_ms: round_to(self.separate.as_secs_f64() * 1000.0, 1),
+            write_ms: 0.0,
+            total_ms: 0.0,
+            table_source: self.prepared.table_source,
+            profile_source: Origin::Built,
+        };
+        let written = self.write + t.elapsed();
+        let workshop = self.workshop;
+        workshop.finish_set(
+            self.out,
+            &self.place,
+            &self.info,
+            &self.prepared.described(),
+            &self.stats,
+            timings,
+            written,
+            self.started,
+        )
     }
 }
 

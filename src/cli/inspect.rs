@@ -157,8 +157,25 @@ pub fn run(args: InspectArgs) -> Result<i32> {
     }
     let workshop = job.workshop()?;
     let (mut reports, mut bad, mut failed) = (Vec::new(), 0usize, 0usize);
+    // One file on a terminal, without --json: a bar follows its bands
+    // (through both passes when the table is built from its own colours).
+    let bar = if args.inputs.len() == 1 && !args.json {
+        super::separate::progress_bar(0, "bands")
+    } else {
+        indicatif::ProgressBar::hidden()
+    };
     for input in &args.inputs {
-        let result = crate::inspect::inspect_file(&workshop, input, &opts).and_then(|inspection| {
+        bar.set_message(input.display().to_string());
+        let inspected = if bar.is_hidden() {
+            crate::inspect::inspect_file(&workshop, input, &opts)
+        } else {
+            crate::inspect::inspect_file_with_progress(&workshop, input, &opts, &|done, bands| {
+                bar.set_length(bands);
+                bar.set_position(done);
+            })
+        };
+        bar.finish_and_clear();
+        let result = inspected.and_then(|inspection| {
             if let Some(dir) = &args.report {
                 write_report_dir(dir, args.force, input, &inspection, &workshop.separator)?;
             }

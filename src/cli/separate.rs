@@ -217,7 +217,7 @@ fn say(bar: &indicatif::ProgressBar, line: String) {
     }
 }
 
-fn progress_bar(len: u64, unit: &str) -> indicatif::ProgressBar {
+pub(super) fn progress_bar(len: u64, unit: &str) -> indicatif::ProgressBar {
     use std::io::IsTerminal;
     if !std::io::stderr().is_terminal() {
         return indicatif::ProgressBar::hidden();

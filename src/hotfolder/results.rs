@@ -45,7 +45,8 @@ pub(super) fn process(shared: &Shared, claimed: &Claimed) -> Outcome {
             name: &name,
             staging: &staging,
             started,
-            separated: None,
+            read_notes: Vec::new(),
+            inspection: None,
         };
         let mut reasons = Vec::new();
         for step in shared.steps {
@@ -55,12 +56,7 @@ pub(super) fn process(shared: &Shared, claimed: &Claimed) -> Outcome {
             }
         }
         // Damaged data accepted by the ticket's `accept_damaged` is said in the log, not only in the summary.
-        for note in job
-            .separated
-            .iter()
-            .flat_map(|s| &s.raster.notes)
-            .filter(|n| n.contains("--accept-damaged"))
-        {
+        for note in job.read_notes.iter().filter(|n| n.contains("--accept-damaged")) {
             shared.log.event("damaged", &name, note, None);
         }
         Ok(reasons)

@@ -10,8 +10,8 @@
 
 use crate::error::{Error, Result};
 use crate::inspect::rules::parse_all;
-use crate::inspect::{InspectOptions, inspect_separated};
-use crate::job::{OutputPlace, SeparatedFile, Workshop};
+use crate::inspect::{InspectOptions, Inspection, inspect_job};
+use crate::job::{OutputPlace, Workshop};
 use crate::report::folder::write_report_dir;
 use crate::ticket::Ticket;
 use std::path::Path;
@@ -36,9 +36,12 @@ pub struct JobFile<'a> {
     /// the pipeline is through. Reports list their files relative to it.
     pub staging: &'a Path,
     pub started: Instant,
-    /// The separation, once the separate step has run (later steps check
-    /// exactly the CMYK that was written).
-    pub separated: Option<SeparatedFile>,
+    /// What reading the file noted (damaged data accepted, assumptions…),
+    /// once the separate step has run.
+    pub read_notes: Vec<String>,
+    /// The inspection of exactly the CMYK that was written, made by the
+    /// separate step in its pass over the bands when an inspect step follows.
+    pub inspection: Option<Inspection>,
 }
 
 /// A step of the pipeline.
@@ -49,9 +52,16 @@ pub trait Step: Send + Sync {
 }
 
 /// Separates the file and writes the composite, the plates and the summary
-/// (as `separate --ticket` would, through one [`crate::raster::OutputSet`]).
+/// (as `separate --ticket` would, through one [`crate::raster::OutputSet`]),
+/// streamed: a band of rows at a time is read, separated and written
+/// ([`Workshop::stream_job`]), so memory is bounded whatever the picture's
+/// size. With `inspect`, each band is also checked as it is written
+/// ([`inspect_job`]): the picture is read once, and the inspection is left in
+/// [`JobFile::inspection`] for the inspect step. The outputs are committed as
+/// a set only after the last band; an error before leaves none.
 pub struct SeparateStep {
     pub workshop: Arc<Workshop>,
+    pub inspect: Option<InspectOptions>,
 }
 
 impl Step for SeparateStep {
@@ -60,40 +70,51 @@ impl Step for SeparateStep {
     }
 
     fn run(&self, job: &mut JobFile) -> Result<Verdict> {
-        let separated = self.workshop.separate_file(job.input)?;
         let place = OutputPlace {
             dir: job.staging,
             listed_dir: Path::new(""),
             input_shown: Path::new(job.name),
         };
-        self.workshop.write_outputs_in(job.input, &separated, job.started, &place)?;
-        job.separated = Some(separated);
+        let mut streamed = self.workshop.stream_job(job.input, place, job.started)?;
+        job.read_notes = streamed.info().notes.clone();
+        if let Some(options) = &self.inspect {
+            let mut inspection = inspect_job(&self.workshop, job.input, &mut streamed, options, Instant::now())?;
+            inspection.report.file = job.name.to_string();
+            job.inspection = Some(inspection);
+        } else {
+            while streamed.next_band(streamed.band_rows())?.is_some() {}
+        }
+        streamed.finish()?;
         Ok(Verdict::Pass)
     }
 }
 
-/// The steps for a ticket: separate, then the inspect step where there is one.
+/// The steps for a ticket: separate (inspecting as it goes), then the
+/// inspect step that writes the report and judges it.
 pub fn pipeline(workshop: Arc<Workshop>, ticket: &Ticket) -> Result<Vec<Box<dyn Step>>> {
-    let mut steps: Vec<Box<dyn Step>> = vec![Box::new(SeparateStep {
-        workshop: workshop.clone(),
-    })];
-    steps.extend(inspect_step(&workshop, ticket)?);
+    let options = inspect_options(ticket)?;
+    let steps: Vec<Box<dyn Step>> = vec![
+        Box::new(SeparateStep {
+            workshop: workshop.clone(),
+            inspect: Some(options),
+        }),
+        Box::new(InspectStep { workshop }),
+    ];
     Ok(steps)
 }
 
-/// Inspects what was separated and writes the inspection report (JSON, CSV
-/// of regions, maps, HTML page) beside the plates, through one
-/// [`crate::raster::OutputSet`] on the staging folder. The ticket's
-/// `[checks] fail_if` rules judge it (with none, the inspect default: no pixel
-/// over the ink limit); a failed rule gives [`Verdict::Fail`] naming it, so the
-/// input goes to `failed/` with the rule in its `.error.txt`.
+/// Writes the inspection report (JSON, CSV of regions, maps, HTML page)
+/// beside the plates, through one [`crate::raster::OutputSet`] on the staging
+/// folder. The ticket's `[checks] fail_if` rules judged it (with none, the
+/// inspect default: no pixel over the ink limit); a failed rule gives
+/// [`Verdict::Fail`] naming it, so the input goes to `failed/` with the rule in
+/// its `.error.txt`.
 ///
-/// It checks the separation the separate step made and wrote (`job.separated`,
-/// not read or separated again): RGB and gray input with the ΔE of every
+/// It reports the inspection the separate step made of the bands it wrote
+/// (not read or separated again): RGB and gray input with the ΔE of every
 /// pixel; CMYK input as re-separated, since that is what gets plated.
 pub struct InspectStep {
     pub workshop: Arc<Workshop>,
-    pub options: InspectOptions,
 }
 
 impl Step for InspectStep {
@@ -102,13 +123,11 @@ impl Step for InspectStep {
     }
 
     fn run(&self, job: &mut JobFile) -> Result<Verdict> {
-        let separated = job
-            .separated
+        let inspection = job
+            .inspection
             .as_ref()
-            .ok_or_else(|| Error::Internal("the inspect step runs after the separate step".into()))?;
-        let mut inspection = inspect_separated(&self.workshop, job.input, separated, &self.options, Instant::now())?;
-        inspection.report.file = job.name.to_string();
-        write_report_dir(job.staging, false, job.input, &inspection, &self.workshop.separator)?;
+            .ok_or_else(|| Error::Internal("the inspect step runs after the separate step that inspects".into()))?;
+        write_report_dir(job.staging, false, job.input, inspection, &self.workshop.separator)?;
         let failed: Vec<String> = inspection
             .report
             .rules
@@ -123,20 +142,16 @@ impl Step for InspectStep {
     }
 }
 
-/// The inspect step for a ticket: its `[checks] fail_if` rules (checked when
-/// the ticket was read; a bad rule names the ticket's file and line there).
-pub fn inspect_step(workshop: &Arc<Workshop>, ticket: &Ticket) -> Result<Option<Box<dyn Step>>> {
+/// The inspection settings for a ticket: its `[checks] fail_if` rules (checked
+/// when the ticket was read; a bad rule names the ticket's file and line there).
+pub fn inspect_options(ticket: &Ticket) -> Result<InspectOptions> {
     let rules = parse_all(&ticket.checks.fail_if).map_err(|e| match &ticket.source {
         Some((path, _)) => Error::input(path, e.to_string()),
         None => e,
     })?;
-    let options = InspectOptions {
+    Ok(InspectOptions {
         rules,
         keep_maps: true,
         ..InspectOptions::default()
-    };
-    Ok(Some(Box::new(InspectStep {
-        workshop: workshop.clone(),
-        options,
-    })))
+    })
 }

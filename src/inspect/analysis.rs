@@ -133,6 +133,21 @@ struct Scanning {
     analyse_ms: f64,
 }
 
+/// Rows per band of the pass over a picture `width` pixels wide whose map
+/// cells are `factor` pixels square: about [`BAND_PIXELS`], whole cells.
+fn band_rows(width: usize, factor: usize, opts: &InspectOptions) -> u32 {
+    match opts.band_rows {
+        Some(n) => n.max(1),
+        None => (BAND_PIXELS / width.max(1)).div_ceil(factor).max(1) as u32 * factor as u32,
+    }
+}
+
+/// Bands the pass takes over a `width` × `height` picture (for a progress bar).
+pub(super) fn bands_in_pass(width: u32, height: u32, opts: &InspectOptions) -> u64 {
+    let factor = width.max(height).div_ceil(super::MAP_SIDE).max(1) as usize;
+    u64::from(height.div_ceil(band_rows(width as usize, factor, opts)))
+}
+
 fn scan(
     subject: &Subject,
     pass: &Pass,
@@ -150,10 +165,7 @@ fn scan(
     let mut model = subject.source.map(|source| DeModel::new(separator, source, subject.rgb_bits));
     let mut scan = Scan::new(pass, &rules);
     let w = subject.width as usize;
-    let rows = match opts.band_rows {
-        Some(n) => n.max(1),
-        None => (BAND_PIXELS / w.max(1)).div_ceil(pass.factor).max(1) as u32 * pass.factor as u32,
-    };
+    let rows = band_rows(w, pass.factor, opts);
     let mut outside = t.elapsed().as_secs_f64();
     let mut next_row = 0u32;
     loop {

@@ -52,14 +52,15 @@ impl BandSeparation<'_> {
 
 /// Prepares the separation of the RGB or gray picture `bands` read from
 /// `path` (rewound after a first pass when the table depends on the
-/// picture), as `workshop` separates it.
-pub fn band_separation<'w>(workshop: &'w Workshop, path: &Path, bands: &mut dyn BandSource) -> Result<BandSeparation<'w>> {
+/// picture), as `workshop` separates it; `tick` is called after each band
+/// of that first pass.
+pub fn band_separation<'w>(workshop: &'w Workshop, path: &Path, bands: &mut dyn BandSource, tick: &dyn Fn()) -> Result<BandSeparation<'w>> {
     let t = Instant::now();
     let info = bands.info().clone();
     if info.layout == Layout::Cmyk {
         return Err(Error::Internal(format!("{}: CMYK has no band separation from RGB", path.display())));
     }
-    let mut prepared = workshop.prepare_bands(path, bands)?;
+    let mut prepared = workshop.prepare_bands(path, bands, tick)?;
     let source = prepared.rgb_source.take();
     let description = std::mem::take(&mut prepared.source_description);
     let notes = std::mem::take(&mut prepared.notes);

@@ -1,11 +1,13 @@
 //! Where the pass gets its bands: a CMYK file as read, an RGB or gray file
 //! through its band separation ([`super::band_separation`]), or an image
-//! already separated in memory (the hot folder), cut into bands so that it
-//! goes through the same pass.
+//! already separated in memory, cut into bands so that it goes through the
+//! same pass; or the bands of a separation job as it writes them (the hot
+//! folder: read, separated, written and checked in one pass).
 
 use super::band_separation::BandSeparation;
 use crate::error::Result;
-use crate::raster::{BandSource, Samples};
+use crate::job::StreamedJob;
+use crate::raster::{BandSource, Layout, Samples};
 use std::time::Instant;
 
 /// One band as the pass checks it.
@@ -177,5 +179,80 @@ impl Feed for InMemory<'_> {
 
     fn separate_ms(&self) -> f64 {
         self.separate_ms
+    }
+}
+
+/// The bands of a separation job as it writes them: exactly the CMYK written,
+/// with the source RGB for RGB and gray input.
+pub(super) struct JobBands<'j, 'a> {
+    job: &'j mut StreamedJob<'a>,
+}
+
+impl<'j, 'a> JobBands<'j, 'a> {
+    pub fn new(job: &'j mut StreamedJob<'a>) -> JobBands<'j, 'a> {
+        JobBands { job }
+    }
+}
+
+impl Feed for JobBands<'_, '_> {
+    fn next(&mut self, max_rows: u32) -> Result<Option<CheckedBand>> {
+        let layout = self.job.info().layout;
+        let Some(band) = self.job.next_band(max_rows)? else {
+            return Ok(None);
+        };
+        let rgb = if layout == Layout::Cmyk {
+            None
+        } else {
+            let converted = match crate::job::band_rgb(layout, &band.input) {
+                std::borrow::Cow::Owned(rgb) => Some(rgb),
+                std::borrow::Cow::Borrowed(_) => None,
+            };
+            // RGB bands are their own source RGB: moved, not copied.
+            Some(converted.unwrap_or(band.input))
+        };
+        Ok(Some(CheckedBand {
+            y: band.y,
+            rows: band.rows,
+            cmyk: band.cmyk,
+            rgb,
+        }))
+    }
+
+    fn read_ms(&self) -> f64 {
+        self.job.read_ms()
+    }
+
+    fn separate_ms(&self) -> f64 {
+        self.job.separate_ms()
+    }
+}
+
+/// A feed that calls `tick` after each band it gives (a progress bar).
+pub(super) struct Ticking<'t, F> {
+    feed: F,
+    tick: &'t dyn Fn(),
+}
+
+impl<'t, F: Feed> Ticking<'t, F> {
+    pub fn new(feed: F, tick: &'t dyn Fn()) -> Ticking<'t, F> {
+        Ticking { feed, tick }
+    }
+}
+
+impl<F: Feed> Feed for Ticking<'_, F> {
+    fn next(&mut self, max_rows: u32) -> Result<Option<CheckedBand>> {
+        let band = self.feed.next(max_rows)?;
+        if band.is_some() {
+            (self.tick)();
+        }
+        Ok(band)
+    }
+
+    fn read_ms(&self) -> f64 {
+        self.feed.read_ms()
+    }
+
+    fn separate_ms(&self) -> f64 {
+        self.feed.separate_ms()
     }
 }

@@ -43,7 +43,7 @@ pub use schema::{
 
 use crate::colour::Lab;
 use crate::error::Result;
-use crate::job::{SeparatedFile, Workshop};
+use crate::job::{SeparatedFile, StreamedJob, Workshop};
 use crate::raster::Layout;
 use crate::report::round_to;
 use crate::source::RgbSource;
@@ -173,10 +173,22 @@ fn ms(t: Instant) -> f64 {
 /// separates them, CMYK as it would be plated (not re-separated). Memory
 /// holds one band of pixels, whatever the picture's size.
 pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> Result<Inspection> {
+    inspect_file_with_progress(workshop, path, opts, &|_, _| {})
+}
+
+/// [`inspect_file`], with `progress` hearing (bands done, bands in all)
+/// after each band of each pass over the picture (two passes when the
+/// perceptual table is built from the picture's own colours).
+pub fn inspect_file_with_progress(
+    workshop: &Workshop,
+    path: &Path,
+    opts: &InspectOptions,
+    progress: &(dyn Fn(u64, u64) + Sync),
+) -> Result<Inspection> {
     let started = Instant::now();
     let bands = crate::raster::open_bands(path, &workshop.options.read_options())?;
     let read_ms = ms(started);
-    inspect_bands(workshop, path, bands, read_ms, opts, started)
+    inspect_bands_with(workshop, path, bands, read_ms, opts, started, progress)
 }
 
 /// Inspects a picture served band by band (`path` names it in the report
@@ -184,22 +196,45 @@ pub fn inspect_file(workshop: &Workshop, path: &Path, opts: &InspectOptions) -> 
 pub fn inspect_bands(
     workshop: &Workshop,
     path: &Path,
-    mut bands: Box<dyn crate::raster::BandSource>,
+    bands: Box<dyn crate::raster::BandSource>,
     read_ms: f64,
     opts: &InspectOptions,
     started: Instant,
 ) -> Result<Inspection> {
+    inspect_bands_with(workshop, path, bands, read_ms, opts, started, &|_, _| {})
+}
+
+fn inspect_bands_with(
+    workshop: &Workshop,
+    path: &Path,
+    mut bands: Box<dyn crate::raster::BandSource>,
+    read_ms: f64,
+    opts: &InspectOptions,
+    started: Instant,
+    progress: &(dyn Fn(u64, u64) + Sync),
+) -> Result<Inspection> {
     let info = bands.info().clone();
+    let first_pass = if info.layout == Layout::Cmyk {
+        0
+    } else {
+        workshop.colour_pass_bands(&info)
+    };
+    let total = first_pass + analysis::bands_in_pass(info.width, info.height, opts);
+    let done = std::cell::Cell::new(0u64);
+    let tick = || {
+        done.set(done.get() + 1);
+        progress(done.get().min(total), total);
+    };
     if info.layout == Layout::Cmyk {
         let notes = vec![format!(
             "the file's own CMYK is checked for {}, as it would be plated (not re-separated)",
             workshop.separator.condition().name
         )];
         let subject = Subject::of(&Shape::of(&info), info.bits, None, notes, "CMYK".into(), None);
-        let mut feed = feed::FileCmyk::new(bands.as_mut(), read_ms);
+        let mut feed = feed::Ticking::new(feed::FileCmyk::new(bands.as_mut(), read_ms), &tick);
         return analysis::analyse(workshop, path, subject, &mut feed, opts, started);
     }
-    let mut separation = band_separation::band_separation(workshop, path, bands.as_mut())?;
+    let mut separation = band_separation::band_separation(workshop, path, bands.as_mut(), &tick)?;
     let fallback_source = RgbSource::Named(workshop.options.source_space);
     let mut notes = separation.notes.clone();
     if separation.source.is_none() {
@@ -214,7 +249,7 @@ pub fn inspect_bands(
         separation.description.clone(),
         separation.compressed_from,
     );
-    let mut feed = feed::FileSeparated::new(bands.as_mut(), separation, read_ms);
+    let mut feed = feed::Ticking::new(feed::FileSeparated::new(bands.as_mut(), separation, read_ms), &tick);
     analysis::analyse(workshop, path, subject, &mut feed, opts, started)
 }
 
@@ -256,6 +291,33 @@ pub fn inspect_separated(
     let subject = Subject::of(&shape, bits, Some(source), notes, s.source_description.clone(), s.compressed_from);
     let mut feed = feed::InMemory::new(&s.image.samples, rgb.as_deref(), r.width, s.read_ms, separate_ms);
     analysis::analyse(workshop, path, subject, &mut feed, opts, started)
+}
+
+/// Inspects the bands of a separation job as it writes them ([`Workshop::stream_job`]):
+/// the picture is read once, each band separated, written and checked, and
+/// memory holds one band whatever the picture's size. The report is that of
+/// [`inspect_separated`] on the same file (RGB and gray with the ΔE of every
+/// pixel; CMYK input as re-separated), sample for sample. Every band is taken:
+/// the job is ready for [`StreamedJob::finish`] after.
+pub fn inspect_job(workshop: &Workshop, path: &Path, job: &mut StreamedJob, opts: &InspectOptions, started: Instant) -> Result<Inspection> {
+    let shape = Shape::of(job.info());
+    let bits = workshop.options.bits;
+    let mut notes = job.notes().to_vec();
+    let description = job.source_description().to_string();
+    let compressed_from = job.compressed_from();
+    if job.info().layout == Layout::Cmyk {
+        notes.push("checked: the re-separated CMYK".into());
+        let subject = Subject::of(&shape, bits, None, notes, description, compressed_from);
+        return analysis::analyse(workshop, path, subject, &mut feed::JobBands::new(job), opts, started);
+    }
+    let fallback_source = RgbSource::Named(workshop.options.source_space);
+    let own_source = job.take_rgb_source();
+    if own_source.is_none() {
+        notes.push(format!("ΔE measured against {} gray", workshop.options.source_space.name()));
+    }
+    let source = own_source.unwrap_or(fallback_source);
+    let subject = Subject::of(&shape, bits, Some(&source), notes, description, compressed_from);
+    analysis::analyse(workshop, path, subject, &mut feed::JobBands::new(job), opts, started)
 }
 
 /// The size, layout, resolution and depth of the picture inspected.

@@ -455,6 +455,43 @@ fn outputs_are_those_of_separate_with_the_same_ticket() {
             "{f}"
         );
     }
+    // The report of the hot folder's single pass (the bands inspected as they are
+    // written) is that of `inspect` on the file, but for the timings and the name shown.
+    let report = alone.path().join("report");
+    let st = Command::new(BIN)
+        .arg("inspect")
+        .arg(&input)
+        .arg("--ticket")
+        .arg(hot.path("ticket.toml"))
+        .arg("--report")
+        .arg(&report)
+        .output()
+        .unwrap();
+    assert!(st.status.code().is_some_and(|c| c < 2), "{}", String::from_utf8_lossy(&st.stderr));
+    let masked = |path: PathBuf| {
+        let mut v: serde_json::Value = serde_json::from_slice(&fs::read(path).unwrap()).unwrap();
+        for key in ["timings", "file"] {
+            v.as_object_mut().unwrap().remove(key);
+        }
+        v
+    };
+    assert_eq!(
+        masked(report.join("poster.inspect.json")),
+        masked(hot.path("out/poster/poster.inspect.json"))
+    );
+    let mut compared = 0;
+    for entry in fs::read_dir(&report).unwrap() {
+        let name = entry.unwrap().file_name().to_string_lossy().into_owned();
+        if name.ends_with(".png") || name.ends_with(".csv") {
+            assert_eq!(
+                fs::read(report.join(&name)).unwrap(),
+                fs::read(hot.path("out/poster").join(&name)).unwrap(),
+                "{name}"
+            );
+            compared += 1;
+        }
+    }
+    assert!(compared >= 3, "{compared} maps and tables compared");
 }
 
 #[test]

@@ -381,3 +381,109 @@ fn the_band_separation_is_the_separation_of_the_whole_picture() {
         }
     }
 }
+
+/// Every file a directory holds, by name; JSON with its timings removed (the only
+/// thing that may differ between two runs).
+fn outputs_of(dir: &Path) -> BTreeMap<String, Vec<u8>> {
+    std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| {
+            let path = e.unwrap().path();
+            let name = path.file_name().unwrap().to_string_lossy().into_owned();
+            let mut bytes = std::fs::read(&path).unwrap();
+            if name.ends_with(".json") {
+                let mut v: Value = serde_json::from_slice(&bytes).unwrap();
+                v.as_object_mut().unwrap().remove("timings");
+                bytes = serde_json::to_vec_pretty(&v).unwrap();
+            }
+            (name, bytes)
+        })
+        .collect()
+}
+
+/// The hot folder's single pass ([`Workshop::stream_job`] inspected by `inspect_job` as
+/// it writes) gives the outputs and the report of the in-memory path it replaced
+/// (`separate_file`, `write_outputs_in`, `inspect_separated`), byte for byte but the
+/// timings: RGB from the picture's own gamut (8 and 16-bit), gray as neutrals, CMYK
+/// re-separated. A consistency check of the streamed path against the whole-picture one.
+#[test]
+fn the_single_pass_of_the_hot_folder_gives_the_in_memory_outputs_and_report() {
+    let dir = tempfile::tempdir().unwrap();
+    let shapes = dir.path().join("crossing-shapes-16.png");
+    write_rgb(&shapes, &picture(), true);
+    let cmyk = dir.path().join("crossing-shapes.tif");
+    write_cmyk(&cmyk, &picture());
+    for input in [
+        repo("examples/harbour-lights.png"),
+        shapes,
+        cmyk,
+        repo("testdata/inputs/gray16.png"),
+    ] {
+        let name = input.display().to_string();
+        let (whole, streamed) = (dir.path().join("whole"), dir.path().join("streamed"));
+        for d in [&whole, &streamed] {
+            let _ = std::fs::remove_dir_all(d);
+            std::fs::create_dir_all(d).unwrap();
+        }
+        let in_memory = workshop();
+        let separated = in_memory.separate_file(&input).unwrap();
+        let place = |dir| platesmith::job::OutputPlace {
+            dir,
+            listed_dir: Path::new(""),
+            input_shown: &input,
+        };
+        in_memory
+            .write_outputs_in(&input, &separated, Instant::now(), &place(&whole))
+            .unwrap();
+        let expected = without_timings(inspect_separated(&in_memory, &input, &separated, &options(None), Instant::now()).unwrap());
+        // Other band heights for the job and the check: the outputs do not depend on them.
+        let shop = workshop().with_band_rows(7);
+        let mut job = shop.stream_job(&input, place(&streamed), Instant::now()).unwrap();
+        let got = without_timings(platesmith::inspect::inspect_job(&shop, &input, &mut job, &options(Some(13)), Instant::now()).unwrap());
+        job.finish().unwrap();
+        let (a, b) = (outputs_of(&whole), outputs_of(&streamed));
+        assert_eq!(a.keys().collect::<Vec<_>>(), b.keys().collect::<Vec<_>>(), "{name}");
+        for (file, bytes) in &a {
+            assert!(bytes == &b[file], "{name}: {file} differs");
+        }
+        let (a, b) = (report_files(&in_memory, &input, &expected), report_files(&shop, &input, &got));
+        assert_eq!(a.keys().collect::<Vec<_>>(), b.keys().collect::<Vec<_>>(), "{name}");
+        for (file, bytes) in &a {
+            assert!(bytes == &b[file], "{name}: report {file} differs");
+        }
+    }
+}
+
+/// The progress `inspect` shows on a terminal for one file: one call per band of each
+/// pass (two passes when the table comes from the picture's own colours), counting up to
+/// the total it announces, and the report is the one without progress.
+#[test]
+fn inspect_progress_counts_every_band_of_every_pass() {
+    let shop = workshop();
+    let dir = tempfile::tempdir().unwrap();
+    let cmyk = dir.path().join("crossing-shapes.tif");
+    write_cmyk(&cmyk, &picture());
+    for (input, passes) in [(repo("examples/harbour-lights.png"), 2), (cmyk, 1)] {
+        let calls = std::sync::Mutex::new(Vec::new());
+        let opts = options(Some(64));
+        let got =
+            platesmith::inspect::inspect_file_with_progress(&shop, &input, &opts, &|done, total| calls.lock().unwrap().push((done, total)))
+                .unwrap();
+        let calls = calls.into_inner().unwrap();
+        let total = calls.last().unwrap().1;
+        assert_eq!(calls.last().unwrap().0, total, "{}", input.display());
+        assert!(calls.iter().enumerate().all(|(i, &c)| c == (i as u64 + 1, total)), "{calls:?}");
+        let (width, height) = (got.report.width, got.report.height);
+        // The colour pass takes the job's bands (8-bit CMYK rows of BAND_BYTES), the check bands of 64 rows.
+        let job_rows = (platesmith::job::BAND_BYTES / (width as usize * 4)) as u32;
+        assert_eq!(
+            total,
+            u64::from(height.div_ceil(job_rows)) * (passes - 1) + u64::from(height.div_ceil(64))
+        );
+        let plain = without_timings(inspect_file(&shop, &input, &opts).unwrap());
+        assert_eq!(
+            serde_json::to_string(&without_timings(got).report).unwrap(),
+            serde_json::to_string(&plain.report).unwrap()
+        );
+    }
+}
