@@ -6,10 +6,11 @@
 //! reader must agree with sample for sample, and the reader of the formats
 //! and encodings that cannot be read a band at a time.
 //!
-//! Streamed: TIFF strips and tiles, interleaved and upright (`tiff_bands`, which
-//! lists what it reads whole), and non-interlaced PNG (`png_bands`). Read whole
-//! (memory grows with the picture): JPEG (zune-jpeg decodes a whole frame),
-//! interlaced PNG, and planar, palette or turned TIFF pages. The streamed readers
+//! Streamed: TIFF strips and tiles, interleaved, planar or palette, upright
+//! (`tiff_bands`, which lists what it reads whole), and non-interlaced PNG
+//! (`png_bands`). Read whole (memory grows with the picture, bounded by the byte
+//! limit): JPEG (zune-jpeg decodes a whole frame), interlaced PNG (each pass covers
+//! the picture), and turned or mirrored TIFF pages. The streamed readers
 //! check the same header against the same limits, except that the byte limit bounds
 //! what they hold (a row of strips or tiles; a PNG row) instead of the whole picture,
 //! whose size the side limits bound; they give the same [`RasterInfo`], notes in the
