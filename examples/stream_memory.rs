@@ -2,6 +2,8 @@
 //!
 //!   stream_memory write PATH WIDTH HEIGHT   an uncompressed 8-bit RGB TIFF in strips of 16 rows,
 //!                                           written a strip at a time (a smooth field of our own)
+//!   stream_memory write-planar PATH W H     the same picture, PlanarConfiguration 2 (each plane
+//!                                           in strips of 16 rows), written a strip at a time
 //!   stream_memory bands PATH [ROWS]         reads it through `open_bands`, bands of ROWS (default 64)
 //!   stream_memory whole PATH                reads it through `read_raster_with`
 //!
@@ -53,6 +55,79 @@ fn write(path: &Path, width: u32, height: u32) -> Result<(), Box<dyn std::error:
     Ok(())
 }
 
+/// The picture of [`write`] as a planar TIFF (TIFF 6.0 §8, PlanarConfiguration 2):
+/// uncompressed strips of 16 rows, all of the red plane, then green, then blue, laid out
+/// by hand (little-endian classic TIFF) since the tiff crate writes interleaved pages only.
+fn write_planar(path: &Path, width: u32, height: u32) -> Result<(), Box<dyn std::error::Error>> {
+    use std::io::Write;
+    const ROWS: u32 = 16;
+    let strips = height.div_ceil(ROWS);
+    let plane = u64::from(width) * u64::from(height);
+    if 3 * plane + 4096 + 24 * u64::from(strips) > u64::from(u32::MAX) {
+        return Err("picture too large for a classic TIFF".into());
+    }
+    let mut out = BufWriter::with_capacity(1 << 20, std::fs::File::create(path)?);
+    out.write_all(b"II*\0")?;
+    let data_at = 8u64;
+    let ifd_at = data_at + 3 * plane;
+    out.write_all(&(ifd_at as u32).to_le_bytes())?;
+    let mut offsets = Vec::new();
+    let mut counts = Vec::new();
+    let mut at = data_at;
+    for p in 0..3u32 {
+        let mut y = 0;
+        while y < height {
+            let rows = ROWS.min(height - y);
+            let mut strip = Vec::with_capacity((rows * width) as usize);
+            for yy in y..y + rows {
+                for x in 0..width {
+                    let px = [(x * 255 / width) as u8, (yy * 255 / height) as u8, ((x + yy) % 256) as u8];
+                    strip.push(px[p as usize]);
+                }
+            }
+            out.write_all(&strip)?;
+            offsets.push(at as u32);
+            counts.push(strip.len() as u32);
+            at += strip.len() as u64;
+            y += rows;
+        }
+    }
+    let n = offsets.len() as u32;
+    let entries: u16 = 10;
+    let extra_at = ifd_at + 2 + 12 * u64::from(entries) + 4;
+    let (bits_at, offsets_at) = (extra_at, extra_at + 8);
+    let counts_at = offsets_at + 4 * u64::from(n);
+    let mut ifd = Vec::new();
+    ifd.extend(entries.to_le_bytes());
+    let mut entry = |tag: u16, kind: u16, count: u32, value: u32| {
+        ifd.extend(tag.to_le_bytes());
+        ifd.extend(kind.to_le_bytes());
+        ifd.extend(count.to_le_bytes());
+        ifd.extend(value.to_le_bytes());
+    };
+    let (short, long) = (3, 4);
+    entry(256, long, 1, width);
+    entry(257, long, 1, height);
+    entry(258, short, 3, bits_at as u32);
+    entry(259, short, 1, 1);
+    entry(262, short, 1, 2);
+    entry(273, long, n, offsets_at as u32);
+    entry(277, short, 1, 3);
+    entry(278, long, 1, ROWS);
+    entry(279, long, n, counts_at as u32);
+    entry(284, short, 1, 2);
+    ifd.extend(0u32.to_le_bytes());
+    for _ in 0..3 {
+        ifd.extend(8u16.to_le_bytes());
+    }
+    ifd.extend([0u8; 2]);
+    ifd.extend(offsets.iter().flat_map(|o| o.to_le_bytes()));
+    ifd.extend(counts.iter().flat_map(|c| c.to_le_bytes()));
+    out.write_all(&ifd)?;
+    out.flush()?;
+    Ok(())
+}
+
 fn main() -> Result<(), Box<dyn std::error::Error>> {
     let args: Vec<String> = std::env::args().skip(1).collect();
     let options = ReadOptions {
@@ -63,6 +138,10 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     match args.iter().map(String::as_str).collect::<Vec<_>>().as_slice() {
         ["write", path, w, h] => {
             write(Path::new(path), w.parse()?, h.parse()?)?;
+            println!("written={path}");
+        }
+        ["write-planar", path, w, h] => {
+            write_planar(Path::new(path), w.parse()?, h.parse()?)?;
             println!("written={path}");
         }
         ["bands", path, rest @ ..] => {
@@ -90,7 +169,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             println!("peak_rss_mib={}", peak_rss_kib() / 1024);
         }
         _ => {
-            eprintln!("usage: stream_memory write PATH WIDTH HEIGHT | bands PATH [ROWS] | whole PATH");
+            eprintln!("usage: stream_memory write PATH WIDTH HEIGHT | write-planar PATH WIDTH HEIGHT | bands PATH [ROWS] | whole PATH");
             std::process::exit(2);
         }
     }
