@@ -386,11 +386,10 @@ impl Workshop {
 
     /// The table for a source (`source_key` names it), from the picture's
     /// own gamut when its distinct colours are given: from memory, the cache folder, or
-    /// built. For a picture, its mapping is measured every time; a table of
-    /// an earlier file of this run with the same reach is reused, else the
-    /// table is finished from the picture-independent base
-    /// ([`TableBase`], from memory, the folder or built), whose origin the
-    /// summary reports.
+    /// built. For a picture, its mapping is measured every time and keys
+    /// its finished table; a table not found is finished from the
+    /// picture-independent base ([`TableBase`], from memory, the folder or
+    /// built), whose origin the summary then reports.
     fn table(&self, source_key: &[u8], source: &RgbSource, distinct: Option<&[[f64; 3]]>) -> crate::cache::Fetched<Arc<SeparationTable>> {
         let sep = &self.separator;
         match distinct {
@@ -398,30 +397,29 @@ impl Workshop {
                 let picture = colours_gamut(source, colours);
                 let mapping = sep.picture_mapping(&picture);
                 let key = self.cache.table_key(sep, source_key, mapping.picture_reach());
-                if let Some(table) = self.cache.remembered_table(&key) {
-                    return crate::cache::Fetched {
-                        value: table,
-                        origin: Origin::Reused,
-                        notes: Vec::new(),
+                // A picture seen before (the same reach) finds its finished table
+                // in memory or the folder; a new one is finished from the
+                // picture-independent base (from memory, the folder or built) by
+                // its own step, the same step whichever way the base came.
+                let mut base_fetch = None;
+                let mut fetched = self.cache.table(sep, key, || {
+                    let base = self
+                        .cache
+                        .table_base(sep, self.cache.table_base_key(sep, source_key), || base_for_source(sep, source));
+                    let table = match base.value.as_deref().and_then(|b| b.table_for(sep, &mapping)) {
+                        Some((table, _)) => table,
+                        // Not reached: a picture's mapping is perceptual.
+                        None => table_with(sep, source, &mapping),
                     };
+                    base_fetch = Some((base.origin, base.notes));
+                    table
+                });
+                if let Some((origin, notes)) = base_fetch {
+                    // Built now: from a base that was built, cached or reused.
+                    fetched.origin = origin;
+                    fetched.notes.splice(0..0, notes);
                 }
-                // The picture-independent base from memory, the cache folder or
-                // built, then the picture's own step on it (the same step
-                // whichever way the base came).
-                let base_key = self.cache.table_base_key(sep, source_key);
-                let base = self.cache.table_base(sep, base_key, || base_for_source(sep, source));
-                let table = match base.value.as_deref().and_then(|b| b.table_for(sep, &mapping)) {
-                    Some((table, _)) => table,
-                    // Not reached: a picture's mapping is perceptual.
-                    None => table_with(sep, source, &mapping),
-                };
-                let table = Arc::new(table);
-                self.cache.remember_table(key, &table);
-                crate::cache::Fetched {
-                    value: table,
-                    origin: base.origin,
-                    notes: base.notes,
-                }
+                fetched
             }
             None => {
                 let key = self.cache.table_key(sep, source_key, None);

@@ -125,9 +125,9 @@ fn a_cache_hit_writes_the_same_files_as_a_miss_and_as_no_cache() {
     assert_eq!(table_source(&warm), "cached");
     assert_eq!(warm.summary["timings"]["profile_source"], "cached");
     assert_eq!(cold.summary["settings"], warm.summary["settings"]);
-    // The picture's table is not an entry: the picture-independent base is.
+    // The picture-independent base and the picture's finished table.
     assert_eq!(entries(&cache, "table-base-").len(), 1);
-    assert_eq!(entries(&cache, "table-").len(), 1);
+    assert_eq!(entries(&cache, "table-").len(), 2);
     assert_eq!(entries(&cache, "profile-").len(), 1);
 }
 
@@ -153,36 +153,45 @@ fn a_table_that_depends_on_no_picture_is_its_own_entry() {
     assert_eq!(entries(&cache, "table-").len(), 2);
 }
 
+/// Both entries of the scene's table, damaged in turn: its finished table
+/// (rebuilt from the cached base) and the picture-independent base (rebuilt
+/// when the finished table is gone too, so that the run needs it).
 #[test]
 fn a_damaged_entry_is_rebuilt_with_a_note() {
     let (dir, input, cache) = workspace();
     let first = separate(&cache, &input, &dir.path().join("first"), &[]);
-    // The picture-independent table base (the scene's table is built from it).
-    let entry = entries(&cache, "table-base-").pop().unwrap();
-    let good = std::fs::read(&entry).unwrap();
-    let flipped = {
-        let mut b = good.clone();
-        let at = b.len() - 1000;
-        b[at] ^= 0x01;
-        b
-    };
-    for (damage, bytes) in [("a flipped bit", flipped), ("a truncated file", good[..good.len() / 2].to_vec())] {
-        std::fs::write(&entry, &bytes).unwrap();
-        let run = separate(&cache, &input, &dir.path().join("again"), &[]);
-        assert_eq!(table_source(&run), "built", "{damage}");
-        assert!(
-            notes(&run)
-                .iter()
-                .any(|n| n.starts_with("cached table ") && n.contains(" was damaged (") && n.ends_with("); rebuilt")),
-            "{damage}: {:?}",
-            notes(&run)
-        );
-        assert_eq!(run.files, first.files, "{damage}");
-        // The rebuilt entry replaced the damaged one.
-        assert_eq!(std::fs::read(&entry).unwrap(), good, "{damage}");
-        let next = separate(&cache, &input, &dir.path().join("next"), &[]);
-        assert_eq!(table_source(&next), "cached", "{damage}");
-        assert!(!notes(&next).iter().any(|n| n.contains("damaged")));
+    let base = entries(&cache, "table-base-").pop().unwrap();
+    let table = entries(&cache, "table-").into_iter().find(|p| *p != base).unwrap();
+    for (entry, what, source) in [(&table, "table ", "cached"), (&base, "table base ", "built")] {
+        let good = std::fs::read(entry).unwrap();
+        let flipped = {
+            let mut b = good.clone();
+            let at = b.len() - 1000;
+            b[at] ^= 0x01;
+            b
+        };
+        for (damage, bytes) in [("a flipped bit", flipped), ("a truncated file", good[..good.len() / 2].to_vec())] {
+            std::fs::write(entry, &bytes).unwrap();
+            if entry == &base {
+                std::fs::remove_file(&table).unwrap();
+            }
+            let run = separate(&cache, &input, &dir.path().join("again"), &[]);
+            assert_eq!(table_source(&run), source, "{what}{damage}");
+            let prefix = format!("cached {what}");
+            assert!(
+                notes(&run)
+                    .iter()
+                    .any(|n| n.starts_with(&prefix) && n.contains(" was damaged (") && n.ends_with("); rebuilt")),
+                "{what}{damage}: {:?}",
+                notes(&run)
+            );
+            assert_eq!(run.files, first.files, "{what}{damage}");
+            // The rebuilt entry replaced the damaged one.
+            assert_eq!(std::fs::read(entry).unwrap(), good, "{what}{damage}");
+            let next = separate(&cache, &input, &dir.path().join("next"), &[]);
+            assert_eq!(table_source(&next), "cached", "{what}{damage}");
+            assert!(!notes(&next).iter().any(|n| n.contains("damaged")));
+        }
     }
 }
 
@@ -208,10 +217,11 @@ fn several_processes_fill_one_cache_folder_at_once() {
     let read = |i: usize| std::fs::read(dir.path().join(format!("out{i}/coast.cmyk.tif"))).unwrap();
     assert!(read(0) == read(2) && read(1) == read(3));
     assert!(read(0) != read(1));
-    // One entry per table and profile, no partial files left, each entry whole.
-    assert_eq!(entries(&cache, "table-").len(), 2);
+    // One base, table and profile per setting, no partial files left, each entry whole.
+    assert_eq!(entries(&cache, "table-base-").len(), 2);
+    assert_eq!(entries(&cache, "table-").len(), 4);
     assert_eq!(entries(&cache, "profile-").len(), 2);
-    assert_eq!(std::fs::read_dir(&cache).unwrap().count(), 4);
+    assert_eq!(std::fs::read_dir(&cache).unwrap().count(), 6);
     for (i, extra) in settings.iter().enumerate().take(2) {
         let run = separate(&cache, &input, &dir.path().join("check"), extra);
         assert_eq!(table_source(&run), "cached");
@@ -316,7 +326,7 @@ fn two_pictures_share_the_picture_independent_base() {
     let second = separate(&cache, &other, &dir.path().join("second"), &[]);
     assert_eq!(table_source(&second), "cached", "{:?}", notes(&second));
     assert_eq!(entries(&cache, "table-base-").len(), 1, "one base for both pictures");
-    assert_eq!(entries(&cache, "table-").len(), 1, "no table entry per picture");
+    assert_eq!(entries(&cache, "table-").len(), 3, "the base and each picture's finished table");
     assert!(!notes(&second).iter().any(|n| n.contains("cache")), "{:?}", notes(&second));
     let plain = separate(&dir.path().join("unused"), &other, &dir.path().join("plain"), &["--no-cache"]);
     assert_eq!(table_source(&plain), "built");
