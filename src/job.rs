@@ -228,10 +228,11 @@ pub struct Timings {
     /// Where the separation table came from: built, cached (the cache
     /// folder) or reused (an earlier file of this run); absent when the
     /// file needed none (gray on the black plate only). With perceptual
-    /// compression from the picture, where its picture-independent base came
-    /// from (built or cached; the picture's own step always runs, and its
-    /// time is in `table_ms`), or reused for a table of an earlier file of
-    /// this run with the same reach.
+    /// compression from the picture: cached or reused when the picture's
+    /// finished table was found (a picture with the same reach seen
+    /// before); otherwise where its picture-independent base came from
+    /// (built, cached or reused), the picture's own step having run on it
+    /// (its time is in `table_ms`).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub table_source: Option<Origin>,
     /// Where the embedded profile came from: built or cached.
@@ -1219,6 +1220,7 @@ pub fn table_for_picture_from(separator: &Separator, source: &RgbSource, base: O
 /// picture's distinct colours, their source colours and the map's reach per
 /// region depend on the picture; everything else (the press boundary, the
 /// node colours) does not.
+///
 /// Built as a job builds it: the picture-independent base, then the
 /// picture's own step ([`table_for_picture_from`]).
 pub fn table_for_picture(separator: &Separator, source: &RgbSource, rgb: &Samples) -> SeparationTable {
