@@ -11,7 +11,7 @@ use crate::raster::{
 };
 use crate::report::{SettingsReport, round_to};
 use crate::separation::limits::InkCaps;
-use crate::separation::{BLACK_CURVE_STEPS, BlackOnlyCurve, CompressFrom, Intent, IntentLab, SeparationTable, Separator};
+use crate::separation::{BLACK_CURVE_STEPS, BlackOnlyCurve, CompressFrom, Intent, IntentLab, SeparationTable, Separator, TableBase};
 use crate::settings::Coverage;
 use crate::source::RgbSource;
 use rayon::prelude::*;
@@ -227,7 +227,12 @@ pub struct Timings {
     pub total_ms: f64,
     /// Where the separation table came from: built, cached (the cache
     /// folder) or reused (an earlier file of this run); absent when the
-    /// file needed none (gray on the black plate only).
+    /// file needed none (gray on the black plate only). With perceptual
+    /// compression from the picture: cached or reused when the picture's
+    /// finished table was found (a picture with the same reach seen
+    /// before); otherwise where its picture-independent base came from
+    /// (built, cached or reused), the picture's own step having run on it
+    /// (its time is in `table_ms`).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub table_source: Option<Origin>,
     /// Where the embedded profile came from: built or cached.
@@ -383,7 +388,10 @@ impl Workshop {
 
     /// The table for a source (`source_key` names it), from the picture's
     /// own gamut when its distinct colours are given: from memory, the cache folder, or
-    /// built. The picture's mapping is measured every time; it keys the table.
+    /// built. For a picture, its mapping is measured every time and keys
+    /// its finished table; a table not found is finished from the
+    /// picture-independent base ([`TableBase`], from memory, the folder or
+    /// built), whose origin the summary then reports.
     fn table(&self, source_key: &[u8], source: &RgbSource, distinct: Option<&[[f64; 3]]>) -> crate::cache::Fetched<Arc<SeparationTable>> {
         let sep = &self.separator;
         match distinct {
@@ -391,7 +399,29 @@ impl Workshop {
                 let picture = colours_gamut(source, colours);
                 let mapping = sep.picture_mapping(&picture);
                 let key = self.cache.table_key(sep, source_key, mapping.picture_reach());
-                self.cache.table(sep, key, || table_with(sep, source, &mapping))
+                // A picture seen before (the same reach) finds its finished table
+                // in memory or the folder; a new one is finished from the
+                // picture-independent base (from memory, the folder or built) by
+                // its own step, the same step whichever way the base came.
+                let mut base_fetch = None;
+                let mut fetched = self.cache.table(sep, key, || {
+                    let base = self
+                        .cache
+                        .table_base(sep, self.cache.table_base_key(sep, source_key), || base_for_source(sep, source));
+                    let table = match base.value.as_deref().and_then(|b| b.table_for(sep, &mapping)) {
+                        Some((table, _)) => table,
+                        // Not reached: a picture's mapping is perceptual.
+                        None => table_with(sep, source, &mapping),
+                    };
+                    base_fetch = Some((base.origin, base.notes));
+                    table
+                });
+                if let Some((origin, notes)) = base_fetch {
+                    // Built now: from a base that was built, cached or reused.
+                    fetched.origin = origin;
+                    fetched.notes.splice(0..0, notes);
+                }
+                fetched
             }
             None => {
                 let key = self.cache.table_key(sep, source_key, None);
@@ -1331,13 +1361,37 @@ pub fn table_for_source(separator: &Separator, source: &RgbSource) -> Separation
 /// The table of `separator` for an RGB source under a prepared mapping: the
 /// source colour of every node in one batch through the source.
 fn table_with(separator: &Separator, source: &RgbSource, mapping: &crate::separation::SourceMapping) -> SeparationTable {
+    let labs = source.node_labs(separator.settings().table_grid);
+    SeparationTable::build(separator, mapping, &node_lookup(separator, &labs))
+}
+
+/// The source colour of a grid node from the source colours of every node
+/// of `separator`'s grid (`labs`, node index (r·N + g)·N + b).
+fn node_lookup<'a>(separator: &Separator, labs: &'a [crate::colour::Lab]) -> impl Fn(EncodedRgb) -> IntentLab + Sync + 'a {
     let n = separator.settings().table_grid;
-    let labs = source.node_labs(n);
-    let lookup = |EncodedRgb(rgb): EncodedRgb| {
+    move |EncodedRgb(rgb): EncodedRgb| {
         let idx = |v: f64| (v * (n - 1) as f64).round() as usize;
         IntentLab::new(labs[(idx(rgb[0]) * n + idx(rgb[1])) * n + idx(rgb[2])])
-    };
-    SeparationTable::build(separator, mapping, &lookup)
+    }
+}
+
+/// The picture-independent base of `separator`'s tables for an RGB source
+/// ([`TableBase::build`]); `None` when the intent is not perceptual.
+pub fn base_for_source(separator: &Separator, source: &RgbSource) -> Option<TableBase> {
+    let labs = source.node_labs(separator.settings().table_grid);
+    TableBase::build(separator, &node_lookup(separator, &labs))
+}
+
+/// The separation table of `separator` for one picture from the
+/// picture-independent base of its source (as a job builds it:
+/// [`TableBase::table_for`] under the picture's mapping); the full build
+/// when there is no base (an intent other than perceptual).
+pub fn table_for_picture_from(separator: &Separator, source: &RgbSource, base: Option<&TableBase>, rgb: &Samples) -> SeparationTable {
+    let mapping = separator.picture_mapping(&picture_gamut(source, rgb));
+    match base.and_then(|b| b.table_for(separator, &mapping)) {
+        Some((table, _)) => table,
+        None => table_with(separator, source, &mapping),
+    }
 }
 
 /// The separation table of `separator` for one picture: as
@@ -1346,7 +1400,16 @@ fn table_with(separator: &Separator, source: &RgbSource, mapping: &crate::separa
 /// picture's distinct colours, their source colours and the map's reach per
 /// region depend on the picture; everything else (the press boundary, the
 /// node colours) does not.
+///
+/// Built as a job builds it: the picture-independent base, then the
+/// picture's own step ([`table_for_picture_from`]).
 pub fn table_for_picture(separator: &Separator, source: &RgbSource, rgb: &Samples) -> SeparationTable {
+    table_for_picture_from(separator, source, base_for_source(separator, source).as_ref(), rgb)
+}
+
+/// [`table_for_picture`] with every node solved exactly from scratch (the
+/// full build, the reference the per-picture step is measured against).
+pub fn exact_table_for_picture(separator: &Separator, source: &RgbSource, rgb: &Samples) -> SeparationTable {
     table_with(separator, source, &separator.picture_mapping(&picture_gamut(source, rgb)))
 }
 

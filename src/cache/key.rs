@@ -21,6 +21,10 @@ pub enum Kind {
     Profile = 2,
     /// The CMYK → CMYK re-separation table.
     Reseparation = 3,
+    /// The picture-independent base of the tables of a source under
+    /// perceptual compression from the picture
+    /// ([`crate::separation::TableBase`]).
+    TableBase = 4,
 }
 
 impl Kind {
@@ -29,6 +33,7 @@ impl Kind {
             Kind::Table => "table",
             Kind::Profile => "profile",
             Kind::Reseparation => "cmyk-table",
+            Kind::TableBase => "table-base",
         }
     }
 

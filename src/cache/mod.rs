@@ -1,7 +1,7 @@
 //! The persistent cache of separation tables and embedded profiles.
 //!
 //! A separation table takes 33³ exact inversions of the press model (about
-//! 0.6 s on two cores) and the profile embedded in every composite a
+//! 0.5 s on two cores) and the profile embedded in every composite a
 //! similar time; both depend only on the settings, the source and, for the
 //! default perceptual intent, the picture's reach beyond the press gamut.
 //! Entries live in the user's cache folder ([`store::default_dir`]), are
@@ -11,27 +11,27 @@
 //!
 //! **The picture-adaptive perceptual mapping.** By default the perceptual
 //! intent compresses from the picture's own gamut. Its only dependence on
-//! the picture is the reach grid of [`crate::separation::PerceptualMap`]:
-//! per lightness band and hue sector (51 × 72 cells), how far the
-//! picture's most colourful colour lies beyond the press boundary. The
-//! table of a picture is keyed by that grid, bit for bit, after cells that
-//! cannot change any mapped colour are zeroed (cells below the reach at
-//! which compression starts, in patches that stay below it). So a picture
-//! seen before hits exactly, and every picture that stays inside the press
-//! gamut in the same regions shares one table (pictures wholly inside it
-//! all share the table of an all-zero grid). The per-picture pass (distinct
-//! colours in 2¹⁸ bins, their source colours, the reach of up to 3 672
-//! extremes) runs before every look-up, cold or warm; only the 33³
-//! inversions are saved. This is exact: a hit gives the very table a miss
-//! builds, so output with and without the cache is byte-identical.
+//! the picture is the reach grid of [`crate::separation::PerceptualMap`]
+//! (per lightness band and hue sector, how far the picture's most colourful
+//! colour lies beyond the press boundary), and a node's target moves only
+//! where that reach passes the point at which compression starts. So the
+//! folder holds no table per picture but one picture-independent base per
+//! separator and source ([`crate::separation::TableBase`]: every node's
+//! colour prepared for the map, and solved under the map of a picture with
+//! no colours, with the solver's state), and each file runs its own step on
+//! it: the picture's gamut and map, every prepared node mapped, the nodes
+//! whose target moved solved exactly, warm-started (see `separation::table_base` for the choice and
+//! docs/PERFORMANCE.md for the times). Every picture of a source shares the
+//! base; a hit runs the same step on the same base as a miss, so output
+//! with and without the cache is byte-identical. The finished table of a
+//! picture is also kept, in memory and in the folder (575 kB at 33³), under
+//! its reach grid with cells that cannot change a mapped colour zeroed, so
+//! a picture seen before (or one that leaves the gamut in the same places)
+//! skips its step; the step is deterministic, so that entry too holds what
+//! a miss computes.
 //!
-//! The alternative, a separation on a fine CIELAB grid shared by all
-//! pictures with only the picture's mapping applied per file, helps a new
-//! picture too, but it interpolates twice (source → CIELAB → CMYK) where the
-//! table now interpolates once, and the mapping, which is not linear near
-//! the boundary, would be applied before an interpolation rather than
-//! inside exact node inversions; it was not taken (docs/PERFORMANCE.md has
-//! the per-picture times).
+//! Relative and absolute colorimetric and `--compress-from space` depend on
+//! no picture: their whole table is the entry.
 //!
 //! A cache folder that cannot be created, read or written never fails a
 //! job: the job notes it and builds without the cache. A damaged entry is
@@ -42,7 +42,7 @@ pub mod store;
 
 use crate::error::Result;
 use crate::press::PrintingCondition;
-use crate::separation::{SeparationSettings, SeparationTable, Separator};
+use crate::separation::{SeparationSettings, SeparationTable, Separator, TableBase};
 use key::{Key, KeyBytes, Kind};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::{Arc, Mutex, OnceLock};
@@ -78,7 +78,12 @@ pub struct TableCache {
     separator_key: OnceLock<Vec<u8>>,
     /// The tables of this run, most recently used last, at most [`TABLES_IN_MEMORY`].
     tables: Mutex<Vec<(Key, Arc<SeparationTable>)>>,
+    /// The table bases of this run, most recently used last, at most [`BASES_IN_MEMORY`].
+    bases: Mutex<Vec<(Key, Arc<TableBase>)>>,
 }
+
+/// Table bases a run keeps in memory (one per source: most runs see one or two sources).
+const BASES_IN_MEMORY: usize = 2;
 
 /// Tables a run keeps in memory: a hot folder that runs for weeks sees a
 /// new picture table with most files, so the run's memo is bounded (the
@@ -94,6 +99,7 @@ impl TableCache {
             off_note: Mutex::new(None),
             separator_key: OnceLock::new(),
             tables: Mutex::new(Vec::new()),
+            bases: Mutex::new(Vec::new()),
         }
     }
 
@@ -175,6 +181,69 @@ impl TableCache {
         self.remember(key, &table);
         Fetched {
             value: table,
+            origin,
+            notes,
+        }
+    }
+
+    /// The key of the table base of `separator` for the source keyed `source_key`.
+    pub fn table_base_key(&self, separator: &Separator, source_key: &[u8]) -> Key {
+        let mut k = self.key_for(Kind::TableBase, separator);
+        k.bytes("source", source_key);
+        k.text("mapping", "picture with no colours");
+        k.finish()
+    }
+
+    /// The table base under `key`: from memory, else the folder, else
+    /// `build` (then saved in both; `None`, a separator that has no base,
+    /// is neither). A damaged entry is rebuilt with a note.
+    pub fn table_base(
+        &self,
+        separator: &Separator,
+        key: Key,
+        build: impl FnOnce() -> Option<TableBase>,
+    ) -> Fetched<Option<Arc<TableBase>>> {
+        let mut notes = self.take_off_note();
+        let in_memory = self.bases.lock().ok().and_then(|mut bases| {
+            let at = bases.iter().position(|(k, _)| *k == key)?;
+            let entry = bases.remove(at);
+            let base = entry.1.clone();
+            bases.push(entry);
+            Some(base)
+        });
+        if let Some(base) = in_memory {
+            return Fetched {
+                value: Some(base),
+                origin: Origin::Reused,
+                notes,
+            };
+        }
+        let loaded = self.load(&key, "table base", &mut notes).and_then(|bytes| {
+            let base = TableBase::from_bytes(separator, &bytes);
+            if base.is_none() {
+                notes.push(format!("cached table base {} does not fit the settings; rebuilt", key.short()));
+            }
+            base
+        });
+        let (base, origin) = match loaded {
+            Some(base) => (Some(base), Origin::Cached),
+            None => {
+                let base = build();
+                if let (Some(b), Some(_)) = (&base, self.store()) {
+                    self.save(&key, &b.to_bytes(), &mut notes);
+                }
+                (base, Origin::Built)
+            }
+        };
+        let base = base.map(Arc::new);
+        if let (Some(b), Ok(mut bases)) = (&base, self.bases.lock()) {
+            if bases.len() >= BASES_IN_MEMORY {
+                bases.remove(0);
+            }
+            bases.push((key, b.clone()));
+        }
+        Fetched {
+            value: base,
             origin,
             notes,
         }

@@ -28,8 +28,10 @@ use std::path::{Path, PathBuf};
 use std::time::{Duration, SystemTime};
 
 /// Version of the entry layout and of the payload encodings; a change
-/// makes every older entry a miss (it is also part of every key).
-pub const FORMAT_VERSION: u32 = 1;
+/// makes every older entry a miss (it is also part of every key). 2: a
+/// picture's table under its reach is finished from the table base, so an
+/// older one (every node solved) is not what a miss now computes.
+pub const FORMAT_VERSION: u32 = 2;
 
 const MAGIC: &[u8; 8] = b"PSMCACHE";
 const HEADER: usize = 96;

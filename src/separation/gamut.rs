@@ -641,6 +641,7 @@ pub fn shadow_lightness(l: f64, source_black: f64, dest_black: f64) -> f64 {
 
 /// One colour on its way through the perceptual map: after the lightness
 /// curve, its ray from the focal point in the working space.
+#[derive(Debug, Clone, Copy, PartialEq)]
 struct Ray {
     /// The colour after step 1.
     lab: Lab,
@@ -656,6 +657,66 @@ struct Ray {
 impl Ray {
     fn point(&self, s: f64) -> Lab {
         from_working_polar(self.focus + s * self.dir.0, s * self.dir.1, self.h)
+    }
+}
+
+/// A colour with what [`PerceptualMap::map`] works out before it reads the
+/// source gamut ([`PerceptualMap::prepare`]): the lightness curve, the
+/// focal point and the press boundary's distance along the colour's ray.
+/// That part depends on the press and the source black only, not on the
+/// source gamut or the picture, so a picture-independent cache can keep it
+/// and map the colour for each picture by [`PerceptualMap::map_prepared`]
+/// alone (the same result, bit for bit, as [`PerceptualMap::map`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PreparedColour {
+    source: Lab,
+    /// `None` for a neutral (it has no ray).
+    ray: Option<Ray>,
+}
+
+/// Reals in [`PreparedColour::to_reals`].
+pub const PREPARED_REALS: usize = 12;
+
+impl PreparedColour {
+    /// The colour as reals, exactly (IEEE 754): the source colour, then the
+    /// ray's colour, focal lightness, hue, direction and the colour's and
+    /// the press boundary's distances (NaN for a neutral without a ray).
+    pub fn to_reals(&self) -> [f64; PREPARED_REALS] {
+        let s = self.source;
+        match &self.ray {
+            Some(r) => [
+                s.l, s.a, s.b, r.lab.l, r.lab.a, r.lab.b, r.focus, r.h, r.dir.0, r.dir.1, r.d, r.d_dest,
+            ],
+            None => {
+                let mut v = [f64::NAN; PREPARED_REALS];
+                v[..3].copy_from_slice(&[s.l, s.a, s.b]);
+                v
+            }
+        }
+    }
+
+    /// The colour [`PreparedColour::to_reals`] wrote; `None` for reals no
+    /// prepared colour has (a non-finite source colour or ray).
+    pub fn from_reals(v: &[f64; PREPARED_REALS]) -> Option<PreparedColour> {
+        if v[..3].iter().any(|x| !x.is_finite()) {
+            return None;
+        }
+        let source = Lab::new(v[0], v[1], v[2]);
+        if v[3..].iter().all(|x| x.is_nan()) {
+            return Some(PreparedColour { source, ray: None });
+        }
+        if v[3..].iter().any(|x| !x.is_finite()) {
+            return None;
+        }
+        let ray = Ray {
+            lab: Lab::new(v[3], v[4], v[5]),
+            focus: v[6],
+            h: v[7],
+            dir: (v[8], v[9]),
+            d: v[10],
+            d_dest: v[11],
+        };
+        Some(PreparedColour { source, ray: Some(ray) })
     }
 }
 
@@ -809,18 +870,28 @@ impl<'a> PerceptualMap<'a> {
     /// Maps one media-relative colour. The result may still lie slightly
     /// outside the printable gamut; the inversion clips the rest.
     pub fn map(&self, lab: Lab) -> Lab {
-        // Steps 1 and 2.
+        self.map_prepared(&self.prepare(lab))
+    }
+
+    /// The part of [`PerceptualMap::map`] that does not read the source
+    /// gamut (see [`PreparedColour`]).
+    pub fn prepare(&self, lab: Lab) -> PreparedColour {
         // Neutrals stay on the axis (tinted toward the press black in the shadows).
-        if lab.chroma() < 1e-6 {
-            return self.lift(lab);
-        }
-        let Some(ray) = self.ray(lab) else {
-            return self.lift(lab);
+        let ray = if lab.chroma() < 1e-6 { None } else { self.ray(lab) };
+        PreparedColour { source: lab, ray }
+    }
+
+    /// [`PerceptualMap::map`] of a colour prepared by a map of the same
+    /// press and source black (this one, or another with another source gamut).
+    pub fn map_prepared(&self, prepared: &PreparedColour) -> Lab {
+        // Steps 1 and 2.
+        let Some(ray) = &prepared.ray else {
+            return self.lift(prepared.source);
         };
         let mapped = if ray.d <= KNEE * ray.d_dest || ray.d_dest <= 0.0 {
             ray.lab
         } else {
-            match self.source_reach(&ray) {
+            match self.source_reach(ray) {
                 reach if reach <= 1.0 + REACH_SLACK => ray.lab,
                 reach => ray.point(ray.d_dest * knee_compression(ray.d / ray.d_dest, reach)),
             }
@@ -836,7 +907,7 @@ impl<'a> PerceptualMap<'a> {
         let keep = match &self.source {
             Extent::Space(_) => keep,
             Extent::Picture(_) => {
-                let beyond = ((self.source_reach(&ray) - 1.0 - REACH_SLACK) / TAPER_FADE).clamp(0.0, 1.0);
+                let beyond = ((self.source_reach(ray) - 1.0 - REACH_SLACK) / TAPER_FADE).clamp(0.0, 1.0);
                 1.0 - beyond * (1.0 - keep)
             }
         };

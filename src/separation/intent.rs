@@ -12,7 +12,12 @@ pub struct SourceMapping<'a> {
     perceptual: Option<PerceptualMap<'a>>,
 }
 
-impl SourceMapping<'_> {
+impl<'a> SourceMapping<'a> {
+    /// The perceptual map, when the intent is perceptual.
+    pub(super) fn perceptual(&self) -> Option<&PerceptualMap<'a>> {
+        self.perceptual.as_ref()
+    }
+
     /// The picture's reach, when perceptual compression starts from a
     /// picture ([`PerceptualMap::picture_reach`]).
     pub fn picture_reach(&self) -> Option<&[f64]> {

@@ -17,6 +17,7 @@ mod shadows;
 mod simd;
 pub mod solve;
 mod table;
+mod table_base;
 
 pub use black::{BLACK_CURVE_STEPS, BlackGeneration, BlackOnlyCurve};
 pub use engine::{CompressFrom, Intent, Limit, LimitSet, Separation, SeparationSettings, Separator};
@@ -29,3 +30,4 @@ pub use printable::IN_GAMUT_TOLERANCE;
 pub use reseparation::{CmykSourceGamut, DEFAULT_RESEPARATION_GRID, RESEPARATION_GRID_RANGE, ReseparationTable};
 pub use simd::PixelKernel;
 pub use table::SeparationTable;
+pub use table_base::{PictureStep, TableBase};

@@ -69,9 +69,17 @@ impl SeparationTable {
                     .collect()
             })
             .collect();
-        let (mut inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = lines.into_iter().flatten().unzip();
+        let (inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = lines.into_iter().flatten().unzip();
+        SeparationTable::from_inks(separator, inks, &lightness)
+    }
+
+    /// The table of `separator` from each node's exact ink build and its
+    /// target's lightness (node index (r·N + g)·N + b): the deepest shadows
+    /// smoothed where the intent asks for it, then quantised under the caps.
+    pub(super) fn from_inks(separator: &Separator, mut inks: Vec<[f64; 4]>, lightness: &[f64]) -> SeparationTable {
+        let n = separator.settings().table_grid;
         if separator.smooths_shadows_in_ink() {
-            smooth_shadows(&mut inks, &lightness, n, 3, separator.black_point().0.lab().l);
+            smooth_shadows(&mut inks, lightness, n, 3, separator.black_point().0.lab().l);
         }
         let (nodes, nodes8) = InkCaps::of(separator.settings()).quantize_nodes(inks);
         SeparationTable::from_nodes(separator, nodes, nodes8)
@@ -127,6 +135,11 @@ impl SeparationTable {
 
     pub fn grid(&self) -> usize {
         self.grid
+    }
+
+    /// The 16-bit CMYK nodes, node index (r·N + g)·N + b.
+    pub fn nodes(&self) -> &[[u16; 4]] {
+        &self.nodes
     }
 
     #[inline]

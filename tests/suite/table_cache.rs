@@ -1,8 +1,9 @@
 //! The persistent table cache through the real binary: a hit gives the same
 //! files as a miss and as a run without the cache, a damaged entry is
 //! rebuilt with a note, several processes fill one folder at once, the size
-//! limit evicts, `--no-cache` leaves the folder alone, and a changed setting
-//! misses.
+//! limit evicts, `--no-cache` leaves the folder alone, a changed setting
+//! misses, and two pictures share the picture-independent table base (the
+//! entry of the default perceptual intent from the picture's own gamut).
 //!
 //! These check the program against itself (the cache must not change what
 //! is printed); the entries' checksum is SHA-256 (FIPS 180-4, checked
@@ -124,39 +125,73 @@ fn a_cache_hit_writes_the_same_files_as_a_miss_and_as_no_cache() {
     assert_eq!(table_source(&warm), "cached");
     assert_eq!(warm.summary["timings"]["profile_source"], "cached");
     assert_eq!(cold.summary["settings"], warm.summary["settings"]);
-    assert_eq!(entries(&cache, "table-").len(), 1);
+    // The picture-independent base and the picture's finished table.
+    assert_eq!(entries(&cache, "table-base-").len(), 1);
+    assert_eq!(entries(&cache, "table-").len(), 2);
     assert_eq!(entries(&cache, "profile-").len(), 1);
 }
 
+/// The colorimetric intent and compression from the whole source space
+/// depend on no picture: their whole table is the entry, and a hit writes
+/// the files of a miss.
+#[test]
+fn a_table_that_depends_on_no_picture_is_its_own_entry() {
+    let (dir, input, cache) = workspace();
+    for extra in [&["--intent", "relative"][..], &["--compress-from", "space"]] {
+        let plain = separate(
+            &dir.path().join("unused"),
+            &input,
+            &dir.path().join("plain"),
+            &[&["--no-cache"], extra].concat(),
+        );
+        let cold = separate(&cache, &input, &dir.path().join("cold"), extra);
+        let warm = separate(&cache, &input, &dir.path().join("warm"), extra);
+        assert_eq!((table_source(&cold), table_source(&warm)), ("built", "cached"), "{extra:?}");
+        assert!(cold.files == plain.files && warm.files == plain.files, "{extra:?}");
+    }
+    assert_eq!(entries(&cache, "table-base-").len(), 0);
+    assert_eq!(entries(&cache, "table-").len(), 2);
+}
+
+/// Both entries of the scene's table, damaged in turn: its finished table
+/// (rebuilt from the cached base) and the picture-independent base (rebuilt
+/// when the finished table is gone too, so that the run needs it).
 #[test]
 fn a_damaged_entry_is_rebuilt_with_a_note() {
     let (dir, input, cache) = workspace();
     let first = separate(&cache, &input, &dir.path().join("first"), &[]);
-    let entry = entries(&cache, "table-").pop().unwrap();
-    let good = std::fs::read(&entry).unwrap();
-    let flipped = {
-        let mut b = good.clone();
-        let at = b.len() - 1000;
-        b[at] ^= 0x01;
-        b
-    };
-    for (damage, bytes) in [("a flipped bit", flipped), ("a truncated file", good[..good.len() / 2].to_vec())] {
-        std::fs::write(&entry, &bytes).unwrap();
-        let run = separate(&cache, &input, &dir.path().join("again"), &[]);
-        assert_eq!(table_source(&run), "built", "{damage}");
-        assert!(
-            notes(&run)
-                .iter()
-                .any(|n| n.starts_with("cached table ") && n.contains(" was damaged (") && n.ends_with("); rebuilt")),
-            "{damage}: {:?}",
-            notes(&run)
-        );
-        assert_eq!(run.files, first.files, "{damage}");
-        // The rebuilt entry replaced the damaged one.
-        assert_eq!(std::fs::read(&entry).unwrap(), good, "{damage}");
-        let next = separate(&cache, &input, &dir.path().join("next"), &[]);
-        assert_eq!(table_source(&next), "cached", "{damage}");
-        assert!(!notes(&next).iter().any(|n| n.contains("damaged")));
+    let base = entries(&cache, "table-base-").pop().unwrap();
+    let table = entries(&cache, "table-").into_iter().find(|p| *p != base).unwrap();
+    for (entry, what, source) in [(&table, "table ", "cached"), (&base, "table base ", "built")] {
+        let good = std::fs::read(entry).unwrap();
+        let flipped = {
+            let mut b = good.clone();
+            let at = b.len() - 1000;
+            b[at] ^= 0x01;
+            b
+        };
+        for (damage, bytes) in [("a flipped bit", flipped), ("a truncated file", good[..good.len() / 2].to_vec())] {
+            std::fs::write(entry, &bytes).unwrap();
+            if entry == &base {
+                std::fs::remove_file(&table).unwrap();
+            }
+            let run = separate(&cache, &input, &dir.path().join("again"), &[]);
+            assert_eq!(table_source(&run), source, "{what}{damage}");
+            let prefix = format!("cached {what}");
+            assert!(
+                notes(&run)
+                    .iter()
+                    .any(|n| n.starts_with(&prefix) && n.contains(" was damaged (") && n.ends_with("); rebuilt")),
+                "{what}{damage}: {:?}",
+                notes(&run)
+            );
+            assert_eq!(run.files, first.files, "{what}{damage}");
+            // The rebuilt entry replaced the damaged one.
+            assert_eq!(std::fs::read(entry).unwrap(), good, "{what}{damage}");
+            let next = separate(&cache, &input, &dir.path().join("next"), &[]);
+            assert_eq!(table_source(&next), "cached", "{what}{damage}");
+            assert!(!notes(&next).iter().any(|n| n.contains("damaged")));
+        }
     }
 }
 
@@ -182,10 +217,11 @@ fn several_processes_fill_one_cache_folder_at_once() {
     let read = |i: usize| std::fs::read(dir.path().join(format!("out{i}/coast.cmyk.tif"))).unwrap();
     assert!(read(0) == read(2) && read(1) == read(3));
     assert!(read(0) != read(1));
-    // One entry per table and profile, no partial files left, each entry whole.
-    assert_eq!(entries(&cache, "table-").len(), 2);
+    // One base, table and profile per setting, no partial files left, each entry whole.
+    assert_eq!(entries(&cache, "table-base-").len(), 2);
+    assert_eq!(entries(&cache, "table-").len(), 4);
     assert_eq!(entries(&cache, "profile-").len(), 2);
-    assert_eq!(std::fs::read_dir(&cache).unwrap().count(), 4);
+    assert_eq!(std::fs::read_dir(&cache).unwrap().count(), 6);
     for (i, extra) in settings.iter().enumerate().take(2) {
         let run = separate(&cache, &input, &dir.path().join("check"), extra);
         assert_eq!(table_source(&run), "cached");
@@ -256,4 +292,50 @@ fn an_unwritable_cache_folder_never_fails_a_job() {
     let plain = separate(&blocked, &input, &dir.path().join("plain"), &["--no-cache"]);
     assert_eq!(run.files, plain.files);
     assert_eq!(std::fs::read(&blocked).unwrap(), b"not a folder");
+}
+
+/// Two pictures of one source that leave the press gamut in different
+/// places share the picture-independent table base: the second one finds
+/// it in the folder (`cached`), only its own step runs, and its files are
+/// the files of a run without the cache. A picture inside the gamut (the
+/// scene without its saturated ramp) shares it too.
+#[test]
+fn two_pictures_share_the_picture_independent_base() {
+    let (dir, input, cache) = workspace();
+    let first = separate(&cache, &input, &dir.path().join("first"), &[]);
+    assert_eq!(table_source(&first), "built");
+    assert_eq!(entries(&cache, "table-base-").len(), 1);
+    // The scene with its saturated ramp pulled to mid gray: it reaches beyond
+    // the press gamut elsewhere or nowhere, so its mapping differs.
+    let mut pixels = scene();
+    for row in crate::scene::RAMP_ROWS {
+        for v in &mut pixels[3 * SCENE_W * row..3 * SCENE_W * (row + 1)] {
+            *v = 128 + *v / 8;
+        }
+    }
+    let other = dir.path().join("harbour.png");
+    {
+        let mut out = Vec::new();
+        let mut enc = png::Encoder::new(&mut out, SCENE_W as u32, SCENE_H as u32);
+        enc.set_color(png::ColorType::Rgb);
+        let mut wr = enc.write_header().unwrap();
+        wr.write_image_data(&pixels).unwrap();
+        wr.finish().unwrap();
+        std::fs::write(&other, out).unwrap();
+    }
+    let second = separate(&cache, &other, &dir.path().join("second"), &[]);
+    assert_eq!(table_source(&second), "cached", "{:?}", notes(&second));
+    assert_eq!(entries(&cache, "table-base-").len(), 1, "one base for both pictures");
+    assert_eq!(entries(&cache, "table-").len(), 3, "the base and each picture's finished table");
+    assert!(!notes(&second).iter().any(|n| n.contains("cache")), "{:?}", notes(&second));
+    let plain = separate(&dir.path().join("unused"), &other, &dir.path().join("plain"), &["--no-cache"]);
+    assert_eq!(table_source(&plain), "built");
+    assert!(
+        second.files == plain.files,
+        "the hit wrote other files than a run without the cache"
+    );
+    assert!(
+        first.files.iter().zip(&second.files).any(|(a, b)| a.1 != b.1),
+        "two different pictures"
+    );
 }

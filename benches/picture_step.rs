@@ -1,0 +1,67 @@
+//! The table of one picture under perceptual compression from its own gamut
+//! (the default), on the built-in coated-offset condition at the default
+//! 33³ grid, side by side in one run: the full build (every node solved
+//! exactly) and the per-picture step from the cached picture-independent
+//! base (the picture's gamut and map, every node mapped, the moved nodes
+//! solved). Pictures: the demo (examples/harbour-lights.png) and the demo
+//! with half and with a quarter of its chroma (the latter inside the press
+//! gamut: 161 nodes move). Figures in docs/PERFORMANCE.md.
+
+use criterion::{BenchmarkId, Criterion, criterion_group, criterion_main};
+use platesmith::colour::RgbSpace;
+use platesmith::job::{base_for_source, exact_table_for_picture, table_for_picture_from};
+use platesmith::press::builtin::coated_offset;
+use platesmith::raster::{Limits, Samples, read_raster};
+use platesmith::separation::{SeparationSettings, Separator};
+use platesmith::source::RgbSource;
+use std::time::Duration;
+
+fn demo() -> Vec<u8> {
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/harbour-lights.png");
+    let raster = read_raster(&path, &Limits::default()).expect("the demo picture");
+    let mut notes = Vec::new();
+    match &*platesmith::job::to_rgb(&raster, &mut notes).expect("RGB") {
+        Samples::U8(v) => v.clone(),
+        Samples::U16(v) => v.iter().map(|&x| (x >> 8) as u8).collect(),
+    }
+}
+
+fn picture_table(c: &mut Criterion) {
+    let grid = 33;
+    let condition = coated_offset();
+    let mut settings = SeparationSettings::for_condition(&condition);
+    settings.table_grid = grid;
+    let sep = Separator::new(condition, settings).expect("valid");
+    let source = RgbSource::Named(RgbSpace::Srgb);
+    let base = base_for_source(&sep, &source).expect("a perceptual separator");
+    let demo = demo();
+    // The demo's colours pulled toward their gray by `keep` quarters of chroma kept.
+    let toward_gray = |keep: u32| -> Vec<u8> {
+        demo.chunks_exact(3)
+            .flat_map(|p| {
+                let m = (p[0] as u32 + p[1] as u32 + p[2] as u32) / 3;
+                p.iter()
+                    .map(move |&v| ((v as u32 * keep + m * (4 - keep)) / 4) as u8)
+                    .collect::<Vec<_>>()
+            })
+            .collect()
+    };
+    let (muted, inside) = (toward_gray(2), toward_gray(1));
+    let mut group = c.benchmark_group("picture_table");
+    group.sample_size(10).measurement_time(Duration::from_secs(5));
+    for (name, rgb) in [("harbour-lights", demo), ("half-chroma", muted), ("quarter-chroma", inside)] {
+        let samples = Samples::U8(rgb);
+        group.bench_with_input(BenchmarkId::new("full_build", name), &samples, |b, s| {
+            b.iter(|| exact_table_for_picture(&sep, &source, s))
+        });
+        // The picture's gamut and map, then the step on the base (what a job
+        // with the base in the cache does per file).
+        group.bench_with_input(BenchmarkId::new("picture_step", name), &samples, |b, s| {
+            b.iter(|| table_for_picture_from(&sep, &source, Some(&base), s))
+        });
+    }
+    group.finish();
+}
+
+criterion_group!(benches, picture_table);
+criterion_main!(benches);

@@ -1,0 +1,126 @@
+//! The per-picture step of a picture's separation table against the full
+//! build (sRGB on coated offset, perceptual from the picture), on four
+//! pictures: the demo (examples/harbour-lights.png), the demo with half and
+//! with a quarter of its chroma (the latter inside the press gamut) and a
+//! saturated one (the sRGB cube's edges). For each: the wall and processor
+//! time of the full build, of the picture's gamut and map, and of the step
+//! from the picture-independent base (all on the global rayon pool), the
+//! nodes the step solved, and node error against the full build (max and
+//! p99 ink in %, CIEDE2000 of the printed colour). Figures go to
+//! docs/PERFORMANCE.md.
+//!
+//! `cargo run --release --example picture_step [grid]`
+
+use platesmith::colour::{RgbSpace, ciede2000};
+use platesmith::ink::Cmyk;
+use platesmith::job::{base_for_source, exact_table_for_picture, picture_gamut};
+use platesmith::press::builtin::coated_offset;
+use platesmith::raster::{Limits, Samples, read_raster};
+use platesmith::separation::{SeparationSettings, SeparationTable, Separator};
+use platesmith::source::RgbSource;
+use std::time::Instant;
+
+fn pictures() -> Vec<(&'static str, Vec<u8>)> {
+    let raster = read_raster(std::path::Path::new("examples/harbour-lights.png"), &Limits::default()).expect("the demo picture");
+    let mut notes = Vec::new();
+    let demo = match &*platesmith::job::to_rgb(&raster, &mut notes).expect("RGB") {
+        Samples::U8(v) => v.clone(),
+        Samples::U16(v) => v.iter().map(|&x| (x >> 8) as u8).collect(),
+    };
+    // The demo's colours pulled toward their gray by `keep` quarters of chroma kept.
+    let toward_gray = |keep: u32| -> Vec<u8> {
+        demo.chunks_exact(3)
+            .flat_map(|p| {
+                let m = (p[0] as u32 + p[1] as u32 + p[2] as u32) / 3;
+                p.iter()
+                    .map(move |&v| ((v as u32 * keep + m * (4 - keep)) / 4) as u8)
+                    .collect::<Vec<_>>()
+            })
+            .collect()
+    };
+    let (muted, inside) = (toward_gray(2), toward_gray(1));
+    let mut saturated = Vec::new();
+    for t in 0..=255u8 {
+        for c in [
+            [255, t, 0],
+            [255 - t, 255, 0],
+            [0, 255, t],
+            [0, 255 - t, 255],
+            [t, 0, 255],
+            [255, 0, 255 - t],
+        ] {
+            saturated.extend(c);
+        }
+    }
+    vec![
+        ("harbour-lights", demo),
+        ("muted (half its chroma)", muted),
+        ("inside the gamut (a quarter of its chroma)", inside),
+        ("saturated", saturated),
+    ]
+}
+
+/// CPU time of every thread of this process so far (ns), from /proc.
+fn cpu_ns() -> u64 {
+    std::fs::read_dir("/proc/self/task")
+        .map(|d| {
+            d.flatten()
+                .filter_map(|t| std::fs::read_to_string(t.path().join("schedstat")).ok())
+                .filter_map(|s| s.split_whitespace().next()?.parse::<u64>().ok())
+                .sum()
+        })
+        .unwrap_or(0)
+}
+
+fn percentile(mut v: Vec<f64>, p: f64) -> f64 {
+    v.sort_by(f64::total_cmp);
+    v[((v.len() - 1) as f64 * p).round() as usize]
+}
+
+fn main() {
+    let grid: usize = std::env::args().nth(1).map(|g| g.parse().expect("a grid")).unwrap_or(33);
+    let condition = coated_offset();
+    let mut settings = SeparationSettings::for_condition(&condition);
+    settings.table_grid = grid;
+    let sep = Separator::new(condition, settings).expect("valid");
+    let source = RgbSource::Named(RgbSpace::Srgb);
+    let (c0, t) = (cpu_ns(), Instant::now());
+    let base = base_for_source(&sep, &source).expect("a perceptual separator");
+    println!(
+        "grid {grid}: base {:.0} ms (cpu {:.0} ms); base bytes {:.1} MB",
+        t.elapsed().as_secs_f64() * 1e3,
+        (cpu_ns() - c0) as f64 / 1e6,
+        base.to_bytes().len() as f64 / 1e6
+    );
+    for (name, rgb) in pictures() {
+        let samples = Samples::U8(rgb);
+        let (c0, t) = (cpu_ns(), Instant::now());
+        let full = exact_table_for_picture(&sep, &source, &samples);
+        let (full_ms, full_cpu) = (t.elapsed().as_secs_f64() * 1e3, (cpu_ns() - c0) as f64 / 1e6);
+        let (c0, t) = (cpu_ns(), Instant::now());
+        let mapping = sep.picture_mapping(&picture_gamut(&source, &samples));
+        let (gamut_ms, gamut_cpu) = (t.elapsed().as_secs_f64() * 1e3, (cpu_ns() - c0) as f64 / 1e6);
+        let (c0, t) = (cpu_ns(), Instant::now());
+        let (step, counts): (SeparationTable, _) = base.table_for(&sep, &mapping).expect("a perceptual mapping");
+        let (step_ms, step_cpu) = (t.elapsed().as_secs_f64() * 1e3, (cpu_ns() - c0) as f64 / 1e6);
+        let (mut ink, mut de) = (Vec::new(), Vec::new());
+        for (a, b) in full.nodes().iter().zip(step.nodes()) {
+            let d = (0..4).map(|c| (a[c] as f64 - b[c] as f64).abs()).fold(0.0, f64::max);
+            ink.push(d / 65535.0 * 100.0);
+            let printed = |x: &[u16; 4]| sep.printed_relative(Cmyk::from_array(x.map(|v| v as f64 / 65535.0))).lab();
+            de.push(ciede2000(printed(a), printed(b)));
+        }
+        let over1 = ink.iter().filter(|&&v| v > 1.0).count();
+        println!(
+            "{name}: full build {full_ms:.0} ms (cpu {full_cpu:.0}); picture gamut and map {gamut_ms:.1} ms (cpu {gamut_cpu:.1}); \
+             step {step_ms:.1} ms (cpu {step_cpu:.1}; {} nodes solved, {} kept); \
+             ink max {:.3} % p99 {:.4} % ({over1} nodes over 1 %); ΔE2000 max {:.4} p99 {:.5}",
+            counts.solved,
+            counts.kept,
+            percentile(ink.clone(), 1.0),
+            percentile(ink, 0.99),
+            percentile(de.clone(), 1.0),
+            percentile(de, 0.99),
+        );
+    }
+}
