@@ -304,6 +304,69 @@ const REACH_SLACK: f64 = 0.03;
 const LIGHT_FOCUS_RISE: f64 = 0.7;
 const LIGHT_FOCUS_RISE_MAX: f64 = 2.0;
 
+/// Deepest the focal point of a hue may lie below the press cusp's
+/// lightness, in working units (see [`focus_drops`]).
+const FOCUS_DROP_MAX: f64 = 30.0;
+
+/// Largest share of the way from the press cusp's lightness down to the
+/// press black that the focal point may drop: a focal point at or below
+/// the black lies outside the gamut, where a ray's first stretch inside it
+/// is the narrow tip at the black point (a printable cyan at L* 58 was
+/// carried onto the press black on uncoated offset; measured).
+const FOCUS_DROP_SHARE: f64 = 0.5;
+
+/// Working lightness above the press cusp over which the focal point's drop
+/// fades in (smoothstep): colours at or below the cusp keep SGCK's focal
+/// point, so the drop changes no ray of a colour darker than the cusp.
+const FOCUS_DROP_FADE: f64 = 5.0;
+
+/// Per hue sector ([`SECTOR`] degrees, [`SECTORS`] of them), how far the
+/// focal point lies below the lightness of the press cusp, in working
+/// units. Where the source's cusp of a hue is lighter and more chromatic
+/// than the press's (sRGB yellow and green against process yellow and
+/// green), the focal point is the axis intercept of the line through the
+/// two cusps, so the ray through the source cusp ends on the press cusp
+/// and the colours above it (light yellows) map onto the press boundary
+/// above the press cusp instead of being pulled down to its lightness with
+/// little chroma left. The drop fades in as the source cusp's chroma
+/// exceeds the press's by up to a quarter and its lightness the press's by
+/// up to [`FOCUS_DROP_FADE`] (the fade above the cusp in
+/// [`PerceptualMap::ray`] would not carry a source cusp barely lighter than
+/// the press's the whole drop anyway), and is at most
+/// [`FOCUS_DROP_MAX`] and [`FOCUS_DROP_SHARE`] of the way to the press
+/// black (working lightness `black`). It acts on colours lighter than the
+/// press cusp only (see [`PerceptualMap::ray`]). `source_cusp(h)`: the
+/// source's cusp (working lightness, chroma) at hue h, when known.
+fn focus_drops(dest: &CuspCurve, black: f64, source_cusp: &dyn Fn(f64) -> Option<(f64, f64)>) -> Vec<f64> {
+    (0..SECTORS)
+        .map(|s| {
+            let h = s as f64 * SECTOR;
+            let (id, cd) = dest.at(h);
+            match source_cusp(h) {
+                Some((is, cs)) if is > id && cs > cd && cd > 0.0 => {
+                    // Fades in as the source cusp is more chromatic (by up to a
+                    // quarter) and lighter (by up to FOCUS_DROP_FADE) than the press's.
+                    let w = ((cs - cd) / (0.25 * cd)).clamp(0.0, 1.0) * ((is - id) / FOCUS_DROP_FADE).clamp(0.0, 1.0);
+                    let deepest = FOCUS_DROP_MAX.min(FOCUS_DROP_SHARE * (id - black)).max(0.0);
+                    w * (cd * (is - id) / (cs - cd)).min(deepest)
+                }
+                _ => 0.0,
+            }
+        })
+        .collect()
+}
+
+/// [`focus_drops`] interpolated linearly in hue.
+fn drop_at(drops: &[f64], h: f64) -> f64 {
+    if drops.len() < SECTORS {
+        return 0.0;
+    }
+    let sf = h.rem_euclid(360.0) / SECTOR;
+    let s0 = sf.floor() as usize % SECTORS;
+    let t = sf - sf.floor();
+    drops[s0] * (1.0 - t) + drops[(s0 + 1) % SECTORS] * t
+}
+
 /// Reach beyond the press boundary (as a share of its distance, past
 /// [`REACH_SLACK`]) over which the shadow taper of a picture's mapping
 /// fades in.
@@ -439,7 +502,10 @@ pub fn knee_compression(r: f64, rs: f64) -> f64 {
 ///    It moves along the ray from a focal point on the lightness axis at the
 ///    lightness of the press cusp of its hue (the focal point of SGCK, CIE
 ///    156:2004; raised toward the colour's own lightness above the cusp, by
-///    at most [`LIGHT_FOCUS_RISE_MAX`]), by [`knee_compression`] of its distance: up to [`KNEE`] of
+///    at most [`LIGHT_FOCUS_RISE_MAX`]; for those colours lowered where the
+///    source's cusp of the hue is lighter and more chromatic than the
+///    press's, so that the source cusp maps onto the press cusp,
+///    [`focus_drops`]), by [`knee_compression`] of its distance: up to [`KNEE`] of
 ///    the distance to the press boundary nothing moves, and the band beyond,
 ///    out to the source boundary on the same ray, is compressed smoothly into
 ///    the rest. The source is either the whole source space or the gamut of
@@ -464,6 +530,8 @@ pub fn knee_compression(r: f64, rs: f64) -> f64 {
 pub struct PerceptualMap<'a> {
     dest: &'a GamutBoundary,
     dest_cusps: CuspCurve,
+    /// Per hue sector, the focal point's drop below the press cusp ([`focus_drops`]).
+    focus_drops: Vec<f64>,
     shadows: ShadowCurve,
     /// a*, b* of the press black point (slightly cool on offset).
     black_tint: (f64, f64),
@@ -732,9 +800,14 @@ impl<'a> PerceptualMap<'a> {
         source: &'a dyn SourceGamut,
         source_black: f64,
     ) -> PerceptualMap<'a> {
+        let dest_cusps = CuspCurve::from_ridge(dest_ridge);
+        let source_cusps = source.ridge().map(|ridge| CuspCurve::from_ridge(&ridge));
+        let black = working_polar(Lab::new(dest.l_min, 0.0, 0.0)).0;
+        let focus_drops = focus_drops(&dest_cusps, black, &|h| source_cusps.as_ref().map(|c| c.at(h)));
         PerceptualMap {
             dest,
-            dest_cusps: CuspCurve::from_ridge(dest_ridge),
+            dest_cusps,
+            focus_drops,
             shadows: ShadowCurve::new(source_black, dest_black.l),
             black_tint: (dest_black.a, dest_black.b),
             source: Extent::Space(source),
@@ -757,9 +830,34 @@ impl<'a> PerceptualMap<'a> {
         source_black: f64,
     ) -> PerceptualMap<'a> {
         use rayon::prelude::*;
+        let dest_cusps = CuspCurve::from_ridge(dest_ridge);
+        // The picture's cusp per hue sector: its most chromatic colour over
+        // all lightness bands, widened by one sector on each side.
+        let mut cusps = vec![(0.0f64, 0.0f64); SECTORS];
+        for &lab in picture.extremes() {
+            let (i, c, h) = working_polar(lab);
+            let s = cell_of(0.0, h);
+            if c.is_finite() && i.is_finite() && c > cusps[s].1 {
+                cusps[s] = (i, c);
+            }
+        }
+        let widened: Vec<(f64, f64)> = (0..SECTORS)
+            .map(|s| {
+                [SECTORS - 1, 0, 1]
+                    .iter()
+                    .map(|d| cusps[(s + d) % SECTORS])
+                    .fold((0.0, 0.0), |a, b| if b.1 > a.1 { b } else { a })
+            })
+            .collect();
+        let black = working_polar(Lab::new(dest.l_min, 0.0, 0.0)).0;
+        let focus_drops = focus_drops(&dest_cusps, black, &|h| {
+            let (i, c) = widened[cell_of(0.0, h)];
+            (c > 0.0).then_some((i, c))
+        });
         let mut map = PerceptualMap {
             dest,
-            dest_cusps: CuspCurve::from_ridge(dest_ridge),
+            dest_cusps,
+            focus_drops,
             shadows: ShadowCurve::new(source_black, dest_black.l),
             black_tint: (dest_black.a, dest_black.b),
             source: Extent::Picture(Vec::new()),
@@ -789,12 +887,26 @@ impl<'a> PerceptualMap<'a> {
                 grid[b * SECTORS + s] = m;
             }
         }
-        map.source = Extent::Picture(quiet_cells_to_zero(grid));
+        let mut grid = quiet_cells_to_zero(grid);
+        // The focal point's drops follow the reach (the key of the
+        // picture's table must hold them too); a sector's drop changes no
+        // colour where the reach of it and its neighbours is zero throughout.
+        let quiet = |s: usize| (0..BANDS).all(|b| grid[b * SECTORS + s] == 0.0);
+        let drops: Vec<f64> = (0..SECTORS)
+            .map(|s| {
+                let all_quiet = [SECTORS - 1, 0, 1].iter().all(|d| quiet((s + d) % SECTORS));
+                if all_quiet { 0.0 } else { map.focus_drops[s] }
+            })
+            .collect();
+        grid.extend(drops);
+        map.source = Extent::Picture(grid);
         map
     }
 
     /// A picture mapping's reach per lightness band and hue sector (band-major),
-    /// with cells that cannot change any mapped colour set to zero; `None`
+    /// with cells that cannot change any mapped colour set to zero, followed
+    /// by the focal point's drop per hue sector ([`focus_drops`], zero where
+    /// it changes no colour); `None`
     /// for a mapping from a whole source space. Two picture mappings of one
     /// press with equal reach map every colour alike, so the reach keys the
     /// picture's separation table in the table cache.
@@ -833,13 +945,17 @@ impl<'a> PerceptualMap<'a> {
         let lab = if lifted.l == lab.l { lab } else { from_working_polar(i, c, h) };
         // Above the cusp the focal point rises with the colour (a light
         // yellow aimed at the cusp of the press yellow, L* near 89, would
-        // print darker than the printable yellows below it).
+        // print darker than the printable yellows below it); where the
+        // source's cusp is lighter than the press's it lies lower, on the
+        // line through both cusps.
         let (cusp, _) = self.dest_cusps.at(h);
-        let focus = if i > cusp {
-            cusp + LIGHT_FOCUS_RISE_MAX * (LIGHT_FOCUS_RISE * (i - cusp) / LIGHT_FOCUS_RISE_MAX).tanh()
+        let rise = if i > cusp {
+            LIGHT_FOCUS_RISE_MAX * (LIGHT_FOCUS_RISE * (i - cusp) / LIGHT_FOCUS_RISE_MAX).tanh()
         } else {
-            cusp
+            0.0
         };
+        let t = ((i - cusp) / FOCUS_DROP_FADE).clamp(0.0, 1.0);
+        let focus = cusp + rise - t * t * (3.0 - 2.0 * t) * drop_at(&self.focus_drops, h);
         let (di, dc) = (i - focus, c);
         let d = di.hypot(dc);
         let mut ray = Ray {
@@ -1017,6 +1133,32 @@ mod tests {
                 );
             }
         }
+    }
+
+    #[test]
+    fn the_focal_point_lies_on_the_line_through_both_cusps() {
+        // A press cusp at I 80, C 60 and a source cusp at I 92, C 90 (a
+        // light yellow); the press black at I 20.
+        let dest = CuspCurve {
+            hues: vec![0.0, 180.0],
+            points: vec![(80.0, 60.0), (80.0, 60.0)],
+        };
+        let drops = focus_drops(&dest, 20.0, &|_| Some((92.0, 90.0)));
+        // Slope (92 - 80) / (90 - 60) = 0.4: the axis 24 below the press cusp.
+        assert!(drops.iter().all(|&d| (d - 24.0).abs() < 1e-9), "{drops:?}");
+        // A press black at I 56: no deeper than halfway down to it (12).
+        let shallow = focus_drops(&dest, 56.0, &|_| Some((92.0, 90.0)));
+        assert!(
+            shallow.iter().all(|&d| (d - FOCUS_DROP_SHARE * (80.0 - 56.0)).abs() < 1e-9),
+            "{shallow:?}"
+        );
+        // A source cusp darker than the press's, or less chromatic: no drop.
+        assert!(focus_drops(&dest, 20.0, &|_| Some((70.0, 90.0))).iter().all(|&d| d == 0.0));
+        assert!(focus_drops(&dest, 20.0, &|_| Some((95.0, 55.0))).iter().all(|&d| d == 0.0));
+        // Barely more chromatic: the drop fades in from zero, and is bounded.
+        let slight = focus_drops(&dest, 20.0, &|_| Some((81.0, 61.0)));
+        assert!(slight.iter().all(|&d| d > 0.0 && d < FOCUS_DROP_MAX * 0.1), "{slight:?}");
+        assert!((drop_at(&drops, 7.3) - 24.0).abs() < 1e-9);
     }
 
     #[test]

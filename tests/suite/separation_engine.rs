@@ -193,26 +193,27 @@ fn ramps_separate_smoothly() {
 }
 
 /// The same on the other built-in conditions. Uncoated offset holds 3 %
-/// with relative and BPC (2.35 %), newsprint too (1.57 %); perceptual does
-/// not on either (measured 3.92 % and 5.10 %). Perceptual carries the source
+/// with relative and BPC (2.35 %), newsprint too (1.96 %); perceptual does
+/// not on either (measured 3.92 % and 3.53 %). Perceptual carries the source
 /// black onto a press black near L* 30 (uncoated) or 44 (newsprint) by a
 /// lightness curve that rejoins the identity 10 L* above it, so that
 /// printable colours keep their lightness: the darkest tenth of every ramp
 /// lands within about 1 L* of the press black, where the gamut ends in a
 /// point and the inversion changes the build widely for small colour
-/// differences. On uncoated offset the largest step is the yellow ramp's
-/// first, from the rich black at the ink limit (C 100 %) to the next code
-/// (C 96 %); on newsprint it was 7.45 % with the earlier curve that reached
-/// up to L* 83, 3.53 % with the present curve on the earlier fit of TR 002,
-/// and is 5.10 % (the cyan ramp's code 30, under K 86 %) on the refit. Held
-/// at the measured figures so that a regression fails.
+/// differences. On uncoated offset the largest step is in the yellow
+/// ramp's first codes, near the rich black at the ink limit (code 3: C 93 →
+/// 89 % under K 95 %); on newsprint it was 7.45 % with the earlier curve that reached
+/// up to L* 83 and is 3.53 % with the present curve (the red ramp's code
+/// 43, under K 88 %; measured on the refit, with and without the focal
+/// point's drop above the press cusp). Held at the measured figures so that
+/// a regression fails.
 #[test]
 fn ramps_separate_smoothly_on_the_other_builtin_conditions() {
     for (name, intent, bpc, limit) in [
         ("uncoated-offset", Intent::Perceptual, false, 0.04),
         ("uncoated-offset", Intent::Relative, true, 0.03),
         ("newsprint", Intent::Relative, true, 0.03),
-        ("newsprint", Intent::Perceptual, false, 0.052),
+        ("newsprint", Intent::Perceptual, false, 0.036),
     ] {
         let c = platesmith::press::builtin::by_name(name).unwrap();
         ramps_are_smooth(&table_on(c, intent, bpc), &format!("{name} {intent:?} bpc {bpc}"), limit);

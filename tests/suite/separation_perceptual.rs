@@ -31,19 +31,19 @@ fn separator(condition: &str, intent: Intent, bpc: bool) -> Separator {
 fn bound(check: &str, condition: &str, requirement: f64) -> f64 {
     let gap = match (check, condition) {
         // Newsprint's press black is near L* 44: the lightness curve moves
-        // the printable colours up to 10 L* above it. Measured p95 4.66 and
-        // a largest hue turn of 3.60°, in the shadows.
-        ("printable p95", "newsprint") => Some(4.7),
-        ("printable hue max", "newsprint") => Some(3.65),
+        // the printable colours up to 10 L* above it. Measured p95 4.30 and
+        // a largest hue turn of 3.44°, in the shadows.
+        ("printable p95", "newsprint") => Some(4.3),
+        ("printable hue max", "newsprint") => Some(3.45),
         // Dark printable colours near the boundary, within 20 L* of the
         // press black, narrowed by the shadow taper at constant IPT hue:
-        // measured 5.15°.
-        ("printable hue max", "supercalendered") => Some(5.2),
+        // measured 5.06°.
+        ("printable hue max", "supercalendered") => Some(5.1),
         // A printable picture is still compressed where the segment-maxima
         // boundary reads colours relative colorimetric reproduces as lying
-        // beyond it: measured 3 and 11 codes.
-        ("printable picture codes", "uncoated-offset") => Some(3.0),
-        ("printable picture codes", "newsprint") => Some(11.0),
+        // beyond it: measured 2 and 9 codes.
+        ("printable picture codes", "uncoated-offset") => Some(2.0),
+        ("printable picture codes", "newsprint") => Some(9.0),
         _ => None,
     };
     gap.unwrap_or(requirement)
@@ -243,12 +243,13 @@ fn the_coastal_scene_keeps_its_printable_colours_and_its_ramp() {
     use std::collections::HashMap;
 
     // Near sRGB blue the ramp runs past the press boundary, where the knee
-    // curve is flattest: at most 7 codes print alike on any built-in
-    // (measured on coated offset from the picture, after the refit with the
-    // lattice's mixed differences; 6 before it; 10 on newsprint when the
-    // knee curve fell to half the linear slope). The requirement is a stated
-    // number; 8 was stated first, this holds the measured figure.
-    const LONGEST_FLAT_RUN: usize = 7;
+    // curve is flattest: at most 8 codes print alike on any built-in
+    // (measured on web offset from the picture since the focal point drops
+    // for colours lighter than the press cusp, 6 before; 7 on coated offset
+    // from the picture after the refit with the lattice's mixed differences;
+    // 10 on newsprint when the knee curve fell to half the linear slope).
+    // The requirement is a stated number: 8, the number stated first.
+    const LONGEST_FLAT_RUN: usize = 8;
     let rgb = scene();
     let source = RgbSource::Named(RgbSpace::Srgb);
     let conv = RgbSpace::Srgb.converter();
