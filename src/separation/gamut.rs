@@ -720,6 +720,10 @@ struct Ray {
     /// Distance of the colour from the focal point, and of the press boundary.
     d: f64,
     d_dest: f64,
+    /// How far the focal point was lowered for this colour ([`focus_drops`],
+    /// faded in above the press cusp): it depends on the source gamut, so
+    /// [`PerceptualMap::map_prepared`] compares it with its own.
+    drop: f64,
 }
 
 impl Ray {
@@ -743,17 +747,18 @@ pub struct PreparedColour {
 }
 
 /// Reals in [`PreparedColour::to_reals`].
-pub const PREPARED_REALS: usize = 12;
+pub const PREPARED_REALS: usize = 13;
 
 impl PreparedColour {
     /// The colour as reals, exactly (IEEE 754): the source colour, then the
     /// ray's colour, focal lightness, hue, direction and the colour's and
-    /// the press boundary's distances (NaN for a neutral without a ray).
+    /// the press boundary's distances and the focal point's drop (NaN for a
+    /// neutral without a ray).
     pub fn to_reals(&self) -> [f64; PREPARED_REALS] {
         let s = self.source;
         match &self.ray {
             Some(r) => [
-                s.l, s.a, s.b, r.lab.l, r.lab.a, r.lab.b, r.focus, r.h, r.dir.0, r.dir.1, r.d, r.d_dest,
+                s.l, s.a, s.b, r.lab.l, r.lab.a, r.lab.b, r.focus, r.h, r.dir.0, r.dir.1, r.d, r.d_dest, r.drop,
             ],
             None => {
                 let mut v = [f64::NAN; PREPARED_REALS];
@@ -783,6 +788,7 @@ impl PreparedColour {
             dir: (v[8], v[9]),
             d: v[10],
             d_dest: v[11],
+            drop: v[12],
         };
         Some(PreparedColour { source, ray: Some(ray) })
     }
@@ -898,6 +904,10 @@ impl<'a> PerceptualMap<'a> {
                 if all_quiet { 0.0 } else { map.focus_drops[s] }
             })
             .collect();
+        // The map itself keeps the zeroed drops too (they change no colour),
+        // so a colour prepared without a drop is prepared again only where
+        // this picture's drop acts (`map_prepared`).
+        map.focus_drops.clone_from(&drops);
         grid.extend(drops);
         map.source = Extent::Picture(grid);
         map
@@ -954,8 +964,8 @@ impl<'a> PerceptualMap<'a> {
         } else {
             0.0
         };
-        let t = ((i - cusp) / FOCUS_DROP_FADE).clamp(0.0, 1.0);
-        let focus = cusp + rise - t * t * (3.0 - 2.0 * t) * drop_at(&self.focus_drops, h);
+        let drop = self.drop_term(i, h);
+        let focus = cusp + rise - drop;
         let (di, dc) = (i - focus, c);
         let d = di.hypot(dc);
         let mut ray = Ray {
@@ -965,11 +975,29 @@ impl<'a> PerceptualMap<'a> {
             dir: (di / d, dc / d),
             d,
             d_dest: 0.0,
+            drop,
         };
         let shadow = ((lab.l - self.dest.l_min) / 20.0).clamp(0.0, 1.0);
         let margin = BOUNDARY_MARGIN + (1.0 - BOUNDARY_MARGIN) * shadow;
         ray.d_dest = margin * ray_extent(&|s| ray.point(s), RAY_MAX, &|p| self.dest.contains(p));
         Some(ray)
+    }
+
+    /// How far the focal point drops below the press cusp (plus its rise)
+    /// for a colour of working lightness `i` (after step 1) and IPT hue `h`:
+    /// [`focus_drops`] of the hue, faded in (smoothstep) over
+    /// [`FOCUS_DROP_FADE`] above the press cusp.
+    fn drop_term(&self, i: f64, h: f64) -> f64 {
+        let (cusp, _) = self.dest_cusps.at(h);
+        let t = ((i - cusp) / FOCUS_DROP_FADE).clamp(0.0, 1.0);
+        t * t * (3.0 - 2.0 * t) * drop_at(&self.focus_drops, h)
+    }
+
+    /// [`PerceptualMap::drop_term`] of a source colour, as [`PerceptualMap::ray`] computes it.
+    fn focus_drop(&self, lab: Lab) -> f64 {
+        let (_, _, h) = working_polar(lab);
+        let (i, _, _) = working_polar(self.lift(lab));
+        self.drop_term(i, h)
     }
 
     /// The source's reach along a ray, as a share of the press boundary's distance.
@@ -986,7 +1014,7 @@ impl<'a> PerceptualMap<'a> {
     /// Maps one media-relative colour. The result may still lie slightly
     /// outside the printable gamut; the inversion clips the rest.
     pub fn map(&self, lab: Lab) -> Lab {
-        self.map_prepared(&self.prepare(lab))
+        self.map_ray(&self.prepare(lab))
     }
 
     /// The part of [`PerceptualMap::map`] that does not read the source
@@ -998,8 +1026,24 @@ impl<'a> PerceptualMap<'a> {
     }
 
     /// [`PerceptualMap::map`] of a colour prepared by a map of the same
-    /// press and source black (this one, or another with another source gamut).
+    /// press and source black (this one, or another with another source
+    /// gamut). The focal point's drop depends on the source gamut: where
+    /// this map's drop for the colour is not the one it was prepared with
+    /// (bit for bit), the colour is prepared again here, so the result is
+    /// always [`PerceptualMap::map`]'s.
     pub fn map_prepared(&self, prepared: &PreparedColour) -> Lab {
+        if let Some(ray) = &prepared.ray {
+            let drops_here = self.focus_drops.iter().any(|&d| d != 0.0);
+            if (drops_here || ray.drop != 0.0) && self.focus_drop(prepared.source).to_bits() != ray.drop.to_bits() {
+                return self.map_ray(&self.prepare(prepared.source));
+            }
+        }
+        self.map_ray(prepared)
+    }
+
+    /// Steps 1 to 4 of [`PerceptualMap::map`] along the prepared colour's
+    /// own ray.
+    fn map_ray(&self, prepared: &PreparedColour) -> Lab {
         // Steps 1 and 2.
         let Some(ray) = &prepared.ray else {
             return self.lift(prepared.source);

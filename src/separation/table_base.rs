@@ -299,13 +299,16 @@ mod tests {
             .collect();
         let picture = sep.picture_mapping(&PictureGamut::from_colours(&edges));
         let (empty, picture) = (empty.perceptual().unwrap(), picture.perceptual().unwrap());
-        let mut neutrals = 0;
+        let (mut neutrals, mut other_rays) = (0, 0);
         for i in 0..9 * 9 * 9 {
             let c = |v: usize| v as f64 / 8.0;
             let lab = conv.to_lab(EncodedRgb([c(i / 81), c(i / 9 % 9), c(i % 9)]));
             let prepared = empty.prepare(lab);
             let reals = prepared.to_reals();
             neutrals += reals[3].is_nan() as usize;
+            // The cube's edges lower the focal point above the press cusp of
+            // yellow and green, which the empty picture does not.
+            other_rays += (picture.prepare(lab) != prepared) as usize;
             assert_eq!(PreparedColour::from_reals(&reals), Some(prepared));
             for map in [empty, picture] {
                 assert_eq!(
@@ -315,6 +318,7 @@ mod tests {
             }
         }
         assert!(neutrals >= 9, "the gray axis has no ray");
+        assert!(other_rays > 0, "no colour took another ray under the picture's map");
         assert!(PreparedColour::from_reals(&[f64::NAN; PREPARED_REALS]).is_none());
     }
 
