@@ -50,11 +50,14 @@ pub struct KeyBytes {
 }
 
 impl KeyBytes {
-    /// A key of `kind` for this program version and entry format.
+    /// A key of `kind` for this program version, build (the digest of its
+    /// sources) and entry format.
     pub fn new(kind: Kind) -> KeyBytes {
         let mut k = KeyBytes { kind, bytes: Vec::new() };
         k.text("program", env!("CARGO_PKG_NAME"));
         k.text("version", env!("CARGO_PKG_VERSION"));
+        // Every change to the program's sources or libraries (build.rs).
+        k.text("sources", env!("PLATESMITH_SOURCE_DIGEST"));
         k.number("format", FORMAT_VERSION as u64);
         k.text("kind", kind.tag());
         k
