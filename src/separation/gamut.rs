@@ -1035,6 +1035,15 @@ impl<'a> PerceptualMap<'a> {
         if let Some(ray) = &prepared.ray {
             let drops_here = self.focus_drops.iter().any(|&d| d != 0.0);
             if (drops_here || ray.drop != 0.0) && self.focus_drop(prepared.source).to_bits() != ray.drop.to_bits() {
+                // A picture's map leaves a colour as it is (after step 1)
+                // where the picture's reach on its ray stays within the
+                // slack: steps 2 and 4 then read only the reach, which does
+                // not depend on the focal point, so no ray is needed.
+                if let Extent::Picture(grid) = &self.source
+                    && reach_at(grid, working_polar(ray.lab).0, ray.h) <= 1.0 + REACH_SLACK
+                {
+                    return ray.lab;
+                }
                 return self.map_ray(&self.prepare(prepared.source));
             }
         }
