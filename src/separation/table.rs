@@ -41,6 +41,27 @@ pub struct SeparationTable {
     /// 8 bits must not break either.
     caps: InkCaps,
 }
+/// Every node of an n³ RGB grid (node index (r·N + g)·N + b, encoded
+/// coordinates i / (N − 1)) through `node`, one line of nodes along blue
+/// per (red, green): the lines in parallel, each solved in order with one
+/// warm start (each search from the neighbour's answer to it:
+/// `Separator::invert_along`), so neighbouring nodes take the same branch of
+/// the inversion and the result does not depend on threads.
+pub(super) fn solve_lines<T: Send>(n: usize, node: &(dyn Fn(EncodedRgb, &mut WarmStart) -> T + Sync)) -> Vec<T> {
+    let coord = |i: usize| i as f64 / (n - 1) as f64;
+    let lines: Vec<Vec<T>> = (0..n * n)
+        .into_par_iter()
+        .map(|line| {
+            let (r, g) = (line / n, line % n);
+            let mut warm = WarmStart::default();
+            (0..n)
+                .map(|b| node(EncodedRgb([coord(r), coord(g), coord(b)]), &mut warm))
+                .collect()
+        })
+        .collect();
+    lines.into_iter().flatten().collect()
+}
+
 impl SeparationTable {
     /// Builds the table. `node_lab` gives the source colour (media-relative
     /// CIELAB D50, the ICC PCS) of each grid node from its encoded RGB
@@ -48,28 +69,12 @@ impl SeparationTable {
     /// embedded profile.
     pub fn build(separator: &Separator, mapping: &SourceMapping, node_lab: &(dyn Fn(EncodedRgb) -> IntentLab + Sync)) -> SeparationTable {
         let n = separator.settings().table_grid;
-        let coord = |i: usize| i as f64 / (n - 1) as f64;
-        // One line of nodes along blue per (red, green); each line is solved
-        // in order with warm starts (each search from the neighbour's answer
-        // to it: `Separator::invert_along`), so neighbouring nodes take the
-        // same branch of the inversion and the result does not depend on
-        // threads.
-        let lines: Vec<Vec<([f64; 4], f64)>> = (0..n * n)
-            .into_par_iter()
-            .map(|line| {
-                let (r, g) = (line / n, line % n);
-                let mut warm = WarmStart::default();
-                (0..n)
-                    .map(|b| {
-                        let lab = node_lab(EncodedRgb([coord(r), coord(g), coord(b)]));
-                        let target = separator.intent_target(lab, mapping);
-                        let s = separator.invert_along(target, &mut warm);
-                        (s.x, target.lab().l)
-                    })
-                    .collect()
-            })
-            .collect();
-        let (inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = lines.into_iter().flatten().unzip();
+        let nodes = solve_lines(n, &|rgb, warm| {
+            let target = separator.intent_target(node_lab(rgb), mapping);
+            let s = separator.invert_along(target, warm);
+            (s.x, target.lab().l)
+        });
+        let (inks, lightness): (Vec<[f64; 4]>, Vec<f64>) = nodes.into_iter().unzip();
         SeparationTable::from_inks(separator, inks, &lightness)
     }
 

@@ -69,7 +69,7 @@ use super::gamut::{PREPARED_REALS, PerceptualMap, PreparedColour};
 use super::intent::SourceMapping;
 use super::inversion::WarmStart;
 use super::picture::PictureGamut;
-use super::table::SeparationTable;
+use super::table::{SeparationTable, solve_lines};
 use crate::colour::EncodedRgb;
 use rayon::prelude::*;
 
@@ -116,31 +116,17 @@ impl TableBase {
         let n = separator.settings().table_grid;
         let mapping = separator.picture_mapping(&PictureGamut::from_colours(&[]));
         let map = mapping.perceptual()?;
-        let coord = |i: usize| i as f64 / (n - 1) as f64;
-        let nodes: Vec<BaseNode> = (0..n * n)
-            .into_par_iter()
-            .map(|line| {
-                let (r, g) = (line / n, line % n);
-                let mut warm = WarmStart::default();
-                (0..n)
-                    .map(|b| {
-                        let lab = node_lab(EncodedRgb([coord(r), coord(g), coord(b)]));
-                        // As `Separator::intent_target` maps a perceptual source colour.
-                        let prepared = map.prepare(lab.lab());
-                        let target = RelativeLab::new(map.map_prepared(&prepared));
-                        separator.invert_along(target, &mut warm);
-                        BaseNode {
-                            prepared,
-                            target: target.lab().to_array(),
-                            state: warm,
-                        }
-                    })
-                    .collect::<Vec<_>>()
-            })
-            .collect::<Vec<_>>()
-            .into_iter()
-            .flatten()
-            .collect();
+        let nodes = solve_lines(n, &|rgb, warm| {
+            // As `Separator::intent_target` maps a perceptual source colour.
+            let prepared = map.prepare(node_lab(rgb).lab());
+            let target = RelativeLab::new(map.map_prepared(&prepared));
+            separator.invert_along(target, warm);
+            BaseNode {
+                prepared,
+                target: target.lab().to_array(),
+                state: *warm,
+            }
+        });
         Some(TableBase { grid: n, nodes })
     }
 
