@@ -11,20 +11,14 @@ use criterion::{BenchmarkId, Criterion, criterion_group, criterion_main};
 use platesmith::colour::RgbSpace;
 use platesmith::job::{base_for_source, exact_table_for_picture, table_for_picture_from};
 use platesmith::press::builtin::coated_offset;
-use platesmith::raster::{Limits, Samples, read_raster};
+use platesmith::raster::Samples;
 use platesmith::separation::{SeparationSettings, Separator};
 use platesmith::source::RgbSource;
 use std::time::Duration;
 
-fn demo() -> Vec<u8> {
-    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/harbour-lights.png");
-    let raster = read_raster(&path, &Limits::default()).expect("the demo picture");
-    let mut notes = Vec::new();
-    match &*platesmith::job::to_rgb(&raster, &mut notes).expect("RGB") {
-        Samples::U8(v) => v.clone(),
-        Samples::U16(v) => v.iter().map(|&x| (x >> 8) as u8).collect(),
-    }
-}
+#[path = "support/picture_step_pictures.rs"]
+mod pictures;
+use pictures::{demo, toward_gray};
 
 fn picture_table(c: &mut Criterion) {
     let grid = 33;
@@ -35,18 +29,7 @@ fn picture_table(c: &mut Criterion) {
     let source = RgbSource::Named(RgbSpace::Srgb);
     let base = base_for_source(&sep, &source).expect("a perceptual separator");
     let demo = demo();
-    // The demo's colours pulled toward their gray by `keep` quarters of chroma kept.
-    let toward_gray = |keep: u32| -> Vec<u8> {
-        demo.chunks_exact(3)
-            .flat_map(|p| {
-                let m = (p[0] as u32 + p[1] as u32 + p[2] as u32) / 3;
-                p.iter()
-                    .map(move |&v| ((v as u32 * keep + m * (4 - keep)) / 4) as u8)
-                    .collect::<Vec<_>>()
-            })
-            .collect()
-    };
-    let (muted, inside) = (toward_gray(2), toward_gray(1));
+    let (muted, inside) = (toward_gray(&demo, 2), toward_gray(&demo, 1));
     let mut group = c.benchmark_group("picture_table");
     group.sample_size(10).measurement_time(Duration::from_secs(5));
     for (name, rgb) in [("harbour-lights", demo), ("half-chroma", muted), ("quarter-chroma", inside)] {

@@ -15,30 +15,18 @@ use platesmith::colour::{RgbSpace, ciede2000};
 use platesmith::ink::Cmyk;
 use platesmith::job::{base_for_source, exact_table_for_picture, picture_gamut};
 use platesmith::press::builtin::coated_offset;
-use platesmith::raster::{Limits, Samples, read_raster};
+use platesmith::raster::Samples;
 use platesmith::separation::{SeparationSettings, SeparationTable, Separator};
 use platesmith::source::RgbSource;
 use std::time::Instant;
 
+#[path = "../benches/support/picture_step_pictures.rs"]
+mod pictures;
+use pictures::{demo, toward_gray};
+
 fn pictures() -> Vec<(&'static str, Vec<u8>)> {
-    let raster = read_raster(std::path::Path::new("examples/harbour-lights.png"), &Limits::default()).expect("the demo picture");
-    let mut notes = Vec::new();
-    let demo = match &*platesmith::job::to_rgb(&raster, &mut notes).expect("RGB") {
-        Samples::U8(v) => v.clone(),
-        Samples::U16(v) => v.iter().map(|&x| (x >> 8) as u8).collect(),
-    };
-    // The demo's colours pulled toward their gray by `keep` quarters of chroma kept.
-    let toward_gray = |keep: u32| -> Vec<u8> {
-        demo.chunks_exact(3)
-            .flat_map(|p| {
-                let m = (p[0] as u32 + p[1] as u32 + p[2] as u32) / 3;
-                p.iter()
-                    .map(move |&v| ((v as u32 * keep + m * (4 - keep)) / 4) as u8)
-                    .collect::<Vec<_>>()
-            })
-            .collect()
-    };
-    let (muted, inside) = (toward_gray(2), toward_gray(1));
+    let demo = demo();
+    let (muted, inside) = (toward_gray(&demo, 2), toward_gray(&demo, 1));
     let mut saturated = Vec::new();
     for t in 0..=255u8 {
         for c in [
