@@ -11,7 +11,9 @@ use crate::raster::{
 };
 use crate::report::{SettingsReport, round_to};
 use crate::separation::limits::InkCaps;
-use crate::separation::{BLACK_CURVE_STEPS, BlackOnlyCurve, CompressFrom, Intent, IntentLab, SeparationTable, Separator, TableBase};
+use crate::separation::{
+    BLACK_CURVE_STEPS, BlackOnlyCurve, CompressFrom, Intent, IntentLab, PictureCells, SeparationTable, Separator, TableBase,
+};
 use crate::settings::Coverage;
 use crate::source::RgbSource;
 use rayon::prelude::*;
@@ -398,26 +400,35 @@ impl Workshop {
             Some(colours) => {
                 let picture = colours_gamut(source, colours);
                 let mapping = sep.picture_mapping(&picture);
-                let key = self.cache.table_key(sep, source_key, mapping.picture_reach());
-                // A picture seen before (the same reach) finds its finished table
-                // in memory or the folder; a new one is finished from the
-                // picture-independent base (from memory, the folder or built) by
-                // its own step, the same step whichever way the base came.
+                let cells = PictureCells::of_colours(sep.settings().table_grid, colours);
+                let cell_bits = cells.to_bits();
+                let key = self
+                    .cache
+                    .table_key(sep, source_key, mapping.picture_reach().map(|r| (r, cell_bits.as_slice())));
+                // A picture seen before (the same reach and cells) finds its
+                // finished table in memory or the folder; a new one is
+                // finished from the picture-independent base (from memory,
+                // the folder or started now) by its own step, which solves
+                // the base on where the picture needs it first: the same
+                // step whichever way the base came.
                 let mut base_fetch = None;
                 let mut fetched = self.cache.table(sep, key, || {
-                    let base = self
-                        .cache
-                        .table_base(sep, self.cache.table_base_key(sep, source_key), || base_for_source(sep, source));
-                    let table = match base.value.as_deref().and_then(|b| b.table_for(sep, &mapping)) {
-                        Some((table, _)) => table,
-                        // Not reached: a picture's mapping is perceptual.
-                        None => table_with(sep, source, &mapping),
-                    };
+                    let node_lab = LazyNodeLabs::new(sep, source);
+                    let base = self.cache.with_table_base(
+                        sep,
+                        self.cache.table_base_key(sep, source_key),
+                        || TableBase::empty(sep),
+                        |base| {
+                            base.finish(sep, &mapping, &|rgb| node_lab.at(rgb), &cells)
+                                .map(|(table, _, grew)| (table, grew))
+                        },
+                    );
                     base_fetch = Some((base.origin, base.notes));
-                    table
+                    // `None`: not reached, a picture's mapping is perceptual.
+                    base.value.unwrap_or_else(|| table_with(sep, source, &mapping))
                 });
                 if let Some((origin, notes)) = base_fetch {
-                    // Built now: from a base that was built, cached or reused.
+                    // Built now: from a base that was started, cached or reused.
                     fetched.origin = origin;
                     fetched.notes.splice(0..0, notes);
                 }
@@ -1375,21 +1386,54 @@ fn node_lookup<'a>(separator: &Separator, labs: &'a [crate::colour::Lab]) -> imp
     }
 }
 
-/// The picture-independent base of `separator`'s tables for an RGB source
-/// ([`TableBase::build`]); `None` when the intent is not perceptual.
+/// The picture-independent base of `separator`'s tables for an RGB source,
+/// every node solved ([`TableBase::build`]); `None` when the intent is not
+/// perceptual.
 pub fn base_for_source(separator: &Separator, source: &RgbSource) -> Option<TableBase> {
     let labs = source.node_labs(separator.settings().table_grid);
     TableBase::build(separator, &node_lookup(separator, &labs))
 }
 
+/// The source colours of a separator's grid nodes, converted (in one batch
+/// through the source) the first time a node's colour is asked for: a
+/// picture's step asks for none when the base already holds every node it
+/// needs.
+struct LazyNodeLabs<'a> {
+    separator: &'a Separator,
+    source: &'a RgbSource,
+    labs: std::sync::OnceLock<Vec<crate::colour::Lab>>,
+}
+
+impl<'a> LazyNodeLabs<'a> {
+    fn new(separator: &'a Separator, source: &'a RgbSource) -> LazyNodeLabs<'a> {
+        LazyNodeLabs {
+            separator,
+            source,
+            labs: std::sync::OnceLock::new(),
+        }
+    }
+
+    /// The source colour of the node at `rgb`.
+    fn at(&self, rgb: EncodedRgb) -> IntentLab {
+        let labs = self
+            .labs
+            .get_or_init(|| self.source.node_labs(self.separator.settings().table_grid));
+        node_lookup(self.separator, labs)(rgb)
+    }
+}
+
 /// The separation table of `separator` for one picture from the
 /// picture-independent base of its source (as a job builds it:
-/// [`TableBase::table_for`] under the picture's mapping); the full build
+/// [`TableBase::finish`] under the picture's mapping, for the cells its
+/// pixels fall in, the base solved on where it needs it); the full build
 /// when there is no base (an intent other than perceptual).
-pub fn table_for_picture_from(separator: &Separator, source: &RgbSource, base: Option<&TableBase>, rgb: &Samples) -> SeparationTable {
-    let mapping = separator.picture_mapping(&picture_gamut(source, rgb));
-    match base.and_then(|b| b.table_for(separator, &mapping)) {
-        Some((table, _)) => table,
+pub fn table_for_picture_from(separator: &Separator, source: &RgbSource, base: Option<&mut TableBase>, rgb: &Samples) -> SeparationTable {
+    let distinct = distinct_of(rgb);
+    let mapping = separator.picture_mapping(&colours_gamut(source, &distinct));
+    let cells = PictureCells::of_colours(separator.settings().table_grid, &distinct);
+    let node_lab = LazyNodeLabs::new(separator, source);
+    match base.and_then(|b| b.finish(separator, &mapping, &|rgb| node_lab.at(rgb), &cells)) {
+        Some((table, ..)) => table,
         None => table_with(separator, source, &mapping),
     }
 }
@@ -1404,7 +1448,7 @@ pub fn table_for_picture_from(separator: &Separator, source: &RgbSource, base: O
 /// Built as a job builds it: the picture-independent base, then the
 /// picture's own step ([`table_for_picture_from`]).
 pub fn table_for_picture(separator: &Separator, source: &RgbSource, rgb: &Samples) -> SeparationTable {
-    table_for_picture_from(separator, source, base_for_source(separator, source).as_ref(), rgb)
+    table_for_picture_from(separator, source, TableBase::empty(separator).as_mut(), rgb)
 }
 
 /// [`table_for_picture`] with every node solved exactly from scratch (the
@@ -1415,11 +1459,15 @@ pub fn exact_table_for_picture(separator: &Separator, source: &RgbSource, rgb: &
 
 /// The gamut of a picture's own colours (`rgb`: its interleaved RGB samples) in `source`.
 pub fn picture_gamut(source: &RgbSource, rgb: &Samples) -> crate::separation::PictureGamut {
-    let distinct = match rgb {
+    colours_gamut(source, &distinct_of(rgb))
+}
+
+/// The distinct colours of interleaved RGB samples ([`crate::separation::distinct_colours`]).
+pub fn distinct_of(rgb: &Samples) -> Vec<[f64; 3]> {
+    match rgb {
         Samples::U8(v) => crate::separation::distinct_colours(v),
         Samples::U16(v) => crate::separation::distinct_colours(v),
-    };
-    colours_gamut(source, &distinct)
+    }
 }
 
 /// The gamut of a picture from its distinct colours, gathered before

@@ -16,19 +16,23 @@
 //! colour lies beyond the press boundary), and a node's target moves only
 //! where that reach passes the point at which compression starts. So the
 //! folder holds no table per picture but one picture-independent base per
-//! separator and source ([`crate::separation::TableBase`]: every node's
+//! separator and source ([`crate::separation::TableBase`]: each node's
 //! colour prepared for the map, and solved under the map of a picture with
 //! no colours, with the solver's state), and each file runs its own step on
-//! it: the picture's gamut and map, every prepared node mapped, the nodes
-//! whose target moved solved exactly, warm-started (see `separation::table_base` for the choice and
-//! docs/PERFORMANCE.md for the times). Every picture of a source shares the
-//! base; a hit runs the same step on the same base as a miss, so output
-//! with and without the cache is byte-identical. The finished table of a
-//! picture is also kept, in memory and in the folder (575 kB at 33³), under
-//! its reach grid with cells that cannot change a mapped colour zeroed, so
-//! a picture seen before (or one that leaves the gamut in the same places)
-//! skips its step; the step is deterministic, so that entry too holds what
-//! a miss computes.
+//! it: the picture's gamut, map and the table cells its pixels fall in, the
+//! nodes of those cells mapped, the ones whose target moved solved exactly,
+//! warm-started (see `separation::table_base` for the choice and
+//! docs/PERFORMANCE.md for the times). The base is solved only as far as
+//! the pictures seen so far needed it, line by line as the full build
+//! solves it, and grows (written back whole) when a picture needs more.
+//! Every picture of a source shares the base; a hit runs the same step on a
+//! base whose nodes are the same bits as a miss's, so output with and
+//! without the cache is byte-identical. The finished table of a picture is
+//! also kept, in memory and in the folder (575 kB at 33³), under its reach
+//! grid with cells that cannot change a mapped colour zeroed and its table
+//! cells, so a picture seen before (or one that leaves the gamut in the
+//! same places and falls in the same cells) skips its step; the step is
+//! deterministic, so that entry too holds what a miss computes.
 //!
 //! Relative and absolute colorimetric and `--compress-from space` depend on
 //! no picture: their whole table is the entry.
@@ -145,9 +149,12 @@ impl TableCache {
     }
 
     /// The key of the table of `separator` for the source keyed `source_key`
-    /// under a mapping whose picture reach is `picture_reach` (`None`: from the whole source space).
-    pub fn table_key(&self, separator: &Separator, source_key: &[u8], picture_reach: Option<&[f64]>) -> Key {
-        table_key(self.key_for(Kind::Table, separator), source_key, picture_reach)
+    /// under a mapping whose picture reach is the first of `picture`, for a
+    /// picture whose pixels fall in the table cells the second gives as bits
+    /// ([`crate::separation::PictureCells::to_bits`]); `None`: from the
+    /// whole source space, every cell.
+    pub fn table_key(&self, separator: &Separator, source_key: &[u8], picture: Option<(&[f64], &[u8])>) -> Key {
+        table_key(self.key_for(Kind::Table, separator), source_key, picture)
     }
 
     /// The table under `key`: from memory, else the folder, else `build`
@@ -194,15 +201,20 @@ impl TableCache {
         k.finish()
     }
 
-    /// The table base under `key`: from memory, else the folder, else
-    /// `build` (then saved in both; `None`, a separator that has no base,
-    /// is neither). A damaged entry is rebuilt with a note.
-    pub fn table_base(
+    /// Runs `work` on the table base under `key` (from memory, else the
+    /// folder, else a new one from `fresh`; `None`, a separator that has no
+    /// base, runs nothing) and keeps the base `work` leaves: in memory, and
+    /// in the folder when `work` says it grew (an entry written whole, so
+    /// processes filling it at once each leave a valid base). A damaged
+    /// entry is started anew with a note. The origin is where the base came
+    /// from.
+    pub fn with_table_base<T>(
         &self,
         separator: &Separator,
         key: Key,
-        build: impl FnOnce() -> Option<TableBase>,
-    ) -> Fetched<Option<Arc<TableBase>>> {
+        fresh: impl FnOnce() -> Option<TableBase>,
+        work: impl FnOnce(&mut TableBase) -> Option<(T, bool)>,
+    ) -> Fetched<Option<T>> {
         let mut notes = self.take_off_note();
         let in_memory = self.bases.lock().ok().and_then(|mut bases| {
             let at = bases.iter().position(|(k, _)| *k == key)?;
@@ -211,39 +223,45 @@ impl TableCache {
             bases.push(entry);
             Some(base)
         });
-        if let Some(base) = in_memory {
-            return Fetched {
-                value: Some(base),
-                origin: Origin::Reused,
-                notes,
-            };
-        }
-        let loaded = self.load(&key, "table base", &mut notes).and_then(|bytes| {
-            let base = TableBase::from_bytes(separator, &bytes);
-            if base.is_none() {
-                notes.push(format!("cached table base {} does not fit the settings; rebuilt", key.short()));
-            }
-            base
-        });
-        let (base, origin) = match loaded {
-            Some(base) => (Some(base), Origin::Cached),
+        let (base, origin) = match in_memory {
+            Some(base) => (Some((*base).clone()), Origin::Reused),
             None => {
-                let base = build();
-                if let (Some(b), Some(_)) = (&base, self.store()) {
-                    self.save(&key, &b.to_bytes(), &mut notes);
+                let loaded = self.load(&key, "table base", &mut notes).and_then(|bytes| {
+                    let base = TableBase::from_bytes(separator, &bytes);
+                    if base.is_none() {
+                        notes.push(format!("cached table base {} does not fit the settings; rebuilt", key.short()));
+                    }
+                    base
+                });
+                match loaded {
+                    Some(base) => (Some(base), Origin::Cached),
+                    None => (fresh(), Origin::Built),
                 }
-                (base, Origin::Built)
             }
         };
-        let base = base.map(Arc::new);
-        if let (Some(b), Ok(mut bases)) = (&base, self.bases.lock()) {
-            if bases.len() >= BASES_IN_MEMORY {
-                bases.remove(0);
+        let Some(mut base) = base else {
+            return Fetched {
+                value: None,
+                origin,
+                notes,
+            };
+        };
+        let done = work(&mut base);
+        let grew = done.as_ref().is_some_and(|(_, grew)| *grew);
+        if grew {
+            self.save(&key, &base.to_bytes(), &mut notes);
+        }
+        if grew || origin != Origin::Reused {
+            if let Ok(mut bases) = self.bases.lock() {
+                bases.retain(|(k, _)| *k != key);
+                if bases.len() >= BASES_IN_MEMORY {
+                    bases.remove(0);
+                }
+                bases.push((key, Arc::new(base)));
             }
-            bases.push((key, b.clone()));
         }
         Fetched {
-            value: base,
+            value: done.map(|(value, _)| value),
             origin,
             notes,
         }
@@ -340,10 +358,13 @@ fn key_for(kind: Kind, separator: &[u8]) -> KeyBytes {
     k
 }
 
-fn table_key(mut k: KeyBytes, source_key: &[u8], picture_reach: Option<&[f64]>) -> Key {
+fn table_key(mut k: KeyBytes, source_key: &[u8], picture: Option<(&[f64], &[u8])>) -> Key {
     k.bytes("source", source_key);
-    match picture_reach {
-        Some(reach) => k.reals("picture reach", reach),
+    match picture {
+        Some((reach, cells)) => {
+            k.reals("picture reach", reach);
+            k.bytes("picture cells", cells);
+        }
         None => k.text("mapping", "source space"),
     }
     k.finish()
@@ -397,8 +418,8 @@ mod tests {
     use super::*;
     use crate::separation::{CompressFrom, Intent};
 
-    fn table_key_with(c: &PrintingCondition, s: &SeparationSettings, source: &[u8], reach: Option<&[f64]>) -> Key {
-        table_key(key_for(Kind::Table, &separator_key_bytes(c, s)), source, reach)
+    fn table_key_with(c: &PrintingCondition, s: &SeparationSettings, source: &[u8], picture: Option<(&[f64], &[u8])>) -> Key {
+        table_key(key_for(Kind::Table, &separator_key_bytes(c, s)), source, picture)
     }
 
     /// Every setting, the condition's contents, the source and the picture's
@@ -408,7 +429,8 @@ mod tests {
         let coated = crate::press::load_condition("coated-offset").unwrap();
         let base = SeparationSettings::for_condition(&coated);
         let reach = vec![0.0; 51 * 72];
-        let key = |c: &PrintingCondition, s: &SeparationSettings| table_key_with(c, s, b"named:srgb", Some(&reach));
+        let cells = vec![0xff_u8; 32 * 32 * 4];
+        let key = |c: &PrintingCondition, s: &SeparationSettings| table_key_with(c, s, b"named:srgb", Some((&reach, &cells)));
         let reference = key(&coated, &base);
         assert_eq!(reference, key(&coated, &base.clone()), "the same inputs give the same key");
         type Change = Box<dyn Fn(&mut SeparationSettings)>;
@@ -446,11 +468,17 @@ mod tests {
         params_only.params = coated.params;
         params_only.correction = coated.correction.clone();
         assert!(!seen.contains(&key(&params_only, &base)), "the model's prints");
-        // The source, the picture's reach and the kind of mapping.
+        // The source, the picture's reach and cells and the kind of mapping.
         let mut reach2 = reach.clone();
         reach2[100] = 1.2;
-        assert_ne!(table_key_with(&coated, &base, b"named:display-p3", Some(&reach)), reference);
-        assert_ne!(table_key_with(&coated, &base, b"named:srgb", Some(&reach2)), reference);
+        let mut cells2 = cells.clone();
+        cells2[7] = 0xfe;
+        assert_ne!(
+            table_key_with(&coated, &base, b"named:display-p3", Some((&reach, &cells))),
+            reference
+        );
+        assert_ne!(table_key_with(&coated, &base, b"named:srgb", Some((&reach2, &cells))), reference);
+        assert_ne!(table_key_with(&coated, &base, b"named:srgb", Some((&reach, &cells2))), reference);
         assert_ne!(table_key_with(&coated, &base, b"named:srgb", None), reference);
         // A profile of the same separator is another entry.
         let profile = key_for(Kind::Profile, &separator_key_bytes(&coated, &base)).finish();

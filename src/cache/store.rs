@@ -31,7 +31,7 @@ use std::time::{Duration, SystemTime};
 /// makes every older entry a miss (it is also part of every key). 2: a
 /// picture's table under its reach is finished from the table base, so an
 /// older one (every node solved) is not what a miss now computes.
-pub const FORMAT_VERSION: u32 = 3;
+pub const FORMAT_VERSION: u32 = 4;
 
 const MAGIC: &[u8; 8] = b"PSMCACHE";
 const HEADER: usize = 96;

@@ -30,4 +30,4 @@ pub use printable::IN_GAMUT_TOLERANCE;
 pub use reseparation::{CmykSourceGamut, DEFAULT_RESEPARATION_GRID, RESEPARATION_GRID_RANGE, ReseparationTable};
 pub use simd::PixelKernel;
 pub use table::SeparationTable;
-pub use table_base::{PictureStep, TableBase};
+pub use table_base::{NodeLab, PictureCells, PictureStep, TableBase};
