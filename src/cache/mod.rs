@@ -251,14 +251,14 @@ impl TableCache {
         if grew {
             self.save(&key, &base.to_bytes(), &mut notes);
         }
-        if grew || origin != Origin::Reused {
-            if let Ok(mut bases) = self.bases.lock() {
-                bases.retain(|(k, _)| *k != key);
-                if bases.len() >= BASES_IN_MEMORY {
-                    bases.remove(0);
-                }
-                bases.push((key, Arc::new(base)));
+        if (grew || origin != Origin::Reused)
+            && let Ok(mut bases) = self.bases.lock()
+        {
+            bases.retain(|(k, _)| *k != key);
+            if bases.len() >= BASES_IN_MEMORY {
+                bases.remove(0);
             }
+            bases.push((key, Arc::new(base)));
         }
         Fetched {
             value: done.map(|(value, _)| value),
