@@ -433,10 +433,39 @@ impl CuspCurve {
     }
 }
 
-/// L* above the printable black over which the perceptual map tapers chroma.
-pub const SHADOW_TAPER_RANGE: f64 = 20.0;
+/// L* above the printable black over which the perceptual map tapers
+/// chroma. It was 20; with the focal point's descent near the black
+/// ([`SHADOW_FOCUS_RANGE`]) 15 keeps 8-bit ramps at or below 3 % of a plate
+/// per code on every built-in but uncoated-yellowish, and printable dark
+/// colours within the requirements (docs/PERCEPTUAL.md, "The shadow taper
+/// and the focal point near the black"; 14 stepped by 3.14 % on web
+/// offset, 16 turned a printable blue by 3.1° on super-calendered;
+/// measured).
+pub const SHADOW_TAPER_RANGE: f64 = 15.0;
 /// Share of chroma the taper keeps at the black point itself.
 pub const SHADOW_TAPER_FLOOR: f64 = 0.05;
+
+/// L* above the printable black over which the focal point of the chroma
+/// compression descends from the press cusp's lightness (SGCK) to the
+/// colour's own ([`shadow_focus_share`]). A ray from the cusp runs steeply
+/// down into the narrow tip of the gamut at its black point, so SGCK lifted
+/// dark out-of-gamut colours along it: sRGB (8, 8, 0) printed 2.4 L* above
+/// the press black on uncoated offset where (8, 8, 8) prints 0.3 above it,
+/// and near the rich black at the ink limit 2 L* take a quarter of the
+/// cyan plate (C 100 → 72 over the first 8 codes of the yellow ramp: 3.9 %
+/// per code). Horizontal rays there keep the lightness the lightness curve
+/// gives (C 100 → 99). 12 kept every ramp of the built-ins tested at 3 %
+/// or less with [`SHADOW_TAPER_RANGE`] 15; 10 stepped by 3.14 % on coated
+/// offset; 15 by 3.14 % on web offset (measured).
+pub const SHADOW_FOCUS_RANGE: f64 = 12.0;
+
+/// How far the focal point of a colour `above` L* units above the printable
+/// black has descended to the colour's own lightness: all the way at the
+/// black, none from [`SHADOW_FOCUS_RANGE`] up (smoothstep between).
+pub fn shadow_focus_share(above: f64) -> f64 {
+    let t = (above / SHADOW_FOCUS_RANGE).clamp(0.0, 1.0);
+    1.0 - t * t * (3.0 - 2.0 * t)
+}
 
 /// Slope of [`knee_compression`] over most of the compressed band, as a
 /// share of the linear scaling of the band onto the rest of the boundary
@@ -510,7 +539,11 @@ pub fn knee_compression(r: f64, rs: f64) -> f64 {
 ///    out to the source boundary on the same ray, is compressed smoothly into
 ///    the rest. The source is either the whole source space or the gamut of
 ///    the picture ([`PictureGamut`]): a picture that barely leaves the press
-///    gamut is barely compressed.
+///    gamut is barely compressed. Within [`SHADOW_FOCUS_RANGE`] L* of the
+///    press black the focal point descends to the colour's own lightness
+///    ([`shadow_focus_share`]), so that dark colours are compressed at the
+///    lightness the curve of step 1 gives them instead of being lifted
+///    along steep rays into the narrow tip of the gamut.
 /// 3. No hue rotation: hue is kept in IPT.
 /// 4. A shadow taper of our own: within [`SHADOW_TAPER_RANGE`] L* above the
 ///    printable black, the press boundary's chroma is narrowed smoothly to
@@ -966,6 +999,9 @@ impl<'a> PerceptualMap<'a> {
         };
         let drop = self.drop_term(i, h);
         let focus = cusp + rise - drop;
+        // Near the press black the focal point descends to the colour's own
+        // lightness: the compression there acts at constant lightness.
+        let focus = focus - shadow_focus_share(lab.l - self.dest.l_min) * (focus - i);
         let (di, dc) = (i - focus, c);
         let d = di.hypot(dc);
         let mut ray = Ray {

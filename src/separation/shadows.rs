@@ -7,10 +7,12 @@ const SHADOW_RANGE: f64 = 13.0;
 /// Smoothing passes in the shadows.
 const SHADOW_PASSES: usize = 3;
 
-/// Used with relative colorimetric with black point compensation and with
-/// perceptual, which carry the source black onto the press black point so
-/// that the whole shadow range is reproduced (see
-/// `Separator::smooths_shadows_in_ink`).
+/// Used with relative colorimetric with black point compensation, which
+/// carries the source black onto the press black point so that the whole
+/// shadow range is reproduced (see `Separator::smooths_shadows_in_ink`).
+/// Perceptual does not use it: its table must agree with the direct
+/// separation, so its shadows are shaped in the mapping (the shadow taper
+/// and the focal point's descent near the black, `gamut.rs`).
 ///
 /// Near the black point the press responds little to any ink but black: the
 /// exact inversion there swings the other plates widely for small colour

@@ -181,9 +181,9 @@ fn table_on(c: platesmith::press::PrintingCondition, intent: Intent, bpc: bool) 
 /// the intents that map the whole source range (perceptual, and relative
 /// with black point compensation; plain relative colorimetric clips the
 /// shadows below the press black point by definition). Perceptual on the
-/// coated-offset built-in measures 2.75 % with the lattice held monotonic
-/// over whole cells (the green ramp's code 18 under K 94 %; 3.14 % on the
-/// fit before).
+/// coated-offset built-in measures 2.75 % (the red ramp's code 42 under
+/// K 94 %; 2.75 % before the focal point's descent near the black, at the
+/// green ramp's code 18, and 3.14 % on the fit before that).
 #[test]
 fn ramps_separate_smoothly() {
     for (intent, bpc, limit) in [(Intent::Perceptual, false, 0.03), (Intent::Relative, true, 0.03)] {
@@ -191,28 +191,33 @@ fn ramps_separate_smoothly() {
     }
 }
 
-/// The same on the other built-in conditions. Uncoated offset holds 3 %
-/// with relative and BPC (2.35 %), newsprint too (1.96 %); perceptual does
-/// not on either (measured 3.92 % and 3.14 %). Perceptual carries the source
-/// black onto a press black near L* 30 (uncoated) or 44 (newsprint) by a
-/// lightness curve that rejoins the identity 10 L* above it, so that
-/// printable colours keep their lightness: the darkest tenth of every ramp
-/// lands within about 1 L* of the press black, where the gamut ends in a
-/// point and the inversion changes the build widely for small colour
-/// differences. On uncoated offset the largest step is in the yellow
-/// ramp's first codes, near the rich black at the ink limit (code 3: C 93 →
-/// 89 % under K 95 %); on newsprint it was 7.45 % with the earlier curve that reached
-/// up to L* 83, 3.53 % with the present curve on the earlier fit and is
-/// 3.14 % with the lattice held monotonic over whole cells (the red ramp's
-/// code 43, under K 88 %). Held at the measured figures so that a
+/// The same on the other built-in conditions. Relative with BPC holds 3 %
+/// on uncoated offset (2.35 %) and newsprint (1.57 %). Perceptual carries
+/// the source black onto a press black near L* 30 (uncoated) or 44
+/// (newsprint) by a lightness curve that rejoins the identity 10 L* above
+/// it, so the darkest tenth of every ramp lands within about 1 L* of the
+/// press black, where the gamut ends in a point and a small colour
+/// difference takes a large change of build. It stepped by 3.92 %
+/// (uncoated, the yellow ramp's first codes: C 100 → 72 % between the
+/// nodes for codes 0 and 8) and 3.14 % (newsprint), 4.31 % on web offset
+/// and 3.14 % on super-calendered, because the compression's rays from the
+/// press cusp lifted dark colours 2 L* above the black; with the focal
+/// point descending to the colour's lightness near the black (and the
+/// shadow taper over 15 L* instead of 20) they measure 2.75 %, 2.35 %,
+/// 2.75 % and 2.35 %. Uncoated-yellowish does not meet 3 %: 5.10 % (was
+/// 6.67 %), in the first codes of the green ramp, where its black point
+/// build is not reached exactly (the press model's); held there so that a
 /// regression fails.
 #[test]
 fn ramps_separate_smoothly_on_the_other_builtin_conditions() {
     for (name, intent, bpc, limit) in [
-        ("uncoated-offset", Intent::Perceptual, false, 0.04),
+        ("uncoated-offset", Intent::Perceptual, false, 0.03),
         ("uncoated-offset", Intent::Relative, true, 0.03),
         ("newsprint", Intent::Relative, true, 0.03),
-        ("newsprint", Intent::Perceptual, false, 0.0315),
+        ("newsprint", Intent::Perceptual, false, 0.03),
+        ("web-offset-lwc", Intent::Perceptual, false, 0.03),
+        ("supercalendered", Intent::Perceptual, false, 0.03),
+        ("uncoated-yellowish", Intent::Perceptual, false, 0.052),
     ] {
         let c = platesmith::press::builtin::by_name(name).unwrap();
         ramps_are_smooth(&table_on(c, intent, bpc), &format!("{name} {intent:?} bpc {bpc}"), limit);

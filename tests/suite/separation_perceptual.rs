@@ -29,21 +29,11 @@ fn separator(condition: &str, intent: Intent, bpc: bool) -> Separator {
 /// measured then. The check is held at that figure, so it cannot get worse
 /// unnoticed; everywhere else it is held at the requirement.
 fn bound(check: &str, condition: &str, requirement: f64) -> f64 {
+    // The shadow taper over 20 L* held newsprint at p95 4.37 and a hue
+    // turn of 3.47°, super-calendered at 5.26° and web offset at 3.09°; over
+    // 15 L*, with the focal point descending near the black, every built-in
+    // meets these checks (docs/PERCEPTUAL.md).
     let gap = match (check, condition) {
-        // Newsprint's press black is near L* 44: the lightness curve moves
-        // the printable colours up to 10 L* above it. Measured p95 4.37 and
-        // a largest hue turn of 3.47°, in the shadows (with the model whose
-        // lattice is held monotonic over whole cells).
-        ("printable p95", "newsprint") => Some(4.4),
-        ("printable hue max", "newsprint") => Some(3.5),
-        // Dark printable colours near the boundary, within 20 L* of the
-        // press black, narrowed by the shadow taper at constant IPT hue:
-        // measured 5.15°; 5.26° after the refit with the monotonicity
-        // bounds held in the lattice fit.
-        ("printable hue max", "supercalendered") => Some(5.3),
-        // The same kind of colour on web-offset-lwc after that refit:
-        // measured 3.09° (2.69° before).
-        ("printable hue max", "web-offset-lwc") => Some(3.1),
         // A printable picture is still compressed where the segment-maxima
         // boundary reads colours relative colorimetric reproduces as lying
         // beyond it: measured 2 codes (newsprint, 9 codes before the
@@ -323,4 +313,43 @@ fn the_coastal_scene_keeps_its_printable_colours_and_its_ramp() {
         }
     }
     assert!(failures.is_empty(), "{failures:#?}");
+}
+
+/// Near the press black the compression acts at constant lightness: the
+/// first node of each sRGB primary and secondary ramp of an 8-bit table
+/// (code 8, L* 0.1 to 2.1) maps within 0.5 L* of where the neutral of its
+/// own lightness maps, on every built-in. Rays from the press cusp (SGCK,
+/// CIE 156:2004) lifted them: the yellow one 4.4 L* above it on
+/// uncoated-yellowish, 2.1 on uncoated offset, where near the rich black a few L* take a
+/// quarter of a plate: the first codes of the ramps stepped by 3.9 % of a
+/// plate per code (tests/suite/separation_engine.rs).
+#[test]
+fn dark_colours_keep_their_lightness_near_the_press_black() {
+    let conv = RgbSpace::Srgb.converter();
+    let space = RgbGamut(conv);
+    let code = 8.0 / 255.0;
+    for name in builtin::NAMES {
+        let sep = separator(name, Intent::Perceptual, false);
+        let map = sep.source_mapping(&space);
+        let mapped = |lab: Lab| sep.intent_target(IntentLab::new(lab), &map).lab().l;
+        for rgb in [
+            [1.0, 0.0, 0.0],
+            [0.0, 1.0, 0.0],
+            [0.0, 0.0, 1.0],
+            [0.0, 1.0, 1.0],
+            [1.0, 0.0, 1.0],
+            [1.0, 1.0, 0.0],
+        ] {
+            let lab = conv.to_lab(EncodedRgb(rgb.map(|v| v * code)));
+            let (l, neutral) = (mapped(lab), mapped(Lab::new(lab.l, 0.0, 0.0)));
+            eprintln!(
+                "{name}: {rgb:?} at code 8 (L* {:.2}) maps to L* {l:.2}, its neutral to {neutral:.2}",
+                lab.l
+            );
+            assert!(
+                (l - neutral).abs() <= 0.5,
+                "{name}: {rgb:?} at code 8 maps to L* {l:.2}, its neutral to {neutral:.2}"
+            );
+        }
+    }
 }
