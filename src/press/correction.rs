@@ -14,9 +14,12 @@
 //! smoothing with B-splines and penalties", Statistical Science 11, 1996, in
 //! four dimensions) takes them out without the ripples a polynomial would add:
 //!
-//! - the penalty on second differences of the node values along each ink
-//!   keeps the correction smooth (its slope changes little from one cell to
-//!   the next); its weight is chosen by cross-validation on the patches;
+//! - the penalty on second differences of the node values along cyan,
+//!   magenta and yellow keeps the correction smooth (its slope changes
+//!   little from one cell to the next); along black it acts on the corrected
+//!   colour instead, which the data show running nearly straight toward
+//!   100 % black where the physics bends (`press::characterize` module doc);
+//!   its weight is chosen by cross-validation on the patches;
 //! - a small ridge penalty pulls nodes that no patch constrains toward zero,
 //!   so far from the data (a corner the chart does not print) the correction
 //!   fades and the physics carries the prediction, where an interpolant on
