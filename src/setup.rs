@@ -390,7 +390,10 @@ impl JobSetup {
     pub fn workshop(&self) -> Result<Workshop> {
         let m = &self.model;
         let report = m.settings_report();
-        let separator = m.separator()?;
+        let cache = crate::cache::open(self.use_cache);
+        let separator = Separator::new_with_boundary(m.condition.clone(), m.settings.clone(), &|sep| {
+            cache.boundary(&m.condition, &m.settings, || sep.printable_boundary())
+        })?;
         let source_condition = match self.source_condition.as_deref() {
             Some(spec) => crate::press::load_condition(spec)?,
             None => m.condition.clone(),
@@ -410,7 +413,7 @@ impl JobSetup {
             source_condition,
             keep_pure_black_cmyk: self.keep_pure_black_cmyk,
         };
-        Ok(Workshop::new(separator, report, options).with_cache(crate::cache::open(self.use_cache)))
+        Ok(Workshop::new(separator, report, options).with_cache(cache))
     }
 
     /// Every setting of this job as a ticket, so that it can be repeated exactly.

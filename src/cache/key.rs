@@ -25,6 +25,9 @@ pub enum Kind {
     /// perceptual compression from the picture
     /// ([`crate::separation::TableBase`]).
     TableBase = 4,
+    /// The boundary of the printable gamut of a separator
+    /// ([`crate::separation::GamutBoundary`]).
+    Boundary = 5,
 }
 
 impl Kind {
@@ -34,6 +37,7 @@ impl Kind {
             Kind::Profile => "profile",
             Kind::Reseparation => "cmyk-table",
             Kind::TableBase => "table-base",
+            Kind::Boundary => "press-gamut",
         }
     }
 

@@ -37,6 +37,12 @@
 //! Relative and absolute colorimetric and `--compress-from space` depend on
 //! no picture: their whole table is the entry.
 //!
+//! **The press gamut's boundary.** Every separator describes its printable
+//! gamut by sampling the press model on the faces of the ink box (about 0.9
+//! million evaluations, some 60–100 ms of a run on two cores); a job takes
+//! it from the folder too ([`TableCache::boundary`]), keyed as the
+//! separator's tables are.
+//!
 //! A cache folder that cannot be created, read or written never fails a
 //! job: the job notes it and builds without the cache. A damaged entry is
 //! rebuilt and replaced, with a note.
@@ -46,7 +52,7 @@ pub mod store;
 
 use crate::error::Result;
 use crate::press::PrintingCondition;
-use crate::separation::{SeparationSettings, SeparationTable, Separator, TableBase};
+use crate::separation::{GamutBoundary, SeparationSettings, SeparationTable, Separator, TableBase};
 use key::{Key, KeyBytes, Kind};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::{Arc, Mutex, OnceLock};
@@ -265,6 +271,34 @@ impl TableCache {
             origin,
             notes,
         }
+    }
+
+    /// The boundary of the printable gamut of a separator of `condition`
+    /// and `settings`: from the folder, else `build` (then saved). A damaged
+    /// entry is rebuilt with a note, which goes with the first file.
+    pub fn boundary(
+        &self,
+        condition: &PrintingCondition,
+        settings: &SeparationSettings,
+        build: impl FnOnce() -> GamutBoundary,
+    ) -> GamutBoundary {
+        let key = key_for(Kind::Boundary, &separator_key_bytes(condition, settings)).finish();
+        let mut notes = Vec::new();
+        let loaded = self.load(&key, "press gamut", &mut notes).and_then(|bytes| {
+            let boundary = GamutBoundary::from_bytes(&bytes);
+            if boundary.is_none() {
+                notes.push(format!("cached press gamut {} does not fit; rebuilt", key.short()));
+            }
+            boundary
+        });
+        let boundary = loaded.unwrap_or_else(|| self.build_and_save(&key, build, GamutBoundary::to_bytes, &mut notes));
+        if !notes.is_empty()
+            && let Ok(mut n) = self.off_note.lock()
+        {
+            let earlier = n.take();
+            *n = Some(earlier.into_iter().chain(notes).collect::<Vec<_>>().join("; "));
+        }
+        boundary
     }
 
     /// The embedded profile of `separator` written with `options`: from the

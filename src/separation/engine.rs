@@ -189,6 +189,18 @@ pub struct Separator {
 
 impl Separator {
     pub fn new(condition: PrintingCondition, settings: SeparationSettings) -> Result<Separator> {
+        Separator::new_with_boundary(condition, settings, &|sep| sep.printable_boundary())
+    }
+
+    /// [`Separator::new`] with the printable gamut's boundary from
+    /// `boundary`, which is given the separator with its black point found
+    /// and returns its boundary: [`Separator::printable_boundary`], or the
+    /// same kept from an earlier run (the table cache keeps it).
+    pub fn new_with_boundary(
+        condition: PrintingCondition,
+        settings: SeparationSettings,
+        boundary: &dyn Fn(&Separator) -> GamutBoundary,
+    ) -> Result<Separator> {
         settings.validate()?;
         let model = condition.model.clone();
         let media = MediaWhite::new(model.paper_xyz());
@@ -207,7 +219,7 @@ impl Separator {
         let (bp_ink, bp) = sep.find_black_point();
         sep.black_point = bp;
         sep.black_point_ink = bp_ink;
-        sep.gamut = Arc::new(sep.build_gamut_boundary());
+        sep.gamut = Arc::new(boundary(&sep));
         Ok(sep)
     }
 

@@ -100,6 +100,34 @@ impl GamutBoundary {
         GamutBoundary { c_max, l_min, l_max }
     }
 
+    /// The boundary as bytes, for the table cache: `l_min`, `l_max`, then
+    /// every segment's chroma, f64 LE. [`GamutBoundary::from_bytes`] reads
+    /// them back exactly.
+    pub fn to_bytes(&self) -> Vec<u8> {
+        [self.l_min, self.l_max]
+            .iter()
+            .chain(&self.c_max)
+            .flat_map(|v| v.to_le_bytes())
+            .collect()
+    }
+
+    /// The boundary [`GamutBoundary::to_bytes`] wrote; `None` for bytes of
+    /// another length or with a value no boundary holds (not finite, a
+    /// negative chroma, lightness outside 0..100 or in the wrong order).
+    pub fn from_bytes(bytes: &[u8]) -> Option<GamutBoundary> {
+        if bytes.len() != 8 * (2 + L_STEPS * H_STEPS) {
+            return None;
+        }
+        let v: Vec<f64> = bytes
+            .chunks_exact(8)
+            .map(|b| f64::from_le_bytes(b.try_into().expect("eight bytes")))
+            .collect();
+        let (l_min, l_max) = (v[0], v[1]);
+        let c_max = v[2..].to_vec();
+        let lightness = (0.0..=100.0).contains(&l_min) && (l_min..=100.0).contains(&l_max);
+        (lightness && c_max.iter().all(|c| c.is_finite() && *c >= 0.0)).then_some(GamutBoundary { c_max, l_min, l_max })
+    }
+
     /// Largest printable chroma at lightness `l` and hue `h` (degrees),
     /// interpolated bilinearly between segments.
     pub fn max_chroma(&self, l: f64, h: f64) -> f64 {
@@ -1248,6 +1276,25 @@ mod tests {
         let slight = focus_drops(&dest, 20.0, &|_| Some((81.0, 61.0)));
         assert!(slight.iter().all(|&d| d > 0.0 && d < FOCUS_DROP_MAX * 0.1), "{slight:?}");
         assert!((drop_at(&drops, 7.3) - 24.0).abs() < 1e-9);
+    }
+
+    /// A boundary's bytes give it back bit for bit; bytes of another length
+    /// or holding a negative chroma are refused.
+    #[test]
+    fn a_boundary_keeps_its_bits_through_its_bytes() {
+        let samples = (0..2000).map(|i| {
+            let t = i as f64 / 2000.0;
+            Lab::new(10.0 + 85.0 * t, 60.0 * (t * 37.0).cos(), 60.0 * (t * 37.0).sin())
+        });
+        let boundary = GamutBoundary::from_samples(samples, 10.0, 95.0);
+        let bytes = boundary.to_bytes();
+        let back = GamutBoundary::from_bytes(&bytes).expect("a boundary's bytes");
+        assert_eq!(back.to_bytes(), bytes);
+        assert_eq!((back.l_min, back.l_max), (boundary.l_min, boundary.l_max));
+        assert!(GamutBoundary::from_bytes(&bytes[..bytes.len() - 8]).is_none());
+        let mut negative = bytes.clone();
+        negative[16..24].copy_from_slice(&(-1.0f64).to_le_bytes());
+        assert!(GamutBoundary::from_bytes(&negative).is_none());
     }
 
     #[test]

@@ -107,7 +107,10 @@ impl Separator {
     /// faces of the ink box (two inks at a bound), of the faces where the ink
     /// limit meets one bound, and of folds inside the three-dimensional faces:
     /// the first two are sampled densely, the three-dimensional faces coarsely.
-    pub(super) fn build_gamut_boundary(&self) -> GamutBoundary {
+    ///
+    /// About 0.9 million evaluations of the press model: a job keeps the
+    /// result in the table cache (`Separator::new_with_boundary`).
+    pub fn printable_boundary(&self) -> GamutBoundary {
         use rayon::prelude::*;
         const DENSE: usize = 129;
         const COARSE: usize = 17;

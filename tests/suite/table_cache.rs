@@ -153,16 +153,22 @@ fn a_table_that_depends_on_no_picture_is_its_own_entry() {
     assert_eq!(entries(&cache, "table-").len(), 2);
 }
 
-/// Both entries of the scene's table, damaged in turn: its finished table
-/// (rebuilt from the cached base) and the picture-independent base (rebuilt
-/// when the finished table is gone too, so that the run needs it).
+/// The entries of the scene's table, damaged in turn: its finished table
+/// (rebuilt from the cached base), the picture-independent base (rebuilt
+/// when the finished table is gone too, so that the run needs it) and the
+/// press gamut's boundary (rebuilt whenever a run starts).
 #[test]
 fn a_damaged_entry_is_rebuilt_with_a_note() {
     let (dir, input, cache) = workspace();
     let first = separate(&cache, &input, &dir.path().join("first"), &[]);
     let base = entries(&cache, "table-base-").pop().unwrap();
     let table = entries(&cache, "table-").into_iter().find(|p| *p != base).unwrap();
-    for (entry, what, source) in [(&table, "table ", "cached"), (&base, "table base ", "built")] {
+    let gamut = entries(&cache, "press-gamut-").pop().unwrap();
+    for (entry, what, source) in [
+        (&table, "table ", "cached"),
+        (&base, "table base ", "built"),
+        (&gamut, "press gamut ", "cached"),
+    ] {
         let good = std::fs::read(entry).unwrap();
         let flipped = {
             let mut b = good.clone();
@@ -217,11 +223,13 @@ fn several_processes_fill_one_cache_folder_at_once() {
     let read = |i: usize| std::fs::read(dir.path().join(format!("out{i}/coast.cmyk.tif"))).unwrap();
     assert!(read(0) == read(2) && read(1) == read(3));
     assert!(read(0) != read(1));
-    // One base, table and profile per setting, no partial files left, each entry whole.
+    // One base, table, profile and press gamut per setting, no partial
+    // files left, each entry whole.
     assert_eq!(entries(&cache, "table-base-").len(), 2);
     assert_eq!(entries(&cache, "table-").len(), 4);
     assert_eq!(entries(&cache, "profile-").len(), 2);
-    assert_eq!(std::fs::read_dir(&cache).unwrap().count(), 6);
+    assert_eq!(entries(&cache, "press-gamut-").len(), 2);
+    assert_eq!(std::fs::read_dir(&cache).unwrap().count(), 8);
     for (i, extra) in settings.iter().enumerate().take(2) {
         let run = separate(&cache, &input, &dir.path().join("check"), extra);
         assert_eq!(table_source(&run), "cached");
