@@ -24,6 +24,9 @@ pub struct FitJob<'a> {
     pub force: bool,
     /// The starting point and the job defaults.
     pub base: &'a PrintingCondition,
+    /// The job defaults given on the command line in place of the base's,
+    /// as the header names them (e.g. "ink limit 300 %").
+    pub given: &'a [String],
     pub name: Option<String>,
     pub description: Option<String>,
     pub options: characterize::Options,
@@ -40,7 +43,7 @@ pub struct Fitted {
 pub fn fit_and_write(job: &FitJob) -> Result<Fitted> {
     let MeasurementFit { condition, fit, patches } =
         characterize::fit_measurements(job.measurements, job.base, job.name.clone(), job.description.clone(), &job.options)?;
-    let text = to_toml(&condition, &header(&fit, job.base))?;
+    let text = to_toml(&condition, &header(&fit, job.base, job.given))?;
     // The file must load back exactly as written: check before writing.
     parse_condition(&text, job.out)?;
     match job.plot {
@@ -74,7 +77,7 @@ pub fn fit_and_write(job: &FitJob) -> Result<Fitted> {
 }
 
 /// The condition file's header: what it was fitted to, how well, and where its job defaults come from.
-fn header(fit: &Characterization, base: &PrintingCondition) -> Vec<String> {
+fn header(fit: &Characterization, base: &PrintingCondition, given: &[String]) -> Vec<String> {
     vec![
         format!(
             "Printing condition fitted by platesmith to {} measured patches",
@@ -91,10 +94,17 @@ fn header(fit: &Characterization, base: &PrintingCondition) -> Vec<String> {
             ),
             None => "No cross-validation was run".to_string(),
         },
-        format!(
-            "Job defaults (ink limit, black generation, smallest dot, ink film) from {}",
-            base.name
-        ),
+        match given {
+            [] => format!(
+                "Job defaults (ink limit, black generation, smallest dot, ink film) from {}",
+                base.name
+            ),
+            _ => format!(
+                "Job defaults (ink limit, black generation, smallest dot, ink film) from {}, with {} given to fit",
+                base.name,
+                given.join(", ")
+            ),
+        },
     ]
 }
 
@@ -130,3 +140,4 @@ fn write_outputs(out: &Path, text: &str, plot: Option<(&Path, Vec<u8>)>, force: 
     }
     Ok(())
 }
+

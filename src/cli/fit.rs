@@ -38,6 +38,12 @@ pub struct FitArgs {
     /// Total ink limit to write, percent (default: the base condition's).
     #[arg(long, value_name = "PERCENT")]
     pub tac: Option<f64>,
+    /// Under colour addition in the deepest shadows to write, percent
+    /// (default: the base condition's): black there carries that much less
+    /// of what it could replace, which keeps shadow gradations smooth where
+    /// the press responds little to any ink but black.
+    #[arg(long, value_name = "PERCENT")]
+    pub uca: Option<f64>,
     /// Folds of the cross-validation that reports accuracy on patches the fit
     /// did not see (0: none; the smoothness of the correction is then fixed).
     #[arg(long, default_value_t = characterize::DEFAULT_FOLDS, value_name = "N")]
@@ -78,8 +84,14 @@ pub fn run(args: FitArgs) -> Result<i32> {
             builtin::names().join(", ")
         ))
     })?;
+    let mut given = Vec::new();
     if let Some(t) = args.tac {
         base.tac = Percent(Setting::Tac.check(t, Origin::Flag("--tac"))?).coverage().0;
+        given.push(format!("ink limit {t} %"));
+    }
+    if let Some(u) = args.uca {
+        base.black.uca = Percent(Setting::Uca.check(u, Origin::Flag("--uca"))?).coverage().0;
+        given.push(format!("UCA {u} %"));
     }
     let options = characterize::Options {
         correction: !args.physical_only,
@@ -96,6 +108,7 @@ pub fn run(args: FitArgs) -> Result<i32> {
         plot: args.plot.as_deref(),
         force: args.force,
         base: &base,
+        given: &given,
         name,
         description: args.description.clone(),
         options,

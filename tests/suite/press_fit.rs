@@ -202,11 +202,36 @@ fn fit_command_writes_a_loadable_condition_and_never_overwrites_silently() {
         .arg(&out)
         .arg("--force")
         .arg("--json")
+        .args(["--tac", "300", "--uca", "5"])
         .output()
         .unwrap();
     assert!(forced.status.success());
     let json: serde_json::Value = serde_json::from_slice(&forced.stdout).unwrap();
     assert!(json["residuals"]["mean"].as_f64().unwrap() <= 0.5);
+    // The job defaults given to fit are written, and the header says so.
+    let c = load_condition(out.to_str().unwrap()).unwrap();
+    assert!(
+        (c.tac - 3.0).abs() < 1e-12 && (c.black.uca - 0.05).abs() < 1e-12,
+        "{} {:?}",
+        c.tac,
+        c.black
+    );
+    let written = std::fs::read_to_string(&out).unwrap();
+    assert!(written.contains("with ink limit 300 %, UCA 5 % given to fit"), "{written}");
+    // A UCA out of its range is refused before anything is fitted or written.
+    let other = dir.path().join("other.toml");
+    let bad = bin()
+        .arg("fit")
+        .arg(&chart_path)
+        .arg("--out")
+        .arg(&other)
+        .args(["--uca", "150"])
+        .output()
+        .unwrap();
+    assert_eq!(bad.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&bad.stderr);
+    assert!(err.contains("--uca") && err.contains("0–100"), "{err}");
+    assert!(!other.exists());
     // No temporary file is left beside the output.
     let names: Vec<_> = std::fs::read_dir(dir.path()).unwrap().map(|e| e.unwrap().file_name()).collect();
     assert_eq!(names.len(), 2, "{names:?}");

@@ -204,17 +204,12 @@ fn ramps_separate_smoothly() {
 /// press cusp lifted dark colours 2 L* above the black; with the focal
 /// point descending to the colour's lightness near the black (and the
 /// shadow taper over 15 L* instead of 20) they measure 2.75 %, 2.35 %,
-/// 2.75 % and 2.35 %. Uncoated-yellowish does not meet 3 %: 5.10 % (was
-/// 6.67 %), in the first table cell of the green ramp (codes 0 to 8: Y
-/// 60 % → 100 %, 12.75 codes of Y per input code). The source black maps
-/// onto the press black (L* 29.59), which the inversion prints at L* 29.88
-/// with C 95 M 22 Y 60 K 95 (0.42 ΔE2000 off; the neutral node at code 8
-/// also stops at Y 60 %), while the green node at code 8, mapped to
-/// L* 29.61, a* −0.02, b* +0.02 (0.5 b* from the press black), is reached
-/// exactly at C 75 M 30 Y 100 K 95: near the press black many builds
-/// print nearly alike, and the inversion picks far-apart ones for
-/// neighbouring nodes (measured).
-/// Held there so that a regression fails.
+/// 2.75 % and 2.35 %. Uncoated-yellowish measured 3.53 % with no under
+/// colour addition: its mapped yellow ramp is near neutral from its press
+/// black (L* 29.6) to L* 32 over codes 0 to 34, and with black held at its
+/// maximum (95 %) cyan alone falls from 73 % to 22 % there (measured with
+/// the direct separation); its built-in's 5 % UCA
+/// (`scripts/make-conditions.sh`) lets black share the change: 2.75 %.
 #[test]
 fn ramps_separate_smoothly_on_the_other_builtin_conditions() {
     for (name, intent, bpc, limit) in [
@@ -224,7 +219,7 @@ fn ramps_separate_smoothly_on_the_other_builtin_conditions() {
         ("newsprint", Intent::Perceptual, false, 0.03),
         ("web-offset-lwc", Intent::Perceptual, false, 0.03),
         ("supercalendered", Intent::Perceptual, false, 0.03),
-        ("uncoated-yellowish", Intent::Perceptual, false, 0.052),
+        ("uncoated-yellowish", Intent::Perceptual, false, 0.03),
     ] {
         let c = platesmith::press::builtin::by_name(name).unwrap();
         ramps_are_smooth(&table_on(c, intent, bpc), &format!("{name} {intent:?} bpc {bpc}"), limit);
