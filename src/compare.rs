@@ -8,7 +8,6 @@ use crate::cgats;
 use crate::colour::{Lab, ciede2000};
 use crate::error::Result;
 use crate::press::fit::{WorstPatch, patches_from_cgats, summarize};
-use crate::press::load_condition;
 use crate::report::comparison::{ComparisonReport, Failure, NOTE};
 use std::path::Path;
 
@@ -32,7 +31,7 @@ impl Tolerances {
 pub fn compare(measurements: &Path, condition: &str, tolerances: Tolerances) -> Result<ComparisonReport> {
     let file = cgats::read(measurements)?;
     let patches = patches_from_cgats(&file, measurements)?;
-    let loaded = load_condition(condition)?;
+    let loaded = crate::condition_fit::load_condition(condition, true)?;
     let predicted: Vec<Lab> = patches.iter().map(|p| loaded.model.lab(p.ink)).collect();
     let statistics = summarize(&patches, &predicted);
     let mut failures = Vec::new();

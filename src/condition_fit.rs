@@ -1,10 +1,12 @@
 //! A printing condition fitted to measured patches, written as a condition
 //! file: the fit (`press::characterize`), the file's header and text (checked
 //! to load back exactly as written), the optional residual plot
-//! (`report::residual_plot`), both files written together (both or neither).
+//! (`report::residual_plot`), both files written together (both or neither);
+//! and a measurement file loaded as a condition, its fit kept in the cache
+//! folder ([`load_condition`]).
 
 use crate::colour::Lab;
-use crate::error::Result;
+use crate::error::{Error, Result};
 use crate::press::characterize::{self, Characterization, MeasurementFit};
 use crate::press::condition_file::{parse_condition, to_toml};
 use crate::press::{PressModel, PrintingCondition};
@@ -141,3 +143,29 @@ fn write_outputs(out: &Path, text: &str, plot: Option<(&Path, Vec<u8>)>, force: 
     Ok(())
 }
 
+/// A printing condition as [`crate::press::load_condition`] gives it, with
+/// a measurement file's fit kept in the cache folder when `use_cache`
+/// (keyed by the file's bytes, its path as given, and what it is fitted
+/// with); a note about the folder goes to standard error.
+pub fn load_condition(spec: &str, use_cache: bool) -> Result<PrintingCondition> {
+    use crate::press::condition_file::{fit_on_load_inputs, fitted_on_load, is_measurement_file};
+    if !is_measurement_file(spec) {
+        return crate::press::load_condition(spec);
+    }
+    let path = Path::new(spec);
+    let bytes = std::fs::read(path).map_err(|e| Error::input(path, format!("cannot read: {e}")))?;
+    let (defaults, options) = fit_on_load_inputs()?;
+    let defaults_text = to_toml(&defaults, &[])?;
+    let options_text = format!("{options:?}");
+    let key_parts: [(&str, &[u8]); 4] = [
+        ("measurements", &bytes),
+        ("path as given", spec.as_bytes()),
+        ("defaults", defaults_text.as_bytes()),
+        ("options", options_text.as_bytes()),
+    ];
+    let (text, notes) = crate::cache::fitted_condition(use_cache, &key_parts, || fitted_on_load(path))?;
+    for note in notes {
+        eprintln!("platesmith: {spec}: {note}");
+    }
+    parse_condition(&text, path)
+}

@@ -44,6 +44,9 @@ pub struct ModelInput {
     pub keep_pure_black: bool,
     pub table_grid: Option<usize>,
     pub source_space: Option<RgbSpace>,
+    /// Fit a measurement file given as the condition anew, neither reading
+    /// nor writing the cache folder.
+    pub no_cache: bool,
 }
 
 /// A validated model configuration.
@@ -138,10 +141,11 @@ impl ModelInput {
             .clone()
             .or_else(|| t.condition.clone())
             .unwrap_or_else(|| crate::press::builtin::DEFAULT.to_string());
-        let condition = crate::press::load_condition(&condition_spec).map_err(|e| match (&self.condition, &self.ticket) {
-            (None, Some(_)) if t.condition.is_some() => ticket.error_at("model", "condition", format!("= \"{condition_spec}\": {e}")),
-            _ => e,
-        })?;
+        let condition =
+            crate::condition_fit::load_condition(&condition_spec, !self.no_cache).map_err(|e| match (&self.condition, &self.ticket) {
+                (None, Some(_)) if t.condition.is_some() => ticket.error_at("model", "condition", format!("= \"{condition_spec}\": {e}")),
+                _ => e,
+            })?;
         let mut settings = SeparationSettings::for_condition(&condition);
         // The ticket first (its values were range-checked when it was read)…
         if let Some(i) = &t.intent {
@@ -395,7 +399,7 @@ impl JobSetup {
             cache.boundary(&m.condition, &m.settings, || sep.printable_boundary())
         })?;
         let source_condition = match self.source_condition.as_deref() {
-            Some(spec) => crate::press::load_condition(spec)?,
+            Some(spec) => crate::condition_fit::load_condition(spec, self.use_cache)?,
             None => m.condition.clone(),
         };
         let options = JobOptions {
@@ -454,6 +458,7 @@ impl JobSetup {
 pub fn ticket_workshop(ticket: Option<&Path>, use_cache: bool) -> Result<(Workshop, Ticket)> {
     let model = ModelInput {
         ticket: ticket.map(Path::to_path_buf),
+        no_cache: !use_cache,
         ..ModelInput::default()
     }
     .resolve()?;

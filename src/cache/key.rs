@@ -28,6 +28,9 @@ pub enum Kind {
     /// The boundary of the printable gamut of a separator
     /// ([`crate::separation::GamutBoundary`]).
     Boundary = 5,
+    /// A printing condition fitted on load from a measurement file, as the
+    /// condition file `platesmith fit` writes.
+    FittedCondition = 6,
 }
 
 impl Kind {
@@ -38,6 +41,7 @@ impl Kind {
             Kind::Reseparation => "cmyk-table",
             Kind::TableBase => "table-base",
             Kind::Boundary => "press-gamut",
+            Kind::FittedCondition => "fitted-condition",
         }
     }
 

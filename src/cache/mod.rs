@@ -43,6 +43,11 @@
 //! it from the folder too ([`TableCache::boundary`]), keyed as the
 //! separator's tables are.
 //!
+//! **Measurement files as conditions.** `--condition press.ti3` fits the
+//! press model on load (a second or two); the folder keeps the condition
+//! file that fit gives ([`fitted_condition`]), keyed by the measurement
+//! file's bytes and name and by what it is fitted with.
+//!
 //! A cache folder that cannot be created, read or written never fails a
 //! job: the job notes it and builds without the cache. A damaged entry is
 //! rebuilt and replaced, with a note.
@@ -439,6 +444,35 @@ fn separator_key_bytes(c: &PrintingCondition, s: &SeparationSettings) -> Vec<u8>
 }
 
 /// Whether a job uses the cache folder.
+/// The condition file (TOML text) fitted to a measurement file, from the
+/// cache folder when `use_folder` and it holds one, else `fit` (then
+/// saved). `key_parts` is everything the fit depends on besides the program
+/// (the file's bytes and name, the defaults and options). A damaged entry
+/// is fitted anew; notes (a damaged entry, a folder that cannot be
+/// written) are returned beside the text.
+pub fn fitted_condition(
+    use_folder: bool,
+    key_parts: &[(&str, &[u8])],
+    fit: impl FnOnce() -> Result<String>,
+) -> Result<(String, Vec<String>)> {
+    let cache = open(use_folder);
+    let mut k = KeyBytes::new(Kind::FittedCondition);
+    for (name, value) in key_parts {
+        k.bytes(name, value);
+    }
+    let key = k.finish();
+    let mut notes = Vec::new();
+    if let Some(text) = cache
+        .load(&key, "fitted condition", &mut notes)
+        .and_then(|bytes| String::from_utf8(bytes).ok())
+    {
+        return Ok((text, notes));
+    }
+    let text = fit()?;
+    cache.save(&key, text.as_bytes(), &mut notes);
+    Ok((text, notes))
+}
+
 pub fn open(use_folder: bool) -> TableCache {
     if use_folder {
         TableCache::from_environment()

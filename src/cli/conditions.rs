@@ -1,9 +1,9 @@
 //! `platesmith conditions [list | show NAME]`.
 
 use crate::error::Result;
+use crate::press::builtin;
 use crate::press::figures::ConditionReport;
 use crate::press::gamut::GamutOptions;
-use crate::press::{builtin, load_condition};
 use crate::report::condition::{ListText, ShowText};
 use crate::report::export::{Exporter, PRINTED_JSON, print};
 use clap::{Args, Subcommand};
@@ -51,7 +51,7 @@ fn list(json: bool) -> Result<i32> {
 }
 
 fn show(name: &str, json: bool) -> Result<i32> {
-    let condition = load_condition(name)?;
+    let condition = crate::condition_fit::load_condition(name, true)?;
     let report = ConditionReport::new(&condition, GamutOptions::default());
     let exporter: &dyn Exporter<ConditionReport> = if json { &PRINTED_JSON } else { &ShowText };
     print(&report, exporter)?;

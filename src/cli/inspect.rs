@@ -140,7 +140,7 @@ pub fn options(args: &InspectArgs, ticket_rules: &[String]) -> Result<InspectOpt
 }
 
 pub fn run(args: InspectArgs) -> Result<i32> {
-    let setup = args.model.resolve()?;
+    let setup = args.model.resolve_with(&args.cache)?;
     let t = &setup.ticket;
     let opts = options(&args, &t.checks.fail_if)?;
     let input = JobInput {

@@ -137,6 +137,7 @@ impl ModelArgs {
             keep_pure_black: self.keep_pure_black,
             table_grid: self.table_grid,
             source_space: self.source_space.map(RgbSpace::from),
+            no_cache: false,
         }
     }
 
@@ -144,13 +145,24 @@ impl ModelArgs {
     pub fn resolve(&self) -> Result<ModelSetup> {
         self.input().resolve()
     }
+
+    /// [`ModelArgs::resolve`] for the commands that take `--no-cache`, which
+    /// also keeps a measurement file's fit out of the cache folder.
+    pub fn resolve_with(&self, cache: &CacheArgs) -> Result<ModelSetup> {
+        ModelInput {
+            no_cache: cache.no_cache,
+            ..self.input()
+        }
+        .resolve()
+    }
 }
 
 /// The cache of separation tables and embedded profiles: shared by the commands that separate.
 #[derive(Debug, Clone, Default, Args)]
 pub struct CacheArgs {
-    /// Build the separation table and the embedded profile anew, neither
-    /// reading nor writing the cache folder ($PLATESMITH_CACHE_DIR, else
+    /// Build the separation table and the embedded profile (and fit a
+    /// measurement file given as the condition) anew, neither reading nor
+    /// writing the cache folder ($PLATESMITH_CACHE_DIR, else
     /// $XDG_CACHE_HOME/platesmith, else ~/.cache/platesmith). The output is
     /// the same either way; the cache only saves time.
     #[arg(long)]

@@ -44,7 +44,7 @@ pub struct ProofArgs {
 }
 
 pub fn run(args: ProofArgs) -> Result<i32> {
-    let setup = args.model.resolve()?;
+    let setup = args.model.resolve_with(&args.cache)?;
     let mut job = JobInput {
         overwrite: args.force,
         read: args.input_args.read(),

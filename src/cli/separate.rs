@@ -121,7 +121,7 @@ pub struct SeparateArgs {
 /// The job settings of a `separate` command line: the ticket, then the flags,
 /// over the condition's defaults.
 fn resolve(args: &SeparateArgs) -> Result<JobSetup> {
-    let model = args.model.resolve()?;
+    let model = args.model.resolve_with(&args.cache)?;
     let input = JobInput {
         out_dir: args.out_dir.clone(),
         bits: bits_flag(&args.bits)?,

@@ -430,22 +430,22 @@ pub fn read_condition_file(path: &Path) -> Result<PrintingCondition> {
 /// Extensions of CGATS measurement files accepted as conditions.
 pub const MEASUREMENT_EXTENSIONS: [&str; 4] = [".ti3", ".cgats", ".it8", ".txt"];
 
+/// Whether `spec` names a CGATS measurement file ([`MEASUREMENT_EXTENSIONS`]).
+pub fn is_measurement_file(spec: &str) -> bool {
+    let lower = spec.to_ascii_lowercase();
+    MEASUREMENT_EXTENSIONS.iter().any(|e| lower.ends_with(e))
+}
+
 /// A printing condition from a built-in name (`coated-offset`), a `.toml`
 /// file, a CMYK ICC output profile (`.icc`, `.icm`) read through the ICC
 /// profile model, or a CGATS measurement file (`.ti3`, `.cgats`, `.it8`,
-/// `.txt`), fitted on load (physical model and correction, no
-/// cross-validation; the job defaults of the default built-in condition).
+/// `.txt`), fitted on load ([`fitted_on_load`]). The jobs load conditions
+/// through `condition_fit::load_condition`, which keeps such a fit in the
+/// cache folder.
 pub fn load_condition(spec: &str) -> Result<PrintingCondition> {
     let lower = spec.to_ascii_lowercase();
-    if MEASUREMENT_EXTENSIONS.iter().any(|e| lower.ends_with(e)) {
-        let path = Path::new(spec);
-        let defaults = builtin::by_name(builtin::DEFAULT).ok_or_else(|| Error::Internal("no default condition".into()))?;
-        let options = super::characterize::Options {
-            folds: 0,
-            ..Default::default()
-        };
-        let fitted = super::characterize::fit_measurements(path, &defaults, None, None, &options)?;
-        return Ok(fitted.condition);
+    if is_measurement_file(spec) {
+        return parse_condition(&fitted_on_load(Path::new(spec))?, Path::new(spec));
     }
     if lower.ends_with(".toml") {
         return read_condition_file(Path::new(spec));
@@ -507,6 +507,34 @@ pub fn write_file_atomically(path: &Path, text: &str, overwrite: bool) -> Result
             Error::output(path, e.to_string())
         }
     })
+}
+
+/// A measurement file as a condition: the condition file (TOML text) of
+/// the press model fitted to it (physical model and correction, no
+/// cross-validation; the job defaults of the default built-in condition),
+/// as `platesmith fit` would write it. The condition is always read back
+/// from this text, so a fit kept in the cache folder and a fresh one give
+/// the same condition to the bit.
+pub fn fitted_on_load(path: &Path) -> Result<String> {
+    let (defaults, options) = fit_on_load_inputs()?;
+    let fitted = super::characterize::fit_measurements(path, &defaults, None, None, &options)?;
+    let header = format!(
+        "Printing condition fitted on load by platesmith to the {} patches of {}",
+        fitted.patches.len(),
+        path.display()
+    );
+    to_toml(&fitted.condition, &[header])
+}
+
+/// What [`fitted_on_load`] fits with besides the file: the default
+/// built-in condition (starting point and job defaults) and the options.
+pub fn fit_on_load_inputs() -> Result<(PrintingCondition, super::characterize::Options)> {
+    let defaults = builtin::by_name(builtin::DEFAULT).ok_or_else(|| Error::Internal("no default condition".into()))?;
+    let options = super::characterize::Options {
+        folds: 0,
+        ..Default::default()
+    };
+    Ok((defaults, options))
 }
 
 /// A number for a TOML file: rounded to `decimals`, always with a decimal point.

@@ -347,3 +347,50 @@ fn two_pictures_share_the_picture_independent_base() {
         "two different pictures"
     );
 }
+
+/// A measurement file given as the condition is fitted on load once: the
+/// fit is kept in the cache folder, a hit separates to the same files as a
+/// miss and as `--no-cache` (which writes no entry), and a damaged entry is
+/// fitted anew with a note naming the file. The data set is FOGRA29L
+/// (`testdata/characterization/`, public characterization data).
+#[test]
+fn a_measurement_file_as_the_condition_is_fitted_once() {
+    let (dir, input, cache) = workspace();
+    let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("testdata/characterization/FOGRA29L.ti3");
+    let condition = ["--condition", data.to_str().unwrap()];
+    let unused = dir.path().join("unused");
+    let plain = separate(
+        &unused,
+        &input,
+        &dir.path().join("plain"),
+        &[&condition[..], &["--no-cache"]].concat(),
+    );
+    assert!(!unused.exists(), "--no-cache wrote into the cache folder");
+    let cold = separate(&cache, &input, &dir.path().join("cold"), &condition);
+    let fitted = entries(&cache, "fitted-condition-");
+    assert_eq!(fitted.len(), 1, "one fitted condition kept");
+    let text = String::from_utf8(std::fs::read(&fitted[0]).unwrap()[96..].to_vec()).unwrap();
+    assert!(text.contains("fitted on load") && text.contains("[correction]"), "{text}");
+    let inode = |p: &Path| std::os::unix::fs::MetadataExt::ino(&std::fs::metadata(p).unwrap());
+    let written = inode(&fitted[0]);
+    let warm = separate(&cache, &input, &dir.path().join("warm"), &condition);
+    // A hit reads the entry and leaves it (a fit would write it anew, by rename).
+    assert_eq!(inode(&fitted[0]), written, "the warm run fitted again");
+    for run in [&cold, &warm] {
+        assert_eq!(run.files, plain.files, "the fit kept in the folder separates as a fresh one");
+    }
+    // Damage the entry's payload: the next run fits anew, says so, and
+    // separates the same.
+    let mut bytes = std::fs::read(&fitted[0]).unwrap();
+    let last = bytes.len() - 2;
+    bytes[last] ^= 0x55;
+    std::fs::write(&fitted[0], bytes).unwrap();
+    let out = separate_cmd(&cache, &input, &dir.path().join("again"), &condition)
+        .assert()
+        .success();
+    let stderr = String::from_utf8_lossy(&out.get_output().stderr).into_owned();
+    assert!(stderr.contains("FOGRA29L.ti3") && stderr.contains("damaged"), "{stderr}");
+    let again = separate(&cache, &input, &dir.path().join("again2"), &condition);
+    assert_eq!(again.files, plain.files);
+    assert_eq!(entries(&cache, "fitted-condition-").len(), 1);
+}
