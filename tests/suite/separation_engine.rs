@@ -162,6 +162,71 @@ fn limits_hold_for_every_node_and_pixel() {
     }
 }
 
+/// The round trip and the ink limit on every built-in condition, each with
+/// its own job defaults (ink limit, black generation): builds printed by
+/// random in-limit builds are found again (relative colorimetric; mean
+/// ΔE2000 ≤ 0.3, p99 ≤ 1.0 as on coated offset above), and every node of
+/// a default perceptual table from sRGB and 25 000 random pixels through
+/// it stay within the ink limit and maximum black, after 8-bit rounding
+/// too. CIEDE2000: CIE 142-2001.
+#[test]
+fn round_trip_and_limits_hold_on_every_builtin_condition() {
+    let conv = RgbSpace::Srgb.converter();
+    let gamut = RgbGamut(conv);
+    for name in platesmith::press::builtin::NAMES {
+        let c = platesmith::press::builtin::by_name(name).unwrap();
+        let mut s = SeparationSettings::for_condition(&c);
+        s.intent = Intent::Relative;
+        let sep = Separator::new(c.clone(), s.clone()).unwrap();
+        let (tac, kmax) = (s.tac, s.black.black_max);
+        let mut rng = Rng(17);
+        let mut errors = Vec::new();
+        while errors.len() < 600 {
+            let mut x = Cmyk::new(rng.next_f64(), rng.next_f64(), rng.next_f64(), rng.next_f64() * kmax);
+            if x.total() > tac {
+                let f = tac / x.total();
+                x = Cmyk::new(x.c * f, x.m * f, x.y * f, x.k * f);
+            }
+            let target = sep.printed_relative(x).lab();
+            let got = sep.invert(RelativeLab::new(target), None);
+            errors.push(ciede2000(target, sep.printed_relative(Cmyk::from_array(got.x)).lab()));
+        }
+        let mean = errors.iter().sum::<f64>() / errors.len() as f64;
+        let p99 = percentile(errors.clone(), 0.99);
+        eprintln!(
+            "{name}: round trip mean ΔE2000 {mean:.4}, p99 {p99:.4}, max {:.4}",
+            percentile(errors, 1.0)
+        );
+        assert!(mean <= 0.3 && p99 <= 1.0, "{name}: round trip mean {mean} p99 {p99}");
+
+        let mut s = SeparationSettings::for_condition(&c);
+        s.table_grid = 17;
+        let sep = Separator::new(c, s.clone()).unwrap();
+        let mapping = sep.source_mapping(&gamut);
+        let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
+        let n = s.table_grid;
+        for i in 0..n * n * n {
+            let rgb = [(i / (n * n)) as f64, ((i / n) % n) as f64, (i % n) as f64].map(|v| v / (n - 1) as f64);
+            check_limits(table.lookup(EncodedRgb(rgb)), tac, kmax, &format!("{name}: node {rgb:?}"));
+        }
+        let pixels: Vec<u8> = (0..25_000 * 3).map(|_| (rng.next_f64() * 256.0) as u8).collect();
+        let mut out = vec![0u8; 25_000 * 4];
+        table.apply_rgb8(&pixels, &mut out, 1000);
+        for px in out.chunks_exact(4) {
+            let total: u32 = px.iter().map(|&v| v as u32).sum();
+            assert!(
+                total <= (tac * 255.0 + 1e-9).floor() as u32,
+                "{name}: 8-bit total {total} over {tac}"
+            );
+            assert!(
+                px[3] as u32 <= (kmax * 255.0 + 1e-9).floor() as u32,
+                "{name}: 8-bit black {}",
+                px[3]
+            );
+        }
+    }
+}
+
 fn table_for(intent: Intent, bpc: bool) -> SeparationTable {
     table_on(coated_offset(), intent, bpc)
 }
@@ -378,7 +443,13 @@ fn table_is_independent_of_thread_count() {
 /// heavy olive build.
 #[test]
 fn table_agrees_with_direct_separation_on_every_builtin_condition() {
-    for name in ["uncoated-offset", "newsprint"] {
+    for name in [
+        "uncoated-offset",
+        "newsprint",
+        "web-offset-lwc",
+        "supercalendered",
+        "uncoated-yellowish",
+    ] {
         let c = platesmith::press::builtin::by_name(name).unwrap();
         let s = SeparationSettings::for_condition(&c);
         let sep = Separator::new(c, s).unwrap();
@@ -388,10 +459,12 @@ fn table_agrees_with_direct_separation_on_every_builtin_condition() {
         let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
         let (mean, p99, max) = table_agrees(&sep, &table, name);
         // Newsprint's 240 % limit leaves dark colours two far-apart builds
-        // (more cyan or more black) at nearly the same cost; where neighbouring
-        // nodes took the other one, interpolation lands up to 2.4 ΔE2000 off
-        // (measured). Held at that level so a regression fails.
-        let max_allowed = if name == "newsprint" { 2.5 } else { 2.0 };
+        // (more cyan or more black) at nearly the same cost; on the earlier
+        // model, where neighbouring nodes took the other one, interpolation
+        // landed up to 2.4 ΔE2000 off. On the data-based models every
+        // built-in measures max 0.93 (newsprint) to 1.48 (measured), so all
+        // are held at the requirement.
+        let max_allowed = 2.0;
         assert!(
             mean <= 0.5 && p99 <= 1.5 && max <= max_allowed,
             "{name}: mean {mean} p99 {p99} max {max}"
