@@ -512,12 +512,16 @@ pub fn write_file_atomically(path: &Path, text: &str, overwrite: bool) -> Result
 /// A measurement file as a condition: the condition file (TOML text) of
 /// the press model fitted to it (physical model and correction, no
 /// cross-validation; the job defaults of the default built-in condition),
+/// named by the file's name,
 /// as `platesmith fit` would write it. The condition is always read back
 /// from this text, so a fit kept in the cache folder and a fresh one give
 /// the same condition to the bit.
 pub fn fitted_on_load(path: &Path) -> Result<String> {
     let (defaults, options) = fit_on_load_inputs()?;
-    let fitted = super::characterize::fit_measurements(path, &defaults, None, None, &options)?;
+    // Named by the file itself (`press.ti3`), so that every summary and
+    // report that names the condition names the measurement file.
+    let name = path.file_name().map(|n| n.to_string_lossy().into_owned());
+    let fitted = super::characterize::fit_measurements(path, &defaults, name, None, &options)?;
     let header = format!(
         "Printing condition fitted on load by platesmith to the {} patches of {}",
         fitted.patches.len(),

@@ -378,6 +378,8 @@ fn a_measurement_file_as_the_condition_is_fitted_once() {
     assert_eq!(inode(&fitted[0]), written, "the warm run fitted again");
     for run in [&cold, &warm] {
         assert_eq!(run.files, plain.files, "the fit kept in the folder separates as a fresh one");
+        // The summary names the measurement file as the condition.
+        assert_eq!(run.summary["settings"]["condition"], "FOGRA29L.ti3");
     }
     // Damage the entry's payload: the next run fits anew, says so, and
     // separates the same.
