@@ -96,17 +96,14 @@ fn header(fit: &Characterization, base: &PrintingCondition, given: &[String]) ->
             ),
             None => "No cross-validation was run".to_string(),
         },
-        match given {
-            [] => format!(
-                "Job defaults (ink limit, black generation, smallest dot, ink film) from {}",
-                base.name
-            ),
-            _ => format!(
-                "Job defaults (ink limit, black generation, smallest dot, ink film) from {}, with {} given to fit",
-                base.name,
-                given.join(", ")
-            ),
-        },
+        format!(
+            "Job defaults (ink limit, black generation, smallest dot, ink film) from {}{}",
+            base.name,
+            match given {
+                [] => String::new(),
+                _ => format!(", with {} given to fit", given.join(", ")),
+            }
+        ),
     ]
 }
 

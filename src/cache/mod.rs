@@ -443,7 +443,6 @@ fn separator_key_bytes(c: &PrintingCondition, s: &SeparationSettings) -> Vec<u8>
     k.as_bytes().to_vec()
 }
 
-/// Whether a job uses the cache folder.
 /// The condition file (TOML text) fitted to a measurement file, from the
 /// cache folder when `use_folder` and it holds one, else `fit` (then
 /// saved). `key_parts` is everything the fit depends on besides the program
@@ -473,6 +472,7 @@ pub fn fitted_condition(
     Ok((text, notes))
 }
 
+/// Whether a job uses the cache folder.
 pub fn open(use_folder: bool) -> TableCache {
     if use_folder {
         TableCache::from_environment()
