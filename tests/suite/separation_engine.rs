@@ -45,11 +45,20 @@ fn percentile(mut v: Vec<f64>, p: f64) -> f64 {
 /// the inversion must find builds that print them again.
 #[test]
 fn in_gamut_targets_are_reproduced() {
-    let sep = relative();
+    let (mean, p99, max) = round_trip(relative(), 1, 2000);
+    eprintln!("in-gamut inversion: mean ΔE2000 {mean:.4}, p99 {p99:.4}, max {max:.4}");
+    assert!(mean <= 0.3, "mean {mean}");
+    assert!(p99 <= 1.0, "p99 {p99}");
+}
+
+/// ΔE2000 (mean, p99, max) between the colours `count` random in-limit
+/// builds print (seeded by `seed`, under the separator's ink limit and
+/// maximum black) and what the builds the inversion finds for them print.
+fn round_trip(sep: &Separator, seed: u64, count: usize) -> (f64, f64, f64) {
     let (tac, kmax) = (sep.settings().tac, sep.settings().black.black_max);
-    let mut rng = Rng(1);
+    let mut rng = Rng(seed);
     let mut errors = Vec::new();
-    while errors.len() < 2000 {
+    while errors.len() < count {
         let mut x = Cmyk::new(rng.next_f64(), rng.next_f64(), rng.next_f64(), rng.next_f64() * kmax);
         if x.total() > tac {
             let s = tac / x.total();
@@ -60,13 +69,7 @@ fn in_gamut_targets_are_reproduced() {
         errors.push(ciede2000(target, sep.printed_relative(Cmyk::from_array(s.x)).lab()));
     }
     let mean = errors.iter().sum::<f64>() / errors.len() as f64;
-    let p99 = percentile(errors.clone(), 0.99);
-    eprintln!(
-        "in-gamut inversion: mean ΔE2000 {mean:.4}, p99 {p99:.4}, max {:.4}",
-        percentile(errors, 1.0)
-    );
-    assert!(mean <= 0.3, "mean {mean}");
-    assert!(p99 <= 1.0, "p99 {p99}");
+    (mean, percentile(errors.clone(), 0.99), percentile(errors, 1.0))
 }
 
 /// The table against the direct solve, 10 000 random sRGB colours, for the
@@ -136,29 +139,24 @@ fn limits_hold_for_every_node_and_pixel() {
         let sep = Separator::new(c, s.clone()).unwrap();
         let mapping = sep.source_mapping(&gamut);
         let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
-        let n = s.table_grid;
-        for i in 0..n * n * n {
-            let rgb = [(i / (n * n)) as f64, ((i / n) % n) as f64, (i % n) as f64].map(|v| v / (n - 1) as f64);
-            check_limits(
-                table.lookup(EncodedRgb(rgb)),
-                s.tac,
-                s.black.black_max,
-                &format!("node {rgb:?} with {s:?}"),
-            );
-        }
-        let pixels: Vec<u8> = (0..25_000 * 3).map(|_| (rng.next_f64() * 256.0) as u8).collect();
-        let mut out = vec![0u8; 25_000 * 4];
-        table.apply_rgb8(&pixels, &mut out, 1000);
-        for px in out.chunks_exact(4) {
-            let total: u32 = px.iter().map(|&v| v as u32).sum();
-            // No code over the limits after 8-bit rounding either.
-            assert!(total <= (s.tac * 255.0 + 1e-9).floor() as u32, "8-bit total {total} over {}", s.tac);
-            assert!(
-                px[3] as u32 <= (s.black.black_max * 255.0 + 1e-9).floor() as u32,
-                "8-bit black {}",
-                px[3]
-            );
-        }
+        table_holds_limits(&table, s.table_grid, s.tac, s.black.black_max, &mut rng, &format!("{s:?}"));
+    }
+}
+
+/// Every node of the n³ `table` and 25 000 random pixels through it (drawn
+/// from `rng`) respect the ink limit `tac` and maximum black `kmax`, the
+/// pixels after 8-bit rounding too; `what` names the table in a failure.
+fn table_holds_limits(table: &SeparationTable, n: usize, tac: f64, kmax: f64, rng: &mut Rng, what: &str) {
+    for i in 0..n * n * n {
+        let rgb = [(i / (n * n)) as f64, ((i / n) % n) as f64, (i % n) as f64].map(|v| v / (n - 1) as f64);
+        check_limits(table.lookup(EncodedRgb(rgb)), tac, kmax, &format!("{what}: node {rgb:?}"));
+    }
+    let pixels: Vec<u8> = (0..25_000 * 3).map(|_| (rng.next_f64() * 256.0) as u8).collect();
+    let mut out = vec![0u8; 25_000 * 4];
+    table.apply_rgb8(&pixels, &mut out, 1000);
+    for px in out.chunks_exact(4) {
+        // No code over the limits after 8-bit rounding either.
+        crate::separation_reseparation::check_8bit(px, tac, kmax, what);
     }
 }
 
@@ -177,26 +175,8 @@ fn round_trip_and_limits_hold_on_every_builtin_condition() {
         let c = platesmith::press::builtin::by_name(name).unwrap();
         let mut s = SeparationSettings::for_condition(&c);
         s.intent = Intent::Relative;
-        let sep = Separator::new(c.clone(), s.clone()).unwrap();
-        let (tac, kmax) = (s.tac, s.black.black_max);
-        let mut rng = Rng(17);
-        let mut errors = Vec::new();
-        while errors.len() < 600 {
-            let mut x = Cmyk::new(rng.next_f64(), rng.next_f64(), rng.next_f64(), rng.next_f64() * kmax);
-            if x.total() > tac {
-                let f = tac / x.total();
-                x = Cmyk::new(x.c * f, x.m * f, x.y * f, x.k * f);
-            }
-            let target = sep.printed_relative(x).lab();
-            let got = sep.invert(RelativeLab::new(target), None);
-            errors.push(ciede2000(target, sep.printed_relative(Cmyk::from_array(got.x)).lab()));
-        }
-        let mean = errors.iter().sum::<f64>() / errors.len() as f64;
-        let p99 = percentile(errors.clone(), 0.99);
-        eprintln!(
-            "{name}: round trip mean ΔE2000 {mean:.4}, p99 {p99:.4}, max {:.4}",
-            percentile(errors, 1.0)
-        );
+        let (mean, p99, max) = round_trip(&Separator::new(c.clone(), s).unwrap(), 17, 600);
+        eprintln!("{name}: round trip mean ΔE2000 {mean:.4}, p99 {p99:.4}, max {max:.4}");
         assert!(mean <= 0.3 && p99 <= 1.0, "{name}: round trip mean {mean} p99 {p99}");
 
         let mut s = SeparationSettings::for_condition(&c);
@@ -204,26 +184,7 @@ fn round_trip_and_limits_hold_on_every_builtin_condition() {
         let sep = Separator::new(c, s.clone()).unwrap();
         let mapping = sep.source_mapping(&gamut);
         let table = SeparationTable::build(&sep, &mapping, &|rgb| IntentLab::new(conv.to_lab(rgb)));
-        let n = s.table_grid;
-        for i in 0..n * n * n {
-            let rgb = [(i / (n * n)) as f64, ((i / n) % n) as f64, (i % n) as f64].map(|v| v / (n - 1) as f64);
-            check_limits(table.lookup(EncodedRgb(rgb)), tac, kmax, &format!("{name}: node {rgb:?}"));
-        }
-        let pixels: Vec<u8> = (0..25_000 * 3).map(|_| (rng.next_f64() * 256.0) as u8).collect();
-        let mut out = vec![0u8; 25_000 * 4];
-        table.apply_rgb8(&pixels, &mut out, 1000);
-        for px in out.chunks_exact(4) {
-            let total: u32 = px.iter().map(|&v| v as u32).sum();
-            assert!(
-                total <= (tac * 255.0 + 1e-9).floor() as u32,
-                "{name}: 8-bit total {total} over {tac}"
-            );
-            assert!(
-                px[3] as u32 <= (kmax * 255.0 + 1e-9).floor() as u32,
-                "{name}: 8-bit black {}",
-                px[3]
-            );
-        }
+        table_holds_limits(&table, s.table_grid, s.tac, s.black.black_max, &mut Rng(18), name);
     }
 }
 

@@ -174,7 +174,9 @@ fn black_curve_matches_source_lightness() {
     eprintln!("black curve: largest L* difference {worst:.4}");
 }
 
-fn check_8bit(px: &[u8], tac: f64, kmax: f64, what: &str) {
+/// An 8-bit CMYK pixel within the ink limit `tac` and maximum black `kmax`
+/// (also used by `separation_engine`).
+pub(crate) fn check_8bit(px: &[u8], tac: f64, kmax: f64, what: &str) {
     let total: u32 = px.iter().map(|&v| v as u32).sum();
     // The limits hold after 8-bit rounding too: the issue allowed TAC + 1 %,
     // a hard limit allows nothing over.
